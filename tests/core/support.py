@@ -1,0 +1,73 @@
+"""Helpers shared by the core tests; runs on CPython and MicroPython alike.
+
+Nothing here may import beyond ``math`` and ``struct``: these tests run under
+the unix ``micropython`` binary too.
+"""
+import math
+import struct
+
+
+class XorShift:
+    """Small seeded PRNG (xorshift64*) so both runtimes draw the same numbers."""
+
+    def __init__(self, seed):
+        self.state = (seed * 2654435761 + 0x9E3779B97F4A7C15) & 0xFFFFFFFFFFFFFFFF
+        if self.state == 0:
+            self.state = 1
+
+    def next_u32(self):
+        x = self.state
+        x ^= (x >> 12)
+        x ^= (x << 25) & 0xFFFFFFFFFFFFFFFF
+        x ^= (x >> 27)
+        self.state = x
+        return ((x * 0x2545F4914F6CDD1D) & 0xFFFFFFFFFFFFFFFF) >> 32
+
+    def uniform(self, lo=0.0, hi=1.0):
+        """Uniform float in [lo, hi)."""
+        return lo + (hi - lo) * (self.next_u32() / 4294967296.0)
+
+    def gauss(self, sigma=1.0):
+        """Normal deviate with standard deviation ``sigma`` (Box-Muller)."""
+        u1 = self.uniform()
+        u2 = self.uniform()
+        if u1 < 1e-12:
+            u1 = 1e-12
+        return sigma * math.sqrt(-2.0 * math.log(u1)) * math.cos(2.0 * math.pi * u2)
+
+
+def to_float32(x):
+    """Round a float to the nearest IEEE-754 single-precision value."""
+    return struct.unpack("f", struct.pack("f", x))[0]
+
+
+def to_float30(x):
+    """Round to a 30-bit float (8-bit exponent, 21 explicit mantissa bits).
+
+    Emulates the "30-bit float" object representation some MicroPython ports
+    use; the exponent range is the same as float32's, so only the mantissa is
+    shortened here.
+    """
+    if x == 0.0 or x != x or x in (float("inf"), float("-inf")):
+        return x
+    m, e = math.frexp(x)
+    scale = 4194304.0  # 2**22: the leading bit plus 21 explicit bits
+    return math.ldexp(math.floor(m * scale + 0.5) / scale, e)
+
+
+def round_instance_floats(obj, rounder):
+    """Round every float attribute stored on ``obj`` with ``rounder``.
+
+    Used after each update to emulate a device whose floats are narrower than
+    the host's.
+    """
+    d = obj.__dict__
+    for name in list(d.keys()):
+        v = d[name]
+        if isinstance(v, float):
+            setattr(obj, name, rounder(v))
+
+
+def close(a, b, rel=1e-9, abs_tol=0.0):
+    """True when ``a`` and ``b`` agree to ``rel`` relative or ``abs_tol`` absolute."""
+    return abs(a - b) <= max(rel * max(abs(a), abs(b)), abs_tol)

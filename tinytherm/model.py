@@ -1,0 +1,155 @@
+"""The first-order lumped thermal model, as pure functions.
+
+The contents of a mug, kettle or bath are treated as one well-mixed mass::
+
+    dT/dt = -k * (T - R) + g * u
+
+``T`` liquid temperature (deg C), ``R`` ambient (deg C), ``k`` rate constant
+(1/s), ``u`` heater duty in [0, 1] (dimensionless), ``g`` heater gain (K/s at
+full duty). With ``u`` held constant the solution is an exponential approach to
+the equilibrium ``E = R + g*u/k`` with time constant ``1/k``.
+
+Every function takes and returns plain floats; none allocates beyond the
+floats it returns. Runs unchanged on CPython and MicroPython.
+"""
+import math
+
+
+def _exp(x):
+    """``exp(x)`` that saturates instead of raising (MicroPython raises ValueError)."""
+    try:
+        return math.exp(x)
+    except (ValueError, OverflowError):
+        return 0.0 if x < 0.0 else math.inf
+
+
+def equilibrium_c(ambient_c, rate_per_s, gain_k_per_s=0.0, duty=0.0):
+    """Temperature the liquid levels off at, in deg C: ``R + g*u/k``.
+
+    ``rate_per_s`` must be > 0; returns ``inf``/``-inf`` when it is not and the
+    heater term is nonzero (no finite equilibrium), and ``ambient_c`` when the
+    heater term is zero.
+    """
+    drive = gain_k_per_s * duty
+    if drive == 0.0:
+        return ambient_c
+    if rate_per_s <= 0.0:
+        return math.inf if drive > 0.0 else -math.inf
+    return ambient_c + drive / rate_per_s
+
+
+def time_constant_s(rate_per_s):
+    """Time constant ``1/k`` in seconds (``inf`` for ``k <= 0``)."""
+    if rate_per_s <= 0.0:
+        return math.inf
+    return 1.0 / rate_per_s
+
+
+def temperature_at(t_s, start_c, rate_per_s, ambient_c, gain_k_per_s=0.0, duty=0.0):
+    """Closed-form temperature in deg C after ``t_s`` seconds at constant duty.
+
+    ``T(t) = E + (T0 - E) * exp(-k t)`` with ``E`` the equilibrium; for
+    ``k == 0`` the heater ramps linearly, ``T0 + g*u*t``.
+    """
+    if rate_per_s == 0.0:
+        return start_c + gain_k_per_s * duty * t_s
+    eq = ambient_c + gain_k_per_s * duty / rate_per_s
+    return eq + (start_c - eq) * _exp(-rate_per_s * t_s)
+
+
+def time_to_target_s(start_c, target_c, rate_per_s, ambient_c, gain_k_per_s=0.0, duty=0.0):
+    """Seconds until the liquid reaches ``target_c`` at constant duty.
+
+    Works for cooling and heating. Returns ``0.0`` when ``start_c`` already
+    equals the target, and ``None`` when the target is never reached: it lies
+    on the far side of (or exactly at) the equilibrium, or on the wrong side of
+    the start. Call :func:`equilibrium_c` to tell the user where it levels off.
+    ``rate_per_s`` is ``k`` in 1/s; ``k == 0`` (no losses) means a linear ramp.
+    """
+    gap = target_c - start_c
+    if gap == 0.0:
+        return 0.0
+    if rate_per_s == 0.0:
+        slope = gain_k_per_s * duty
+        if slope == 0.0 or (gap > 0.0) != (slope > 0.0):
+            return None
+        return gap / slope
+    if rate_per_s < 0.0:
+        return None
+    eq = ambient_c + gain_k_per_s * duty / rate_per_s
+    num = start_c - eq
+    den = target_c - eq
+    # Reachable only when the target lies strictly between start and equilibrium.
+    if den == 0.0 or num == 0.0 or (num > 0.0) != (den > 0.0) or abs(den) >= abs(num):
+        return None
+    try:
+        return math.log(num / den) / rate_per_s
+    except (ValueError, OverflowError):
+        return None
+
+
+def ambient_from_three_c(t0_c, t1_c, t2_c):
+    """Ambient (equilibrium) in deg C from three equally spaced readings.
+
+    For an exponential approach, ``R = (T0*T2 - T1**2) / (T0 + T2 - 2*T1)``.
+    Returns ``None`` when the readings are not strictly monotone and convex
+    towards a level (denominator zero, or not an exponential approach).
+    """
+    den = t0_c + t2_c - 2.0 * t1_c
+    d1 = t1_c - t0_c
+    d2 = t2_c - t1_c
+    if den == 0.0 or d1 == 0.0 or (d1 > 0.0) != (d2 > 0.0) or abs(d2) >= abs(d1):
+        return None
+    return (t0_c * t2_c - t1_c * t1_c) / den
+
+
+def rate_from_three_per_s(t0_c, t1_c, t2_c, spacing_s):
+    """Rate constant ``k`` in 1/s from three readings ``spacing_s`` seconds apart.
+
+    ``k = ln((T1-T0)/(T2-T1)) / spacing``; ``None`` when not an exponential
+    approach (see :func:`ambient_from_three_c`).
+    """
+    d1 = t1_c - t0_c
+    d2 = t2_c - t1_c
+    if spacing_s <= 0.0 or d1 == 0.0 or (d1 > 0.0) != (d2 > 0.0) or abs(d2) >= abs(d1):
+        return None
+    return math.log(d1 / d2) / spacing_s
+
+
+def rate_from_physical_per_s(h_w_per_m2k, area_m2, mass_kg, specific_heat_j_per_kgk):
+    """Rate constant ``k = h*A / (m*c)`` in 1/s from physical parameters.
+
+    ``h`` surface heat-transfer coefficient (W/(m^2 K)), ``A`` wetted or
+    exposed area (m^2), ``m`` mass (kg), ``c`` specific heat (J/(kg K)).
+    Raises ValueError for non-positive mass or specific heat.
+    """
+    heat_capacity = mass_kg * specific_heat_j_per_kgk
+    if not heat_capacity > 0.0:
+        raise ValueError("mass_kg and specific_heat_j_per_kgk must be > 0")
+    return h_w_per_m2k * area_m2 / heat_capacity
+
+
+def heater_gain_k_per_s(power_w, mass_kg, specific_heat_j_per_kgk):
+    """Heater gain ``g = P / (m*c)`` in K/s at full duty."""
+    heat_capacity = mass_kg * specific_heat_j_per_kgk
+    if not heat_capacity > 0.0:
+        raise ValueError("mass_kg and specific_heat_j_per_kgk must be > 0")
+    return power_w / heat_capacity
+
+
+def heating_time_s(mass_kg, specific_heat_j_per_kgk, start_c, target_c, power_w,
+                   loss_w_per_k=0.0, ambient_c=20.0):
+    """Seconds to heat ``mass_kg`` from ``start_c`` to ``target_c`` with ``power_w``.
+
+    Energy balance ``m c dT/dt = P - L (T - R)``; with ``loss_w_per_k == 0``
+    this is ``m c (T1 - T0) / P``. ``loss_w_per_k`` is the loss conductance in
+    W/K, ``ambient_c`` the surroundings. Returns ``None`` when the losses at the
+    target exceed the power (never gets there).
+    """
+    heat_capacity = mass_kg * specific_heat_j_per_kgk
+    if not heat_capacity > 0.0:
+        raise ValueError("mass_kg and specific_heat_j_per_kgk must be > 0")
+    if loss_w_per_k < 0.0:
+        raise ValueError("loss_w_per_k must be >= 0")
+    return time_to_target_s(start_c, target_c, loss_w_per_k / heat_capacity, ambient_c,
+                            power_w / heat_capacity, 1.0)
