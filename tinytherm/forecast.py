@@ -1,0 +1,940 @@
+"""Temperature forecasts under a varying ambient and a heater plan.
+
+Model (the same lumped model as :mod:`tinytherm.model`, with time-varying
+inputs)::
+
+    dT/dt = -k * (T - R(t)) + g * u(t)
+
+``T`` liquid temperature (deg C), ``R(t)`` ambient (deg C), ``k`` rate
+constant (1/s), ``g`` heater gain (K/s at full duty; negative for a chiller),
+``u(t)`` duty in [0, 1].
+
+Time ``t`` is in seconds from *now* (the moment the forecast starts, with the
+liquid at ``start_c``). Schedules given as sequences are read in place, never
+copied; their times are on the caller's own clock and ``now_s`` says where
+"now" falls on it.
+
+Ambient schedules (one at a time):
+
+* constant ``R``;
+* a ramp ``R(t) = level + slope * min(t, ramp_s)`` (recent level and trend,
+  frozen after ``ramp_s`` so the extrapolation cannot run away);
+* piecewise-linear through caller-provided breakpoints (held flat before the
+  first and after the last);
+* periodic ``R(t) = mean + amplitude * sin(2*pi*t/period + phase)``.
+
+Heater plans: a constant duty; a piecewise-constant duty schedule; full power
+until a hold temperature, then held there; an on/off thermostat with
+hysteresis.
+
+How the answers are computed (details in DEVELOPERS.md): time is cut into
+pieces at every breakpoint. On each piece the duty is constant and the ambient
+is linear or sinusoidal, so the ODE has an exact closed-form solution (no step
+size, no stability limit). A crossing of a level is bracketed on each piece
+(the linear-ambient solution is convex or concave, so checking the ends and the
+single possible turning point is exact; sinusoidal pieces are cut into
+sub-steps of ``period / PERIODIC_SUBSTEPS`` after a rigorous bound has ruled out
+the stretches where no crossing can be) and then solved by Newton's method with
+a bisection fallback.
+
+Work per call is capped: at most ``MAX_PIECES`` pieces and sub-steps per call,
+and at most ``MAX_ROOT_ITERATIONS`` iterations per root solve (two solves per
+piece at most, three for the thermostat). A call that hits the cap says so
+(``reason == REASON_WORK_CAP``) instead of running on. No lists, dicts or
+tuples are created per call; the state lives in fixed instance attributes.
+"""
+import math
+
+try:
+    from micropython import const
+except ImportError:  # CPython
+    def const(x):
+        return x
+
+from tinytherm import status
+
+# --- work caps (per call) ---
+MAX_PIECES = const(600)          # pieces plus sinusoid sub-steps per call
+MAX_ROOT_ITERATIONS = const(64)  # Newton/bisection iterations per root solve
+PERIODIC_SUBSTEPS = const(16)    # sub-steps per period when a crossing may be near
+
+# --- ambient schedule kinds ---
+AMBIENT_CONSTANT = const(0)
+AMBIENT_RAMP = const(1)
+AMBIENT_PIECEWISE = const(2)
+AMBIENT_PERIODIC = const(3)
+
+# --- heater plan kinds ---
+PLAN_DUTY = const(0)         # constant duty
+PLAN_SCHEDULE = const(1)     # piecewise-constant duty schedule
+PLAN_BOOST_HOLD = const(2)   # full power until hold_c, then held at hold_c
+PLAN_THERMOSTAT = const(3)   # on/off with hysteresis
+
+# --- reason beside a status code (why there is no answer, or a caveat) ---
+REASON_NONE = const(0)            # an answer was found
+REASON_NEVER = const(1)           # proved never reached under this ambient and plan
+REASON_HORIZON = const(2)         # not reached within horizon_s (may be later)
+REASON_WORK_CAP = const(3)        # stopped at the work cap; searched_s says how far
+REASON_BAD_INPUT = const(4)       # an argument is not usable (NaN, negative k, ...)
+REASON_HELD = const(5)            # the plan holds the liquid short of the target
+REASON_TOO_SLOW = const(6)        # full power cannot get there by the deadline
+REASON_NO_DRIVE_NEEDED = const(7)  # at the deadline it is at/past target with the heater off
+REASON_LATE = const(8)            # reaches the target, but after the deadline
+REASON_BEYOND_EQUILIBRIUM = const(9)  # target at/past where full power levels off
+
+REASON_NAMES = (
+    "none",
+    "never",
+    "horizon",
+    "work_cap",
+    "bad_input",
+    "held",
+    "too_slow",
+    "no_drive_needed",
+    "late",
+    "beyond_equilibrium",
+)
+
+_TWO_PI = 2.0 * math.pi
+_INF = math.inf
+
+# Kinds of piece (internal).
+_PIECE_LINEAR = const(0)
+_PIECE_SINE = const(1)
+
+
+def _machine_epsilon():
+    eps = 1.0
+    while 1.0 + eps * 0.5 != 1.0:
+        eps *= 0.5
+    return eps
+
+
+_EPS = _machine_epsilon()  # 2.2e-16 with doubles, 1.2e-7 on float32 ports
+
+
+def reason_name(code):
+    """Lower-case name of a reason code; ``"unknown"`` for anything else."""
+    if 0 <= code < len(REASON_NAMES):
+        return REASON_NAMES[code]
+    return "unknown"
+
+
+def _exp(x):
+    """``exp(x)`` that saturates instead of raising (MicroPython raises ValueError)."""
+    try:
+        return math.exp(x)
+    except (ValueError, OverflowError):
+        return 0.0 if x < 0.0 else _INF
+
+
+def _phi1(x):
+    """``(1 - exp(-x)) / x`` without cancellation near 0 (dimensionless)."""
+    if -0.5 < x < 0.5:
+        # Taylor series sum (-x)**n / (n+1)!, n = 0..15, by Horner's rule;
+        # truncation error < 0.5**16 / 17! here.
+        r = 1.0
+        n = 15
+        while n >= 1:
+            r = 1.0 - x * r / (n + 1)
+            n -= 1
+        return r
+    return (1.0 - _exp(-x)) / x
+
+
+def _phi2(x):
+    """``(x - 1 + exp(-x)) / x**2`` without cancellation near 0 (dimensionless)."""
+    if -0.5 < x < 0.5:
+        # sum (-x)**n / (n+2)!, n = 0..15, by Horner's rule.
+        r = 1.0
+        n = 15
+        while n >= 1:
+            r = 1.0 - x * r / (n + 2)
+            n -= 1
+        return 0.5 * r
+    return (x - 1.0 + _exp(-x)) / (x * x)
+
+
+def _log_ratio(z):
+    """``-ln(1 - z) / z`` for ``z < 1`` without cancellation near 0 (dimensionless)."""
+    if -0.25 < z < 0.25:
+        # sum z**n / (n+1), n = 0..30; error < 0.25**31 / 32.
+        r = 0.0
+        n = 30
+        while n >= 0:
+            r = 1.0 / (n + 1) + z * r
+            n -= 1
+        return r
+    try:
+        return -math.log(1.0 - z) / z
+    except (ValueError, OverflowError):
+        return _INF
+
+
+def _finite(x):
+    return x == x and x != _INF and x != -_INF
+
+
+class Forecast:
+    """Forecasts of the liquid temperature under an ambient schedule and a heater plan.
+
+    ``rate_per_s`` is ``k`` (1/s, >= 0), ``gain_k_per_s`` is ``g`` (K/s at full
+    duty; negative for a chiller), ``ambient_c`` the initial constant ambient
+    (deg C). Change them with :meth:`set_model` and the ``set_ambient_*`` /
+    ``set_plan_*`` methods; ask with :meth:`temperature_at_c` and
+    :meth:`time_to_target_s`.
+
+    After :meth:`time_to_target_s`: ``status`` (a :mod:`tinytherm.status`
+    code), ``reason`` (a ``REASON_*`` code), ``eta_s`` (seconds from now or
+    None), ``searched_s`` (how far the search got, s) and ``work`` (pieces and
+    sub-steps used, <= ``MAX_PIECES``).
+    """
+
+    def __init__(self, rate_per_s=0.0, gain_k_per_s=0.0, ambient_c=20.0):
+        self._k = 0.0
+        self._g = 0.0
+        self.set_model(rate_per_s, gain_k_per_s)
+        # ambient schedule
+        self._amb_kind = AMBIENT_CONSTANT
+        self._amb_c = 0.0        # constant value / ramp level / periodic mean, deg C
+        self._amb_slope = 0.0    # ramp slope, K/s
+        self._amb_ramp_s = 0.0   # ramp length, s
+        self._amb_amp = 0.0      # periodic amplitude, K
+        self._amb_period = 1.0   # periodic period, s
+        self._amb_phase = 0.0    # periodic phase at now, rad
+        self._amb_times = None   # piecewise breakpoint times (caller's clock, s)
+        self._amb_values = None  # piecewise breakpoint values, deg C
+        self._amb_now = 0.0      # where now falls on the caller's clock, s
+        self._amb_i = 0          # cursor into the piecewise breakpoints
+        self._amb_lo = 0.0       # ambient range scratch, deg C
+        self._amb_hi = 0.0
+        self.set_ambient_constant(ambient_c)
+        # heater plan
+        self._plan = PLAN_DUTY
+        self._duty = 0.0          # constant duty
+        self._plan_times = None   # schedule times (caller's clock, s)
+        self._plan_duties = None  # schedule duties, 0..1
+        self._plan_now = 0.0
+        self._plan_i = 0
+        self._hold_c = 0.0
+        self._on_below_c = 0.0
+        self._off_above_c = 0.0
+        self._start_on = True
+        self._mode = 0            # thermostat/boost mode: 1 on, 0 off, 2 holding
+        # current piece (see _setup_piece)
+        self._pkind = _PIECE_LINEAR
+        self._pt = 0.0    # piece start time, s from now
+        self._pT = 0.0    # temperature at piece start, deg C
+        self._pq = 0.0    # heater drive g*u, K/s
+        self._pr = 0.0    # ambient at piece start (linear) or mean (sine), deg C
+        self._pb = 0.0    # ambient slope (linear), K/s
+        self._pw = 0.0    # angular frequency (sine), rad/s
+        self._pa = 0.0    # ambient angle at piece start (sine), rad
+        self._pAr = 0.0   # steady-state response amplitude (sine), K
+        self._ppsi = 0.0  # steady-state lag angle (sine), rad
+        self._work = 0
+        self._f = 0.0         # root solver scratch: function value
+        self._df = 0.0        # root solver scratch: derivative
+        self._reached_s = 0.0  # how far a capped piece search got, s into the piece
+        self._state_T = 0.0   # temperature at the end of the last run, deg C
+        # answers
+        self.status = status.GATHERING
+        self.reason = REASON_NONE
+        self.eta_s = None
+        self.searched_s = 0.0
+        self.work = 0
+
+    # ------------------------------------------------------------------ setup
+    def set_model(self, rate_per_s, gain_k_per_s=0.0):
+        """Set ``k`` (1/s, finite, >= 0) and ``g`` (K/s at full duty). Raises ValueError."""
+        if not (_finite(rate_per_s) and rate_per_s >= 0.0 and _finite(gain_k_per_s)):
+            raise ValueError("rate_per_s must be finite and >= 0, gain_k_per_s finite")
+        self._k = float(rate_per_s)
+        self._g = float(gain_k_per_s)
+
+    def set_ambient_constant(self, ambient_c):
+        """Constant ambient ``ambient_c`` (deg C)."""
+        if not _finite(ambient_c):
+            raise ValueError("ambient_c must be finite")
+        self._amb_kind = AMBIENT_CONSTANT
+        self._amb_c = float(ambient_c)
+        self._amb_times = None
+        self._amb_values = None
+
+    def set_ambient_ramp(self, level_c, slope_c_per_s, ramp_s=_INF):
+        """Ambient ``level_c + slope_c_per_s * min(t, ramp_s)`` (deg C, K/s, s).
+
+        The usual extrapolation of a measured ambient: its recent level and
+        trend, frozen after ``ramp_s`` seconds.
+        """
+        if not (_finite(level_c) and _finite(slope_c_per_s) and ramp_s >= 0.0):
+            raise ValueError("level_c, slope_c_per_s must be finite, ramp_s >= 0")
+        self._amb_kind = AMBIENT_RAMP
+        self._amb_c = float(level_c)
+        self._amb_slope = float(slope_c_per_s)
+        self._amb_ramp_s = float(ramp_s)
+        self._amb_times = None
+        self._amb_values = None
+
+    def set_ambient_piecewise(self, times_s, values_c, now_s=0.0):
+        """Piecewise-linear ambient through ``(times_s[i], values_c[i])`` (s, deg C).
+
+        ``times_s`` must be non-decreasing (equal times make a step); both are
+        read in place, not copied, so do not change them while forecasting.
+        ``now_s`` is where now falls on the same clock. Held at the first value
+        before the first time and at the last value after the last time.
+        Validation reads every breakpoint once (O(n)).
+        """
+        n = len(times_s)
+        if n < 1 or len(values_c) != n or not _finite(now_s):
+            raise ValueError("need >= 1 breakpoint, equal lengths, finite now_s")
+        i = 0
+        while i < n:
+            if not (_finite(times_s[i]) and _finite(values_c[i])):
+                raise ValueError("breakpoints must be finite")
+            if i and times_s[i] < times_s[i - 1]:
+                raise ValueError("times_s must be non-decreasing")
+            i += 1
+        self._amb_kind = AMBIENT_PIECEWISE
+        self._amb_times = times_s
+        self._amb_values = values_c
+        self._amb_now = float(now_s)
+
+    def set_ambient_periodic(self, mean_c, amplitude_c, period_s, phase_rad=0.0):
+        """Ambient ``mean_c + amplitude_c * sin(2*pi*t/period_s + phase_rad)``.
+
+        deg C, K, s (> 0), rad; ``phase_rad`` is the angle at now (t = 0).
+        """
+        if not (_finite(mean_c) and _finite(amplitude_c) and _finite(phase_rad)
+                and _finite(period_s) and period_s > 0.0):
+            raise ValueError("finite arguments and period_s > 0 required")
+        self._amb_kind = AMBIENT_PERIODIC
+        self._amb_c = float(mean_c)
+        self._amb_amp = float(amplitude_c)
+        self._amb_period = float(period_s)
+        self._amb_phase = math.fmod(float(phase_rad), _TWO_PI)
+        self._amb_times = None
+        self._amb_values = None
+
+    def set_plan_duty(self, duty):
+        """Constant heater duty in [0, 1] (0 = heater off)."""
+        if not (duty == duty and 0.0 <= duty <= 1.0):
+            raise ValueError("duty must be in [0, 1]")
+        self._plan = PLAN_DUTY
+        self._duty = float(duty)
+        self._plan_times = None
+        self._plan_duties = None
+
+    def set_plan_schedule(self, times_s, duties, now_s=0.0):
+        """Piecewise-constant duty: ``duties[i]`` from ``times_s[i]`` to ``times_s[i+1]``.
+
+        Times in seconds on the caller's clock (non-decreasing), duties in
+        [0, 1]; the duty is 0 before ``times_s[0]`` and the last duty holds
+        after the last time. Read in place, not copied. ``now_s`` is where now
+        falls on that clock.
+        """
+        n = len(times_s)
+        if n < 1 or len(duties) != n or not _finite(now_s):
+            raise ValueError("need >= 1 step, equal lengths, finite now_s")
+        i = 0
+        while i < n:
+            d = duties[i]
+            if not (_finite(times_s[i]) and d == d and 0.0 <= d <= 1.0):
+                raise ValueError("finite times and duties in [0, 1] required")
+            if i and times_s[i] < times_s[i - 1]:
+                raise ValueError("times_s must be non-decreasing")
+            i += 1
+        self._plan = PLAN_SCHEDULE
+        self._plan_times = times_s
+        self._plan_duties = duties
+        self._plan_now = float(now_s)
+
+    def set_plan_boost_hold(self, hold_c):
+        """Full power until ``hold_c`` (deg C), then held there.
+
+        Starting above ``hold_c`` the heater stays off until the liquid has
+        cooled to it. The hold phase assumes the heater can hold, i.e. that
+        ``0 <= k*(hold_c - R)/g <= 1`` at every ambient; check with
+        :meth:`hold_is_sustainable`.
+        """
+        if not _finite(hold_c):
+            raise ValueError("hold_c must be finite")
+        self._plan = PLAN_BOOST_HOLD
+        self._hold_c = float(hold_c)
+        self._plan_times = None
+        self._plan_duties = None
+
+    def set_plan_thermostat(self, on_below_c, off_above_c, start_on=True):
+        """On/off thermostat: full power until ``off_above_c``, off until ``on_below_c``.
+
+        deg C, ``on_below_c < off_above_c`` (the hysteresis band). Starting
+        inside the band the heater is on when ``start_on`` is true. Meant for a
+        heater (``g > 0``); switching is ideal (no sensor lag).
+        """
+        if not (_finite(on_below_c) and _finite(off_above_c) and on_below_c < off_above_c):
+            raise ValueError("need finite on_below_c < off_above_c")
+        self._plan = PLAN_THERMOSTAT
+        self._on_below_c = float(on_below_c)
+        self._off_above_c = float(off_above_c)
+        self._start_on = bool(start_on)
+        self._plan_times = None
+        self._plan_duties = None
+
+    # ---------------------------------------------------------------- queries
+    def ambient_at_c(self, t_s):
+        """Ambient in deg C at ``t_s`` seconds from now (O(log n) for breakpoints)."""
+        kind = self._amb_kind
+        if kind == AMBIENT_CONSTANT:
+            return self._amb_c
+        if kind == AMBIENT_RAMP:
+            return self._amb_c + self._amb_slope * min(max(t_s, 0.0), self._amb_ramp_s)
+        if kind == AMBIENT_PERIODIC:
+            return self._amb_c + self._amb_amp * math.sin(self._angle_at(t_s))
+        self._amb_seek(t_s)
+        return self._pw_value(t_s)
+
+    def _ambient_range(self):
+        """Lowest and highest ambient of the schedule into _amb_lo/_amb_hi (deg C)."""
+        lo = self._amb_c
+        hi = self._amb_c
+        kind = self._amb_kind
+        if kind == AMBIENT_RAMP and self._amb_slope != 0.0:
+            end = self._amb_c + self._amb_slope * self._amb_ramp_s
+            lo = min(lo, end)
+            hi = max(hi, end)
+        elif kind == AMBIENT_PERIODIC:
+            lo = self._amb_c - abs(self._amb_amp)
+            hi = self._amb_c + abs(self._amb_amp)
+        elif kind == AMBIENT_PIECEWISE:
+            v = self._amb_values
+            lo = v[0]
+            hi = v[0]
+            for x in v:
+                if x < lo:
+                    lo = x
+                if x > hi:
+                    hi = x
+        self._amb_lo = lo
+        self._amb_hi = hi
+
+    def hold_is_sustainable(self):
+        """True when the boost-hold plan can hold ``hold_c`` at every ambient value.
+
+        Needs ``0 <= k*(hold_c - R)/g <= 1`` over the whole ambient range
+        (piecewise: O(n) over the breakpoints).
+        """
+        self._ambient_range()
+        g = self._g
+        k = self._k
+        if g == 0.0:
+            return self._amb_lo == self._amb_hi == self._hold_c
+        d1 = k * (self._hold_c - self._amb_lo) / g
+        d2 = k * (self._hold_c - self._amb_hi) / g
+        return 0.0 <= d1 <= 1.0 and 0.0 <= d2 <= 1.0
+
+    def temperature_at_c(self, t_s, start_c):
+        """Temperature in deg C ``t_s`` seconds from now, starting at ``start_c`` deg C.
+
+        Exact under every plan (thermostat switches are located by root
+        solving). Returns NaN on bad input or when the work cap is hit before
+        ``t_s`` (``self.reason`` says which).
+        """
+        if not (_finite(t_s) and t_s >= 0.0 and _finite(start_c)):
+            self.reason = REASON_BAD_INPUT
+            return math.nan
+        self._run(start_c, 0.0, t_s, False)
+        if self.reason != REASON_NONE:
+            return math.nan
+        return self._state_T
+
+    def time_to_target_s(self, start_c, target_c, horizon_s=_INF):
+        """Seconds from now until the liquid first reaches ``target_c`` (deg C), or None.
+
+        Starts at ``start_c`` deg C; searches at most ``horizon_s`` seconds
+        ahead (and at most ``MAX_PIECES`` pieces). Sets ``status``:
+        ``ARRIVED`` (already there, 0.0), ``TRACKING`` (found), or
+        ``OUT_OF_REACH`` with ``reason`` NEVER, HELD, HORIZON, WORK_CAP or
+        BAD_INPUT. Never raises.
+        """
+        self.eta_s = None
+        if not (_finite(start_c) and _finite(target_c) and horizon_s == horizon_s
+                and horizon_s >= 0.0):
+            self.status = status.OUT_OF_REACH
+            self.reason = REASON_BAD_INPUT
+            return None
+        if start_c == target_c:
+            self.status = status.ARRIVED
+            self.reason = REASON_NONE
+            self.eta_s = 0.0
+            self.searched_s = 0.0
+            self.work = 0
+            return 0.0
+        if self._plan == PLAN_THERMOSTAT and self._g > 0.0:
+            # With a heater the thermostat keeps T within
+            # [min(start, on_below, R_min), max(start, off_above, R_max)].
+            self._ambient_range()
+            if (target_c > max(start_c, self._off_above_c, self._amb_hi)
+                    or target_c < min(start_c, self._on_below_c, self._amb_lo)):
+                self.status = status.OUT_OF_REACH
+                self.reason = REASON_NEVER
+                self.searched_s = 0.0
+                self.work = 0
+                return None
+        found = self._run(start_c, target_c, horizon_s, True)
+        if found >= 0.0:
+            self.status = status.TRACKING
+            self.eta_s = found
+            return found
+        self.status = status.OUT_OF_REACH
+        return None
+
+    # ------------------------------------------------------------- internals
+    def _angle_at(self, t_s):
+        """Ambient sine angle at t_s (rad); fmod keeps it accurate on float32."""
+        p = self._amb_period
+        return _TWO_PI * math.fmod(t_s, p) / p + self._amb_phase
+
+    def _amb_seek(self, t_s):
+        """Move the piecewise cursor so times[i] <= now+t < times[i+1] (i=-1: before)."""
+        tt = self._amb_times
+        n = len(tt)
+        x = self._amb_now + t_s
+        if x < tt[0]:
+            self._amb_i = -1
+            return
+        lo = 0
+        hi = n - 1
+        if tt[hi] <= x:
+            self._amb_i = hi
+            return
+        while hi - lo > 1:  # tt[lo] <= x < tt[hi]
+            mid = (lo + hi) >> 1
+            if tt[mid] <= x:
+                lo = mid
+            else:
+                hi = mid
+        self._amb_i = lo
+
+    def _pw_value(self, t_s):
+        """Piecewise ambient value at t_s using the current cursor (deg C)."""
+        i = self._amb_i
+        v = self._amb_values
+        if i < 0:
+            return v[0]
+        tt = self._amb_times
+        if i >= len(tt) - 1:
+            return v[len(v) - 1]
+        t0 = tt[i]
+        return v[i] + (v[i + 1] - v[i]) * ((self._amb_now + t_s - t0) / (tt[i + 1] - t0))
+
+    def _plan_seek(self, t_s):
+        """Move the duty cursor so times[i] <= now+t < times[i+1] (i=-1: before)."""
+        tt = self._plan_times
+        n = len(tt)
+        x = self._plan_now + t_s
+        if x < tt[0]:
+            self._plan_i = -1
+            return
+        lo = 0
+        hi = n - 1
+        if tt[hi] <= x:
+            self._plan_i = hi
+            return
+        while hi - lo > 1:
+            mid = (lo + hi) >> 1
+            if tt[mid] <= x:
+                lo = mid
+            else:
+                hi = mid
+        self._plan_i = lo
+
+    def _next_break(self, t):
+        """Time (s from now) of the next ambient/duty breakpoint after t (inf if none)."""
+        nb = _INF
+        kind = self._amb_kind
+        if kind == AMBIENT_RAMP:
+            if t < self._amb_ramp_s:
+                nb = self._amb_ramp_s
+        elif kind == AMBIENT_PIECEWISE:
+            tt = self._amb_times
+            i = self._amb_i
+            while i + 1 < len(tt) and tt[i + 1] - self._amb_now <= t:
+                i += 1  # skips zero-length segments (steps)
+            self._amb_i = i
+            if i + 1 < len(tt):
+                nb = tt[i + 1] - self._amb_now
+        if self._plan == PLAN_SCHEDULE:
+            tt = self._plan_times
+            i = self._plan_i
+            while i + 1 < len(tt) and tt[i + 1] - self._plan_now <= t:
+                i += 1
+            self._plan_i = i
+            if i + 1 < len(tt):
+                x = tt[i + 1] - self._plan_now
+                if x < nb:
+                    nb = x
+        return nb
+
+    def _duty_now(self):
+        """Duty of the current piece, 0..1, from the plan state."""
+        plan = self._plan
+        if plan == PLAN_DUTY:
+            return self._duty
+        if plan == PLAN_SCHEDULE:
+            i = self._plan_i
+            if i < 0:
+                return 0.0
+            return self._plan_duties[i]
+        return 1.0 if self._mode == 1 else 0.0
+
+    def _setup_piece(self, t, temp_c, duty):
+        """Store the closed-form coefficients of the piece starting at t (s)."""
+        k = self._k
+        self._pt = t
+        self._pT = temp_c
+        self._pq = self._g * duty
+        kind = self._amb_kind
+        if k == 0.0 or kind == AMBIENT_CONSTANT:
+            self._pkind = _PIECE_LINEAR
+            self._pr = self._amb_c
+            self._pb = 0.0
+        elif kind == AMBIENT_RAMP:
+            self._pkind = _PIECE_LINEAR
+            if t < self._amb_ramp_s:
+                self._pr = self._amb_c + self._amb_slope * t
+                self._pb = self._amb_slope
+            else:
+                self._pr = self._amb_c + self._amb_slope * self._amb_ramp_s
+                self._pb = 0.0
+        elif kind == AMBIENT_PIECEWISE:
+            self._pkind = _PIECE_LINEAR
+            self._pr = self._pw_value(t)
+            i = self._amb_i
+            tt = self._amb_times
+            if 0 <= i < len(tt) - 1:
+                v = self._amb_values
+                self._pb = (v[i + 1] - v[i]) / (tt[i + 1] - tt[i])
+            else:
+                self._pb = 0.0
+        else:
+            self._pkind = _PIECE_SINE
+            w = _TWO_PI / self._amb_period
+            self._pw = w
+            self._pr = self._amb_c
+            self._pa = self._angle_at(t)
+            # Periodic steady state: amplitude ratio k/sqrt(k^2+w^2), lag atan(w/k).
+            self._ppsi = math.atan2(w, k)
+            self._pAr = self._amb_amp * k / math.sqrt(k * k + w * w)
+
+    def _temp(self, s):
+        """Exact temperature (deg C) at s seconds into the current piece."""
+        k = self._k
+        x = k * s
+        p1 = _phi1(x)
+        om = x * p1  # 1 - exp(-k s)
+        T0 = self._pT
+        T = T0 + om * (self._pr - T0) + self._pq * s * p1
+        if self._pkind == _PIECE_LINEAR:
+            # ambient slope b: particular term b*s - b*(1-exp(-ks))/k, written stably
+            if self._pb != 0.0:
+                T += self._pb * k * s * s * _phi2(x)
+        elif self._pAr != 0.0:
+            th0 = self._pa - self._ppsi
+            T += self._pAr * (math.sin(th0 + self._pw * s) - math.sin(th0) * (1.0 - om))
+        return T
+
+    def _ambient_in_piece(self, s):
+        if self._pkind == _PIECE_LINEAR:
+            return self._pr + self._pb * s
+        return self._pr + self._amb_amp * math.sin(self._pa + self._pw * s)
+
+    def _ambient_slope_in_piece(self, s):
+        if self._pkind == _PIECE_LINEAR:
+            return self._pb
+        return self._amb_amp * self._pw * math.cos(self._pa + self._pw * s)
+
+    def _slope(self, s, temp_c):
+        """dT/dt (K/s) at s into the piece, from the ODE itself."""
+        return -self._k * (temp_c - self._ambient_in_piece(s)) + self._pq
+
+    def _eval(self, which, level, s):
+        """Function and derivative for the root solver at s.
+
+        which 0: f = T - level, f' = dT/dt; which 1: f = dT/dt, f' = d2T/dt2.
+        Result in self._f, self._df (no tuple).
+        """
+        T = self._temp(s)
+        d = self._slope(s, T)
+        if which == 0:
+            self._f = T - level
+            self._df = d
+        else:
+            self._f = d
+            self._df = -self._k * (d - self._ambient_slope_in_piece(s))
+
+    def _solve(self, which, level, lo, hi, flo):
+        """Root of f in [lo, hi] (s into the piece), f(lo)=flo and f(hi) of the other sign.
+
+        Safeguarded Newton: a Newton step is taken when it stays inside the
+        bracket and shrinks fast enough, a bisection step otherwise, so the
+        bracket always shrinks. At most MAX_ROOT_ITERATIONS iterations; stops
+        when the step is below a few ulps of the time.
+        """
+        base = abs(self._pt)
+        dxold = hi - lo
+        dx = dxold
+        s = 0.5 * (lo + hi)
+        self._eval(which, level, s)
+        f = self._f
+        df = self._df
+        it = 0
+        while it < MAX_ROOT_ITERATIONS:
+            it += 1
+            if f == 0.0:
+                return s
+            if (f > 0.0) == (flo > 0.0):
+                lo = s
+            else:
+                hi = s
+            tol = 4.0 * _EPS * (base + abs(s))
+            if ((s - hi) * df - f) * ((s - lo) * df - f) > 0.0 or abs(2.0 * f) > abs(dxold * df):
+                dxold = dx
+                dx = 0.5 * (hi - lo)
+                s = lo + dx
+            else:
+                dxold = dx
+                dx = f / df
+                s -= dx
+            if abs(dx) <= tol or hi - lo <= tol:
+                return s
+            self._eval(which, level, s)
+            f = self._f
+            df = self._df
+        return s
+
+    def _root_between(self, level, s0, T0, s1, T1):
+        """First crossing of level in [s0, s1] (s into the piece), or -1.0.
+
+        Checks the ends, then the one turning point the piece can have
+        (exact for linear ambient, where T is convex or concave).
+        """
+        f0 = T0 - level
+        if f0 == 0.0:
+            return s0
+        f1 = T1 - level
+        if f1 == 0.0 or (f1 > 0.0) != (f0 > 0.0):
+            return self._solve(0, level, s0, s1, f0)
+        d0 = self._slope(s0, T0)
+        d1 = self._slope(s1, T1)
+        # A crossing inside needs the curve to head towards the level first and
+        # turn back before s1: the slope changes sign in between.
+        if d0 == 0.0 or (d0 < 0.0) != (f0 > 0.0) or (d1 < 0.0) == (d0 < 0.0):
+            return -1.0
+        s_turn = self._solve(1, level, s0, s1, d0)
+        f_turn = self._temp(s_turn) - level
+        if f_turn == 0.0:
+            return s_turn
+        if (f_turn > 0.0) != (f0 > 0.0):
+            return self._solve(0, level, s0, s_turn, f0)
+        return -1.0
+
+    def _first_root(self, level, length):
+        """First crossing of level within [0, length] of the current piece.
+
+        Returns s >= 0, -1.0 when there is none, -2.0 when the work cap stopped
+        the search (then self._reached_s says how far it got).
+        """
+        T0 = self._pT
+        self._reached_s = 0.0
+        if T0 == level:
+            return 0.0
+        if self._pkind == _PIECE_LINEAR:
+            k = self._k
+            if length == _INF:
+                if self._pb == 0.0:
+                    return self._root_constant_tail(level)
+                # Ramp without end: T -> +-inf along the ramp; find a finite
+                # end beyond the turning point and the crossing.
+                span = 1.0 / k if k > 0.0 else 1.0
+                f0 = T0 - level
+                n = 0
+                while n < 200:
+                    n += 1
+                    T1 = self._temp(span)
+                    f1 = T1 - level
+                    if (f1 > 0.0) != (f0 > 0.0) or f1 == 0.0:
+                        break
+                    d1 = self._slope(span, T1)
+                    # beyond the turning point and moving away: never
+                    if d1 != 0.0 and (d1 > 0.0) == (f1 > 0.0) and (self._pb > 0.0) == (f1 > 0.0):
+                        break
+                    span *= 2.0
+                length = span
+            return self._root_between(level, 0.0, T0, length, self._temp(length))
+        return self._root_sine(level, length)
+
+    def _root_constant_tail(self, level):
+        """Crossing on an endless piece with constant ambient and duty (closed form)."""
+        k = self._k
+        T0 = self._pT
+        q = self._pq
+        if k == 0.0:
+            gap = level - T0
+            if q == 0.0 or (gap > 0.0) != (q > 0.0):
+                return -1.0
+            return gap / q
+        eq = self._pr + q / k
+        num = T0 - eq
+        den = level - eq
+        if den == 0.0 or num == 0.0 or (num > 0.0) != (den > 0.0) or abs(den) >= abs(num):
+            return -1.0
+        try:
+            return math.log(num / den) / k
+        except (ValueError, OverflowError):
+            return -1.0
+
+    def _root_sine(self, level, length):
+        """First crossing on a sinusoidal-ambient piece (see module doc)."""
+        k = self._k
+        period = self._amb_period
+        sub = period / PERIODIC_SUBSTEPS
+        skip = period
+        eq = self._pr + self._pq / k
+        amp = abs(self._pAr)
+        gap = eq - level
+        s = 0.0
+        Ts = self._pT
+        th0 = self._pa - self._ppsi
+        while s < length:
+            self._work += 1
+            if self._work > MAX_PIECES:
+                self._reached_s = s
+                return -2.0
+            # Transient part C*exp(-k(t-s)) on top of the periodic steady state.
+            c = Ts - eq - self._pAr * math.sin(th0 + self._pw * s)
+            if abs(gap) > amp + abs(c):
+                return -1.0  # the transient only shrinks: never within this piece
+            h = skip
+            if h > length - s:
+                h = length - s
+            c1 = c * _exp(-k * h)
+            lo = gap - amp + min(c, c1)
+            hi = gap + amp + max(c, c1)
+            if lo > 0.0 or hi < 0.0:
+                s += h
+                Ts = self._temp(s)
+                skip *= 2.0
+                continue
+            skip = period
+            h = sub
+            if h > length - s:
+                h = length - s
+            s1 = s + h
+            T1 = self._temp(s1)
+            r = self._root_between(level, s, Ts, s1, T1)
+            if r >= 0.0:
+                return r
+            s = s1
+            Ts = T1
+        return -1.0
+
+    def _start_plan(self, start_c):
+        """Reset cursors and thermostat/boost mode for a run starting at start_c."""
+        if self._amb_kind == AMBIENT_PIECEWISE:
+            self._amb_seek(0.0)
+        if self._plan == PLAN_SCHEDULE:
+            self._plan_seek(0.0)
+        elif self._plan == PLAN_THERMOSTAT:
+            if start_c < self._on_below_c:
+                self._mode = 1
+            elif start_c > self._off_above_c:
+                self._mode = 0
+            else:
+                self._mode = 1 if self._start_on else 0
+        elif self._plan == PLAN_BOOST_HOLD:
+            if start_c == self._hold_c:
+                self._mode = 2
+            else:
+                self._mode = 1 if start_c < self._hold_c else 0
+
+    def _switch_level(self):
+        """Temperature at which the thermostat/boost plan changes mode (deg C)."""
+        if self._plan == PLAN_THERMOSTAT:
+            return self._off_above_c if self._mode == 1 else self._on_below_c
+        return self._hold_c
+
+    def _run(self, start_c, target_c, until_s, find_target):
+        """Walk the pieces from now to until_s; first target crossing if find_target.
+
+        Returns the crossing time (s) or -1.0; sets self.reason, self.searched_s,
+        self.work and self._state_T (temperature at until_s when not searching).
+        """
+        self.reason = REASON_NONE
+        self._work = 0
+        self._start_plan(start_c)
+        t = 0.0
+        T = start_c
+        switching = self._plan == PLAN_THERMOSTAT or self._plan == PLAN_BOOST_HOLD
+        result = -1.0
+        while True:
+            if self._work >= MAX_PIECES:
+                self.reason = REASON_WORK_CAP
+                break
+            self._work += 1
+            if self._mode == 2 and self._plan == PLAN_BOOST_HOLD:
+                # Held at hold_c from here on (see set_plan_boost_hold).
+                T = self._hold_c
+                if find_target:
+                    self.reason = REASON_HELD
+                else:
+                    t = until_s
+                break
+            t_end = self._next_break(t)
+            if t_end > until_s:
+                t_end = until_s
+            self._setup_piece(t, T, self._duty_now())
+            length = t_end - t
+            limit = length
+            s_sw = -1.0
+            if switching:
+                s_sw = self._first_root(self._switch_level(), length)
+                if s_sw == -2.0:
+                    t += self._reached_s
+                    self.reason = REASON_WORK_CAP
+                    break
+                if s_sw >= 0.0:
+                    limit = s_sw
+            s_hit = -1.0
+            if find_target:
+                s_hit = self._first_root(target_c, limit)
+                if s_hit == -2.0:
+                    t += self._reached_s
+                    self.reason = REASON_WORK_CAP
+                    break
+            if s_sw >= 0.0 and s_hit < 0.0:
+                t += s_sw
+                T = self._switch_level()
+                if self._plan == PLAN_BOOST_HOLD:
+                    self._mode = 2
+                else:
+                    self._mode = 0 if self._mode == 1 else 1
+                continue
+            if s_hit >= 0.0:
+                result = t + s_hit
+                t = result
+                T = target_c
+                break
+            if t_end == _INF:
+                # Endless piece and no crossing: proved never.
+                self.reason = REASON_NEVER
+                break
+            T = self._temp(length)
+            t = t_end
+            if t >= until_s:
+                if find_target:
+                    self.reason = REASON_HORIZON
+                break
+        self.searched_s = t
+        self.work = self._work
+        self._state_T = T
+        return result
