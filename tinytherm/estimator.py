@@ -29,6 +29,9 @@ How the fit works (the reasons and the measurements are in DEVELOPERS.md):
    system, fuses the ambient prior, and propagates the parameter uncertainty to
    the time-to-target (delta method in log-time).
 
+Readings are averaged over short blocks (``block_s``) before entering the
+regression, so most readings cost only the pre-filter step.
+
 Fixed state, no per-update containers; the update path is a few dozen float
 operations. Runs unchanged on CPython and MicroPython.
 """
@@ -41,7 +44,6 @@ _INF = math.inf
 _TICKS_PERIOD = 0x40000000  # MicroPython time.ticks_ms() wraps at 2**30
 _TICKS_HALF = 0x20000000
 _TICKS_MASK = 0x3FFFFFFF
-_AGE_CAP_S = 1.0e7  # stop counting age past ~4 months: float32 could not add 1 s any more
 
 
 def normal_quantile(p):
@@ -89,6 +91,9 @@ class ThermalEstimator:
     - ``excitation_c``: temperature movement (deg C) from the recent mean that
       counts as a fully informative sample.
     - ``min_temp_c``, ``max_temp_c``: plausible range of readings, deg C.
+    - ``block_s``: readings are averaged over blocks of this many seconds
+      before they enter the regression (default ``filter_s / 2``; 0 feeds
+      every reading).
 
     Raises ValueError for arguments out of range.
     """
@@ -96,7 +101,7 @@ class ThermalEstimator:
     def __init__(self, ambient_c=None, ambient_prior_c=21.0, ambient_prior_sd_c=8.0,
                  heater=False, memory_s=600.0, filter_s=20.0, interval=0.8, settle_s=60.0,
                  max_relative_sd=0.25, rate_prior_per_s=1.0 / 1800.0, excitation_c=0.5,
-                 min_temp_c=-55.0, max_temp_c=150.0):
+                 min_temp_c=-55.0, max_temp_c=150.0, block_s=None):
         if ambient_c is not None and not _finite(ambient_c):
             raise ValueError("ambient_c must be a finite temperature or None")
         if not _finite(ambient_prior_c):
@@ -117,6 +122,8 @@ class ThermalEstimator:
             raise ValueError("rate_prior_per_s must be > 0 (1/s)")
         if not excitation_c > 0.0:
             raise ValueError("excitation_c must be > 0 deg C")
+        if block_s is not None and not block_s >= 0.0:
+            raise ValueError("block_s must be >= 0 seconds (0: every reading is a block)")
         if not min_temp_c < max_temp_c:
             raise ValueError("min_temp_c must be below max_temp_c")
         self._ambient_fixed = ambient_c
@@ -137,6 +144,9 @@ class ThermalEstimator:
         self.max_temp_c = float(max_temp_c)
         # The pre-filter's start-up transient decays as exp(-t/tau): wait 3 tau.
         self._startup_s = 3.0 * self.filter_s
+        self._block_s = float(block_s) if block_s is not None else 0.5 * self.filter_s
+        # age only matters until both the start-up and the settle time have passed
+        self._age_needed_s = max(self._startup_s, self.settle_s)
         self.reset()
 
     def reset(self):
@@ -149,8 +159,15 @@ class ThermalEstimator:
         self._last_ticks = -1
         self._dt_cached = -1.0
         self._a = 0.0           # exp(-dt/tau) for the cached dt
-        self._forget_step = 0.0  # dt/memory for the cached dt
-        self._c_hold = 0.0       # first-order-hold coefficient for the cached dt
+        self._hold_new = 0.0     # first-order-hold coefficients for the cached dt
+        self._hold_prev = 0.0
+        # Sums over the current regression block.
+        self._block_n = 0
+        self._block_t = 0.0
+        self._sum_y = 0.0
+        self._sum_yf = 0.0
+        self._sum_rf = 0.0
+        self._sum_uf = 0.0
         # Pre-filter state: last reading, filtered reading, ambient, duty.
         self._y_prev = 0.0
         self._yf = 0.0
@@ -161,6 +178,7 @@ class ThermalEstimator:
         self._ambient_measured = False
         # Weighted regression moments (means and centred co-moments).
         self._w = 0.0
+        self._w_blocks = 0.0
         self._mx = 0.0
         self._mu = 0.0
         self._md = 0.0
@@ -243,8 +261,10 @@ class ThermalEstimator:
         if self.readings == 0:
             self._start(temp_c, ambient_c, duty)
             return st.ACCEPTED
-        self._step(temp_c, dt_s + self._pending_dt_s, ambient_c, duty)
-        self._pending_dt_s = 0.0
+        if self._pending_dt_s:
+            dt_s += self._pending_dt_s
+            self._pending_dt_s = 0.0
+        self._step(temp_c, dt_s, ambient_c, duty)
         return st.ACCEPTED
 
     def _start(self, temp_c, ambient_c, duty):
@@ -262,95 +282,90 @@ class ThermalEstimator:
             self._rf = self._ambient_fixed
 
     def _step(self, temp_c, dt_s, ambient_c, duty):
-        """One accepted reading after the first: filter, then regression moments."""
+        """One accepted reading after the first: pre-filter and block sums.
+
+        Every reading advances the pre-filter; the regression is fed block
+        means over ``block_s`` seconds (the model equation is linear, so it
+        holds exactly for the means too, and the mean derivative carries the
+        same information as its parts). This keeps the per-reading work to a
+        handful of float operations.
+        """
         self.readings += 1
         if dt_s != self._dt_cached:
             self._dt_cached = dt_s
             try:
-                self._a = math.exp(-dt_s * self._inv_tau)
+                a = math.exp(-dt_s * self._inv_tau)
             except (ValueError, OverflowError):
-                self._a = 0.0
-            self._forget_step = dt_s * self._inv_mem
-            # first-order-hold coefficient tau (1 - a) / dt
-            self._c_hold = self.filter_s * (1.0 - self._a) / dt_s
+                a = 0.0
+            c = self.filter_s * (1.0 - a) / dt_s
+            self._a = a
+            self._hold_new = 1.0 - c
+            self._hold_prev = c - a
         a = self._a
-        c = self._c_hold
-        age = self._age_s
-        if age < _AGE_CAP_S:
-            self._age_s = age + dt_s
-        # Pre-filter, exact for a reading that moves linearly between samples
-        # (first-order hold), with a = exp(-dt/tau) and c = tau (1 - a) / dt:
-        # y_f(t_n) = y_n + (y_f(t_(n-1)) - y_(n-1)) a - (y_n - y_(n-1)) c
-        yp = self._y_prev
-        yf = temp_c + (self._yf - yp) * a - (temp_c - yp) * c
+        # Pre-filter tau y_f' = y - y_f, exact for a reading that moves linearly
+        # between samples (first-order hold); with a = exp(-dt/tau) and
+        # c = tau (1 - a) / dt:  y_f <- y_n (1 - c) + y_(n-1) (c - a) + y_f a
+        yf = temp_c * self._hold_new + self._y_prev * self._hold_prev + self._yf * a
         self._yf = yf
         self._y_prev = temp_c
-        # Filtered derivative: y_f' = (y - y_f) / tau
-        d = (temp_c - yf) * self._inv_tau
-        if self._ambient_measured or self._ambient_fixed is not None:
-            if self._ambient_measured:
-                rp = self._r_prev
-                rn = rp if ambient_c is None else ambient_c
-                rf = rn + (self._rf - rp) * a - (rn - rp) * c
-                self._rf = rf
-                self._r_prev = rn
-            else:
-                rf = self._rf
-            x = rf - yf
-            centred = False
-        else:
-            x = -yf
-            centred = True
+        self._sum_y += temp_c
+        self._sum_yf += yf
+        if self._ambient_measured:
+            rn = self._r_prev if ambient_c is None else ambient_c
+            rf = rn * self._hold_new + self._r_prev * self._hold_prev + self._rf * a
+            self._rf = rf
+            self._r_prev = rn
+            self._sum_rf += rf
         if self.heater:
+            # duty is held over the interval (zero-order hold): exact
             uf = duty + (self._uf - duty) * a
             self._uf = uf
             self._u_prev = duty
+            self._sum_uf += uf
+        self._block_n += 1
+        bt = self._block_t + dt_s
+        self._block_t = bt
+        if bt >= self._block_s:
+            self._close_block()
+
+    def _close_block(self):
+        n = self._block_n
+        bt = self._block_t
+        inv_n = 1.0 / n
+        yfm = self._sum_yf * inv_n
+        # block mean of the filtered derivative y_f' = (y - y_f) / tau
+        d = (self._sum_y * inv_n - yfm) * self._inv_tau
+        if self._ambient_measured:
+            x = self._sum_rf * inv_n - yfm
+            centred = False
+        elif self._ambient_fixed is not None:
+            x = self._ambient_fixed - yfm
+            centred = False
+        else:
+            x = -yfm
+            centred = True
+        u = self._sum_uf * inv_n
+        self._sum_y = 0.0
+        self._sum_yf = 0.0
+        self._sum_rf = 0.0
+        self._sum_uf = 0.0
+        self._block_n = 0
+        self._block_t = 0.0
+        age = self._age_s
+        if age < self._age_needed_s:
+            self._age_s = age + bt
         if age < self._startup_s:
-            return
-        if self.heater:
-            self._moments2(x, uf, d, centred)
-        else:
-            self._moments1(x, d, centred)
+            return  # the pre-filter's start-up transient is still in the signal
+        self._moments(n, bt, x, u, d, centred)
 
-    def _moments1(self, x, d, centred):
-        # One regressor. West's weighted update, weight rho in [0, 1]:
-        #   W <- lam W + rho;  a = rho/W;  m <- m + a (x - m)
-        #   C <- lam C + rho (1 - a) (x - m_old)(d - m_old)
+    def _moments(self, n, bt, x, u, d, centred):
+        # West's weighted incremental update, weight q = rho * n, where rho in
+        # [0, 1] says how much new excitation the block brings:
+        #   W <- lam W + q;  a = q / W;  m <- m + a (x - m)
+        #   C <- lam C + q (1 - a) (x - m_old)(d - m_old)
+        # and lam = exp(-rho * block_t / memory): no new information, no forgetting.
         w = self._w
-        if centred:
-            dx = x - self._mx
-            dd = d - self._md
-        else:
-            dx = x
-            dd = d
-        if w < 2.0:
-            rho = 1.0
-        else:
-            rho = dx * dx * self._inv_exc2
-            if rho > 1.0:
-                rho = 1.0
-        lam = 1.0 - rho * self._forget_step
-        if lam < 0.0:
-            lam = 0.0
-        w = lam * w + rho
-        if w <= 0.0:
-            return
-        self._w = w
-        if centred:
-            a = rho / w
-            self._mx += a * dx
-            self._md += a * dd
-            b = rho - rho * a
-        else:
-            b = rho
-        bdx = b * dx
-        self._cxx = lam * self._cxx + bdx * dx
-        self._cxd = lam * self._cxd + bdx * dd
-        self._cdd = lam * self._cdd + b * dd * dd
-
-    def _moments2(self, x, u, d, centred):
-        # Two regressors (temperature term and heater duty), same scheme.
-        w = self._w
+        heater = self.heater
         if centred:
             dx = x - self._mx
             du = u - self._mu
@@ -359,36 +374,41 @@ class ThermalEstimator:
             dx = x
             du = u
             dd = d
-        if w < 2.0:
+        if w < 2.0 * n:
             rho = 1.0
         else:
-            # a duty change of 0.1 counts like the full temperature excitation
-            rho = dx * dx * self._inv_exc2 + 100.0 * du * du
+            rho = dx * dx * self._inv_exc2
+            if heater:
+                # a duty change of 0.1 counts like the full temperature excitation
+                rho += 100.0 * du * du
             if rho > 1.0:
                 rho = 1.0
-        lam = 1.0 - rho * self._forget_step
-        if lam < 0.0:
+        try:
+            lam = math.exp(-rho * bt * self._inv_mem)
+        except (ValueError, OverflowError):
             lam = 0.0
-        w = lam * w + rho
+        q = rho * n
+        w = lam * w + q
         if w <= 0.0:
             return
         self._w = w
+        self._w_blocks = lam * self._w_blocks + rho  # for the degrees of freedom
         if centred:
-            a = rho / w
+            a = q / w
             self._mx += a * dx
-            self._mu += a * du
             self._md += a * dd
-            b = rho - rho * a
-        else:
-            b = rho
-        bdx = b * dx
-        bdu = b * du
-        self._cxx = lam * self._cxx + bdx * dx
-        self._cxu = lam * self._cxu + bdx * du
-        self._cuu = lam * self._cuu + bdu * du
-        self._cxd = lam * self._cxd + bdx * dd
-        self._cud = lam * self._cud + bdu * dd
-        self._cdd = lam * self._cdd + b * dd * dd
+            if heater:
+                self._mu += a * du
+            q = q - q * a
+        qdx = q * dx
+        self._cxx = lam * self._cxx + qdx * dx
+        self._cxd = lam * self._cxd + qdx * dd
+        self._cdd = lam * self._cdd + q * dd * dd
+        if heater:
+            qdu = q * du
+            self._cxu = lam * self._cxu + qdx * du
+            self._cuu = lam * self._cuu + qdu * du
+            self._cud = lam * self._cud + qdu * dd
 
     # ----------------------------------------------------------------- answer
     def _solve(self, w, mx, mu, md, cxx, cxu, cuu, cxd, cud):
@@ -475,13 +495,15 @@ class ThermalEstimator:
         n_par = 2.0 if heater else 1.0
         if centred:
             n_par += 1.0
-        dof = w - n_par
+        # block means weighted by their reading counts: the weighted residual sum
+        # estimates (blocks - parameters) times the per-reading variance
+        dof = self._w_blocks - n_par
         if dof < 1.0:
             dof = 1.0
         rss = self._cdd - k * cxd - g * cud
         if rss < 0.0:
             rss = 0.0
-        s2 = rss / dof + 1e-20  # residual variance of the filtered derivative, (K/s)^2
+        s2 = rss / dof + 1e-20  # per-reading variance of the filtered derivative, (K/s)^2
         if centred:
             # The ambient prior enters as one pseudo-reading: at y_f = R0 with
             # the heater off the liquid does not move (d = 0), with derivative
