@@ -8,8 +8,12 @@ deviation the estimator expects for that difference::
     down = max(0, down - z - drift)      # ... colder than predicted
     alarm when up > threshold or down > threshold
 
-``z`` is clipped to ``+-z_clip`` so one wild reading cannot raise an alarm on
-its own (with the defaults two consecutive large innovations are needed).
+``z`` is clipped to ``+-z_clip`` inside the sums so one wild reading cannot
+fill them on its own. A sudden jump (a top-up seen by a fast sensor) is one
+huge innovation followed by ordinary ones, so a one-reading gate also alarms
+when ``|z| >= jump_z``. This gate is meant to sit behind a spike filter (see
+:mod:`tinytherm.guard`) that has already rejected lone outliers: what reaches
+it is a jump that held for more than one reading.
 
 An estimator whose ``sigma`` is too small (model mismatch, sensor lag,
 quantisation) would feed the CUSUM a steady excess of ``|z|`` and raise false
@@ -44,9 +48,10 @@ class ChangeDetector:
     ``threshold``  alarm level of either sum, in standard deviations (> 0).
     ``z_clip``     clip of each normalised innovation (> drift).
     ``scale_n``    readings in the running mean of ``|z|`` (0 switches it off).
+    ``jump_z``     one-reading gate, standard deviations (> z_clip), or None (off).
     """
 
-    def __init__(self, drift=0.75, threshold=12.0, z_clip=7.0, scale_n=200):
+    def __init__(self, drift=0.75, threshold=12.0, z_clip=7.0, scale_n=200, jump_z=None):
         if not _finite(drift) or drift <= 0.0:
             raise ValueError("drift must be > 0 (standard deviations), got %r" % (drift,))
         if not _finite(threshold) or threshold <= 0.0:
@@ -55,6 +60,10 @@ class ChangeDetector:
             raise ValueError("z_clip must be > drift (%r), got %r" % (drift, z_clip))
         if type(scale_n) is not int or scale_n < 0:
             raise ValueError("scale_n must be an int >= 0 (readings), got %r" % (scale_n,))
+        if jump_z is not None and (not _finite(jump_z) or jump_z <= z_clip):
+            raise ValueError("jump_z must be > z_clip (%r) or None, got %r" % (z_clip, jump_z))
+        self.jump_z = None if jump_z is None else float(jump_z)
+        self._neg_jump_z = None if jump_z is None else -float(jump_z)
         self.drift = float(drift)
         self.threshold = float(threshold)
         self.z_clip = float(z_clip)
@@ -82,9 +91,15 @@ class ChangeDetector:
         """
         if not (_finite(innovation_c) and _finite(sigma_c)) or sigma_c <= 0.0:
             return 0
-        z = innovation_c / sigma_c
-        if z != z:
+        raw = innovation_c / sigma_c
+        if raw != raw:
             return 0
+        z = raw
+        self.readings += 1
+        if self._scale_weight and self.mean_abs_z > _MEAN_ABS_GAUSS:
+            z = z * (_MEAN_ABS_GAUSS / self.mean_abs_z)
+        if self.jump_z is not None and (z >= self.jump_z or z <= self._neg_jump_z):
+            return self._alarm(1 if z > 0.0 else -1)
         clipped = False
         if z > self.z_clip:
             z = self.z_clip
@@ -92,25 +107,22 @@ class ChangeDetector:
         elif z < self._neg_clip:
             z = self._neg_clip
             clipped = True
-        self.readings += 1
-        if self._scale_weight:
+        if self._scale_weight and not clipped and self.up < self._half_threshold \
+                and self.down < self._half_threshold:
+            # running mean of the undeflated |z|: s += w * (|raw| - s)
             s = self.mean_abs_z
-            if not clipped and self.up < self._half_threshold and self.down < self._half_threshold:
-                # running mean of |z|: s += w * (|z| - s)
-                s += self._scale_weight * ((z if z >= 0.0 else -z) - s)
-                self.mean_abs_z = s
-            if s > _MEAN_ABS_GAUSS:
-                z = z * (_MEAN_ABS_GAUSS / s)
+            self.mean_abs_z = s + self._scale_weight * ((raw if raw >= 0.0 else -raw) - s)
         up = self.up + (z - self.drift)
         down = self.down - (z + self.drift)
         self.up = up if up > 0.0 else 0.0
         self.down = down if down > 0.0 else 0.0
         if self.up > self.threshold:
-            direction = 1
-        elif self.down > self.threshold:
-            direction = -1
-        else:
-            return 0
+            return self._alarm(1)
+        if self.down > self.threshold:
+            return self._alarm(-1)
+        return 0
+
+    def _alarm(self, direction):
         self.up = 0.0
         self.down = 0.0
         self.alarms += 1
@@ -118,8 +130,9 @@ class ChangeDetector:
         return direction
 
     def __repr__(self):
-        return "ChangeDetector(drift=%r, threshold=%r, z_clip=%r, scale_n=%r, alarms=%d)" % (
-            self.drift, self.threshold, self.z_clip, self.scale_n, self.alarms)
+        return ("ChangeDetector(drift=%r, threshold=%r, z_clip=%r, scale_n=%r, jump_z=%r, "
+                "alarms=%d)" % (self.drift, self.threshold, self.z_clip, self.scale_n,
+                                self.jump_z, self.alarms))
 
 
 def _finite(x):

@@ -111,3 +111,15 @@ def test_scale_adaptation_absorbs_underestimated_sigma():
             delay = i + 1
             break
     assert delay is not None and delay <= 12, delay
+
+
+def test_jump_gate_fires_on_one_large_innovation():
+    det = ChangeDetector(jump_z=10.0)
+    rng = XorShift(12)
+    for _ in range(300):
+        assert det.update(rng.gauss(0.1), 0.1) == 0
+    assert det.update(-2.0, 0.1) == -1   # 20 sd below prediction: a cold top-up
+    assert det.alarms == 1 and det.last_direction == -1
+    assert det.update(0.9, 0.1) == 0      # 9 sd: below the gate, only fills the sum
+    assert det.up > 0.0
+    assert _raises_value_error(jump_z=5.0, z_clip=7.0)
