@@ -1,0 +1,171 @@
+"""Batch baselines the on-device estimator is compared with.
+
+Each baseline is fed the same rows as the core, one at a time, through
+``update(time_s, temp_c)`` and answers ``predict(target_c)`` with an ETA in
+seconds from the latest reading, or None:
+
+- :class:`SlopeBaseline`: naive slope extrapolation, an ordinary least-squares
+  line through the readings of the last ``window_s`` (120 s), extrapolated to
+  the target.
+- :class:`ExpRefitBaseline` with ``window_s=None``: scipy ``least_squares``
+  fit of ``T(t) = E + A exp(-k (t - t_a))`` to *all* readings so far (robust
+  ``soft_l1`` loss with a 0.5 C scale so a spike does not wreck it), solved
+  for the target crossing. The fit starts at the last peak (cooling) or
+  trough (heating) of the data, so a sensor warming up after a pour does not
+  spoil it.
+- :class:`ExpRefitBaseline` with ``window_s=600``: the same on the last 600 s.
+
+To keep the benchmark fast the exponential fits are redone only every
+``refit_every`` accepted readings (default 5) and warm-started from the last
+fit; in between, the last fitted curve's crossing time is reused (the ETA
+still counts down with the clock). None of the baselines sees the heater duty
+or the ambient column: they are the batch fits a developer would try first.
+"""
+import math
+
+import numpy as np
+from scipy.optimize import least_squares
+
+
+def _crossing_from_curve(e_c, a_c, k, t_anchor, target_c):
+    """Absolute time at which E + A exp(-k (t - t_anchor)) equals target, or None."""
+    if not k > 0.0 or a_c == 0.0:
+        return None
+    ratio = (target_c - e_c) / a_c
+    if not 0.0 < ratio < 1e300:
+        return None
+    return t_anchor - math.log(ratio) / k
+
+
+class SlopeBaseline:
+    """Linear fit of the last ``window_s`` seconds, extrapolated to the target."""
+
+    name = "slope"
+
+    def __init__(self, window_s=120.0, min_points=3):
+        self.window_s = float(window_s)
+        self.min_points = int(min_points)
+        self.t = []
+        self.y = []
+
+    def update(self, time_s, temp_c):
+        """Add a reading (seconds, deg C)."""
+        self.t.append(float(time_s))
+        self.y.append(float(temp_c))
+
+    def predict(self, target_c):
+        """Seconds from the latest reading to the target, or None."""
+        t = np.asarray(self.t)
+        if len(t) < self.min_points:
+            return None
+        sel = t >= t[-1] - self.window_s
+        if sel.sum() < self.min_points:
+            sel = np.zeros(len(t), dtype=bool)
+            sel[-self.min_points:] = True
+        tt = t[sel] - t[-1]
+        yy = np.asarray(self.y)[sel]
+        if np.ptp(tt) <= 0.0:
+            return None
+        slope, level = np.polyfit(tt, yy, 1)
+        if slope == 0.0:
+            return None
+        eta = (target_c - level) / slope
+        if eta < 0.0:
+            # the line heads away from the target (or is past it): no answer
+            return None
+        return float(eta)
+
+
+class ExpRefitBaseline:
+    """Robust batch exponential refit on all data (``window_s=None``) or a window."""
+
+    def __init__(self, window_s=None, refit_every=5, min_points=8, min_span_s=60.0):
+        self.window_s = window_s
+        self.refit_every = int(refit_every)
+        self.min_points = int(min_points)
+        self.min_span_s = float(min_span_s)
+        self.name = "exp_all" if window_s is None else "exp_window%d" % int(window_s)
+        self.t = []
+        self.y = []
+        self.params = None      # (E, A, k, t_anchor)
+        self.since_fit = 0
+        self.fits = 0
+        self.target_c = None
+
+    def update(self, time_s, temp_c):
+        """Add a reading (seconds, deg C); refits every ``refit_every`` readings."""
+        self.t.append(float(time_s))
+        self.y.append(float(temp_c))
+        self.since_fit += 1
+        if self.params is None or self.since_fit >= self.refit_every:
+            self._fit()
+
+    def _fit(self):
+        t = np.asarray(self.t)
+        y = np.asarray(self.y)
+        if self.window_s is not None:
+            sel = t >= t[-1] - self.window_s
+            t, y = t[sel], y[sel]
+        if self.target_c is not None and len(y) >= 5:
+            # A developer would fit only the approach: drop readings before the
+            # last peak (cooling) or trough (heating) of a 5-reading running
+            # median, e.g. the sensor warming up after a pour or a top-up.
+            med = np.median(np.lib.stride_tricks.sliding_window_view(y, 5), axis=1)
+            turn = int(np.argmax(med) if y[-1] > self.target_c else np.argmin(med))
+            t, y = t[turn:], y[turn:]
+        if len(t) < self.min_points or t[-1] - t[0] < self.min_span_s:
+            return
+        self.since_fit = 0
+        t_a = t[0]
+        x = t - t_a
+        span = x[-1]
+        guesses = []
+        if self.params is not None:
+            e, a, k, anchor = self.params
+            # move the warm start to the new anchor
+            guesses.append((e, a * math.exp(-k * (t_a - anchor)), k))
+        # fresh guess from the end slope: dT/dt = -k (T - E) => E = T + slope / k
+        k0 = 1.0 / max(span, 300.0)
+        n3 = max(len(x) // 3, 2)
+        slope = np.polyfit(x[-n3:], y[-n3:], 1)[0]
+        e0 = y[-1] + slope / k0
+        guesses.append((e0, y[0] - e0, k0))
+        best = None
+        for e, a, k in guesses:
+            p0 = np.array([e, a, math.log(max(k, 1e-7))])
+            p0[2] = min(max(p0[2], math.log(1e-6)), math.log(0.5))
+            try:
+                res = least_squares(
+                    lambda p: p[0] + p[1] * np.exp(-np.exp(p[2]) * x) - y, p0,
+                    loss="soft_l1", f_scale=0.5,
+                    bounds=([-100.0, -500.0, math.log(1e-6)], [300.0, 500.0, math.log(0.5)]),
+                    max_nfev=200)
+            except ValueError:
+                continue
+            if best is None or res.cost < best.cost:
+                best = res
+        if best is not None and best.success:
+            e, a, lk = best.x
+            self.params = (float(e), float(a), float(math.exp(lk)), float(t_a))
+            self.fits += 1
+
+    def predict(self, target_c):
+        """Seconds from the latest reading to the target, or None."""
+        self.target_c = target_c  # tells the next refit which way the approach goes
+        if self.params is None:
+            return None
+        e, a, k, anchor = self.params
+        now = self.t[-1]
+        fitted_now = e + a * math.exp(-k * (now - anchor))
+        if (target_c - fitted_now) * (e - fitted_now) <= 0.0 and (target_c - fitted_now) != 0.0:
+            # target lies behind the current fitted level (already past it)
+            return 0.0
+        t_cross = _crossing_from_curve(e, a, k, anchor, target_c)
+        if t_cross is None:
+            return None
+        return max(t_cross - now, 0.0)
+
+
+def make_baselines():
+    """The three baselines of the benchmark, fresh."""
+    return [SlopeBaseline(), ExpRefitBaseline(window_s=None), ExpRefitBaseline(window_s=600.0)]
