@@ -99,7 +99,7 @@ class ThermalEstimator:
     """
 
     def __init__(self, ambient_c=None, ambient_prior_c=21.0, ambient_prior_sd_c=8.0,
-                 heater=False, memory_s=600.0, filter_s=20.0, interval=0.8, settle_s=60.0,
+                 heater=False, memory_s=600.0, filter_s=15.0, interval=0.8, settle_s=60.0,
                  max_relative_sd=0.25, rate_prior_per_s=1.0 / 1800.0, excitation_c=0.5,
                  min_temp_c=-55.0, max_temp_c=150.0, block_s=None):
         if ambient_c is not None and not _finite(ambient_c):
@@ -142,8 +142,8 @@ class ThermalEstimator:
         self._inv_exc2 = 1.0 / (float(excitation_c) ** 2)
         self.min_temp_c = float(min_temp_c)
         self.max_temp_c = float(max_temp_c)
-        # The pre-filter's start-up transient decays as exp(-t/tau): wait 3 tau.
-        self._startup_s = 3.0 * self.filter_s
+        # The pre-filter's start-up transient decays as exp(-t/tau): wait 5 tau.
+        self._startup_s = 5.0 * self.filter_s
         self._block_s = float(block_s) if block_s is not None else 0.5 * self.filter_s
         # age only matters until both the start-up and the settle time have passed
         self._age_needed_s = max(self._startup_s, self.settle_s)
@@ -179,6 +179,7 @@ class ThermalEstimator:
         # Weighted regression moments (means and centred co-moments).
         self._w = 0.0
         self._w_blocks = 0.0
+        self._w_sq = 0.0
         self._mx = 0.0
         self._mu = 0.0
         self._md = 0.0
@@ -393,6 +394,9 @@ class ThermalEstimator:
             return
         self._w = w
         self._w_blocks = lam * self._w_blocks + rho  # for the degrees of freedom
+        # sum of squared per-reading weights: with forgetting the estimate's
+        # variance is s^2 * (sum w^2 x^2) / (sum w x^2)^2, about (W2/W) s^2 / Cxx
+        self._w_sq = lam * lam * self._w_sq + rho * q
         if centred:
             a = q / w
             self._mx += a * dx
@@ -504,6 +508,10 @@ class ThermalEstimator:
         if rss < 0.0:
             rss = 0.0
         s2 = rss / dof + 1e-20  # per-reading variance of the filtered derivative, (K/s)^2
+        # variance of the parameters per unit of the inverse information:
+        # s^2 times the forgetting factor W2/W (1 without forgetting, ~1/2 at
+        # steady state), see _moments
+        s2p = s2 * self._w_sq / w
         if centred:
             # The ambient prior enters as one pseudo-reading: at y_f = R0 with
             # the heater off the liquid does not move (d = 0), with derivative
@@ -566,16 +574,16 @@ class ThermalEstimator:
         hk = 1e-4 * k
         ck = c - hk * mx if centred else 0.0
         dk = (self._eta_at(k + hk, g, ck, target_c, temp, duty) - eta) / hk
-        var_eta = dk * dk * s2 * ikk
+        var_eta = dk * dk * s2p * ikk
         if heater:
             hg = 1e-4 * abs(g) + 1e-9
             cg = c - hg * mu if centred else 0.0
             dg = (self._eta_at(k, g + hg, cg, target_c, temp, duty) - eta) / hg
-            var_eta += dg * dg * s2 * self._igg + 2.0 * dk * dg * s2 * self._ikg
+            var_eta += dg * dg * s2p * self._igg + 2.0 * dk * dg * s2p * self._ikg
         if centred:
             hm = 1e-4 * abs(md) + 1e-9
             dm = (self._eta_at(k, g, c + hm, target_c, temp, duty) - eta) / hm
-            var_eta += dm * dm * s2 / w
+            var_eta += dm * dm * s2p / w
         # The current level: y_f carries about s^2 tau^2 * dt / (2 tau) of noise.
         dtemp = 1.0 / (k * (temp - eq))
         var_eta += dtemp * dtemp * s2 * self.filter_s * self._dt_cached * 0.5
@@ -584,7 +592,7 @@ class ThermalEstimator:
         self.eta_s = eta
         self.eta_low_s = eta / spread
         self.eta_high_s = eta * spread
-        sd_k = math.sqrt(s2 * ikk)
+        sd_k = math.sqrt(s2p * ikk)
         if self._age_s >= self.settle_s and rel_sd <= self.max_relative_sd and sd_k < 0.5 * k:
             self.status = st.TRACKING
         return self.status
