@@ -116,37 +116,43 @@ class ExpRefitBaseline:
         if len(t) < self.min_points or t[-1] - t[0] < self.min_span_s:
             return
         self.since_fit = 0
-        t_a = t[0]
-        x = t - t_a
-        span = x[-1]
+        # Parameterised by the level y1 and slope s at the last reading and k:
+        #   T(t) = y1 + s * (1 - exp(-k (t - t1))) / k
+        # which is E + A exp(-k (t - t1)) with E = y1 + s/k, A = -s/k, and stays
+        # well conditioned as k -> 0 (a straight line), unlike (E, A, k).
+        t1 = t[-1]
+        x = t - t1
+        span = -x[0]
         guesses = []
         if self.params is not None:
             e, a, k, anchor = self.params
-            # move the warm start to the new anchor
-            guesses.append((e, a * math.exp(-k * (t_a - anchor)), k))
-        # fresh guess from the end slope: dT/dt = -k (T - E) => E = T + slope / k
-        k0 = 1.0 / max(span, 300.0)
+            y1 = e + a * math.exp(-k * (t1 - anchor))
+            guesses.append((y1, -k * (y1 - e), k))
         n3 = max(len(x) // 3, 2)
         slope = np.polyfit(x[-n3:], y[-n3:], 1)[0]
-        e0 = y[-1] + slope / k0
-        guesses.append((e0, y[0] - e0, k0))
+        guesses.append((y[-1], slope, 1.0 / max(span, 300.0)))
         best = None
-        for e, a, k in guesses:
-            p0 = np.array([e, a, math.log(max(k, 1e-7))])
-            p0[2] = min(max(p0[2], math.log(1e-6)), math.log(0.5))
+        lo_k, hi_k = math.log(1e-6), math.log(0.5)
+
+        def resid(p):
+            k = math.exp(p[2])
+            return p[0] - p[1] * np.expm1(-k * x) / k - y
+        for y1, sl, k in guesses:
+            p0 = np.array([y1, sl, min(max(math.log(max(k, 1e-7)), lo_k), hi_k)])
             try:
-                res = least_squares(
-                    lambda p: p[0] + p[1] * np.exp(-np.exp(p[2]) * x) - y, p0,
-                    loss="soft_l1", f_scale=0.5,
-                    bounds=([-100.0, -500.0, math.log(1e-6)], [300.0, 500.0, math.log(0.5)]),
-                    max_nfev=200)
+                res = least_squares(resid, p0, loss="soft_l1", f_scale=0.5,
+                                    bounds=([-100.0, -10.0, lo_k], [300.0, 10.0, hi_k]),
+                                    max_nfev=60)
             except ValueError:
                 continue
             if best is None or res.cost < best.cost:
                 best = res
-        if best is not None and best.success:
-            e, a, lk = best.x
-            self.params = (float(e), float(a), float(math.exp(lk)), float(t_a))
+            if res.success and res.cost < 0.5 * len(x) * 0.25:
+                break  # warm start already fits to about the noise: skip the fresh guess
+        if best is not None and best.status > 0:
+            y1, sl, lk = best.x
+            k = math.exp(lk)
+            self.params = (float(y1 + sl / k), float(-sl / k), float(k), float(t1))
             self.fits += 1
 
     def predict(self, target_c):
