@@ -6,34 +6,34 @@ Model (see :mod:`tinytherm.model`)::
 
 How the fit works (the reasons and the measurements are in DEVELOPERS.md):
 
-1. *State-variable pre-filter.* Each reading ``y`` drives a first-order filter
-   ``tau y_f' = y - y_f`` (``tau = filter_s``). Filtering both sides of the
-   model gives an equation that holds exactly for the filtered signals::
+1. *Integral form.* Integrating the model from any earlier moment gives an
+   equation that is linear in the parameters and needs no derivative::
 
-       y_f' = -k (y_f - R_f) + g u_f,     with  y_f' = (y - y_f) / tau
+       y(t) = c + k X(t) + k R t + g U(t)
 
-   so the derivative comes from a difference of a reading and a smooth signal
-   (not of two noisy readings), and irregular time steps are handled by the
-   exact (first-order-hold) discretisation of the filter.
-2. *Exponentially weighted regression in centred form.* ``d = y_f'`` is
-   regressed on ``x = -(y_f - R_f)`` (ambient known or measured) or on
-   ``x = -y_f`` with an intercept ``k R`` (ambient unknown), plus ``u_f`` when
-   a heater is fitted. Weighted means and co-moments are updated with West's
-   incremental (Welford-style) formulas, which keep float32 accurate; old
-   data are forgotten with time constant ``memory_s``.
-3. *Forgetting in proportion to excitation.* A sample that carries no new
-   information (the filtered temperature sits at its recent mean: a long hold
-   at equilibrium) neither adds weight nor forgets: no covariance windup, and
-   sensor noise at a standstill cannot drag the estimate.
-4. *Answer on demand.* :meth:`ThermalEstimator.predict` solves the 1x1 or 2x2
-   system, fuses the ambient prior, and propagates the parameter uncertainty to
-   the time-to-target (delta method in log-time).
+   with ``X = -integral(y dt)`` (or ``integral((R - y) dt)`` when the ambient
+   is known or measured; the ``k R t`` term then drops out) and
+   ``U = integral(u dt)``. The integrals are taken by the trapezoid rule (exact
+   for irregular steps up to the curvature between two readings); ``c`` is an
+   unknown level. The reading's noise enters once, as in a batch output-error
+   fit, which keeps the estimate close to the Cramer-Rao bound.
+2. *Exponentially weighted regression in centred form.* Weighted means and
+   co-moments are updated with West's incremental (Welford-style) formulas,
+   which keep float32 accurate. The regressors are stored *relative to their
+   own weighted means*, so the growing integrals never grow in storage.
+3. *Forgetting in proportion to excitation.* A block of readings that sits at
+   its recent mean (a long hold at equilibrium) neither adds weight nor
+   forgets: no covariance windup, no drift at a standstill. Old data are
+   forgotten with time constant ``memory_s`` while the liquid moves.
+4. *Block means.* Readings are averaged over ``block_s`` before they enter the
+   regression; the equation is linear, so it holds exactly for the means and
+   most readings cost only a few float operations (heap use on MicroPython).
+5. *Answer on demand.* :meth:`ThermalEstimator.predict` solves the small
+   ridge-regularised system (the ambient prior enters as one pseudo
+   observation), and propagates the parameter uncertainty to the
+   time-to-target by the delta method in log-time.
 
-Readings are averaged over short blocks (``block_s``) before entering the
-regression, so most readings cost only the pre-filter step.
-
-Fixed state, no per-update containers; the update path is a few dozen float
-operations. Runs unchanged on CPython and MicroPython.
+Fixed state, no per-update containers. Runs unchanged on CPython and MicroPython.
 """
 import math
 
@@ -80,28 +80,25 @@ class ThermalEstimator:
       its gain (K/s at full duty) must be fitted.
     - ``memory_s``: forgetting time constant of the fit, seconds. Shorter
       tracks a changing world faster; longer averages more noise away.
-    - ``filter_s``: pre-filter time constant, seconds (a few sample periods to
-      a few tens of seconds).
+    - ``block_s``: readings are averaged over blocks of this many seconds
+      before entering the regression (0: every reading is its own block).
     - ``interval``: two-sided probability of the reported time interval.
     - ``settle_s``: seconds of data before an answer may be ``TRACKING``.
     - ``max_relative_sd``: an answer whose log-time standard deviation exceeds
       this stays ``SETTLING``.
-    - ``rate_prior_per_s``: weak prior on ``k`` (1/s), used only while the data
-      hold little information.
-    - ``excitation_c``: temperature movement (deg C) from the recent mean that
-      counts as a fully informative sample.
+    - ``rate_prior_per_s``: weak prior on ``k`` (1/s, also its prior standard
+      deviation), felt only while the data hold little information.
+    - ``excitation_c``: movement (deg C) of a block's mean reading away from
+      the recent mean that counts as a fully informative block.
     - ``min_temp_c``, ``max_temp_c``: plausible range of readings, deg C.
-    - ``block_s``: readings are averaged over blocks of this many seconds
-      before they enter the regression (default ``filter_s / 2``; 0 feeds
-      every reading).
 
     Raises ValueError for arguments out of range.
     """
 
     def __init__(self, ambient_c=None, ambient_prior_c=21.0, ambient_prior_sd_c=8.0,
-                 heater=False, memory_s=600.0, filter_s=15.0, interval=0.8, settle_s=60.0,
+                 heater=False, memory_s=600.0, block_s=10.0, interval=0.8, settle_s=60.0,
                  max_relative_sd=0.25, rate_prior_per_s=1.0 / 1800.0, excitation_c=0.5,
-                 min_temp_c=-55.0, max_temp_c=150.0, block_s=None):
+                 min_temp_c=-55.0, max_temp_c=150.0):
         if ambient_c is not None and not _finite(ambient_c):
             raise ValueError("ambient_c must be a finite temperature or None")
         if not _finite(ambient_prior_c):
@@ -110,8 +107,8 @@ class ThermalEstimator:
             raise ValueError("ambient_prior_sd_c must be > 0")
         if not memory_s > 0.0:
             raise ValueError("memory_s must be > 0 seconds")
-        if not filter_s > 0.0:
-            raise ValueError("filter_s must be > 0 seconds")
+        if not block_s >= 0.0:
+            raise ValueError("block_s must be >= 0 seconds (0: every reading is a block)")
         if not 0.0 < interval < 1.0:
             raise ValueError("interval must be a probability in (0, 1)")
         if not settle_s >= 0.0:
@@ -122,8 +119,6 @@ class ThermalEstimator:
             raise ValueError("rate_prior_per_s must be > 0 (1/s)")
         if not excitation_c > 0.0:
             raise ValueError("excitation_c must be > 0 deg C")
-        if block_s is not None and not block_s >= 0.0:
-            raise ValueError("block_s must be >= 0 seconds (0: every reading is a block)")
         if not min_temp_c < max_temp_c:
             raise ValueError("min_temp_c must be below max_temp_c")
         self._ambient_fixed = ambient_c
@@ -131,9 +126,8 @@ class ThermalEstimator:
         self._prior_r_var = float(ambient_prior_sd_c) ** 2
         self.heater = bool(heater)
         self.memory_s = float(memory_s)
-        self.filter_s = float(filter_s)
-        self._inv_tau = 1.0 / self.filter_s
         self._inv_mem = 1.0 / self.memory_s
+        self.block_s = float(block_s)
         self.interval = float(interval)
         self._z = normal_quantile(0.5 + 0.5 * self.interval)
         self.settle_s = float(settle_s)
@@ -142,11 +136,6 @@ class ThermalEstimator:
         self._inv_exc2 = 1.0 / (float(excitation_c) ** 2)
         self.min_temp_c = float(min_temp_c)
         self.max_temp_c = float(max_temp_c)
-        # The pre-filter's start-up transient decays as exp(-t/tau): wait 5 tau.
-        self._startup_s = 5.0 * self.filter_s
-        self._block_s = float(block_s) if block_s is not None else 0.5 * self.filter_s
-        # age only matters until both the start-up and the settle time have passed
-        self._age_needed_s = max(self._startup_s, self.settle_s)
         self.reset()
 
     def reset(self):
@@ -158,43 +147,48 @@ class ThermalEstimator:
         self._pending_dt_s = 0.0
         self._last_ticks = -1
         self._dt_cached = -1.0
-        self._a = 0.0           # exp(-dt/tau) for the cached dt
-        self._hold_new = 0.0     # first-order-hold coefficients for the cached dt
-        self._hold_prev = 0.0
-        # Sums over the current regression block.
+        self._half_dt = 0.0
+        self._y_prev = 0.0
+        self._r_prev = 0.0
+        self._u_prev = 0.0
+        self._ambient_measured = False
+        # Regressors, each relative to its weighted mean: X (temperature
+        # integral, deg C s), t (time, s), U (duty integral, s).
+        self._xr = 0.0
+        self._tr = 0.0
+        self._ur = 0.0
+        # Sums over the current block.
         self._block_n = 0
         self._block_t = 0.0
         self._sum_y = 0.0
-        self._sum_yf = 0.0
-        self._sum_rf = 0.0
-        self._sum_uf = 0.0
-        # Pre-filter state: last reading, filtered reading, ambient, duty.
-        self._y_prev = 0.0
-        self._yf = 0.0
-        self._r_prev = 0.0
-        self._rf = 0.0
-        self._uf = 0.0
-        self._u_prev = 0.0
-        self._ambient_measured = False
-        # Weighted regression moments (means and centred co-moments).
+        self._sum_x = 0.0
+        self._sum_t = 0.0
+        self._sum_u = 0.0
+        # Weighted regression: weights, mean reading, centred co-moments.
         self._w = 0.0
         self._w_blocks = 0.0
         self._w_sq = 0.0
-        self._mx = 0.0
-        self._mu = 0.0
-        self._md = 0.0
+        self._my = 0.0
         self._cxx = 0.0
+        self._cxt = 0.0
         self._cxu = 0.0
+        self._ctt = 0.0
+        self._ctu = 0.0
         self._cuu = 0.0
-        self._cxd = 0.0
-        self._cud = 0.0
-        self._cdd = 0.0
-        # solver outputs (scratch, kept so the answer path stores no containers)
+        self._cxy = 0.0
+        self._cty = 0.0
+        self._cuy = 0.0
+        self._cyy = 0.0
+        # solver outputs (scratch, so the answer path stores no containers)
         self._k = 0.0
+        self._kr = 0.0
         self._g = 0.0
-        self._ikk = 0.0
-        self._ikg = 0.0
-        self._igg = 0.0
+        self._i11 = 0.0
+        self._i12 = 0.0
+        self._i13 = 0.0
+        self._i22 = 0.0
+        self._i23 = 0.0
+        self._i33 = 0.0
         self._clear_answer(st.GATHERING)
 
     def _clear_answer(self, code):
@@ -271,117 +265,81 @@ class ThermalEstimator:
     def _start(self, temp_c, ambient_c, duty):
         self.readings = 1
         self._y_prev = temp_c
-        self._yf = temp_c
         self._u_prev = duty
-        self._uf = duty
         if ambient_c is not None:
             self._ambient_measured = True
             self._r_prev = ambient_c
-            self._rf = ambient_c
         elif self._ambient_fixed is not None:
             self._r_prev = self._ambient_fixed
-            self._rf = self._ambient_fixed
 
     def _step(self, temp_c, dt_s, ambient_c, duty):
-        """One accepted reading after the first: pre-filter and block sums.
-
-        Every reading advances the pre-filter; the regression is fed block
-        means over ``block_s`` seconds (the model equation is linear, so it
-        holds exactly for the means too, and the mean derivative carries the
-        same information as its parts). This keeps the per-reading work to a
-        handful of float operations.
-        """
+        """One accepted reading after the first: advance integrals, add to block."""
         self.readings += 1
         if dt_s != self._dt_cached:
             self._dt_cached = dt_s
-            try:
-                a = math.exp(-dt_s * self._inv_tau)
-            except (ValueError, OverflowError):
-                a = 0.0
-            c = self.filter_s * (1.0 - a) / dt_s
-            self._a = a
-            self._hold_new = 1.0 - c
-            self._hold_prev = c - a
-        a = self._a
-        # Pre-filter tau y_f' = y - y_f, exact for a reading that moves linearly
-        # between samples (first-order hold); with a = exp(-dt/tau) and
-        # c = tau (1 - a) / dt:  y_f <- y_n (1 - c) + y_(n-1) (c - a) + y_f a
-        yf = temp_c * self._hold_new + self._y_prev * self._hold_prev + self._yf * a
-        self._yf = yf
+            self._half_dt = 0.5 * dt_s
+        yp = self._y_prev
         self._y_prev = temp_c
-        self._sum_y += temp_c
-        self._sum_yf += yf
+        # trapezoid: X += (R - (y_n + y_(n-1)) / 2) dt, R = 0 when estimated
         if self._ambient_measured:
             rn = self._r_prev if ambient_c is None else ambient_c
-            rf = rn * self._hold_new + self._r_prev * self._hold_prev + self._rf * a
-            self._rf = rf
+            xr = self._xr + (rn + self._r_prev - temp_c - yp) * self._half_dt
             self._r_prev = rn
-            self._sum_rf += rf
+        elif self._ambient_fixed is not None:
+            xr = self._xr + (self._ambient_fixed - self._half_sum(temp_c, yp)) * dt_s
+        else:
+            xr = self._xr - (temp_c + yp) * self._half_dt
+            tr = self._tr + dt_s
+            self._tr = tr
+            self._sum_t += tr
+        self._xr = xr
+        self._sum_x += xr
+        self._sum_y += temp_c
         if self.heater:
-            # duty is held over the interval (zero-order hold): exact
-            uf = duty + (self._uf - duty) * a
-            self._uf = uf
+            # duty is held over the interval: U += u dt exactly
+            ur = self._ur + duty * dt_s
+            self._ur = ur
             self._u_prev = duty
-            self._sum_uf += uf
+            self._sum_u += ur
         self._block_n += 1
         bt = self._block_t + dt_s
         self._block_t = bt
-        if bt >= self._block_s:
-            self._close_block()
+        if bt >= self.block_s:
+            self._close_block(bt)
 
-    def _close_block(self):
+    @staticmethod
+    def _half_sum(a, b):
+        return 0.5 * (a + b)
+
+    def _close_block(self, bt):
         n = self._block_n
-        bt = self._block_t
         inv_n = 1.0 / n
-        yfm = self._sum_yf * inv_n
-        # block mean of the filtered derivative y_f' = (y - y_f) / tau
-        d = (self._sum_y * inv_n - yfm) * self._inv_tau
-        if self._ambient_measured:
-            x = self._sum_rf * inv_n - yfm
-            centred = False
-        elif self._ambient_fixed is not None:
-            x = self._ambient_fixed - yfm
-            centred = False
-        else:
-            x = -yfm
-            centred = True
-        u = self._sum_uf * inv_n
+        # Deviations of the block means from the weighted means (regressors are
+        # stored relative to their means, so their block mean is the deviation).
+        dx = self._sum_x * inv_n
+        dy = self._sum_y * inv_n - self._my
+        heater = self.heater
+        centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
+        dt_ = self._sum_t * inv_n if centred_t else 0.0
+        du = self._sum_u * inv_n if heater else 0.0
+        self._sum_x = 0.0
         self._sum_y = 0.0
-        self._sum_yf = 0.0
-        self._sum_rf = 0.0
-        self._sum_uf = 0.0
+        self._sum_t = 0.0
+        self._sum_u = 0.0
         self._block_n = 0
         self._block_t = 0.0
-        age = self._age_s
-        if age < self._age_needed_s:
-            self._age_s = age + bt
-        if age < self._startup_s:
-            return  # the pre-filter's start-up transient is still in the signal
-        self._moments(n, bt, x, u, d, centred)
-
-    def _moments(self, n, bt, x, u, d, centred):
-        # West's weighted incremental update, weight q = rho * n, where rho in
-        # [0, 1] says how much new excitation the block brings:
-        #   W <- lam W + q;  a = q / W;  m <- m + a (x - m)
-        #   C <- lam C + q (1 - a) (x - m_old)(d - m_old)
-        # and lam = exp(-rho * block_t / memory): no new information, no forgetting.
+        if self._age_s < self.settle_s:
+            self._age_s += bt
+        # Weight q = rho * n with rho in [0, 1] the block's excitation: how far
+        # its mean reading sits from the recent mean. West's weighted update:
+        #   W <- lam W + q;  a = q / W;  m <- m + a (z - m)
+        #   C <- lam C + q (1 - a) (z - m_old)(y - m_old)
+        # with lam = exp(-rho * block_t / memory): no new information, no forgetting.
         w = self._w
-        heater = self.heater
-        if centred:
-            dx = x - self._mx
-            du = u - self._mu
-            dd = d - self._md
-        else:
-            dx = x
-            du = u
-            dd = d
-        if w < 2.0 * n:
+        if w < 3.0 * n:
             rho = 1.0
         else:
-            rho = dx * dx * self._inv_exc2
-            if heater:
-                # a duty change of 0.1 counts like the full temperature excitation
-                rho += 100.0 * du * du
+            rho = dy * dy * self._inv_exc2
             if rho > 1.0:
                 rho = 1.0
         try:
@@ -390,72 +348,106 @@ class ThermalEstimator:
             lam = 0.0
         q = rho * n
         w = lam * w + q
-        if w <= 0.0:
+        if not w > 0.0:
             return
         self._w = w
         self._w_blocks = lam * self._w_blocks + rho  # for the degrees of freedom
-        # sum of squared per-reading weights: with forgetting the estimate's
-        # variance is s^2 * (sum w^2 x^2) / (sum w x^2)^2, about (W2/W) s^2 / Cxx
+        # sum of squared per-reading weights: with forgetting the variance of
+        # the estimate is about (W2 / W) s^2 times the inverse co-moment matrix
         self._w_sq = lam * lam * self._w_sq + rho * q
-        if centred:
-            a = q / w
-            self._mx += a * dx
-            self._md += a * dd
-            if heater:
-                self._mu += a * du
-            q = q - q * a
-        qdx = q * dx
-        self._cxx = lam * self._cxx + qdx * dx
-        self._cxd = lam * self._cxd + qdx * dd
-        self._cdd = lam * self._cdd + q * dd * dd
+        a = q / w
+        self._my += a * dy
+        # the regressors' means move by a * deviation: keep them relative
+        self._xr -= a * dx
+        b = q - q * a
+        bdx = b * dx
+        self._cxx = lam * self._cxx + bdx * dx
+        self._cxy = lam * self._cxy + bdx * dy
+        self._cyy = lam * self._cyy + b * dy * dy
+        if centred_t:
+            self._tr -= a * dt_
+            bdt = b * dt_
+            self._cxt = lam * self._cxt + bdx * dt_
+            self._ctt = lam * self._ctt + bdt * dt_
+            self._cty = lam * self._cty + bdt * dy
         if heater:
-            qdu = q * du
-            self._cxu = lam * self._cxu + qdx * du
-            self._cuu = lam * self._cuu + qdu * du
-            self._cud = lam * self._cud + qdu * dd
+            self._ur -= a * du
+            bdu = b * du
+            self._cxu = lam * self._cxu + bdx * du
+            self._cuu = lam * self._cuu + bdu * du
+            self._cuy = lam * self._cuy + bdu * dy
+            if centred_t:
+                self._ctu = lam * self._ctu + bdt * du
 
     # ----------------------------------------------------------------- answer
-    def _solve(self, w, mx, mu, md, cxx, cxu, cuu, cxd, cud):
-        """Ridge-regularised normal equations; sets ``_k, _g, _ikk, _ikg, _igg``.
+    def _solve(self, p_kk, p_tt, p_kt, p_gg):
+        """Solve the ridge-regularised normal equations for (k, kR, g).
 
-        The prior on ``k`` has the weight of ``excitation_c**2`` (deg C^2): it
-        matters only while the data have moved less than that.
+        ``p_*`` are prior precisions added to the co-moment matrix (scaled by
+        the residual variance). Unused parameters get an identity row. Sets
+        ``_k, _kr, _g`` and the inverse matrix ``_i11 .. _i33``. Returns False
+        when the system is singular.
         """
-        w0 = 1.0 / self._inv_exc2
-        a11 = cxx + w0
-        b1 = cxd + w0 * self._k0
-        if self.heater:
-            a12 = cxu
-            a22 = cuu + 0.01  # a very weak pull of g towards 0
-            det = a11 * a22 - a12 * a12
-            if not det > 0.0:
-                return False
-            self._k = (a22 * b1 - a12 * cud) / det
-            self._g = (a11 * cud - a12 * b1) / det
-            self._ikk = a22 / det
-            self._igg = a11 / det
-            self._ikg = -a12 / det
+        centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
+        a11 = self._cxx + p_kk
+        b1 = self._cxy + p_kk * self._k0
+        if centred_t:
+            a12 = self._cxt + p_kt
+            a22 = self._ctt + p_tt
+            b2 = self._cty
         else:
-            self._k = b1 / a11
-            self._g = 0.0
-            self._ikk = 1.0 / a11
-            self._igg = 0.0
-            self._ikg = 0.0
+            a12 = 0.0
+            a22 = 1.0
+            b2 = 0.0
+        if self.heater:
+            a13 = self._cxu
+            a23 = self._ctu if centred_t else 0.0
+            a33 = self._cuu + p_gg
+            b3 = self._cuy
+        else:
+            a13 = 0.0
+            a23 = 0.0
+            a33 = 1.0
+            b3 = 0.0
+        # symmetric 3x3 inverse by cofactors
+        c11 = a22 * a33 - a23 * a23
+        c12 = a13 * a23 - a12 * a33
+        c13 = a12 * a23 - a13 * a22
+        det = a11 * c11 + a12 * c12 + a13 * c13
+        if not det > 0.0:
+            return False
+        inv = 1.0 / det
+        i11 = c11 * inv
+        i12 = c12 * inv
+        i13 = c13 * inv
+        i22 = (a11 * a33 - a13 * a13) * inv
+        i23 = (a12 * a13 - a11 * a23) * inv
+        i33 = (a11 * a22 - a12 * a12) * inv
+        self._k = i11 * b1 + i12 * b2 + i13 * b3
+        self._kr = (i12 * b1 + i22 * b2 + i23 * b3) if centred_t else 0.0
+        self._g = (i13 * b1 + i23 * b2 + i33 * b3) if self.heater else 0.0
+        self._i11 = i11
+        self._i12 = i12
+        self._i13 = i13
+        self._i22 = i22
+        self._i23 = i23
+        self._i33 = i33
         return True
 
-    def _eta_at(self, k, g, c, target_c, temp, duty):
-        """Time to target (s) for intercept ``c`` (= k R); 1e12 for "never"."""
-        eq = (c + g * duty) / k if self._centred() else self._ambient_now() + g * duty / k
-        t = model.time_to_target_s(temp, target_c, k, eq)
+    def _level(self, k, kr, g, my):
+        """Fitted current temperature (deg C) for the parameters given."""
+        return my + k * self._xr + kr * self._tr + g * self._ur
+
+    def _eta_at(self, k, kr, g, my, target_c, duty):
+        """Time to target (s) for given parameters; 1e12 for "never"."""
+        if self._ambient_measured or self._ambient_fixed is not None:
+            r = self._r_prev
+        else:
+            r = kr / k
+        t = model.time_to_target_s(self._level(k, kr, g, my), target_c, k, r + g * duty / k)
         if t is None:
             return 1e12
         return t
-
-    def _centred(self):
-        return not (self._ambient_measured or self._ambient_fixed is not None)
-
-    def _ambient_now(self):
-        return self._r_prev if self._ambient_measured else self._ambient_fixed
 
     def predict(self, target_c):
         """Compute the time until ``target_c`` (deg C); return the status code.
@@ -475,83 +467,54 @@ class ThermalEstimator:
 
     def _predict(self, target_c):
         w = self._w
-        if self.readings < 2 or w < 3.0 or not _finite(target_c):
+        if self.readings < 2 or self._w_blocks < 3.0 or not _finite(target_c):
             self._clear_answer(st.GATHERING)
             if self.readings:
                 self.temp_est_c = self._y_prev
             return self.status
         self._clear_answer(st.SETTLING)
-        centred = self._centred()
+        centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
         heater = self.heater
         duty = self._u_prev if heater else 0.0
-        mx = self._mx
-        mu = self._mu
-        md = self._md
-        cxx = self._cxx
-        cxu = self._cxu
-        cuu = self._cuu
-        cxd = self._cxd
-        cud = self._cud
-        if not self._solve(w, mx, mu, md, cxx, cxu, cuu, cxd, cud):
-            return self.status
-        k = self._k
-        g = self._g
-        n_par = 2.0 if heater else 1.0
-        if centred:
-            n_par += 1.0
-        # block means weighted by their reading counts: the weighted residual sum
-        # estimates (blocks - parameters) times the per-reading variance
+        n_par = 2.0 + (1.0 if centred_t else 0.0) + (1.0 if heater else 0.0)
         dof = self._w_blocks - n_par
         if dof < 1.0:
             dof = 1.0
-        rss = self._cdd - k * cxd - g * cud
-        if rss < 0.0:
-            rss = 0.0
-        s2 = rss / dof + 1e-20  # per-reading variance of the filtered derivative, (K/s)^2
-        # variance of the parameters per unit of the inverse information:
-        # s^2 times the forgetting factor W2/W (1 without forgetting, ~1/2 at
-        # steady state), see _moments
+        # Priors as pseudo-observations, in units of the residual variance s2:
+        # k ~ N(k0, k0^2); g ~ N(0, (1 K/s)^2); and, for an estimated ambient,
+        # kR - R0 k ~ N(0, (k sd_R)^2). s2 and k are refined over two passes.
+        s2 = 1e-4  # deg C^2: a floor of about one hundredth of a degree
+        k = self._k0
+        for _ in (0, 1, 2):
+            p_kk = s2 / (self._k0 * self._k0)
+            p_gg = s2
+            p_tt = 0.0
+            p_kt = 0.0
+            if centred_t:
+                kk = k if k > 0.1 * self._k0 else 0.1 * self._k0
+                p_r = s2 / (kk * kk * self._prior_r_var)
+                r0 = self._prior_r
+                p_kk += p_r * r0 * r0
+                p_tt = p_r
+                p_kt = -p_r * r0
+            if not self._solve(p_kk, p_tt, p_kt, p_gg):
+                return self.status
+            k = self._k
+            rss = self._cyy - k * self._cxy - self._kr * self._cty - self._g * self._cuy
+            s2_new = rss / dof
+            s2 = s2_new if s2_new > 1e-4 else 1e-4
+        kr = self._kr
+        g = self._g
+        # variance of the parameters: s2 * (W2 / W) * inverse matrix
         s2p = s2 * self._w_sq / w
-        if centred:
-            # The ambient prior enters as one pseudo-reading: at y_f = R0 with
-            # the heater off the liquid does not move (d = 0), with derivative
-            # uncertainty k * sd(R0), i.e. weight s^2 / (k sd)^2. Its weight
-            # depends on k, so iterate twice from the data-only fit.
-            xp = -self._prior_r
-            for _ in (0, 1):
-                kk = k if k > self._k0 * 0.01 else self._k0 * 0.01
-                wp = s2 / (kk * kk * self._prior_r_var)
-                wt = w + wp
-                f = w * wp / wt
-                ex = mx - xp
-                eu = mu
-                ed = md
-                if not self._solve(wt, 0.0, 0.0, 0.0, cxx + f * ex * ex, cxu + f * ex * eu,
-                                   cuu + f * eu * eu, cxd + f * ex * ed, cud + f * eu * ed):
-                    return self.status
-                k = self._k
-                g = self._g
-            mx = (w * mx + wp * xp) / wt
-            mu = w * mu / wt
-            md = w * md / wt
-            w = wt
         self.rate_per_s = k
         self.gain_k_per_s = g
         if not k > 0.0:
             return self.status
-        ikk = self._ikk
-        if centred:
-            c = md - k * mx - g * mu  # intercept = k R
-            r = c / k
-        else:
-            c = 0.0
-            r = self._ambient_now()
+        my = self._my
+        r = kr / k if centred_t else self._r_prev
         eq = r + g * duty / k
-        yf = self._yf
-        rf = self._rf if self._ambient_measured else r
-        # Current temperature from the smooth filter and the fitted slope:
-        # T = y_f + tau * y_f',  y_f' = k (R_f - y_f) + g u_f
-        temp = yf + self.filter_s * (k * (rf - yf) + g * self._uf)
+        temp = self._level(k, kr, g, my)
         self.temp_est_c = temp
         self.equilibrium_c = eq
         self.ambient_est_c = r
@@ -568,31 +531,33 @@ class ThermalEstimator:
             self.status = st.OUT_OF_REACH
             return self.status
         eta = math.log(gap_eq / (eq - target_c)) / k
-        # Delta method, var(eta) = grad' Cov grad, with forward differences.
-        # In centred form the mean derivative md is independent of (k, g), so
-        # the intercept moves with k as c = md - k mx - g mu.
+        # Delta method: var(eta) = grad' Cov grad with forward differences; the
+        # mean reading is independent of the slopes in centred form.
         hk = 1e-4 * k
-        ck = c - hk * mx if centred else 0.0
-        dk = (self._eta_at(k + hk, g, ck, target_c, temp, duty) - eta) / hk
-        var_eta = dk * dk * s2p * ikk
+        gk = (self._eta_at(k + hk, kr, g, my, target_c, duty) - eta) / hk
+        var_eta = gk * gk * self._i11
+        if centred_t:
+            hr = 1e-4 * abs(kr) + 1e-12
+            gr = (self._eta_at(k, kr + hr, g, my, target_c, duty) - eta) / hr
+            var_eta += gr * gr * self._i22 + 2.0 * gk * gr * self._i12
+        else:
+            gr = 0.0
         if heater:
             hg = 1e-4 * abs(g) + 1e-9
-            cg = c - hg * mu if centred else 0.0
-            dg = (self._eta_at(k, g + hg, cg, target_c, temp, duty) - eta) / hg
-            var_eta += dg * dg * s2p * self._igg + 2.0 * dk * dg * s2p * self._ikg
-        if centred:
-            hm = 1e-4 * abs(md) + 1e-9
-            dm = (self._eta_at(k, g, c + hm, target_c, temp, duty) - eta) / hm
-            var_eta += dm * dm * s2p / w
-        # The current level: y_f carries about s^2 tau^2 * dt / (2 tau) of noise.
-        dtemp = 1.0 / (k * (temp - eq))
-        var_eta += dtemp * dtemp * s2 * self.filter_s * self._dt_cached * 0.5
+            gg = (self._eta_at(k, kr, g + hg, my, target_c, duty) - eta) / hg
+            var_eta += gg * gg * self._i33 + 2.0 * gk * gg * self._i13 + 2.0 * gr * gg * self._i23
+        var_eta *= s2p
+        # the mean reading: d eta / d level = 1 / (k (T - E)), variance s2p / W
+        gm = 1.0 / (k * (temp - eq))
+        var_eta += gm * gm * s2p / w
+        if var_eta < 0.0:
+            var_eta = 0.0
         rel_sd = math.sqrt(var_eta) / eta if eta > 0.0 else 0.0
         spread = math.exp(self._z * rel_sd) if self._z * rel_sd < 50.0 else _INF
         self.eta_s = eta
         self.eta_low_s = eta / spread
         self.eta_high_s = eta * spread
-        sd_k = math.sqrt(s2p * ikk)
+        sd_k = math.sqrt(s2p * self._i11) if self._i11 > 0.0 else 0.0
         if self._age_s >= self.settle_s and rel_sd <= self.max_relative_sd and sd_k < 0.5 * k:
             self.status = st.TRACKING
         return self.status
