@@ -37,7 +37,7 @@ _ROW = "<Hf"           # seconds since the previous reading, reading (deg C)
 
 def new_estimator():
     """The estimator with this product's settings (unknown ambient)."""
-    return ThermalEstimator(ambient_prior_c=21.0, memory_s=600.0, filter_s=20.0)
+    return ThermalEstimator(ambient_prior_c=21.0, memory_s=600.0)
 
 
 def read_mug_c(adc):

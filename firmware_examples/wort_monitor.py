@@ -69,7 +69,7 @@ def main():
     # A fermenter changes over hours: long memory and pre-filter; the cellar or
     # brew room is known to within a few degrees.
     est = ThermalEstimator(ambient_prior_c=CELLAR_C, ambient_prior_sd_c=4.0, memory_s=10800.0,
-                           filter_s=300.0, settle_s=600.0, rate_prior_per_s=1.0 / 14400.0)
+                           block_s=60.0, settle_s=600.0, rate_prior_per_s=1.0 / 14400.0)
     comp = sensors.LagCompensator(PROBE_LAG_S) if PROBE_LAG_S > 0.0 else None
     crc_errors = [0]
     skipped = 0

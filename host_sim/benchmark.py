@@ -178,7 +178,7 @@ def write_csv(path, all_results):
 
 def run_cli(args):
     """``benchmark`` subcommand (arguments from :mod:`host_sim.cli`)."""
-    settings = {"memory_s": args.memory_s, "filter_s": args.filter_s,
+    settings = {"memory_s": args.memory_s, "block_s": args.block_s,
                 "interval": args.interval, "settle_s": args.settle_s, "heater": args.heater,
                 "use_ambient_column": not args.ignore_ambient_column}
     if args.ambient is not None:

@@ -38,8 +38,8 @@ def _add_estimator_options(p):
                    help="two-sided probability of the ETA interval, e.g. 0.8")
     g.add_argument("--memory-s", type=float, metavar="S", default=None,
                    help="forgetting time constant of the fit, seconds")
-    g.add_argument("--filter-s", type=float, metavar="S", default=None,
-                   help="pre-filter time constant, seconds")
+    g.add_argument("--block-s", type=float, metavar="S", default=None,
+                   help="averaging block length of the fit, seconds")
     g.add_argument("--settle-s", type=float, metavar="S", default=None,
                    help="seconds of data before an answer may be trusted")
     g.add_argument("--heater", choices=("auto", "on", "off"), default="auto",
@@ -48,7 +48,7 @@ def _add_estimator_options(p):
 
 
 def _estimator_kwargs(args):
-    kw = {"memory_s": args.memory_s, "filter_s": args.filter_s, "interval": args.interval,
+    kw = {"memory_s": args.memory_s, "block_s": args.block_s, "interval": args.interval,
           "settle_s": args.settle_s}
     if args.ambient_prior is not None:
         kw["ambient_prior_c"] = args.ambient_prior
