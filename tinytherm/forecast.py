@@ -633,7 +633,11 @@ class Forecast:
         p1 = _phi1(x)
         om = x * p1  # 1 - exp(-k s)
         T0 = self._pT
-        T = T0 + om * (self._pr - T0) + self._pq * s * p1
+        if x < 0.5:
+            T = T0 + om * (self._pr - T0)
+        else:  # settles exactly onto the ambient term for large k s
+            T = self._pr + (T0 - self._pr) * _exp(-x)
+        T += self._pq * s * p1
         if self._pkind == _PIECE_LINEAR:
             # ambient slope b: particular term b*s - b*(1-exp(-ks))/k, written stably
             if self._pb != 0.0:
