@@ -55,7 +55,7 @@ def read_mug_c(adc):
 def restore_estimator(blob):
     """``(estimator, last_wall_s, rows)`` rebuilt from RTC memory (fresh if invalid)."""
     est = new_estimator()
-    rows = []
+    rows = []  # type: list
     head = struct.calcsize(_HEAD)
     row = struct.calcsize(_ROW)
     if len(blob) < head or blob[:4] != MAGIC:

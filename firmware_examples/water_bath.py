@@ -43,6 +43,7 @@ ROOM_C = 20.0            # your guess of the room temperature, deg C
 START_MARGIN = 1.15      # heat for this much longer than the plan says
 WATER_J_PER_KG_K = 4186.0  # specific heat of water near 20-60 C (common handbook value)
 OVERSAMPLE = 8
+LEARN_HEATING_S = 180    # seconds of heating before a time-to-setpoint is shown
 
 WAITING = 0
 HEATING = 1
@@ -132,8 +133,11 @@ def main():
                 else "late by " + fmt_min(elapsed_s - READY_BY_S)))
         if phase == HEATING:
             duty = 1.0
-            if est.status == status.TRACKING:
-                eta = est.eta_s
+            # The heater gain is unknown until the heater has run for a while
+            # (and the probe lags): no time-to-setpoint in the first minutes.
+            eta = est.eta_s
+            if (est.status == status.TRACKING and eta is not None
+                    and elapsed_s - start_at_s >= LEARN_HEATING_S):
                 ready_s = elapsed_s + eta
                 print("log t=%d temp=%.2f eta=%d ready_at=%d %s" % (
                     elapsed_s, temp_c, int(eta + 0.5), int(ready_s + 0.5),

@@ -98,9 +98,10 @@ def test_mug_deep_sleep_cycle_matches_truth(tmp_path):
             eta = int(row["eta"])
             remaining = arrival_s - t
             assert abs(eta - remaining) <= 0.15 * remaining + 30.0, (t, eta, remaining)
-            minutes = int(eta / 60.0 + 0.5)
-            if minutes >= 1:
-                assert text == "drinkable in about %d min" % minutes
+            m = re.match(r"drinkable in about (\d+) min$", text)
+            if eta >= 90:
+                # the log rounds eta to whole seconds, the display to minutes
+                assert m and abs(int(m.group(1)) - eta / 60.0) <= 0.52, (text, eta)
             tracked += 1
         if t > arrival_s + 40.0:
             assert row["status"] == "arrived", row
@@ -171,7 +172,7 @@ def test_water_bath_delay_start_eta_and_hold(tmp_path):
     for row in logs:
         t = int(row["t"])
         remaining = arrival_s - t
-        if t - start_s >= 120 and remaining > 0:
+        if remaining > 0:
             assert abs(int(row["ready_at"]) - arrival_s) <= 0.15 * remaining + 30.0, row
     # holding: never far above the setpoint, never far below once there
     after = [c for t, c, _ in truth if t > arrival_s + 60]
@@ -207,12 +208,15 @@ def test_wort_monitor_time_to_pitching(tmp_path):
     for row in logs:
         t = int(row["t"]) - EPOCH_S
         remaining = arrival_s - t
-        if row["status"] == "tracking" and remaining > 600:
-            assert abs(int(row["eta"]) - remaining) <= 0.10 * remaining + 120.0, (row, remaining)
+        # after the first hour (the fit needs curvature over a slow approach)
+        if t >= 3600 and row["status"] == "tracking" and remaining > 600:
+            assert abs(int(row["eta"]) - remaining) <= 0.15 * remaining + 120.0, (row, remaining)
             tracked += 1
+        if t >= 3600 and remaining > 600:
+            assert row["status"] == "tracking", row
         if remaining < -300:
             assert row["status"] == "arrived", row
-    assert tracked >= 15
+    assert tracked >= 12
     # the three faults were skipped: power-up code, and two scratchpads failing the CRC
     last = logs[-1]
     assert last["skipped"] == "3" and last["crc"] == "2" and last["power_up"] == "1"
