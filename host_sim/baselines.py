@@ -132,11 +132,11 @@ class ExpRefitBaseline:
         slope = np.polyfit(x[-n3:], y[-n3:], 1)[0]
         guesses.append((y[-1], slope, 1.0 / max(span, 300.0)))
         best = None
-        lo_k, hi_k = math.log(1e-6), math.log(0.5)
+        lo_k, hi_k = math.log(1e-6), math.log(0.05)  # time constants 20 s .. 11 days
 
         def resid(p):
             k = math.exp(p[2])
-            return p[0] - p[1] * np.expm1(-k * x) / k - y
+            return p[0] - p[1] * np.expm1(np.minimum(-k * x, 600.0)) / k - y
         for y1, sl, k in guesses:
             p0 = np.array([y1, sl, min(max(math.log(max(k, 1e-7)), lo_k), hi_k)])
             try:

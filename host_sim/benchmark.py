@@ -48,7 +48,8 @@ def seeds_for(seed_set, per_kind):
 def run_one(job):
     """Score one (kind, seed, settings) job; returns a dict per method."""
     kind, seed, settings = job
-    gen = scenarios.generate(kind, seed)
+    settings = dict(settings)
+    gen = scenarios.generate(kind, seed, sensor_faults=settings.pop("sensor_faults", True))
     truth = gen.truth
     trace = Trace(gen.time_s, gen.temp_c, ambient_c=gen.ambient_c, heater=gen.heater,
                   events=gen.events)
@@ -178,19 +179,24 @@ def write_csv(path, all_results):
 
 def run_cli(args):
     """``benchmark`` subcommand (arguments from :mod:`host_sim.cli`)."""
-    settings = {"memory_s": args.memory_s, "block_s": args.block_s,
-                "interval": args.interval, "settle_s": args.settle_s, "heater": args.heater,
-                "use_ambient_column": not args.ignore_ambient_column}
+    from host_sim.cli import _estimator_kwargs
+    try:
+        settings = _estimator_kwargs(args)
+    except ValueError as exc:
+        print("error: %s" % exc, file=sys.stderr)
+        return 2
+    settings["heater"] = args.heater
+    settings["use_ambient_column"] = not args.ignore_ambient_column
+    settings["sensor_faults"] = not args.no_faults
     if args.ambient is not None:
         settings["ambient_c"] = args.ambient
-    if args.ambient_prior is not None:
-        settings["ambient_prior_c"] = args.ambient_prior
-    settings = {k: v for k, v in settings.items() if v is not None}
     sets = ("tune", "holdout") if args.seeds == "both" else (args.seeds,)
     all_results = []
     for seed_set in sets:
         results = run_suite(seed_set, per_kind=args.per_kind, jobs=args.jobs, settings=settings)
         all_results.append((seed_set, results))
+        if args.no_faults:
+            print("(diagnosis run: sensor faults off)")
         print(format_table(seed_set, results, args.per_kind))
         print("")
         sys.stdout.flush()

@@ -42,16 +42,25 @@ def _add_estimator_options(p):
                    help="averaging block length of the fit, seconds")
     g.add_argument("--settle-s", type=float, metavar="S", default=None,
                    help="seconds of data before an answer may be trusted")
+    g.add_argument("--max-relative-sd", type=float, metavar="X", default=None,
+                   help="largest relative ETA spread still shown as tracking")
     g.add_argument("--heater", choices=("auto", "on", "off"), default="auto",
                    help="fit a heater gain from the trace's heater column (auto: when the "
                         "column exists and has a nonzero duty)")
 
 
 def _estimator_kwargs(args):
+    """Settings the user gave (None = the core's default), checked against the core."""
+    import inspect
+    from tinytherm.estimator import ThermalEstimator
     kw = {"memory_s": args.memory_s, "block_s": args.block_s, "interval": args.interval,
-          "settle_s": args.settle_s}
-    if args.ambient_prior is not None:
-        kw["ambient_prior_c"] = args.ambient_prior
+          "settle_s": args.settle_s, "max_relative_sd": args.max_relative_sd,
+          "ambient_prior_c": args.ambient_prior}
+    kw = {k: v for k, v in kw.items() if v is not None}
+    known = inspect.signature(ThermalEstimator.__init__).parameters
+    for name in kw:
+        if name not in known:
+            raise ValueError("this version of the estimator has no setting %s" % name)
     return kw
 
 
@@ -73,9 +82,10 @@ def cmd_replay(args):
     if args.fahrenheit and args.target_in_f:
         target = (target - 32.0) * 5.0 / 9.0
     try:
+        settings = _estimator_kwargs(args)
         result = replay(trace, target, ambient_c=args.ambient, heater=args.heater,
                         use_ambient_column=not args.ignore_ambient_column, progress=True,
-                        **_estimator_kwargs(args))
+                        **settings)
     except ValueError as exc:
         print("error: %s" % exc, file=sys.stderr)
         return 2
@@ -251,6 +261,8 @@ def build_parser():
                    help="traces per scenario kind and seed set (default 14: 70 traces)")
     b.add_argument("--jobs", type=int, default=2, help="worker processes (default 2)")
     b.add_argument("--csv", metavar="PER_TRACE.csv", help="write per-trace figures")
+    b.add_argument("--no-faults", action="store_true",
+                   help="diagnosis: scenarios without dropouts, spikes or stuck stretches")
     _add_estimator_options(b)
     b.set_defaults(func=cmd_benchmark)
     return p
