@@ -942,3 +942,199 @@ class Forecast:
         self.work = self._work
         self._state_T = T
         return result
+
+
+class AmbientTracker:
+    """Level, trend and cycle of a measured ambient, in fixed state.
+
+    Feed it the ambient sensor's readings (:meth:`update`); then
+    :meth:`apply` sets a :class:`Forecast`'s ambient to the best extrapolation
+    it has:
+
+    * a periodic schedule once a full cycle has been seen (a fridge's
+      compressor cycle): mean and fundamental of the last complete cycle,
+      period between the last two upward triggers of a Schmitt trigger at the
+      mean +- ``band_c``, phase from the time since the last trigger (the
+      first cycle's amplitude is half its swing; later ones project the cycle
+      on the fundamental);
+    * otherwise, when a steady trend explains at least ``trend_min_share`` of
+      the recent variance (a kitchen warming up), a ramp from the recent
+      level and trend (exponentially weighted straight-line fit, forgetting
+      time ``memory_s``), frozen after ``trend_s`` seconds;
+    * otherwise a constant at the exponentially weighted mean.
+
+    ``memory_s`` (s) forgetting time of the level/trend fit; ``band_c`` (K)
+    hysteresis for detecting a crossing of the mean (above the sensor noise);
+    ``trend_s`` (s) how far ahead the trend is extrapolated (0: never);
+    ``trend_min_share`` (0..1) the share of variance a trend must explain;
+    ``min_period_s``
+    and ``max_period_s`` (s) the cycle lengths accepted. Work per update: O(1)
+    (two sin/cos and one exp); no containers are created.
+    """
+
+    def __init__(self, memory_s=1800.0, band_c=0.3, trend_s=600.0, trend_min_share=0.8,
+                 min_period_s=120.0, max_period_s=14400.0):
+        if not (memory_s > 0.0 and band_c >= 0.0 and trend_s >= 0.0
+                and 0.0 <= trend_min_share <= 1.0 and 0.0 < min_period_s < max_period_s):
+            raise ValueError("memory_s > 0, band_c >= 0, trend_s >= 0, share in [0, 1], "
+                             "0 < min < max period")
+        self.trend_min_share = float(trend_min_share)
+        self.memory_s = float(memory_s)
+        self.band_c = float(band_c)
+        self.trend_s = float(trend_s)
+        self.min_period_s = float(min_period_s)
+        self.max_period_s = float(max_period_s)
+        self.reset()
+
+    def reset(self):
+        """Forget everything."""
+        # weighted straight-line fit R = level - slope * age (age: s before now)
+        self._s0 = 0.0
+        self._s1 = 0.0
+        self._s2 = 0.0
+        self._sy = 0.0
+        self._sya = 0.0
+        self._syy = 0.0
+        self._last_c = 0.0
+        self._started = False
+        # cycle detection
+        self._high = True         # Schmitt trigger state (starts armed high)
+        self._since_up_s = -1.0   # s since the last upward trigger (-1: none yet)
+        self._cyc_max = 0.0       # highest and lowest reading this cycle, deg C
+        self._cyc_min = 0.0
+        self._cyc_int = 0.0       # integral of R over the current cycle, K s
+        self._cyc_sin = 0.0       # integral of (R - mean) sin(theta), K s
+        self._cyc_cos = 0.0
+        self.level_c = None        # level now from the straight-line fit, deg C
+        self.slope_c_per_s = None  # fitted trend, K/s
+        self.mean_level_c = None   # exponentially weighted mean, deg C
+        self.trend_share = 0.0     # share of the variance the trend explains, 0..1
+        self.period_s = None       # last complete cycle, s
+        self.mean_c = None         # mean over the last complete cycle, deg C
+        self.amplitude_c = None    # fundamental amplitude of the last cycle, K
+        self._offset_rad = 0.0     # phase of the fundamental at the upward crossing
+        self.readings = 0
+
+    def update(self, ambient_c, dt_s):
+        """Add one ambient reading (deg C) taken ``dt_s`` seconds after the previous one.
+
+        Returns False (and ignores it) for a non-finite reading or a negative
+        or non-finite ``dt_s``.
+        """
+        if not (_finite(ambient_c) and _finite(dt_s) and dt_s >= 0.0):
+            return False
+        if not self._started:
+            self._started = True
+            self._s0 = 1.0
+            self._sy = ambient_c
+            self._syy = ambient_c * ambient_c
+            self._last_c = ambient_c
+            self.level_c = ambient_c
+            self.mean_level_c = ambient_c
+            self.slope_c_per_s = 0.0
+            self.readings = 1
+            return True
+        self.readings += 1
+        # ageing every stored point by dt, then forgetting
+        s0 = self._s0
+        s1 = self._s1
+        self._s2 += 2.0 * dt_s * s1 + dt_s * dt_s * s0
+        self._s1 = s1 + dt_s * s0
+        self._sya += dt_s * self._sy
+        f = _exp(-dt_s / self.memory_s)
+        self._s0 = s0 * f + 1.0
+        self._s1 *= f
+        self._s2 *= f
+        self._sy = self._sy * f + ambient_c
+        self._syy = self._syy * f + ambient_c * ambient_c
+        self._sya *= f
+        s0 = self._s0
+        mean = self._sy / s0
+        self.mean_level_c = mean
+        self.level_c = mean
+        self.slope_c_per_s = 0.0
+        self.trend_share = 0.0
+        sxx = self._s2 - self._s1 * self._s1 / s0  # weighted spread of the ages
+        if sxx > 1e-12 * self._s2 and sxx > 0.0:
+            # minimise sum w (R - L + b a)^2 over level L and slope b
+            slope = (self._s1 * self._sy / s0 - self._sya) / sxx
+            self.level_c = mean + slope * self._s1 / s0
+            self.slope_c_per_s = slope
+            total = self._syy - self._sy * mean
+            if total > 0.0:
+                share = slope * slope * sxx / total
+                self.trend_share = share if share < 1.0 else 1.0
+        self._cycle(ambient_c, dt_s)
+        self._last_c = ambient_c
+        return True
+
+    def _cycle(self, ambient_c, dt_s):
+        """Schmitt trigger at mean +- band_c; per-cycle integrals between triggers."""
+        ref = self.mean_c if self.mean_c is not None else self._sy / self._s0
+        prev = self._last_c
+        if self._since_up_s >= 0.0:
+            self._since_up_s += dt_s
+            mid = 0.5 * (prev + ambient_c)
+            self._cyc_int += mid * dt_s
+            if ambient_c > self._cyc_max:
+                self._cyc_max = ambient_c
+            if ambient_c < self._cyc_min:
+                self._cyc_min = ambient_c
+            if self.period_s is not None:
+                th = _TWO_PI * (self._since_up_s - 0.5 * dt_s) / self.period_s
+                self._cyc_sin += (mid - self.mean_c) * math.sin(th) * dt_s
+                self._cyc_cos += (mid - self.mean_c) * math.cos(th) * dt_s
+        if self._high:
+            if ambient_c < ref - self.band_c:
+                self._high = False
+            return
+        level = ref + self.band_c
+        if ambient_c <= level:
+            return
+        self._high = True
+        # trigger time by linear interpolation inside the last step
+        back = 0.0
+        if prev < level:
+            back = dt_s * (ambient_c - level) / (ambient_c - prev)
+        if self._since_up_s >= 0.0:
+            length = self._since_up_s - back
+            if self.min_period_s <= length <= self.max_period_s:
+                mean = (self._cyc_int - 0.5 * (level + ambient_c) * back) / length
+                if self.period_s is not None:
+                    # fundamental by projection on the previous period's sin/cos
+                    a_s = 2.0 * self._cyc_sin / length
+                    a_c = 2.0 * self._cyc_cos / length
+                    self.amplitude_c = math.sqrt(a_s * a_s + a_c * a_c)
+                    self._offset_rad = math.atan2(a_c, a_s)
+                else:
+                    # first cycle: half the swing, sine through the trigger level
+                    amp = 0.5 * (self._cyc_max - self._cyc_min)
+                    self.amplitude_c = amp
+                    x = (level - mean) / amp if amp > 0.0 else 0.0
+                    self._offset_rad = math.asin(max(-1.0, min(1.0, x)))
+                self.period_s = length
+                self.mean_c = mean
+        self._since_up_s = back
+        self._cyc_int = 0.5 * (level + ambient_c) * back
+        self._cyc_sin = 0.0
+        self._cyc_cos = 0.0
+        self._cyc_max = ambient_c
+        self._cyc_min = ambient_c
+
+    def cycling(self):
+        """True once a period, mean and amplitude of the cycle are known."""
+        return self.amplitude_c is not None and self._since_up_s >= 0.0
+
+    def apply(self, fc):
+        """Set the ambient of Forecast ``fc`` from what has been seen; returns the AMBIENT_* kind."""
+        if self.cycling():
+            phase = _TWO_PI * self._since_up_s / self.period_s + self._offset_rad
+            fc.set_ambient_periodic(self.mean_c, self.amplitude_c, self.period_s, phase)
+            return AMBIENT_PERIODIC
+        if self.level_c is None:
+            return fc._amb_kind
+        if self.trend_s > 0.0 and self.trend_share >= self.trend_min_share:
+            fc.set_ambient_ramp(self.level_c, self.slope_c_per_s, self.trend_s)
+            return AMBIENT_RAMP
+        fc.set_ambient_constant(self.mean_level_c)
+        return AMBIENT_CONSTANT

@@ -54,3 +54,26 @@ class Forecast:
     def temperature_at_c(self, t_s: float, start_c: float) -> float: ...
     def time_to_target_s(self, start_c: float, target_c: float,
                          horizon_s: float = ...) -> Optional[float]: ...
+
+class AmbientTracker:
+    memory_s: float
+    band_c: float
+    trend_s: float
+    trend_min_share: float
+    min_period_s: float
+    max_period_s: float
+    level_c: Optional[float]
+    slope_c_per_s: Optional[float]
+    mean_level_c: Optional[float]
+    trend_share: float
+    period_s: Optional[float]
+    mean_c: Optional[float]
+    amplitude_c: Optional[float]
+    readings: int
+    def __init__(self, memory_s: float = 1800.0, band_c: float = 0.3, trend_s: float = 600.0,
+                 trend_min_share: float = 0.8, min_period_s: float = 120.0,
+                 max_period_s: float = 14400.0) -> None: ...
+    def reset(self) -> None: ...
+    def update(self, ambient_c: float, dt_s: float) -> bool: ...
+    def cycling(self) -> bool: ...
+    def apply(self, fc: Forecast) -> int: ...

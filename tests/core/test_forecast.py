@@ -310,3 +310,59 @@ def test_bad_inputs_are_refused():
         assert raised
     assert forecast.reason_name(forecast.REASON_NEVER) == "never"
     assert forecast.reason_name(99) == "unknown"
+
+
+def _feed_cycle(tracker, rng, period, amp, harmonic, seconds, noise):
+    t = 0.0
+    while t < seconds:
+        dt = 10.0 * (1.0 + rng.uniform(-0.3, 0.3))
+        t += dt
+        ph = 2.0 * math.pi * t / period + 0.7
+        r = 4.0 + amp * (math.sin(ph) + harmonic * math.sin(2.0 * ph + 0.4)) + rng.gauss(noise)
+        tracker.update(math.floor(r / 0.0625 + 0.5) * 0.0625, dt)  # 0.0625 C steps
+    return t
+
+
+def test_ambient_tracker_learns_a_cycle():
+    # Invented fridge-like air cycle: period 2400 s, +-1.5 K, quantised and noisy.
+    rng = XorShift(21)
+    tr = forecast.AmbientTracker()
+    t_end = _feed_cycle(tr, rng, 2400.0, 1.5, 0.0, 5.5 * 2400.0, 0.05)
+    assert tr.cycling()
+    assert abs(tr.period_s - 2400.0) < 0.03 * 2400.0
+    assert abs(tr.mean_c - 4.0) < 0.05
+    assert abs(tr.amplitude_c - 1.5) < 0.1
+    fc = Forecast(1.0 / 3000.0, 0.0, 0.0)
+    assert tr.apply(fc) == forecast.AMBIENT_PERIODIC
+    for ahead in (0.0, 300.0, 900.0, 2000.0):
+        truth = 4.0 + 1.5 * math.sin(2.0 * math.pi * (t_end + ahead) / 2400.0 + 0.7)
+        assert abs(fc.ambient_at_c(ahead) - truth) < 0.25, (ahead, fc.ambient_at_c(ahead), truth)
+    # a skewed cycle (second harmonic) still gives the right period and mean
+    tr2 = forecast.AmbientTracker()
+    _feed_cycle(tr2, XorShift(22), 1900.0, 2.0, 0.3, 6.0 * 1900.0, 0.08)
+    assert abs(tr2.period_s - 1900.0) < 0.04 * 1900.0
+    assert abs(tr2.mean_c - 4.0) < 0.08
+
+
+def test_ambient_tracker_level_and_trend():
+    # A kitchen warming 3 K per hour: the trend dominates, so a ramp is used.
+    rng = XorShift(23)
+    tr = forecast.AmbientTracker(memory_s=1200.0, trend_s=900.0)
+    t = 0.0
+    for i in range(400):
+        t += 10.0
+        tr.update(19.0 + t * 3.0 / 3600.0 + rng.gauss(0.03), 10.0)
+    assert tr.trend_share > 0.95
+    assert abs(tr.slope_c_per_s * 3600.0 - 3.0) < 0.05
+    assert abs(tr.level_c - (19.0 + t * 3.0 / 3600.0)) < 0.03
+    fc = Forecast(1.0 / 3000.0, 0.0, 0.0)
+    assert tr.apply(fc) == forecast.AMBIENT_RAMP
+    assert abs(fc.ambient_at_c(900.0) - fc.ambient_at_c(5000.0)) < 1e-12  # frozen after trend_s
+    # flat noisy air: the weighted mean, no ramp
+    flat = forecast.AmbientTracker()
+    for i in range(300):
+        flat.update(21.0 + rng.gauss(0.05), 10.0)
+    assert flat.apply(fc) == forecast.AMBIENT_CONSTANT
+    assert abs(fc.ambient_at_c(0.0) - 21.0) < 0.02
+    assert not flat.update(float("nan"), 10.0)
+    assert not flat.update(21.0, -1.0)
