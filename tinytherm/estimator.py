@@ -28,7 +28,15 @@ How the fit works (the reasons and the measurements are in DEVELOPERS.md):
 4. *Block means.* Readings are averaged over ``block_s`` before they enter the
    regression; the equation is linear, so it holds exactly for the means and
    most readings cost only a few float operations (heap use on MicroPython).
-5. *Answer on demand.* :meth:`ThermalEstimator.predict` solves the small
+5. *Guarded input, change detection, saved state.* Every reading first passes
+   a :class:`~tinytherm.guard.ReadingGuard` (rejected readings never touch the
+   fit). At each block a :class:`~tinytherm.change.ChangeDetector` watches the
+   block's residual against the fit made before it; on an alarm (top-up, lid
+   off, ...) the fit keeps only a fraction of its information, re-levels to
+   the new readings and reports ``DISTURBED`` until it has re-converged.
+   :meth:`ThermalEstimator.save` / :meth:`ThermalEstimator.restore` keep the
+   state in a 128-byte blob across deep sleep (see :mod:`tinytherm.blob`).
+6. *Answer on demand.* :meth:`ThermalEstimator.predict` solves the small
    ridge-regularised system (the ambient prior enters as one pseudo
    observation), and propagates the parameter uncertainty to the
    time-to-target by the delta method in log-time.
@@ -36,14 +44,17 @@ How the fit works (the reasons and the measurements are in DEVELOPERS.md):
 Fixed state, no per-update containers. Runs unchanged on CPython and MicroPython.
 """
 import math
+import struct
 
+from tinytherm import blob as bl
 from tinytherm import model
 from tinytherm import status as st
+from tinytherm.change import ChangeDetector
+from tinytherm.guard import GAP_RESTART, GAP_WIDEN, ReadingGuard
 
 _INF = math.inf
-_TICKS_PERIOD = 0x40000000  # MicroPython time.ticks_ms() wraps at 2**30
-_TICKS_HALF = 0x20000000
-_TICKS_MASK = 0x3FFFFFFF
+RELEVEL_BLOCKS = 2  # blocks after a detected change that only re-level the fit
+MISMATCH_C = 0.02  # deg C: model-mismatch allowance of a block residual (change detector)
 
 
 def normal_quantile(p):
@@ -90,15 +101,33 @@ class ThermalEstimator:
       deviation), felt only while the data hold little information.
     - ``excitation_c``: movement (deg C) of a block's mean reading away from
       the recent mean that counts as a fully informative block.
-    - ``min_temp_c``, ``max_temp_c``: plausible range of readings, deg C.
+    - ``min_temp_c``, ``max_temp_c``: plausible range of readings, deg C;
+      readings outside are rejected as ``OUT_OF_RANGE``.
+    - ``quantum_c``: sensor resolution, deg C (0.0625 for a 12-bit 1-Wire
+      sensor); the floor of the spike gate's scale.
+    - ``spike_window``: 3 or 5 readings for the spike gate, 0 to switch it off.
+    - ``max_gap_s``: after a longer time without an accepted reading the fit
+      forgets in proportion to the gap (its uncertainty widens).
+    - ``restart_gap_s``: after a longer one the fit starts afresh.
+    - ``stuck_change_c``: a sensor repeating one exact value while the fit
+      says the liquid should have moved this much (deg C, over at least
+      ``stuck_min_s`` seconds) is rejected as ``STUCK``; ``None``: no test.
+    - ``fault_after``: this many consecutive rejected readings turn the
+      answer into ``SENSOR_FAULT`` (no estimate).
+    - ``detect_changes``: watch for sudden changes (top-up, lid off) and
+      re-adapt; ``keep_fraction``: share of the fit's information kept after a
+      detected change.
 
-    Raises ValueError for arguments out of range.
+    Raises ValueError for arguments out of range. See :mod:`tinytherm.guard`
+    and :mod:`tinytherm.change` for what is rejected and detected.
     """
 
     def __init__(self, ambient_c=None, ambient_prior_c=21.0, ambient_prior_sd_c=8.0,
                  heater=False, memory_s=600.0, block_s=10.0, interval=0.8, settle_s=60.0,
                  max_relative_sd=0.25, rate_prior_per_s=1.0 / 1800.0, excitation_c=0.5,
-                 min_temp_c=-55.0, max_temp_c=150.0):
+                 min_temp_c=-55.0, max_temp_c=150.0, quantum_c=0.0625, spike_window=3,
+                 max_gap_s=120.0, restart_gap_s=3600.0, stuck_change_c=1.0, stuck_min_s=30.0,
+                 fault_after=5, detect_changes=True, keep_fraction=0.1):
         if ambient_c is not None and not _finite(ambient_c):
             raise ValueError("ambient_c must be a finite temperature or None")
         if not _finite(ambient_prior_c):
@@ -121,6 +150,22 @@ class ThermalEstimator:
             raise ValueError("excitation_c must be > 0 deg C")
         if not min_temp_c < max_temp_c:
             raise ValueError("min_temp_c must be below max_temp_c")
+        if type(fault_after) is not int or not 1 <= fault_after <= 255:
+            raise ValueError("fault_after must be an int in 1..255 (readings)")
+        if not 0.0 < keep_fraction < 1.0:
+            raise ValueError("keep_fraction must be in (0, 1)")
+        # ValueError with its own message for bad guard settings
+        self.guard = ReadingGuard(min_c=min_temp_c, max_c=max_temp_c, quantum_c=quantum_c,
+                                  spike_window=spike_window, max_gap_s=max_gap_s,
+                                  restart_gap_s=restart_gap_s, stuck_change_c=stuck_change_c,
+                                  stuck_min_s=stuck_min_s)
+        self.detector = ChangeDetector(jump_z=12.0) if detect_changes else None
+        self.fault_after = fault_after
+        self.keep_fraction = float(keep_fraction)
+        # per-reading noise variance floor for the change detector: at least
+        # the quantisation noise q^2 / 12 (uniform rounding error), deg C^2
+        self._s2_floor = max(1e-4, self.guard.quantum_c * self.guard.quantum_c / 12.0)
+        self._mismatch_c2 = MISMATCH_C * MISMATCH_C
         self._ambient_fixed = ambient_c
         self._prior_r = float(ambient_prior_c)
         self._prior_r_var = float(ambient_prior_sd_c) ** 2
@@ -139,13 +184,24 @@ class ThermalEstimator:
         self.reset()
 
     def reset(self):
-        """Forget all readings; settings are kept."""
+        """Forget all readings, the guard's window and counts; settings are kept."""
         self.readings = 0
         self.rejected = 0
         self.last_verdict = st.ACCEPTED
+        self.guard.reset()
+        self.changes = 0          # sudden changes detected since the reset
+        self._restart_fit()
+
+    def _restart_fit(self):
+        """Start the fit afresh (after a reset or a very long gap); counts are kept."""
+        self._fresh = True        # the next accepted reading starts the fit
+        self._disturbed = False
+        self._have_residual = False  # the change detector's previous block residual
+        self._last_residual = 0.0
+        self._relevel_blocks = 0     # blocks still to re-level after a change
+        if self.detector is not None:
+            self.detector.reset()
         self._age_s = 0.0
-        self._pending_dt_s = 0.0
-        self._last_ticks = -1
         self._dt_cached = -1.0
         self._half_dt = 0.0
         self._y_prev = 0.0
@@ -209,16 +265,19 @@ class ThermalEstimator:
         ``ticks_ms`` is an int from a counter that wraps at 2**30 (as
         ``time.ticks_ms()``); the difference to the previous call is taken
         wrap-safe. Returns the reading's verdict code (see :meth:`update`).
+        After :meth:`restore` the tick reference is unknown (tick counters
+        restart at boot): the first call only sets it and returns
+        ``BAD_INPUT``; prefer :meth:`update` with the slept time there.
+        Rejections decided before the spike gate allocate nothing.
         """
-        if self._last_ticks < 0:
-            self._last_ticks = ticks_ms & _TICKS_MASK
-            return self.update(temp_c, 0.0, ambient_c, duty)
-        diff = ((ticks_ms & _TICKS_MASK) - self._last_ticks) & _TICKS_MASK
-        if diff >= _TICKS_HALF:
-            diff -= _TICKS_PERIOD
-        if diff > 0:
-            self._last_ticks = ticks_ms & _TICKS_MASK
-        return self.update(temp_c, diff * 0.001, ambient_c, duty)
+        inputs_ok = self._inputs_ok(ambient_c, duty)
+        verdict = self.guard.check_ticks(temp_c, ticks_ms, self._expected_rate(temp_c, duty),
+                                         inputs_ok)
+        if verdict:
+            self.rejected += 1
+            self.last_verdict = verdict
+            return verdict
+        return self._accept(temp_c, ambient_c, duty)
 
     def update(self, temp_c, dt_s, ambient_c=None, duty=0.0):
         """Add one reading; return its verdict (``status.ACCEPTED`` == 0 if used).
@@ -227,43 +286,73 @@ class ThermalEstimator:
         previous call (ignored on the first reading). ``ambient_c``: a
         measured ambient for this reading, deg C, or ``None``. ``duty``: heater
         duty in [0, 1] applied since the previous reading. Never raises for a
-        bad reading: it is rejected, counted, and leaves the fit untouched.
+        bad reading: it is rejected with a verdict code from
+        :mod:`tinytherm.status`, counted (``rejected``, and per reason in
+        ``guard.count(verdict)``), and leaves the fit untouched; the time it
+        spanned still counts for the next accepted reading.
         """
-        verdict = st.ACCEPTED
-        if not (dt_s == dt_s) or dt_s == _INF:
-            verdict = st.BAD_INPUT
-        elif dt_s < 0.0:
-            verdict = st.TIME_BACKWARDS
-        elif dt_s == 0.0 and self.readings > 0:
-            verdict = st.DUPLICATE_TIME
-        elif not _finite(temp_c):
-            verdict = st.NOT_FINITE
-        elif temp_c < self.min_temp_c or temp_c > self.max_temp_c:
-            verdict = st.OUT_OF_RANGE
-        elif not (0.0 <= duty <= 1.0):
-            verdict = st.BAD_INPUT
-        elif ambient_c is not None and not (self.min_temp_c <= ambient_c <= self.max_temp_c):
-            verdict = st.BAD_INPUT
+        inputs_ok = self._inputs_ok(ambient_c, duty)
+        verdict = self.guard.check(temp_c, dt_s, self._expected_rate(temp_c, duty), inputs_ok)
         if verdict:
             self.rejected += 1
             self.last_verdict = verdict
-            if verdict == st.BAD_INPUT or verdict == st.NOT_FINITE or verdict == st.OUT_OF_RANGE:
-                if dt_s > 0.0 and dt_s != _INF:
-                    # time still passed: the next accepted reading spans it
-                    self._pending_dt_s += dt_s
             return verdict
+        return self._accept(temp_c, ambient_c, duty)
+
+    def _inputs_ok(self, ambient_c, duty):
+        """Duty in [0, 1] and ambient None or a plausible temperature; comparisons only."""
+        t = type(duty)
+        if not (t is float or t is int) or not 0.0 <= duty <= 1.0:
+            return False
+        if ambient_c is None:
+            return True
+        t = type(ambient_c)
+        return (t is float or t is int) and self.min_temp_c <= ambient_c <= self.max_temp_c
+
+    def _expected_rate(self, temp_c, duty):
+        """Model dT/dt (deg C/s) at ``temp_c``, only when the reading repeats exactly.
+
+        Feeds the guard's stuck test; 0.0 when the value changed or there is
+        no fit yet, so a changing reading costs nothing here.
+        """
+        if self._fresh or temp_c != self._y_prev or self._w_blocks < 3.0:
+            return 0.0
+        if not self._solve(1e-4 / (self._k0 * self._k0), 0.0, 0.0, 1e-4):
+            return 0.0
+        k = self._k
+        if not k > 0.0:
+            return 0.0
+        if self._ambient_measured or self._ambient_fixed is not None:
+            r = self._r_prev
+        else:
+            r = self._kr / k
+        return k * (r - temp_c) + self._g * duty
+
+    def _accept(self, temp_c, ambient_c, duty):
         self.last_verdict = st.ACCEPTED
-        if self.readings == 0:
+        if self._fresh:
             self._start(temp_c, ambient_c, duty)
             return st.ACCEPTED
-        if self._pending_dt_s:
-            dt_s += self._pending_dt_s
-            self._pending_dt_s = 0.0
-        self._step(temp_c, dt_s, ambient_c, duty)
+        gap = self.guard.gap
+        if gap == GAP_RESTART:
+            self._restart_fit()
+            self._start(temp_c, ambient_c, duty)
+            return st.ACCEPTED
+        if gap == GAP_WIDEN:
+            # forget in proportion to the time without readings: the world may
+            # have moved on; lam = exp(-gap / memory)
+            try:
+                lam = math.exp(-self.guard.elapsed_s * self._inv_mem)
+            except (ValueError, OverflowError):
+                lam = 0.0
+            self._scale_information(lam)
+        self._step(temp_c, self.guard.elapsed_s, ambient_c, duty)
         return st.ACCEPTED
 
     def _start(self, temp_c, ambient_c, duty):
-        self.readings = 1
+        """First reading of a (re)started fit (the state was zeroed by _restart_fit)."""
+        self.readings += 1
+        self._fresh = False
         self._y_prev = temp_c
         self._u_prev = duty
         if ambient_c is not None:
@@ -330,6 +419,16 @@ class ThermalEstimator:
         self._block_t = 0.0
         if self._age_s < self.settle_s:
             self._age_s += bt
+        if self._relevel_blocks:
+            # just after a change: the sensor is still catching up; move the
+            # level onto these readings and keep them out of the fit
+            self._relevel_blocks -= 1
+            if self._solve(self._s2_floor / (self._k0 * self._k0), 0.0, 0.0, self._s2_floor):
+                self._my += dy - (self._k * dx + self._kr * dt_ + self._g * du)
+            return
+        if self.detector is not None and self._w_blocks >= 4.0 \
+                and self._watch(n, dx, dy, dt_, du):
+            return  # the block that showed the change stays out of the fit
         # Weight q = rho * n with rho in [0, 1] the block's excitation: how far
         # its mean reading sits from the recent mean. West's weighted update:
         #   W <- lam W + q;  a = q / W;  m <- m + a (z - m)
@@ -378,6 +477,64 @@ class ThermalEstimator:
             self._cuy = lam * self._cuy + bdu * dy
             if centred_t:
                 self._ctu = lam * self._ctu + bdt * du
+
+    def _watch(self, n, dx, dy, dt_, du):
+        """Feed the block's residual against the fit so far to the change detector.
+
+        Residual of the block mean, ``r = dy - (k dx + kR dt + g du)`` (all as
+        deviations from the weighted means), against its standard deviation
+        ``sqrt(s2 / n)`` with ``s2`` the fit's per-reading residual variance.
+        Returns True when a change was detected (and handled).
+        """
+        if not self._solve(self._s2_floor / (self._k0 * self._k0), 0.0, 0.0, self._s2_floor):
+            return False
+        k = self._k
+        kr = self._kr
+        g = self._g
+        dof = self._w_blocks - 3.0
+        s2 = (self._cyy - k * self._cxy - kr * self._cty - g * self._cuy) / dof
+        if s2 < self._s2_floor:
+            s2 = self._s2_floor
+        r = dy - (k * dx + kr * dt_ + g * du)
+        prev = self._last_residual
+        self._last_residual = r
+        if not self._have_residual:
+            self._have_residual = True
+            return False
+        # The detector sees the change of the residual from one block to the
+        # next: a slowly growing bias (ambient drift, a liquid at rest between
+        # two quantisation steps, a loss law that is not quite exponential)
+        # cancels, a jump shows at once and a changed rate as a steady shift.
+        # Its standard deviation: two blocks' noise s2 / n plus an allowance.
+        if not self.detector.update(r - prev, math.sqrt(2.0 * s2 / n + self._mismatch_c2)):
+            return False
+        # A change: keep a fraction of the information (k, R, g stay as prior
+        # knowledge), re-level the mean onto the next two blocks (so the old
+        # data agree with the new level: a top-up shifts the level, not k),
+        # and hold the answer at DISTURBED until it re-converges.
+        self.changes += 1
+        self._disturbed = True
+        self._scale_information(self.keep_fraction)
+        self._relevel_blocks = RELEVEL_BLOCKS
+        self._age_s = 0.0
+        self._have_residual = False
+        return True
+
+    def _scale_information(self, f):
+        """Multiply the fit's information by ``f`` in [0, 1]; means and estimates stay."""
+        self._w *= f
+        self._w_blocks *= f
+        self._w_sq *= f * f
+        self._cxx *= f
+        self._cxt *= f
+        self._cxu *= f
+        self._ctt *= f
+        self._ctu *= f
+        self._cuu *= f
+        self._cxy *= f
+        self._cty *= f
+        self._cuy *= f
+        self._cyy *= f
 
     # ----------------------------------------------------------------- answer
     def _solve(self, p_kk, p_tt, p_kt, p_gg):
@@ -460,10 +617,18 @@ class ThermalEstimator:
         Never raises.
         """
         try:
-            return self._predict(target_c)
-        except (ValueError, OverflowError, ZeroDivisionError):
+            self._predict(target_c)
+        except (ValueError, OverflowError, ZeroDivisionError, TypeError):
             self._clear_answer(st.SETTLING)
-            return self.status
+        if self.guard.consecutive_rejections >= self.fault_after:
+            # the recent readings were all rejected: show no estimate
+            self._clear_answer(st.SENSOR_FAULT)
+        elif self._disturbed:
+            if self.status == st.TRACKING:
+                self._disturbed = False  # re-converged after the change
+            elif self.status == st.SETTLING or self.status == st.GATHERING:
+                self.status = st.DISTURBED
+        return self.status
 
     def _predict(self, target_c):
         w = self._w

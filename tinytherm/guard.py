@@ -163,7 +163,7 @@ class ReadingGuard:
         self._w4 = 0.0             # oldest (window 5 only)
         self._has_accepted = False
         self._last_c = 0.0         # last accepted temperature, deg C
-        self._has_time = False     # a time reference exists
+        self._has_time = False     # a tick reference exists (check_ticks)
         self._pending_s = 0.0      # seconds since the last accepted reading (dt_s path)
         self._ticks_ref = 0        # ticks of the previous reading with a valid time
         self._pending_ms = 0       # ms since the last accepted reading (ticks path)
@@ -251,15 +251,14 @@ class ReadingGuard:
             return self._reject(status.BAD_INPUT)
         if dt_s < 0.0:
             return self._reject(status.TIME_BACKWARDS)
-        if dt_s == 0.0 and self._has_time:
+        if dt_s == 0.0 and self._has_accepted:
             return self._reject(status.DUPLICATE_TIME)
-        if self._has_time:
+        if self._has_accepted:
             pending = self._pending_s + dt_s
             if pending > self._pending_cap_s:
                 pending = self._pending_cap_s
         else:
-            pending = 0.0
-            self._has_time = True
+            pending = 0.0  # nothing accepted yet: no time to carry
         self._pending_s = pending
         if not inputs_ok:
             return self._reject(status.BAD_INPUT)
@@ -291,15 +290,19 @@ class ReadingGuard:
             if step_ms >= _TICKS_HALF:
                 self._ticks_ref = ticks_ms & _TICKS_MASK
                 return self._reject(status.TIME_BACKWARDS)
-            if step_ms == 0:
+            if step_ms == 0 and self._has_accepted:
                 return self._reject(status.DUPLICATE_TIME)
-            pending = self._pending_ms + step_ms
+            pending = self._pending_ms + step_ms if self._has_accepted else 0
             if pending > self._pending_cap_ms:
                 pending = self._pending_cap_ms
         else:
+            self._has_time = True
+            self._ticks_ref = ticks_ms & _TICKS_MASK
+            if self._has_accepted:
+                # restored state without a tick reference: the step is unknown
+                return self._reject(status.BAD_INPUT)
             step_ms = 0
             pending = 0
-            self._has_time = True
         self._ticks_ref = ticks_ms & _TICKS_MASK
         self._pending_ms = pending
         if not inputs_ok:
@@ -343,7 +346,10 @@ class ReadingGuard:
             elif rate < 0.0:
                 rate = -rate
             self._run_expected_c += rate * step
-            if self._run_s >= self.stuck_min_s and self._run_expected_c > self.stuck_change_c:
+            if self._run_s >= self.stuck_min_s and self._run_expected_c > self.stuck_change_c \
+                    and gap != GAP_RESTART:
+                # (after restart_gap_s of rejections the value is taken as real:
+                # the caller restarts its fit, so a wrong model cannot block for ever)
                 return self._reject(status.STUCK)
         else:
             self._run_s = 0.0
