@@ -77,6 +77,32 @@ def _finite(x):
     return x == x and x != _INF and x != -_INF
 
 
+def _clamp_int(x, lo, hi):
+    """``round(x)`` clamped to [lo, hi] (for fixed-point fields of the saved blob)."""
+    if not x == x:
+        return lo
+    if x <= lo:
+        return lo
+    if x >= hi:
+        return hi
+    return int(x + 0.5) if x >= 0.0 else -int(0.5 - x)
+
+
+# Saved blob: fixed part (counts, flags, fixed-point decision state), then the
+# value fields in promotion order (see ThermalEstimator._layout).
+_FIXED_FMT = "<IHBBHHHHHHf"
+_FIXED_SIZE = struct.calcsize(_FIXED_FMT)
+# Promotion order (measured with restore -> update -> save on every reading):
+# block_t first (it decides where blocks end: float32 there changes the block
+# partition and shifts the answer by ~0.5 %), then the integrals and levels,
+# the weights and co-moments; pending and w_sq matter least.
+_PROMOTE = ("_block_t", "_xr", "_tr", "_sum_x", "_sum_t", "_cxt", "_y_prev", "_my", "_sum_y",
+            "_w", "_cxx", "_cxy", "_ctt", "_cty", "_cyy", "_w_blocks", "pending", "_r_prev",
+            "_u_prev", "_ur", "_sum_u", "_cxu", "_cuu", "_cuy", "_ctu", "_w_sq")
+_CENTRED_ONLY = ("_tr", "_sum_t", "_cxt", "_ctt", "_cty", "_ctu")
+_HEATER_ONLY = ("_u_prev", "_ur", "_sum_u", "_cxu", "_cuu", "_cuy", "_ctu")
+
+
 class ThermalEstimator:
     """Feed readings in, ask how long until a target temperature.
 
@@ -150,8 +176,8 @@ class ThermalEstimator:
             raise ValueError("excitation_c must be > 0 deg C")
         if not min_temp_c < max_temp_c:
             raise ValueError("min_temp_c must be below max_temp_c")
-        if type(fault_after) is not int or not 1 <= fault_after <= 255:
-            raise ValueError("fault_after must be an int in 1..255 (readings)")
+        if type(fault_after) is not int or not 1 <= fault_after <= 31:
+            raise ValueError("fault_after must be an int in 1..31 (readings)")
         if not 0.0 < keep_fraction < 1.0:
             raise ValueError("keep_fraction must be in (0, 1)")
         # ValueError with its own message for bad guard settings
@@ -181,6 +207,14 @@ class ThermalEstimator:
         self._inv_exc2 = 1.0 / (float(excitation_c) ** 2)
         self.min_temp_c = float(min_temp_c)
         self.max_temp_c = float(max_temp_c)
+        # fixed-point scales of the saved decision state: each value only
+        # matters up to its threshold, so it is clamped there and stored in
+        # 16 bits over that range (see save)
+        self._age_scale = 65535.0 / self.settle_s if self.settle_s > 0.0 else 1.0
+        run_cap_s = 2.0 * self.guard.stuck_min_s + 1.0
+        self._run_scale = 65535.0 / run_cap_s
+        stuck_c = self.guard.stuck_change_c if self.guard.stuck_change_c is not None else 1.0
+        self._run_c_scale = 65535.0 / (2.0 * stuck_c)
         self.reset()
 
     def reset(self):
@@ -726,6 +760,211 @@ class ThermalEstimator:
         if self._age_s >= self.settle_s and rel_sd <= self.max_relative_sd and sd_k < 0.5 * k:
             self.status = st.TRACKING
         return self.status
+
+    # ------------------------------------------------------------- save/restore
+    def _settings_byte(self):
+        return ((1 if self.heater else 0) | (2 if self._ambient_fixed is not None else 0)
+                | (4 if self.guard.spike_window == 5 else 0)
+                | (8 if self.detector is not None else 0)
+                | (16 if self.guard.spike_window == 0 else 0))
+
+    def _layout(self, measured):
+        """(struct format, value field names) of the payload after the fixed part.
+
+        Every field starts as float32; fields are promoted to float64 in the
+        order of _PROMOTE (the values that carry levels and integrals first,
+        where float32 rounding would shift the answer most) while the payload
+        fits in PAYLOAD_SIZE bytes.
+        """
+        centred = not (measured or self._ambient_fixed is not None)
+        names = []
+        for name in _PROMOTE:
+            if name in _CENTRED_ONLY and not centred:
+                continue
+            if name in _HEATER_ONLY and not self.heater:
+                continue
+            if name == "_r_prev" and not measured:
+                continue
+            names.append(name)
+        if _FIXED_SIZE + 4 * len(names) > bl.PAYLOAD_SIZE and names[-1] == "_w_sq":
+            # heater with an estimated ambient: the least important field
+            # (_w_sq, only in the interval width) is rebuilt on restore
+            names.pop()
+        fixed = _FIXED_SIZE + 2 * self._window_slots(len(names))
+        spare = bl.PAYLOAD_SIZE - fixed - 4 * len(names)
+        doubles = spare // 4
+        if doubles > len(names):
+            doubles = len(names)
+        fmt = "<" + "d" * doubles + "f" * (len(names) - doubles)
+        return fmt, names
+
+    def _window_slots(self, n_values):
+        """How many older readings of the guard's spike window fit in the blob (0, 2 or 4).
+
+        Those left out are restored as copies of the last reading (heater with
+        an estimated ambient: the fit needs every byte there).
+        """
+        room = (bl.PAYLOAD_SIZE - _FIXED_SIZE - 4 * n_values) // 2
+        want = 4 if self.guard.spike_window == 5 else 2
+        if room >= want:
+            return want
+        return 2 if room >= 2 else 0
+
+    def save(self):
+        """The whole state as a ``bytes`` blob of ``tinytherm.blob.BLOB_SIZE`` (128) bytes.
+
+        Layout: magic, layout version, settings byte, payload, CRC-32 (see
+        :mod:`tinytherm.blob`). The payload holds counts and flags, the state
+        behind the accept/reject and change decisions as float32 (age, stuck
+        run, detector sums, last residual) and the guard's window as 1/256 C
+        offsets from the last reading (exact for sensors with a 1/16 C step),
+        then the fit: the mean and block sum of the readings as float32
+        offsets from the last reading, everything else as float64 where it
+        fits (in :data:`_PROMOTE` order) and float32 beyond. The per-reason
+        guard counts, ``rejected`` and ``changes`` count since the last
+        restore. Allocates; call it once per wake, not per reading.
+        """
+        g = self.guard
+        d = self.detector
+        buf = bl.new_frame(self._settings_byte())
+        flags = ((1 if self._fresh else 0) | (2 if self._disturbed else 0)
+                 | (4 if self._have_residual else 0) | (8 if self._ambient_measured else 0)
+                 | (16 if g._has_accepted else 0))
+        y = self._y_prev
+        flags |= self._relevel_blocks << 5
+        age = self._age_s if self._age_s < self.settle_s else self.settle_s
+        struct.pack_into(
+            _FIXED_FMT, buf, bl.PAYLOAD_OFFSET,
+            _clamp_int(self.readings, 0, 0xFFFFFFFF), _clamp_int(self._block_n, 0, 0xFFFF),
+            flags, g._win_n | (_clamp_int(g.consecutive_rejections, 0, 31) << 3),
+            _clamp_int(age * self._age_scale, 0, 0xFFFF),
+            _clamp_int(g._run_s * self._run_scale, 0, 0xFFFF),
+            _clamp_int(g._run_expected_c * self._run_c_scale, 0, 0xFFFF),
+            _clamp_int(d.up / d.threshold * 65535.0, 0, 0xFFFF) if d is not None else 0,
+            _clamp_int(d.down / d.threshold * 65535.0, 0, 0xFFFF) if d is not None else 0,
+            _clamp_int(d.mean_abs_z * 4096.0, 0, 0xFFFF) if d is not None else 0,
+            self._last_residual)
+        fmt, names = self._layout(self._ambient_measured)
+        offset = bl.PAYLOAD_OFFSET + _FIXED_SIZE
+        slots = self._window_slots(len(names))
+        if slots:
+            struct.pack_into("<hh", buf, offset, _clamp_int((g._w1 - y) * 256.0, -32767, 32767),
+                             _clamp_int((g._w2 - y) * 256.0, -32767, 32767))
+            offset += 4
+        if slots == 4:
+            struct.pack_into("<hh", buf, offset, _clamp_int((g._w3 - y) * 256.0, -32767, 32767),
+                             _clamp_int((g._w4 - y) * 256.0, -32767, 32767))
+            offset += 4
+        values = [self._saved_value(n) for n in names]
+        struct.pack_into(fmt, buf, offset, *values)
+        return bytes(bl.seal(buf))
+
+    def _saved_value(self, name):
+        if name == "pending":
+            return self.guard._pending_s + self.guard._pending_ms * 0.001
+        if name == "_my":
+            return self._my - self._y_prev  # small offset: float32 keeps it precise
+        if name == "_sum_y":
+            return self._sum_y - self._block_n * self._y_prev
+        return getattr(self, name)
+
+    def restore(self, blob):
+        """Load a blob written by :meth:`save`; returns a ``tinytherm.blob`` code.
+
+        ``blob.RESTORED`` (0) when the state is back. Anything else (wrong
+        length, not a state blob, another layout version, CRC mismatch, a blob
+        from an estimator with other settings, impossible values) leaves a
+        fresh estimator, as after :meth:`reset`. Never raises. After a restore
+        feed the first reading with :meth:`update` and the time slept.
+        """
+        code = bl.check(blob, self._settings_byte())
+        if code == bl.RESTORED:
+            try:
+                code = self._unpack(blob)
+            except Exception:  # noqa: BLE001 - a blob must never crash the device
+                code = bl.BLOB_VALUES
+        if code != bl.RESTORED:
+            self.reset()
+        return code
+
+    def _unpack(self, blob):
+        (readings, block_n, flags, flags2, age_code, run_code, run_exp_code,
+         up_code, down_code, mabs_code, last_residual) = struct.unpack_from(
+            _FIXED_FMT, blob, bl.PAYLOAD_OFFSET)
+        age_s = age_code / self._age_scale
+        if age_s >= self.settle_s:
+            age_s = self.settle_s
+        run_s = run_code / self._run_scale
+        run_expected_c = run_exp_code / self._run_c_scale
+        d = self.detector
+        threshold = d.threshold if d is not None else 0.0
+        up = up_code * threshold / 65535.0
+        down = down_code * threshold / 65535.0
+        mean_abs_z = mabs_code / 4096.0
+        consecutive = flags2 >> 3
+        offset = bl.PAYLOAD_OFFSET + _FIXED_SIZE
+        measured = bool(flags & 8)
+        fmt, names = self._layout(measured)
+        slots = self._window_slots(len(names))
+        w1_code = w2_code = 0
+        if slots:
+            w1_code, w2_code = struct.unpack_from("<hh", blob, offset)
+            offset += 4
+        w3_code = w4_code = w2_code
+        if slots == 4:
+            w3_code, w4_code = struct.unpack_from("<hh", blob, offset)
+            offset += 4
+        values = struct.unpack_from(fmt, blob, offset)
+        for v in values:
+            if not _finite(v):
+                return bl.BLOB_VALUES
+        if not _finite(last_residual):
+            return bl.BLOB_VALUES
+        relevel = (flags >> 5) & 3
+        win_n = flags2 & 7
+        if relevel > RELEVEL_BLOCKS or win_n > 4:
+            return bl.BLOB_VALUES
+        self.reset()
+        pending = 0.0
+        for name, v in zip(names, values):
+            if name == "pending":
+                pending = v
+            else:
+                setattr(self, name, v)
+        y = self._y_prev
+        self._my += y
+        self._sum_y += block_n * y
+        if self._ambient_fixed is not None:
+            self._r_prev = self._ambient_fixed
+        if "_w_sq" not in names and self._w_blocks > 0.0:
+            # equal blocks: sum of squared weights ~ W^2 / (number of blocks)
+            self._w_sq = self._w * self._w / self._w_blocks
+        g = self.guard
+        self.readings = readings
+        self._block_n = block_n
+        self._fresh = bool(flags & 1)
+        self._disturbed = bool(flags & 2)
+        self._have_residual = bool(flags & 4)
+        self._ambient_measured = measured
+        self._relevel_blocks = relevel
+        self._age_s = age_s
+        self._last_residual = last_residual
+        g._has_accepted = bool(flags & 16)
+        g._last_c = y
+        g._win_n = win_n
+        g._w1 = y + w1_code / 256.0
+        g._w2 = y + w2_code / 256.0
+        g._w3 = y + w3_code / 256.0
+        g._w4 = y + w4_code / 256.0
+        g._run_s = run_s
+        g._run_expected_c = run_expected_c
+        g.consecutive_rejections = consecutive
+        g._pending_s = pending
+        if d is not None:
+            d.up = up
+            d.down = down
+            d.mean_abs_z = mean_abs_z
+        return bl.RESTORED
 
     def __repr__(self):
         return "ThermalEstimator(readings=%d, status=%s, k=%s, equilibrium_c=%s, eta_s=%s)" % (

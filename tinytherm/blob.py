@@ -1,0 +1,90 @@
+"""Fixed-size saved-state blob: header, payload and CRC-32, for deep sleep.
+
+Layout (little-endian, :data:`BLOB_SIZE` = 128 bytes in total)::
+
+    offset  size  field
+    0       2     magic b"tT"
+    2       1     layout version (:data:`LAYOUT_VERSION`)
+    3       1     settings byte (which fields the payload holds; the owner
+                  checks it matches its own configuration)
+    4       120   payload (layout chosen by the owner; unused bytes are zero)
+    124     4     CRC-32 (IEEE, :mod:`tinytherm.crc`) of bytes 0..123
+
+The estimator packs its payload with ``struct.pack_into`` at
+:data:`PAYLOAD_OFFSET`; this module writes and checks the frame. Checking
+never raises: it returns one of the ``RESTORE_*`` codes below.
+"""
+import struct
+
+from tinytherm.crc import crc32
+
+BLOB_SIZE = 128
+MAGIC = b"tT"
+LAYOUT_VERSION = 1
+PAYLOAD_OFFSET = 4
+PAYLOAD_SIZE = 120
+CRC_OFFSET = 124
+
+# Results of a restore attempt; anything but RESTORED means a fresh start.
+RESTORED = 0         # the blob was valid and the state is back
+BLOB_LENGTH = 1      # not bytes-like, or not exactly BLOB_SIZE bytes (truncated)
+BLOB_MAGIC = 2       # not a tinytherm state blob
+BLOB_VERSION = 3     # written by another layout version
+BLOB_CRC = 4         # the checksum does not match: corrupted
+BLOB_SETTINGS = 5    # written by an estimator configured differently
+BLOB_VALUES = 6      # the checksum matched but a value is impossible (NaN, negative count)
+
+RESTORE_NAMES = (
+    "restored",
+    "blob_length",
+    "blob_magic",
+    "blob_version",
+    "blob_crc",
+    "blob_settings",
+    "blob_values",
+)
+
+
+def restore_name(code):
+    """Lower-case name of a restore result code; ``"unknown"`` for anything else."""
+    if 0 <= code < len(RESTORE_NAMES):
+        return RESTORE_NAMES[code]
+    return "unknown"
+
+
+def new_frame(settings):
+    """A zeroed ``bytearray`` of BLOB_SIZE with magic, version and settings written."""
+    buf = bytearray(BLOB_SIZE)
+    buf[0] = MAGIC[0]
+    buf[1] = MAGIC[1]
+    buf[2] = LAYOUT_VERSION
+    buf[3] = settings & 0xFF
+    return buf
+
+
+def seal(buf):
+    """Write the CRC-32 of bytes 0..123 into bytes 124..127 of ``buf``; returns ``buf``."""
+    struct.pack_into("<I", buf, CRC_OFFSET, crc32(buf, 0, 0, CRC_OFFSET))
+    return buf
+
+
+def check(blob, settings):
+    """Frame check of a saved blob; a ``RESTORE_*`` code (``RESTORED`` if usable).
+
+    Never raises, whatever ``blob`` is.
+    """
+    t = type(blob)
+    if not (t is bytes or t is bytearray or t is memoryview):
+        return BLOB_LENGTH
+    if len(blob) != BLOB_SIZE:
+        return BLOB_LENGTH
+    if blob[0] != MAGIC[0] or blob[1] != MAGIC[1]:
+        return BLOB_MAGIC
+    if blob[2] != LAYOUT_VERSION:
+        return BLOB_VERSION
+    stored = struct.unpack_from("<I", blob, CRC_OFFSET)[0]
+    if stored != crc32(blob, 0, 0, CRC_OFFSET):
+        return BLOB_CRC
+    if blob[3] != (settings & 0xFF):
+        return BLOB_SETTINGS
+    return RESTORED
