@@ -54,6 +54,7 @@ from tinytherm.guard import GAP_RESTART, GAP_WIDEN, ReadingGuard
 
 _INF = math.inf
 RELEVEL_BLOCKS = 2  # blocks after a detected change that only re-level the fit
+_DETECT_S2_CAP = 0.25 * 0.25  # deg C^2: per-reading residual variance the detector believes at most
 MISMATCH_C = 0.02  # deg C: model-mismatch allowance of a block residual (change detector)
 
 
@@ -94,10 +95,11 @@ _FIXED_FMT = "<IHBBHHHHHHf"
 _FIXED_SIZE = struct.calcsize(_FIXED_FMT)
 # Promotion order (measured with restore -> update -> save on every reading):
 # block_t first (it decides where blocks end: float32 there changes the block
-# partition and shifts the answer by ~0.5 %), then the integrals and levels,
-# the weights and co-moments; pending and w_sq matter least.
-_PROMOTE = ("_block_t", "_xr", "_tr", "_sum_x", "_sum_t", "_cxt", "_y_prev", "_my", "_sum_y",
-            "_w", "_cxx", "_cxy", "_ctt", "_cty", "_cyy", "_w_blocks", "pending", "_r_prev",
+# partition and shifts the answer by ~0.5 %), the time carried over a rejected
+# reading, then the integrals and levels, the weights and co-moments; w_sq
+# (interval width only) matters least.
+_PROMOTE = ("_block_t", "pending", "_xr", "_tr", "_sum_x", "_sum_t", "_cxt", "_y_prev", "_my",
+            "_sum_y", "_w", "_cxx", "_cxy", "_ctt", "_cty", "_cyy", "_w_blocks", "_r_prev",
             "_u_prev", "_ur", "_sum_u", "_cxu", "_cuu", "_cuy", "_ctu", "_w_sq")
 _CENTRED_ONLY = ("_tr", "_sum_t", "_cxt", "_ctt", "_cty", "_ctu")
 _HEATER_ONLY = ("_u_prev", "_ur", "_sum_u", "_cxu", "_cuu", "_cuy", "_ctu")
@@ -211,8 +213,8 @@ class ThermalEstimator:
         # matters up to its threshold, so it is clamped there and stored in
         # 16 bits over that range (see save)
         self._age_scale = 65535.0 / self.settle_s if self.settle_s > 0.0 else 1.0
-        run_cap_s = 2.0 * self.guard.stuck_min_s + 1.0
-        self._run_scale = 65535.0 / run_cap_s
+        # the stuck run in 1/64 s up to ~1024 s (its rate is run_expected / run_s)
+        self._run_scale = 64.0
         stuck_c = self.guard.stuck_change_c if self.guard.stuck_change_c is not None else 1.0
         self._run_c_scale = 65535.0 / (2.0 * stuck_c)
         self.reset()
@@ -460,7 +462,7 @@ class ThermalEstimator:
             if self._solve(self._s2_floor / (self._k0 * self._k0), 0.0, 0.0, self._s2_floor):
                 self._my += dy - (self._k * dx + self._kr * dt_ + self._g * du)
             return
-        if self.detector is not None and self._w_blocks >= 4.0 \
+        if self.detector is not None and self._w_blocks >= 2.5 \
                 and self._watch(n, dx, dy, dt_, du):
             return  # the block that showed the change stays out of the fit
         # Weight q = rho * n with rho in [0, 1] the block's excitation: how far
@@ -526,9 +528,15 @@ class ThermalEstimator:
         kr = self._kr
         g = self._g
         dof = self._w_blocks - 3.0
+        if dof < 1.0:
+            dof = 1.0
         s2 = (self._cyy - k * self._cxy - kr * self._cty - g * self._cuy) / dof
         if s2 < self._s2_floor:
             s2 = self._s2_floor
+        elif s2 > _DETECT_S2_CAP:
+            # a fit spoilt by an earlier, undetected change must not blind the
+            # detector to the next one
+            s2 = _DETECT_S2_CAP
         r = dy - (k * dx + kr * dt_ + g * du)
         prev = self._last_residual
         self._last_residual = r
@@ -958,6 +966,7 @@ class ThermalEstimator:
         g._w4 = y + w4_code / 256.0
         g._run_s = run_s
         g._run_expected_c = run_expected_c
+        g._run_rate = run_expected_c / run_s if run_s > 0.0 else 0.0
         g.consecutive_rejections = consecutive
         g._pending_s = pending
         if d is not None:

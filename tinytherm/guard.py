@@ -33,7 +33,7 @@ Checks, in order:
 7. ``STUCK``: the sensor has repeated the exact same value for at least
    ``stuck_min_s`` seconds while the model says it should have moved by more
    than ``stuck_change_c`` (the caller passes the model's expected rate of
-   change). A liquid at rest legitimately reads a constant value for hours, so
+   change; the rate at the first repeat is held for the whole run). A liquid at rest legitimately reads a constant value for hours, so
    without a model rate nothing is ever called stuck.
 """
 import math
@@ -169,6 +169,7 @@ class ReadingGuard:
         self._pending_ms = 0       # ms since the last accepted reading (ticks path)
         self._run_s = 0.0          # how long the last accepted value has repeated, s
         self._run_expected_c = 0.0  # movement the model expected meanwhile, deg C
+        self._run_rate = 0.0       # |model rate| when the repeats began, deg C/s
         self.elapsed_s = 0.0       # after ACCEPTED: seconds since the previous accepted reading
         self.gap = GAP_NONE        # after ACCEPTED: GAP_NONE, GAP_WIDEN or GAP_RESTART
         self.last_verdict = status.ACCEPTED
@@ -340,12 +341,16 @@ class ReadingGuard:
         if self._has_accepted and temp_c == self._last_c and self.stuck_change_c is not None:
             # The same exact value again: how long, and how far should it have moved?
             step = step_s if step_ms < 0 else step_ms * 0.001
+            if self._run_s == 0.0:
+                # the model's rate when the repeats began: held for the whole
+                # run, because a fit fed the repeats would soon agree with them
+                if not _is_number(rate) or rate != rate or rate == _INF or rate == _NEG_INF:
+                    rate = 0.0
+                elif rate < 0.0:
+                    rate = -rate
+                self._run_rate = rate
             self._run_s += step
-            if not _is_number(rate) or rate != rate or rate == _INF or rate == _NEG_INF:
-                rate = 0.0
-            elif rate < 0.0:
-                rate = -rate
-            self._run_expected_c += rate * step
+            self._run_expected_c = self._run_rate * self._run_s
             if self._run_s >= self.stuck_min_s and self._run_expected_c > self.stuck_change_c \
                     and gap != GAP_RESTART:
                 # (after restart_gap_s of rejections the value is taken as real:

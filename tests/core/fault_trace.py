@@ -66,7 +66,7 @@ class FaultTrace:
         self._stuck_left = 0
         self._stuck_value = 0.0
         self._gap_start_s = 10.0 * 3600.0 if faults else -1.0
-        self._stuck_start_s = 1.0 * 3600.0 + 1500.0 if faults else -1.0
+        self._stuck_start_s = 2700.0 if faults else -1.0
         self._last_emit_s = 0.0
 
     def step(self):
