@@ -212,6 +212,8 @@ class ThermalEstimator:
         # fixed-point scales of the saved decision state: each value only
         # matters up to its threshold, so it is clamped there and stored in
         # 16 bits over that range (see save)
+        self._layouts = [None, None]  # blob layouts without / with a measured ambient
+        self._blob_buf = None          # save() writes into this one buffer
         self._age_scale = 65535.0 / self.settle_s if self.settle_s > 0.0 else 1.0
         # the stuck run in 1/64 s up to ~1024 s (its rate is run_expected / run_s)
         self._run_scale = 64.0
@@ -777,6 +779,12 @@ class ThermalEstimator:
                 | (16 if self.guard.spike_window == 0 else 0))
 
     def _layout(self, measured):
+        """(struct format, value field names) of the payload after the fixed part (cached)."""
+        if self._layouts[1 if measured else 0] is None:
+            self._layouts[1 if measured else 0] = self._make_layout(measured)
+        return self._layouts[1 if measured else 0]
+
+    def _make_layout(self, measured):
         """(struct format, value field names) of the payload after the fixed part.
 
         Every field starts as float32; fields are promoted to float64 in the
@@ -819,7 +827,11 @@ class ThermalEstimator:
         return 2 if room >= 2 else 0
 
     def save(self):
-        """The whole state as a ``bytes`` blob of ``tinytherm.blob.BLOB_SIZE`` (128) bytes.
+        """The whole state as a blob of ``tinytherm.blob.BLOB_SIZE`` (128) bytes.
+
+        Returns the estimator's own ``bytearray``, rewritten by the next
+        ``save()`` (no allocation for the frame on a small heap): write it to
+        RTC memory or flash, or copy it with ``bytes(...)`` to keep it.
 
         Layout: magic, layout version, settings byte, payload, CRC-32 (see
         :mod:`tinytherm.blob`). The payload holds counts and flags, the state
@@ -830,11 +842,13 @@ class ThermalEstimator:
         offsets from the last reading, everything else as float64 where it
         fits (in :data:`_PROMOTE` order) and float32 beyond. The per-reason
         guard counts, ``rejected`` and ``changes`` count since the last
-        restore. Allocates; call it once per wake, not per reading.
+        restore. Allocates a little; call it once per wake, not per reading.
         """
         g = self.guard
         d = self.detector
-        buf = bl.new_frame(self._settings_byte())
+        if self._blob_buf is None:
+            self._blob_buf = bl.new_frame(self._settings_byte())
+        buf = self._blob_buf
         flags = ((1 if self._fresh else 0) | (2 if self._disturbed else 0)
                  | (4 if self._have_residual else 0) | (8 if self._ambient_measured else 0)
                  | (16 if g._has_accepted else 0))
@@ -863,9 +877,15 @@ class ThermalEstimator:
             struct.pack_into("<hh", buf, offset, _clamp_int((g._w3 - y) * 256.0, -32767, 32767),
                              _clamp_int((g._w4 - y) * 256.0, -32767, 32767))
             offset += 4
-        values = [self._saved_value(n) for n in names]
-        struct.pack_into(fmt, buf, offset, *values)
-        return bytes(bl.seal(buf))
+        # one field at a time: no list of values on a small, fragmented heap
+        for i in range(len(names)):
+            if fmt[i + 1] == "d":
+                struct.pack_into("<d", buf, offset, self._saved_value(names[i]))
+                offset += 8
+            else:
+                struct.pack_into("<f", buf, offset, self._saved_value(names[i]))
+                offset += 4
+        return bl.seal(buf)
 
     def _saved_value(self, name):
         if name == "pending":
@@ -922,8 +942,15 @@ class ThermalEstimator:
         if slots == 4:
             w3_code, w4_code = struct.unpack_from("<hh", blob, offset)
             offset += 4
-        values = struct.unpack_from(fmt, blob, offset)
-        for v in values:
+        # check every value before touching the state, one at a time (no tuple)
+        start = offset
+        for i in range(len(names)):
+            if fmt[i + 1] == "d":
+                v = struct.unpack_from("<d", blob, offset)[0]
+                offset += 8
+            else:
+                v = struct.unpack_from("<f", blob, offset)[0]
+                offset += 4
             if not _finite(v):
                 return bl.BLOB_VALUES
         if not _finite(last_residual):
@@ -934,11 +961,18 @@ class ThermalEstimator:
             return bl.BLOB_VALUES
         self.reset()
         pending = 0.0
-        for name, v in zip(names, values):
-            if name == "pending":
+        offset = start
+        for i in range(len(names)):
+            if fmt[i + 1] == "d":
+                v = struct.unpack_from("<d", blob, offset)[0]
+                offset += 8
+            else:
+                v = struct.unpack_from("<f", blob, offset)[0]
+                offset += 4
+            if names[i] == "pending":
                 pending = v
             else:
-                setattr(self, name, v)
+                setattr(self, names[i], v)
         y = self._y_prev
         self._my += y
         self._sum_y += block_n * y
