@@ -29,7 +29,7 @@ def _build(lib):
             src = os.path.join(ROOT, "tinytherm", name)
             out = os.path.join(lib, "tinytherm", name[:-3] + ".mpy")
             subprocess.run([cross, "-o", out, src], check=True)
-    for name in ("fault_trace", "support"):
+    for name in ("fault_trace", "prng"):
         src = os.path.join(ROOT, "tests", "core", name + ".py")
         subprocess.run([cross, "-o", os.path.join(lib, name + ".mpy"), src], check=True)
 

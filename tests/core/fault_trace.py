@@ -15,7 +15,7 @@ duplicate and backwards time stamps, sampling jitter and one 20-minute gap.
 """
 import math
 
-from support import XorShift
+from prng import XorShift
 
 TICKS_MASK = (1 << 30) - 1
 QUANTUM_C = 0.0625
