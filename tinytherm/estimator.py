@@ -47,12 +47,15 @@ import math
 import struct
 
 from tinytherm import blob as bl
-from tinytherm import model
 from tinytherm import status as st
 from tinytherm.change import ChangeDetector
 from tinytherm.guard import GAP_RESTART, GAP_WIDEN, ReadingGuard
 
 _INF = math.inf
+TRUST_FLOOR_S = 30.0  # s: an ETA this sure (one standard deviation) is trusted at any length
+MAX_BLOCK_READINGS = 255  # a block closes after this many readings (kept in one byte)
+MAX_AUDIT_BLOCKS = 31  # longest forecast-audit horizon, in blocks (kept in 5 bits)
+TURN_WINDOW_S = 300.0  # s: a reversal this early after a (re)start restarts the fit
 RELEVEL_BLOCKS = 2  # blocks after a detected change that only re-level the fit
 _DETECT_S2_CAP = 0.25 * 0.25  # deg C^2: per-reading residual variance the detector believes at most
 MISMATCH_C = 0.02  # deg C: model-mismatch allowance of a block residual (change detector)
@@ -91,8 +94,11 @@ def _clamp_int(x, lo, hi):
 
 # Saved blob: fixed part (counts, flags, fixed-point decision state), then the
 # value fields in promotion order (see ThermalEstimator._layout).
-_FIXED_FMT = "<IHBBHHHHHHf"
-_FIXED_SIZE = struct.calcsize(_FIXED_FMT)
+_FIXED_FMT = "<IBBBHHHHHHf"
+# then one byte: blocks to the next forecast audit (5 bits), direction of
+# travel + 1 (2 bits), direction seen (1 bit)
+_EXTRA_FMT = "<B"
+_FIXED_SIZE = struct.calcsize(_FIXED_FMT) + struct.calcsize(_EXTRA_FMT)
 # Promotion order (measured with restore -> update -> save on every reading):
 # block_t first (it decides where blocks end: float32 there changes the block
 # partition and shifts the answer by ~0.5 %), the time carried over a rejected
@@ -100,9 +106,48 @@ _FIXED_SIZE = struct.calcsize(_FIXED_FMT)
 # (interval width only) matters least.
 _PROMOTE = ("_block_t", "pending", "_xr", "_tr", "_sum_x", "_sum_t", "_cxt", "_y_prev", "_my",
             "_sum_y", "_w", "_cxx", "_cxy", "_ctt", "_cty", "_cyy", "_w_blocks", "_r_prev",
-            "_u_prev", "_ur", "_sum_u", "_cxu", "_cuu", "_cuy", "_ctu", "_w_sq")
+            "_u_prev", "_ur", "_sum_u", "_cxu", "_cuu", "_cuy", "_ctu", "_w_sq",
+            "_audit_var", "_recent_residual", "_r_mean", "_fit_age_s", "_turn_ext",
+            "_audit_level", "_audit_pred")
+# int16 fields: the early-turn window's age always (kept in 1/16 s steps),
+# the pending forecast check when float32 does not fit
+_ALWAYS_SHORT = ("_fit_age_s",)
+_SHORT = ("_fit_age_s", "_audit_level", "_audit_pred")
+
+
+def _short_scale(name):
+    """Units per int16 step of a _SHORT field: 1/16 s (exact: see _close_block), 1/1024 C."""
+    if name == "_fit_age_s":
+        return 16.0
+    return 1024.0
+_NO_HEATER_ONLY = ("_fit_age_s", "_turn_ext")  # the early-turn restart is off with a heater
+# Left out, last first, when the payload is full (heater with an estimated
+# ambient): rebuilt or restarted on restore, see _unpack.
+_DROPPABLE = ("_audit_pred", "_audit_level", "_w_sq", "_recent_residual", "_audit_var")
 _CENTRED_ONLY = ("_tr", "_sum_t", "_cxt", "_ctt", "_cty", "_ctu")
 _HEATER_ONLY = ("_u_prev", "_ur", "_sum_u", "_cxu", "_cuu", "_cuy", "_ctu")
+
+
+def _values_size(names, short):
+    """Bytes the value fields take at the least: float32 each, int16 for those in ``short``."""
+    size = 0
+    for name in names:
+        size += 2 if name in short else 4
+    return size
+
+
+def _min_size(fmt):
+    """Bytes of a layout's values with every double counted as float32."""
+    return struct.calcsize(fmt.replace("d", "f"))
+
+
+def _unpack_value(kind, name, blob, offset):
+    """One saved value of struct kind "d", "f" or "h" (see _short_scale); (value, next offset)."""
+    if kind == "d":
+        return struct.unpack_from("<d", blob, offset)[0], offset + 8
+    if kind == "f":
+        return struct.unpack_from("<f", blob, offset)[0], offset + 4
+    return struct.unpack_from("<h", blob, offset)[0] / _short_scale(name), offset + 2
 
 
 class ThermalEstimator:
@@ -155,7 +200,8 @@ class ThermalEstimator:
                  max_relative_sd=0.25, rate_prior_per_s=1.0 / 1800.0, excitation_c=0.5,
                  min_temp_c=-55.0, max_temp_c=150.0, quantum_c=0.0625, spike_window=3,
                  max_gap_s=120.0, restart_gap_s=3600.0, stuck_change_c=1.0, stuck_min_s=30.0,
-                 fault_after=5, detect_changes=True, keep_fraction=0.1):
+                 fault_after=5, detect_changes=True, keep_fraction=0.1, audit_s=60.0,
+                 turn_c=1.0):
         if ambient_c is not None and not _finite(ambient_c):
             raise ValueError("ambient_c must be a finite temperature or None")
         if not _finite(ambient_prior_c):
@@ -176,6 +222,10 @@ class ThermalEstimator:
             raise ValueError("rate_prior_per_s must be > 0 (1/s)")
         if not excitation_c > 0.0:
             raise ValueError("excitation_c must be > 0 deg C")
+        if not turn_c > 0.0:
+            raise ValueError("turn_c must be > 0 deg C")
+        if not audit_s > 0.0:
+            raise ValueError("audit_s must be > 0 seconds")
         if not min_temp_c < max_temp_c:
             raise ValueError("min_temp_c must be below max_temp_c")
         if type(fault_after) is not int or not 1 <= fault_after <= 31:
@@ -201,6 +251,7 @@ class ThermalEstimator:
         self.memory_s = float(memory_s)
         self._inv_mem = 1.0 / self.memory_s
         self.block_s = float(block_s)
+        self._block_close_s = self.block_s * (1.0 - 1e-6)
         self.interval = float(interval)
         self._z = normal_quantile(0.5 + 0.5 * self.interval)
         self.settle_s = float(settle_s)
@@ -209,16 +260,26 @@ class ThermalEstimator:
         self._inv_exc2 = 1.0 / (float(excitation_c) ** 2)
         self.min_temp_c = float(min_temp_c)
         self.max_temp_c = float(max_temp_c)
+        # blob layouts without / with a measured ambient, made while the heap
+        # is fresh (a small fragmented heap may lack room for them later)
+        self._layouts = [None, None]
+        self._layout(False)
+        self._layout(True)
+        self._blob_buf = None          # save() writes into this one buffer
         # fixed-point scales of the saved decision state: each value only
         # matters up to its threshold, so it is clamped there and stored in
         # 16 bits over that range (see save)
-        self._layouts = [None, None]  # blob layouts without / with a measured ambient
-        self._blob_buf = None          # save() writes into this one buffer
         self._age_scale = 65535.0 / self.settle_s if self.settle_s > 0.0 else 1.0
         # the stuck run in 1/64 s up to ~1024 s (its rate is run_expected / run_s)
         self._run_scale = 64.0
         stuck_c = self.guard.stuck_change_c if self.guard.stuck_change_c is not None else 1.0
         self._run_c_scale = 65535.0 / (2.0 * stuck_c)
+        self.audit_s = float(audit_s)
+        self.turn_c = float(turn_c)
+        # a hair above turn_c: quantised readings often differ by exactly
+        # turn_c, and must decide the same way after a float32 wake
+        self._turn_cut_c = self.turn_c * (1.0 + 1e-6)
+        self._audit_floor_c = 0.1  # deg C: changes below this are noise
         self.reset()
 
     def reset(self):
@@ -228,7 +289,14 @@ class ThermalEstimator:
         self.last_verdict = st.ACCEPTED
         self.guard.reset()
         self.changes = 0          # sudden changes detected since the reset
+        self._reset_turns()       # reversals of the direction of travel
         self._restart_fit()
+
+    def _reset_turns(self):
+        self.turns = 0
+        self._turn_dir = 0
+        self._turn_ext = 0.0
+        self._turn_seen = False
 
     def _restart_fit(self):
         """Start the fit afresh (after a reset or a very long gap); counts are kept."""
@@ -236,14 +304,17 @@ class ThermalEstimator:
         self._disturbed = False
         self._have_residual = False  # the change detector's previous block residual
         self._last_residual = 0.0
+        self._recent_residual = 0.0
         self._relevel_blocks = 0     # blocks still to re-level after a change
         if self.detector is not None:
             self.detector.reset()
         self._age_s = 0.0
+        self._fit_age_s = 0.0  # seconds of blocks since the fit started (to TURN_WINDOW_S)
         self._dt_cached = -1.0
         self._half_dt = 0.0
         self._y_prev = 0.0
         self._r_prev = 0.0
+        self._r_mean = 0.0  # smoothed measured ambient: what the future will see
         self._u_prev = 0.0
         self._ambient_measured = False
         # Regressors, each relative to its weighted mean: X (temperature
@@ -273,6 +344,13 @@ class ThermalEstimator:
         self._cty = 0.0
         self._cuy = 0.0
         self._cyy = 0.0
+        # forecast self-check (see _audit)
+        self._audit_due = 1  # blocks until the next check (see _audit)
+        self._audit_pending = False
+        self._audit_level = 0.0
+        self._audit_pred = 0.0
+        self._audit_var = 0.04  # prior: 20 % relative error until checked
+        self._s2 = 1e-4
         # solver outputs (scratch, so the answer path stores no containers)
         self._k = 0.0
         self._kr = 0.0
@@ -295,6 +373,7 @@ class ThermalEstimator:
         self.ambient_est_c = None
         self.gain_k_per_s = 0.0
         self.temp_est_c = None
+        self.eta_rel_sd = None
 
     # ------------------------------------------------------------------ update
     def update_ticks(self, temp_c, ticks_ms, ambient_c=None, duty=0.0):
@@ -398,6 +477,7 @@ class ThermalEstimator:
             self._r_prev = ambient_c
         elif self._ambient_fixed is not None:
             self._r_prev = self._ambient_fixed
+        self._r_mean = self._r_prev
 
     def _step(self, temp_c, dt_s, ambient_c, duty):
         """One accepted reading after the first: advance integrals, add to block."""
@@ -426,12 +506,18 @@ class ThermalEstimator:
             # duty is held over the interval: U += u dt exactly
             ur = self._ur + duty * dt_s
             self._ur = ur
+            if duty != self._u_prev:
+                # the forecast under check assumed the old duty: not a test
+                # of the model any more
+                self._audit_pending = False
             self._u_prev = duty
             self._sum_u += ur
         self._block_n += 1
         bt = self._block_t + dt_s
         self._block_t = bt
-        if bt >= self.block_s:
+        # (a hair below block_s: a block of round steps, 5 x 2.0 s, closes the
+        # same way whether its time was carried over a wake as float32 or not)
+        if bt >= self._block_close_s or self._block_n >= MAX_BLOCK_READINGS:
             self._close_block(bt)
 
     @staticmethod
@@ -444,7 +530,8 @@ class ThermalEstimator:
         # Deviations of the block means from the weighted means (regressors are
         # stored relative to their means, so their block mean is the deviation).
         dx = self._sum_x * inv_n
-        dy = self._sum_y * inv_n - self._my
+        y_mean = self._sum_y * inv_n
+        dy = y_mean - self._my
         heater = self.heater
         centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
         dt_ = self._sum_t * inv_n if centred_t else 0.0
@@ -455,8 +542,23 @@ class ThermalEstimator:
         self._sum_u = 0.0
         self._block_n = 0
         self._block_t = 0.0
+        if self._ambient_measured:
+            # a cycling fridge or a draughty room: predict with the ambient's
+            # recent mean (time constant memory_s), not its latest swing
+            f = bt * self._inv_mem
+            self._r_mean += (self._r_prev - self._r_mean) * (f if f < 1.0 else 1.0)
         if self._age_s < self.settle_s:
             self._age_s += bt
+        if self._fit_age_s < TURN_WINDOW_S:
+            # whole 1/16 s steps: exact in float32 and in the saved int16
+            self._fit_age_s += math.floor(bt * 16.0) * 0.0625
+            if not heater and self._turned(y_mean):
+                # The liquid reversed early on: the readings so far belong to
+                # another process (a probe warming up after the pour); start
+                # afresh. Later reversals (a top-up) are the change detector's.
+                self.turns += 1
+                self._restart_fit()
+                return
         if self._relevel_blocks:
             # just after a change: the sensor is still catching up; move the
             # level onto these readings and keep them out of the fit
@@ -515,6 +617,37 @@ class ThermalEstimator:
             self._cuy = lam * self._cuy + bdu * dy
             if centred_t:
                 self._ctu = lam * self._ctu + bdt * du
+        # forecast self-check, counted in whole blocks (an exact integer state)
+        self._audit_due -= 1
+        if self._audit_due <= 0:
+            self._audit(y_mean, bt)
+
+    def _turned(self, y_mean):
+        """Track the direction of travel of block means; True at a reversal.
+
+        A reversal is a retreat of more than ``turn_c`` from the extreme block
+        mean reached in the direction of travel. Without a heater a first-order
+        liquid never reverses, so whatever came before belongs to another
+        process.
+        """
+        direction = self._turn_dir
+        ext = self._turn_ext
+        if direction == 0:
+            if not self._turn_seen:
+                self._turn_seen = True
+                self._turn_ext = y_mean
+            elif abs(y_mean - ext) > self._turn_cut_c:
+                self._turn_dir = 1 if y_mean > ext else -1
+                self._turn_ext = y_mean
+            return False
+        if (y_mean - ext) * direction > 0.0:
+            self._turn_ext = y_mean
+            return False
+        if (ext - y_mean) * direction > self._turn_cut_c:
+            self._turn_dir = -direction
+            self._turn_ext = y_mean
+            return True
+        return False
 
     def _watch(self, n, dx, dy, dt_, du):
         """Feed the block's residual against the fit so far to the change detector.
@@ -540,6 +673,9 @@ class ThermalEstimator:
             # detector to the next one
             s2 = _DETECT_S2_CAP
         r = dy - (k * dx + kr * dt_ + g * du)
+        # recent lack of fit (about three blocks): where the readings sit now
+        # relative to a fit that averages over memory_s
+        self._recent_residual += 0.3 * (r - self._recent_residual)
         prev = self._last_residual
         self._last_residual = r
         if not self._have_residual:
@@ -558,6 +694,7 @@ class ThermalEstimator:
         # and hold the answer at DISTURBED until it re-converges.
         self.changes += 1
         self._disturbed = True
+        self._audit_pending = False  # the forecast under check did not know of it
         self._scale_information(self.keep_fraction)
         self._relevel_blocks = RELEVEL_BLOCKS
         self._age_s = 0.0
@@ -581,7 +718,7 @@ class ThermalEstimator:
         self._cyy *= f
 
     # ----------------------------------------------------------------- answer
-    def _solve(self, p_kk, p_tt, p_kt, p_gg):
+    def _solve(self, p_kk, p_tt, p_kt, p_gg, p_k0=None):
         """Solve the ridge-regularised normal equations for (k, kR, g).
 
         ``p_*`` are prior precisions added to the co-moment matrix (scaled by
@@ -591,7 +728,9 @@ class ThermalEstimator:
         """
         centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
         a11 = self._cxx + p_kk
-        b1 = self._cxy + p_kk * self._k0
+        # only the k prior itself pulls towards k0 (the ambient pseudo
+        # observation kR - R0 k = 0 has mean zero)
+        b1 = self._cxy + (p_kk if p_k0 is None else p_k0) * self._k0
         if centred_t:
             a12 = self._cxt + p_kt
             a22 = self._ctt + p_tt
@@ -635,20 +774,133 @@ class ThermalEstimator:
         self._i33 = i33
         return True
 
+    def _fit(self, centred_t, heater):
+        """Solve for (k, kR, g) with the priors; sets ``_k, _kr, _g, _s2``.
+
+        Priors enter as pseudo-observations, in units of the residual variance
+        s2: k ~ N(k0, k0^2); g ~ N(0, (1 K/s)^2); and, for an estimated
+        ambient, kR - R0 k ~ N(0, (k sd_R)^2). s2 and k are refined over
+        three passes. Returns False when the system is singular.
+        """
+        n_par = 2.0 + (1.0 if centred_t else 0.0) + (1.0 if heater else 0.0)
+        dof = self._w_blocks - n_par
+        if dof < 1.0:
+            dof = 1.0
+        s2 = 1e-4  # deg C^2: a floor of about one hundredth of a degree
+        k = self._k0
+        sd_r = math.sqrt(self._prior_r_var)
+        for _ in (0, 1, 2, 3):
+            p_k0 = s2 / (self._k0 * self._k0)
+            p_kk = p_k0
+            p_gg = s2
+            p_tt = 0.0
+            p_kt = 0.0
+            if centred_t:
+                kk = k if k > 0.1 * self._k0 else 0.1 * self._k0
+                p_r = s2 / (kk * kk * self._prior_r_var)
+                if _ == 3:
+                    # The free fit put the ambient where no room is (or made k
+                    # negative): the curvature is not Newton's. Pin the ambient
+                    # to the prior and fit k alone.
+                    p_r *= 1e6
+                r0 = self._prior_r
+                p_kk += p_r * r0 * r0
+                p_tt = p_r
+                p_kt = -p_r * r0
+            if _ == 3:
+                r_fit = self._kr / k if k > 0.0 else _INF
+                if not (centred_t and (k <= 0.0 or abs(r_fit - self._prior_r) > 3.0 * sd_r)):
+                    break
+            if not self._solve(p_kk, p_tt, p_kt, p_gg, p_k0):
+                return False
+            k = self._k
+            rss = self._cyy - k * self._cxy - self._kr * self._cty - self._g * self._cuy
+            s2_new = rss / dof
+            s2 = s2_new if s2_new > 1e-4 else 1e-4
+        self._s2 = s2
+        return True
+
+    def _audit(self, level_c, block_t_s):
+        """Check the forecast made one horizon ago; make the next one.
+
+        The model's own forecasts are its best test: every horizon (``audit_s``
+        or longer for a slow liquid) the change it predicted is compared with the change
+        the readings show (block means), and the squared relative error feeds
+        an exponentially weighted mean. It is the model-mismatch part of the
+        uncertainty (non-exponential physics, a lid, a sensor lag), which the
+        residual variance of the fit cannot see.
+        """
+        if self._audit_pending:
+            actual = level_c - self._audit_level
+            pred = self._audit_pred
+            scale = abs(pred)
+            if scale < self._audit_floor_c:
+                scale = self._audit_floor_c
+            err = (actual - pred) / scale
+            self._audit_var = 0.8 * self._audit_var + 0.2 * err * err
+            self._audit_pending = False
+        due = int(self.audit_s / block_t_s + 0.5) if block_t_s > 0.0 else 1
+        if due < 1:
+            due = 1
+        self._audit_due = due if due < MAX_AUDIT_BLOCKS else MAX_AUDIT_BLOCKS
+        centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
+        if self._w_blocks < 3.0 or not self._fit(centred_t, self.heater):
+            return
+        k = self._k
+        if not k > 0.0:
+            return
+        kr = self._kr
+        g = self._g
+        r = kr / k if centred_t else self._r_mean
+        eq = r + g * self._u_prev / k
+        lev = self._level(k, kr, g, self._my)
+        # horizon: long enough for the model to predict about 1 deg C of
+        # change (a slow fermenter needs minutes, a kettle seconds), between
+        # audit_s and 20 audit_s
+        rate = abs(k * (eq - lev))
+        horizon = 1.0 / rate if rate > 0.0 else _INF
+        if horizon < self.audit_s:
+            horizon = self.audit_s
+        elif horizon > 20.0 * self.audit_s:
+            horizon = 20.0 * self.audit_s
+        # rounded to the nearest block (not up): a horizon of round numbers,
+        # 60 s over 10 s blocks, gives the same count after a wake
+        blocks = int(horizon / block_t_s + 0.5) if block_t_s > 0.0 else 1
+        if blocks < 1:
+            blocks = 1
+        if blocks > MAX_AUDIT_BLOCKS:
+            blocks = MAX_AUDIT_BLOCKS  # the saved state holds the countdown in 5 bits
+        self._audit_due = blocks
+        horizon = blocks * block_t_s  # the blocks to come last about as long as this one
+        try:
+            decay = math.exp(-k * horizon)
+        except (ValueError, OverflowError):
+            decay = 0.0
+        self._audit_level = level_c
+        self._audit_pred = (eq - lev) * (1.0 - decay)
+        self._audit_pending = True
+
     def _level(self, k, kr, g, my):
-        """Fitted current temperature (deg C) for the parameters given."""
-        return my + k * self._xr + kr * self._tr + g * self._ur
+        """Current temperature (deg C): the fit's value now plus its recent lack of fit."""
+        return my + k * self._xr + kr * self._tr + g * self._ur + self._recent_residual
 
     def _eta_at(self, k, kr, g, my, target_c, duty):
         """Time to target (s) for given parameters; 1e12 for "never"."""
         if self._ambient_measured or self._ambient_fixed is not None:
-            r = self._r_prev
+            r = self._r_mean
         else:
             r = kr / k
-        t = model.time_to_target_s(self._level(k, kr, g, my), target_c, k, r + g * duty / k)
-        if t is None:
+        # time_to_target_s of tinytherm.model for k > 0, inlined so that the
+        # estimator does not pull that module (3.5 KB of heap) onto a device
+        gap_now = self._level(k, kr, g, my) - (r + g * duty / k)
+        gap_target = target_c - (r + g * duty / k)
+        if gap_now == 0.0 or gap_target == 0.0 or (gap_now > 0.0) != (gap_target > 0.0) \
+                or abs(gap_target) > abs(gap_now):
+            return 0.0 if gap_target == gap_now else 1e12
+        try:
+            return math.log(gap_now / gap_target) / k
+        except (ValueError, OverflowError):
             return 1e12
-        return t
 
     def predict(self, target_c):
         """Compute the time until ``target_c`` (deg C); return the status code.
@@ -657,7 +909,9 @@ class ThermalEstimator:
         from the latest reading; ``None`` when there is no estimate;
         ``eta_high_s`` may be ``inf`` when the data cannot rule out "never"),
         ``rate_per_s`` (1/s), ``equilibrium_c`` and ``ambient_est_c`` (deg C),
-        ``gain_k_per_s`` (K/s at full duty) and ``temp_est_c`` (deg C).
+        ``gain_k_per_s`` (K/s at full duty), ``temp_est_c`` (deg C) and
+        ``eta_rel_sd`` (standard deviation of log-time: parameters plus the
+        forecast audit's model mismatch; ``None`` without an ETA).
         Never raises.
         """
         try:
@@ -685,33 +939,10 @@ class ThermalEstimator:
         centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
         heater = self.heater
         duty = self._u_prev if heater else 0.0
-        n_par = 2.0 + (1.0 if centred_t else 0.0) + (1.0 if heater else 0.0)
-        dof = self._w_blocks - n_par
-        if dof < 1.0:
-            dof = 1.0
-        # Priors as pseudo-observations, in units of the residual variance s2:
-        # k ~ N(k0, k0^2); g ~ N(0, (1 K/s)^2); and, for an estimated ambient,
-        # kR - R0 k ~ N(0, (k sd_R)^2). s2 and k are refined over two passes.
-        s2 = 1e-4  # deg C^2: a floor of about one hundredth of a degree
-        k = self._k0
-        for _ in (0, 1, 2):
-            p_kk = s2 / (self._k0 * self._k0)
-            p_gg = s2
-            p_tt = 0.0
-            p_kt = 0.0
-            if centred_t:
-                kk = k if k > 0.1 * self._k0 else 0.1 * self._k0
-                p_r = s2 / (kk * kk * self._prior_r_var)
-                r0 = self._prior_r
-                p_kk += p_r * r0 * r0
-                p_tt = p_r
-                p_kt = -p_r * r0
-            if not self._solve(p_kk, p_tt, p_kt, p_gg):
-                return self.status
-            k = self._k
-            rss = self._cyy - k * self._cxy - self._kr * self._cty - self._g * self._cuy
-            s2_new = rss / dof
-            s2 = s2_new if s2_new > 1e-4 else 1e-4
+        if not self._fit(centred_t, heater):
+            return self.status
+        k = self._k
+        s2 = self._s2
         kr = self._kr
         g = self._g
         # variance of the parameters: s2 * (W2 / W) * inverse matrix
@@ -721,7 +952,7 @@ class ThermalEstimator:
         if not k > 0.0:
             return self.status
         my = self._my
-        r = kr / k if centred_t else self._r_prev
+        r = kr / k if centred_t else self._r_mean
         eq = r + g * duty / k
         temp = self._level(k, kr, g, my)
         self.temp_est_c = temp
@@ -762,12 +993,19 @@ class ThermalEstimator:
         if var_eta < 0.0:
             var_eta = 0.0
         rel_sd = math.sqrt(var_eta) / eta if eta > 0.0 else 0.0
+        # add the model-mismatch part measured by the forecast self-check
+        rel_sd = math.sqrt(rel_sd * rel_sd + self._audit_var)
         spread = math.exp(self._z * rel_sd) if self._z * rel_sd < 50.0 else _INF
         self.eta_s = eta
         self.eta_low_s = eta / spread
         self.eta_high_s = eta * spread
-        sd_k = math.sqrt(s2p * self._i11) if self._i11 > 0.0 else 0.0
-        if self._age_s >= self.settle_s and rel_sd <= self.max_relative_sd and sd_k < 0.5 * k:
+        self.eta_rel_sd = rel_sd
+        # trusted once the settle time has passed and the answer itself is
+        # precise enough (k alone may be loose while the ETA is not: a heater
+        # at constant duty barely separates k from g); near the end a spread
+        # of a few seconds is still a good answer (TRUST_FLOOR_S)
+        if self._age_s >= self.settle_s and (rel_sd <= self.max_relative_sd
+                                             or rel_sd * eta <= TRUST_FLOOR_S):
             self.status = st.TRACKING
         return self.status
 
@@ -799,28 +1037,51 @@ class ThermalEstimator:
                 continue
             if name in _HEATER_ONLY and not self.heater:
                 continue
-            if name == "_r_prev" and not measured:
+            if (name == "_r_prev" or name == "_r_mean") and not measured:
+                continue
+            if name in _NO_HEATER_ONLY and self.heater:
                 continue
             names.append(name)
-        if _FIXED_SIZE + 4 * len(names) > bl.PAYLOAD_SIZE and names[-1] == "_w_sq":
-            # heater with an estimated ambient: the least important field
-            # (_w_sq, only in the interval width) is rebuilt on restore
-            names.pop()
-        fixed = _FIXED_SIZE + 2 * self._window_slots(len(names))
-        spare = bl.PAYLOAD_SIZE - fixed - 4 * len(names)
+        window = 8 if self.guard.spike_window == 5 else 4  # the spike gate's older readings
+        # the pending forecast check goes as float32 where it fits, else as
+        # int16 (1/1024 deg C), else (after _w_sq) not at all
+        n_always = len([n for n in names if n in _ALWAYS_SHORT])
+        fits = _FIXED_SIZE + window + 4 * len(names) - 2 * n_always <= bl.PAYLOAD_SIZE
+        short = _ALWAYS_SHORT if fits else _SHORT
+        for name in _DROPPABLE:
+            # a full payload (an estimated ambient, a heater): the least
+            # important fields go (the pending forecast check is dropped,
+            # _w_sq rebuilt) before the spike gate loses its window
+            if _FIXED_SIZE + window + _values_size(names, short) <= bl.PAYLOAD_SIZE:
+                break
+            if name in names:
+                names.remove(name)
+        # int16 fields first: the payload then ends with a float, so any NaN
+        # written over its tail is caught on restore
+        shorts = [n for n in names if n in short]
+        names = shorts + [n for n in names if n not in short]
+        n_float = len(names) - len(shorts)
+        values = _values_size(names, short)
+        fixed = _FIXED_SIZE + 2 * self._window_slots(values)
+        spare = bl.PAYLOAD_SIZE - fixed - values
         doubles = spare // 4
-        if doubles > len(names):
-            doubles = len(names)
-        fmt = "<" + "d" * doubles + "f" * (len(names) - doubles)
-        return fmt, names
+        if doubles > n_float:
+            doubles = n_float
+        fmt = "<" + "h" * len(shorts) + "d" * doubles + "f" * (n_float - doubles)
+        return fmt, tuple(names)
 
-    def _window_slots(self, n_values):
+    @staticmethod
+    def _values_offset(fmt, slots):
+        """Where the guard window and the values start: they end at the CRC."""
+        return bl.PAYLOAD_OFFSET + bl.PAYLOAD_SIZE - 2 * slots - struct.calcsize(fmt)
+
+    def _window_slots(self, values_size):
         """How many older readings of the guard's spike window fit in the blob (0, 2 or 4).
 
         Those left out are restored as copies of the last reading (heater with
         an estimated ambient: the fit needs every byte there).
         """
-        room = (bl.PAYLOAD_SIZE - _FIXED_SIZE - 4 * n_values) // 2
+        room = (bl.PAYLOAD_SIZE - _FIXED_SIZE - values_size) // 2
         want = 4 if self.guard.spike_window == 5 else 2
         if room >= want:
             return want
@@ -854,10 +1115,13 @@ class ThermalEstimator:
                  | (16 if g._has_accepted else 0))
         y = self._y_prev
         flags |= self._relevel_blocks << 5
+        fmt, names = self._layout(self._ambient_measured)
+        if self._audit_pending and "_audit_level" in names:
+            flags |= 128  # a pending forecast check travels only with its start level
         age = self._age_s if self._age_s < self.settle_s else self.settle_s
         struct.pack_into(
             _FIXED_FMT, buf, bl.PAYLOAD_OFFSET,
-            _clamp_int(self.readings, 0, 0xFFFFFFFF), _clamp_int(self._block_n, 0, 0xFFFF),
+            _clamp_int(self.readings, 0, 0xFFFFFFFF), _clamp_int(self._block_n, 0, 0xFF),
             flags, g._win_n | (_clamp_int(g.consecutive_rejections, 0, 31) << 3),
             _clamp_int(age * self._age_scale, 0, 0xFFFF),
             _clamp_int(g._run_s * self._run_scale, 0, 0xFFFF),
@@ -866,9 +1130,12 @@ class ThermalEstimator:
             _clamp_int(d.down / d.threshold * 65535.0, 0, 0xFFFF) if d is not None else 0,
             _clamp_int(d.mean_abs_z * 4096.0, 0, 0xFFFF) if d is not None else 0,
             self._last_residual)
-        fmt, names = self._layout(self._ambient_measured)
-        offset = bl.PAYLOAD_OFFSET + _FIXED_SIZE
-        slots = self._window_slots(len(names))
+        struct.pack_into(
+            _EXTRA_FMT, buf, bl.PAYLOAD_OFFSET + struct.calcsize(_FIXED_FMT),
+            _clamp_int(self._audit_due, 0, MAX_AUDIT_BLOCKS) | ((self._turn_dir + 1) << 5)
+            | (128 if self._turn_seen else 0))
+        slots = self._window_slots(_min_size(fmt))
+        offset = self._values_offset(fmt, slots)
         if slots:
             struct.pack_into("<hh", buf, offset, _clamp_int((g._w1 - y) * 256.0, -32767, 32767),
                              _clamp_int((g._w2 - y) * 256.0, -32767, 32767))
@@ -879,12 +1146,18 @@ class ThermalEstimator:
             offset += 4
         # one field at a time: no list of values on a small, fragmented heap
         for i in range(len(names)):
-            if fmt[i + 1] == "d":
+            kind = fmt[i + 1]
+            if kind == "d":
                 struct.pack_into("<d", buf, offset, self._saved_value(names[i]))
                 offset += 8
-            else:
+            elif kind == "f":
                 struct.pack_into("<f", buf, offset, self._saved_value(names[i]))
                 offset += 4
+            else:
+                code = _clamp_int(self._saved_value(names[i]) * _short_scale(names[i]),
+                                  -32767, 32767)
+                struct.pack_into("<h", buf, offset, code)
+                offset += 2
         return bl.seal(buf)
 
     def _saved_value(self, name):
@@ -894,6 +1167,12 @@ class ThermalEstimator:
             return self._my - self._y_prev  # small offset: float32 keeps it precise
         if name == "_sum_y":
             return self._sum_y - self._block_n * self._y_prev
+        if name == "_audit_level":
+            return self._audit_level - self._y_prev
+        if name == "_r_mean":
+            return self._r_mean - self._r_prev
+        if name == "_turn_ext":
+            return self._turn_ext - self._y_prev
         return getattr(self, name)
 
     def restore(self, blob):
@@ -930,10 +1209,14 @@ class ThermalEstimator:
         down = down_code * threshold / 65535.0
         mean_abs_z = mabs_code / 4096.0
         consecutive = flags2 >> 3
-        offset = bl.PAYLOAD_OFFSET + _FIXED_SIZE
+        bits = struct.unpack_from(
+            _EXTRA_FMT, blob, bl.PAYLOAD_OFFSET + struct.calcsize(_FIXED_FMT))[0]
+        if (bits >> 5) & 3 > 2:
+            return bl.BLOB_VALUES
         measured = bool(flags & 8)
         fmt, names = self._layout(measured)
-        slots = self._window_slots(len(names))
+        slots = self._window_slots(_min_size(fmt))
+        offset = self._values_offset(fmt, slots)
         w1_code = w2_code = 0
         if slots:
             w1_code, w2_code = struct.unpack_from("<hh", blob, offset)
@@ -945,12 +1228,7 @@ class ThermalEstimator:
         # check every value before touching the state, one at a time (no tuple)
         start = offset
         for i in range(len(names)):
-            if fmt[i + 1] == "d":
-                v = struct.unpack_from("<d", blob, offset)[0]
-                offset += 8
-            else:
-                v = struct.unpack_from("<f", blob, offset)[0]
-                offset += 4
+            v, offset = _unpack_value(fmt[i + 1], names[i], blob, offset)
             if not _finite(v):
                 return bl.BLOB_VALUES
         if not _finite(last_residual):
@@ -963,12 +1241,7 @@ class ThermalEstimator:
         pending = 0.0
         offset = start
         for i in range(len(names)):
-            if fmt[i + 1] == "d":
-                v = struct.unpack_from("<d", blob, offset)[0]
-                offset += 8
-            else:
-                v = struct.unpack_from("<f", blob, offset)[0]
-                offset += 4
+            v, offset = _unpack_value(fmt[i + 1], names[i], blob, offset)
             if names[i] == "pending":
                 pending = v
             else:
@@ -991,6 +1264,24 @@ class ThermalEstimator:
         self._relevel_blocks = relevel
         self._age_s = age_s
         self._last_residual = last_residual
+        self._turn_dir = ((bits >> 5) & 3) - 1
+        self._turn_seen = bool(bits & 128)
+        if not self.heater:
+            self._turn_ext += y
+        self._audit_due = bits & 31
+        if "_audit_level" in names:
+            self._audit_pending = bool(flags & 128)
+            self._audit_level += y
+        if measured:
+            self._r_mean += self._r_prev
+        else:
+            self._r_mean = self._r_prev
+        # fields a full payload left out (heater with an estimated ambient):
+        # the block sums as if the block's readings sat at the current values
+        if "_sum_u" not in names and self.heater:
+            self._sum_u = block_n * self._ur
+        if "_sum_t" not in names:
+            self._sum_t = block_n * self._tr
         g._has_accepted = bool(flags & 16)
         g._last_c = y
         g._win_n = win_n

@@ -12,7 +12,7 @@ from support import XorShift, round_instance_floats, to_float32
 
 from tinytherm import blob as bl
 from tinytherm import status as st
-from tinytherm.estimator import ThermalEstimator
+from tinytherm.estimator import TRUST_FLOOR_S, ThermalEstimator
 
 try:
     import micropython
@@ -190,7 +190,18 @@ def wake_cycle_error(kwargs, hours, rounder=None, seed=5):
         if tr.count % 25 == 0:
             steady.predict(40.0)
             woken.predict(40.0)
-            assert steady.status == woken.status
+            if steady.status != woken.status:
+                # Only allowed where the float32 fields of the blob move the
+                # trust test across its threshold: both runs settling or
+                # tracking, their ETA spreads within 0.1 % of each other and of
+                # a threshold (max_relative_sd, or TRUST_FLOOR_S seconds).
+                assert {steady.status, woken.status} == {st.SETTLING, st.TRACKING}
+                a = steady.eta_rel_sd
+                b = woken.eta_rel_sd
+                assert abs(a - b) <= 1e-3 * a
+                near_rel = abs(a - steady.max_relative_sd) <= 1e-3 * a
+                near_floor = abs(a * steady.eta_s - TRUST_FLOOR_S) <= 1e-3 * TRUST_FLOOR_S
+                assert near_rel or near_floor, (a, steady.eta_s)
             assert steady.readings == woken.readings
             for name in ANSWER_FIELDS:
                 a = getattr(steady, name)
