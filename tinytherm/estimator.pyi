@@ -1,4 +1,16 @@
-from typing import Optional
+from typing import Optional, Union
+
+from tinytherm.change import ChangeDetector
+from tinytherm.guard import ReadingGuard
+
+GAP_RESTART: int
+GAP_WIDEN: int
+MAX_AUDIT_BLOCKS: int
+MAX_BLOCK_READINGS: int
+MISMATCH_C: float
+RELEVEL_BLOCKS: int
+TRUST_FLOOR_S: float
+TURN_WINDOW_S: float
 
 def normal_quantile(p: float) -> float: ...
 
@@ -11,13 +23,22 @@ class ThermalEstimator:
     max_relative_sd: float
     min_temp_c: float
     max_temp_c: float
+    fault_after: int
+    keep_fraction: float
+    audit_s: float
+    turn_c: float
+    guard: ReadingGuard
+    detector: Optional[ChangeDetector]
     readings: int
     rejected: int
+    changes: int
+    turns: int
     last_verdict: int
     status: int
     eta_s: Optional[float]
     eta_low_s: Optional[float]
     eta_high_s: Optional[float]
+    eta_rel_sd: Optional[float]
     rate_per_s: Optional[float]
     equilibrium_c: Optional[float]
     ambient_est_c: Optional[float]
@@ -28,10 +49,17 @@ class ThermalEstimator:
                  block_s: float = 10.0, interval: float = 0.8, settle_s: float = 60.0,
                  max_relative_sd: float = 0.25, rate_prior_per_s: float = ...,
                  excitation_c: float = 0.5, min_temp_c: float = -55.0,
-                 max_temp_c: float = 150.0) -> None: ...
+                 max_temp_c: float = 150.0, quantum_c: float = 0.0625, spike_window: int = 3,
+                 max_gap_s: float = 120.0, restart_gap_s: float = 3600.0,
+                 stuck_change_c: Optional[float] = 1.0, stuck_min_s: float = 30.0,
+                 fault_after: int = 5, detect_changes: bool = True,
+                 keep_fraction: float = 0.1, audit_s: float = 60.0,
+                 turn_c: float = 1.0) -> None: ...
     def reset(self) -> None: ...
     def update_ticks(self, temp_c: float, ticks_ms: int, ambient_c: Optional[float] = None,
                      duty: float = 0.0) -> int: ...
     def update(self, temp_c: float, dt_s: float, ambient_c: Optional[float] = None,
                duty: float = 0.0) -> int: ...
     def predict(self, target_c: float) -> int: ...
+    def save(self) -> bytearray: ...
+    def restore(self, blob: Union[bytes, bytearray, memoryview]) -> int: ...
