@@ -1,9 +1,10 @@
 """A battery mug that tells you when your drink is cool enough.
 
-Every WAKE_EVERY_S seconds the board wakes from deep sleep, restores what it
-knows from RTC memory, reads the NTC under the mug's floor, updates the
-estimator, shows "drinkable in about 3 min" (or "levelling off at 31 C" when
-the drink will never get there), saves, and goes back to sleep.
+Every WAKE_EVERY_S seconds the board wakes from deep sleep, restores the
+estimator from its 128-byte state blob in RTC memory, reads the NTC under the
+mug's floor, updates the estimator with the time slept, shows "drinkable in
+about 3 min" (or "levelling off at 31 C" when the drink will never get there),
+saves the blob back into RTC memory, and goes back to sleep.
 
 CAUTION: hot drinks scald. DRINKABLE_C is a comfort setting, not a safety
 limit; the estimate can be wrong (a top-up, a lid, a sensor that is not in
@@ -13,30 +14,38 @@ guidance.
 Copy board.py and this file to the board, install tinytherm (see README,
 "On the device"), and call ``mug.main()`` from main.py.
 
-State across deep sleep: ``restore_estimator()`` and ``save_estimator()`` are
-the only two places that know how the estimator survives a sleep. Until the
-core ships a fixed-size state blob they keep the last HISTORY readings in RTC
-memory and replay them into a fresh estimator on each wake (a few ms of work
-for 60 readings); switch those two functions to the blob when it lands.
-"""
-import struct
+State across deep sleep: RTC memory holds exactly what ``est.save()`` returns
+(``tinytherm.blob.BLOB_SIZE`` = 128 bytes, CRC-checked). After a power-on, or
+when the blob is truncated, corrupted or from other settings, ``restore()``
+leaves a fresh estimator and the mug starts learning again; it never crashes
+on what it finds in RTC memory.
 
+Time between readings: the blob holds no clock (tick counters restart at
+boot), so each wake feeds ``update(temp, slept_s)`` with the sleep it asked
+for plus WAKE_OVERHEAD_S, the boot and awake time of one cycle on your board
+(measure it once; 0.3 s left at 0 on a 20 s sleep makes the drink look 1.5 %
+faster). A wake from another source (a button) before the timer would make
+that interval wrong: give such wakes their own path.
+"""
 import board
+from tinytherm import blob
 from tinytherm import sensors
 from tinytherm import status
 from tinytherm.estimator import ThermalEstimator
 
 WAKE_EVERY_S = 20      # deep-sleep period, seconds
+WAKE_OVERHEAD_S = 0.0  # boot + awake time per cycle on your board, seconds (see above)
 DRINKABLE_C = 60.0     # "cool enough to drink" (comfort setting, see CAUTION)
-HISTORY = 60           # readings kept in RTC memory (60 x 20 s = 20 min, 369 bytes)
 OVERSAMPLE = 8         # ADC reads averaged per reading
-MAGIC = b"TTmg"
-_HEAD = "<4sIB"        # magic, wall clock of the last reading (s), count
-_ROW = "<Hf"           # seconds since the previous reading, reading (deg C)
+NO_READING_C = float("nan")  # fed for a failed reading: rejected, its time carried on
 
 
 def new_estimator():
-    """The estimator with this product's settings (unknown ambient)."""
+    """The estimator with this product's settings (unknown ambient).
+
+    A saved blob restores only into an estimator with the same settings:
+    after changing them here the first wake starts afresh.
+    """
     return ThermalEstimator(ambient_prior_c=21.0, memory_s=600.0)
 
 
@@ -48,40 +57,6 @@ def read_mug_c(adc):
     counts = total / OVERSAMPLE
     r = sensors.divider_resistance_ohm(counts, board.ADC_FULL_SCALE, board.FIXED_OHM)
     return sensors.beta_temperature_c(r, board.NTC_R25_OHM, board.NTC_BETA_K)
-
-
-# ---- the two functions that know how state survives deep sleep ----
-
-def restore_estimator(blob):
-    """``(estimator, last_wall_s, rows)`` rebuilt from RTC memory (fresh if invalid)."""
-    est = new_estimator()
-    rows = []  # type: list
-    head = struct.calcsize(_HEAD)
-    row = struct.calcsize(_ROW)
-    if len(blob) < head or blob[:4] != MAGIC:
-        return est, None, rows
-    _, last_wall_s, n = struct.unpack_from(_HEAD, blob, 0)
-    if len(blob) < head + n * row:
-        return est, None, rows
-    for i in range(n):
-        dt_s, temp_c = struct.unpack_from(_ROW, blob, head + i * row)
-        est.update(temp_c, float(dt_s))
-        rows.append((dt_s, temp_c))
-    return est, last_wall_s, rows
-
-
-def save_estimator(rows, wall_s):
-    """Bytes for RTC memory: the last HISTORY readings and the time of the newest."""
-    rows = rows[-HISTORY:]
-    if rows:
-        rows[0] = (0, rows[0][1])  # the oldest kept reading starts a fresh replay
-    out = bytearray(struct.calcsize(_HEAD) + len(rows) * struct.calcsize(_ROW))
-    struct.pack_into(_HEAD, out, 0, MAGIC, wall_s, len(rows))
-    off = struct.calcsize(_HEAD)
-    for dt_s, temp_c in rows:
-        struct.pack_into(_ROW, out, off, dt_s, temp_c)
-        off += struct.calcsize(_ROW)
-    return bytes(out)
 
 
 # ---- what the user sees ----
@@ -105,32 +80,35 @@ def message(est, temp_c):
     return "%d C, learning" % int(temp_c + 0.5)
 
 
-def log_line(wall_s, temp_c, est):
+def log_line(wall_s, temp_c, est, restore_code):
     """One machine-readable serial line per wake (the tests parse it)."""
     def num(x):
         return -1 if x is None else int(x + 0.5) if x < 1e9 else 999999999
     eq = est.equilibrium_c
-    return "log t=%d temp=%.2f status=%s eta=%d low=%d high=%d eq=%.2f" % (
-        wall_s, temp_c, status.status_name(est.status), num(est.eta_s), num(est.eta_low_s),
-        num(est.eta_high_s), -999.0 if eq is None else eq)
+    return ("log t=%d temp=%.2f status=%s eta=%d low=%d high=%d eq=%.2f readings=%d"
+            " restore=%s") % (
+        wall_s, -999.0 if temp_c is None else temp_c, status.status_name(est.status),
+        num(est.eta_s), num(est.eta_low_s), num(est.eta_high_s), -999.0 if eq is None else eq,
+        est.readings, blob.restore_name(restore_code))
 
 
 def main():
-    blob = board.rtc_load() if board.woke_from_deep_sleep() else b""
-    est, last_wall_s, rows = restore_estimator(blob)
-    now_s = board.wall_clock_s()
+    est = new_estimator()
+    if board.woke_from_deep_sleep():
+        # anything but RESTORED (truncated, corrupted, other settings) leaves a fresh estimator
+        restore_code = est.restore(board.rtc_load())
+    else:
+        restore_code = blob.BLOB_LENGTH  # power-on: RTC memory holds nothing of ours
     temp_c = read_mug_c(board.ntc_adc())
+    # The first reading after a fresh start ignores the time step; after a
+    # restore it is the time since the reading saved before the sleep.
+    slept_s = float(WAKE_EVERY_S) + WAKE_OVERHEAD_S
+    est.update(NO_READING_C if temp_c is None else temp_c, slept_s)
+    est.predict(DRINKABLE_C)
     if temp_c is None:
         board.show("check the sensor")
     else:
-        # integer seconds from the RTC: no large float timestamps are subtracted
-        dt_s = 0 if last_wall_s is None else now_s - last_wall_s
-        if last_wall_s is not None and not 0 < dt_s < 65536:
-            est, rows, dt_s = new_estimator(), [], 0  # clock jumped: start over
-        est.update(temp_c, float(dt_s))
-        rows.append((dt_s, temp_c))
-        est.predict(DRINKABLE_C)
         board.show(message(est, temp_c))
-        print(log_line(now_s, temp_c, est))
-        board.rtc_save(save_estimator(rows, now_s))
+    print(log_line(board.wall_clock_s(), temp_c, est, restore_code))
+    board.rtc_save(est.save())
     board.deep_sleep_ms(WAKE_EVERY_S * 1000)

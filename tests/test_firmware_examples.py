@@ -80,14 +80,39 @@ def mug_cfg(tmp_path, start_c, ambient_c, rate_per_s, end_s, seed, settings=None
     return cfg
 
 
+def read_rtc_log(path):
+    """Every payload the example wrote to RTC memory, in order."""
+    with open(path) as fh:
+        return [bytes.fromhex(line.strip()) for line in fh if line.strip()]
+
+
+def mug_estimator():
+    """A CPython estimator with the mug's settings (new_estimator() in mug.py)."""
+    sys.path.insert(0, ROOT)
+    try:
+        from tinytherm.estimator import ThermalEstimator
+    finally:
+        sys.path.remove(ROOT)
+    return ThermalEstimator(ambient_prior_c=21.0, memory_s=600.0)
+
+
 def test_mug_deep_sleep_cycle_matches_truth(tmp_path):
     cfg = mug_cfg(tmp_path, end_s=1400, seed=3, **MUG)
+    cfg["rtc_log"] = str(tmp_path / "rtc.hex")
     out = run_example("mug", cfg, tmp_path)
     logs = parse_logs(out)
     shown = [l[len("[display] "):] for l in out.splitlines() if l.startswith("[display] ")]
     # one wake every 20 s, each a fresh program: the answers need RTC memory
     assert len(logs) >= 65
     assert len(shown) == len(logs)
+    # RTC memory holds the estimator's state blob and nothing else: 128 bytes
+    payloads = read_rtc_log(cfg["rtc_log"])
+    assert len(payloads) == len(logs)
+    assert {len(p) for p in payloads} == {128}
+    # the state really crossed every sleep: restored each wake, one more reading each time
+    assert logs[0]["restore"] == "blob_length" and logs[0]["readings"] == "1"
+    for i, row in enumerate(logs[1:], 2):
+        assert row["restore"] == "restored" and row["readings"] == str(i), row
     # truth: closed-form arrival at 60 C (the probe lags it by ~5 s)
     arrival_s = math.log((MUG["start_c"] - MUG["ambient_c"]) / (60.0 - MUG["ambient_c"])) / \
         MUG["rate_per_s"]
@@ -111,6 +136,72 @@ def test_mug_deep_sleep_cycle_matches_truth(tmp_path):
     # tracking begins within the first 4 minutes
     first = min(int(r["t"]) - EPOCH_S for r in logs if r["status"] == "tracking")
     assert first <= 240
+
+
+def test_mug_blob_restores_in_cpython(tmp_path):
+    # A blob written by the MicroPython mug restores into a CPython estimator
+    # with the same settings and gives the answer the mug logged at that wake
+    # (within the saved state's float32 rounding; DEVELOPERS, "Saved state").
+    cfg = mug_cfg(tmp_path, end_s=500, seed=6, **MUG)
+    cfg["rtc_log"] = str(tmp_path / "rtc.hex")
+    logs = parse_logs(run_example("mug", cfg, tmp_path))
+    payloads = read_rtc_log(cfg["rtc_log"])
+    compared = 0
+    for row, payload in zip(logs, payloads):
+        if row["status"] != "tracking":
+            continue
+        est = mug_estimator()
+        assert est.restore(payload) == 0  # tinytherm.blob.RESTORED
+        assert est.readings == int(row["readings"])
+        est.predict(60.0)
+        assert est.status == 2, row  # status.TRACKING
+        eta = int(row["eta"])
+        assert abs(est.eta_s - eta) <= 0.02 * eta + 2.0, (est.eta_s, row)
+        compared += 1
+    assert compared >= 10
+
+
+def test_mug_corrupted_rtc_memory_starts_afresh(tmp_path):
+    # Damage RTC memory during three sleeps: a flipped bit (CRC), a truncated
+    # payload, all zeros. Each of those wakes must start a fresh estimator,
+    # keep running, and be tracking again (against the truth) a few wakes later.
+    cfg = mug_cfg(tmp_path, end_s=1000, seed=7, **MUG)
+    cfg["rtc_log"] = str(tmp_path / "rtc.hex")
+    cfg["rtc_faults"] = [[8, "flip"], [16, "truncate"], [24, "zero"]]
+    out = run_example("mug", cfg, tmp_path)
+    logs = parse_logs(out)
+    assert len(logs) == 1000 // 20 + 1  # no wake lost to a crash
+    assert {len(p) for p in read_rtc_log(cfg["rtc_log"])} == {128}
+    # wake n is logs[n] (logs[0] is the power-on)
+    assert [logs[n]["restore"] for n in (8, 16, 24)] == ["blob_crc", "blob_length", "blob_magic"]
+    arrival_s = math.log((MUG["start_c"] - MUG["ambient_c"]) / (60.0 - MUG["ambient_c"])) / \
+        MUG["rate_per_s"]
+    for n in (8, 16, 24):
+        assert logs[n]["readings"] == "1" and logs[n]["status"] == "gathering", logs[n]
+        assert logs[n + 1]["restore"] == "restored" and logs[n + 1]["readings"] == "2"
+        # re-learnt within the 8 wakes before the next fault
+        later = [r for r in logs[n + 1:n + 8] if r["status"] == "tracking"]
+        assert later, logs[n:n + 8]
+        for row in later:
+            remaining = arrival_s - (int(row["t"]) - EPOCH_S)
+            assert abs(int(row["eta"]) - remaining) <= 0.15 * remaining + 30.0, (row, remaining)
+    assert all(r["restore"] == "restored" for i, r in enumerate(logs) if i not in (0, 8, 16, 24))
+
+
+def test_mug_open_sensor_says_so_and_keeps_its_state(tmp_path):
+    cfg = mug_cfg(tmp_path, end_s=600, seed=8, **MUG)
+    cfg["ntc_open_from_s"] = 400
+    out = run_example("mug", cfg, tmp_path)
+    logs = parse_logs(out)
+    shown = [l[len("[display] "):] for l in out.splitlines() if l.startswith("[display] ")]
+    for row, text in zip(logs, shown):
+        t = int(row["t"]) - EPOCH_S
+        if t >= 400:
+            assert text == "check the sensor" and row["temp"] == "-999.00", (row, text)
+            # rejected readings are not counted, but the state still travels
+            assert row["restore"] == "restored" and row["readings"] == "20", row
+        if t >= 480:
+            assert row["status"] == "sensor_fault", row
 
 
 def test_mug_levelling_off_above_target(tmp_path):

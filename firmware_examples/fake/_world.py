@@ -19,6 +19,12 @@ Beta-equation part in a divider read by a 12-bit ADC with Gaussian noise of
 the NTC lead at that time. ``"truth_csv"`` (optional) gets
 ``t_s,liquid_c,relay`` once a simulated second.
 
+RTC memory: ``"rtc_faults"`` lists ``[wake, kind]`` events that damage it
+during the deep sleep before wake number ``wake`` (1 = the first wake):
+``"flip"`` flips one bit in the middle, ``"truncate"`` keeps the first 100
+bytes, ``"zero"`` clears it to zero bytes of the same length. ``"rtc_log"``
+(optional) gets one hex line per write to RTC memory.
+
 This is test scaffolding for the unix port; it never runs on a device.
 """
 import json
@@ -78,6 +84,7 @@ class World:
         self.faults = cfg.get("faults", [])
         self.wakes = 0
         self._truth = None
+        self._rtc_log = open(cfg["rtc_log"], "w") if cfg.get("rtc_log") else None
         if cfg.get("truth_csv"):
             self._truth = open(cfg["truth_csv"], "w")
             self._truth.write("t_s,liquid_c,relay\n")
@@ -137,10 +144,36 @@ class World:
             raise TraceEnd()
 
     def close(self):
-        """Flush the truth file (call when the run ends)."""
+        """Flush the truth and RTC log files (call when the run ends)."""
         if self._truth is not None:
             self._truth.close()
             self._truth = None
+        if self._rtc_log is not None:
+            self._rtc_log.close()
+            self._rtc_log = None
+
+    # ---- RTC memory ----
+    def rtc_write(self, data):
+        """Keep ``data`` across deep sleep (and log it when asked)."""
+        self.rtc_memory = bytes(data)
+        if self._rtc_log is not None:
+            self._rtc_log.write("".join("%02x" % b for b in self.rtc_memory) + "\n")
+
+    def deep_sleep(self, ms):
+        """Sleep ``ms`` ms, then apply the RTC damage scheduled for the coming wake."""
+        self.advance_ms(ms)
+        self.wakes += 1
+        for ev in self.cfg.get("rtc_faults", []):
+            if ev[0] != self.wakes or not self.rtc_memory:
+                continue
+            mem = bytearray(self.rtc_memory)
+            if ev[1] == "flip":
+                mem[len(mem) // 2] ^= 0x10
+            elif ev[1] == "truncate":
+                mem = mem[:100]
+            elif ev[1] == "zero":
+                mem = bytearray(len(mem))
+            self.rtc_memory = bytes(mem)
 
     # ---- sensors ----
     def ntc_counts_u16(self):

@@ -14,8 +14,7 @@ def reset_cause():
 
 
 def deepsleep(ms=0):
-    _world.world.advance_ms(ms)
-    _world.world.wakes += 1
+    _world.world.deep_sleep(ms)
     raise DeepSleep()
 
 
@@ -64,5 +63,5 @@ class RTC:
             return bytes(w.rtc_memory)
         if len(data) > 2048:
             raise ValueError("RTC memory holds 2048 bytes")
-        w.rtc_memory = bytes(data)
+        w.rtc_write(data)
         return None
