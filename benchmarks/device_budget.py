@@ -9,7 +9,8 @@
    heap held after importing each module, the size of one instance of each
    public class, and the bytes allocated per ``update()`` (gc disabled while
    counting, so every transient float box is counted) and retained after a
-   collection.
+   collection; also ``save()`` (the 128-byte state blob, after the first call
+   has made its buffer) and ``restore()``.
 
 The unix port is 64-bit and boxes every float (16 bytes each); a 32-bit board
 with boxed float32 (e.g. ESP32) uses about half for pointer-sized objects, a
@@ -17,6 +18,7 @@ port with 30-bit immediate floats allocates no boxes at all. The figures are
 what this script measured on the unix port, nothing else.
 """
 import argparse
+import ast
 import os
 import subprocess
 import sys
@@ -80,6 +82,15 @@ per0, kept0 = per_call(lambda i: temp(i), N)
 report("ThermalEstimator.update", per - per0, kept)
 per, kept = per_call(lambda i: est.predict(60.0), 200)
 report("ThermalEstimator.predict", per, kept)
+sz, first = size_of(lambda: est.save())
+print("instance state blob buffer (kept by the first save())", sz)
+saved = bytes(first)
+per, kept = per_call(lambda i: est.save(), 200)
+report("ThermalEstimator.save", per, kept)
+woken = ThermalEstimator()
+per, kept = per_call(lambda i: woken.restore(saved), 200)
+report("ThermalEstimator.restore", per, kept)
+print("blob_bytes", len(saved))
 
 sz, est2 = size_of(lambda: ThermalEstimator(heater=True))
 print("instance ThermalEstimator(heater=True)", sz)
@@ -123,17 +134,47 @@ def run_probe(libdir, modules, updates, heap):
     return out
 
 
+def core_imports(name):
+    """Core modules that tinytherm/<name>.py imports (from its source)."""
+    with open(os.path.join(ROOT, "tinytherm", name + ".py")) as fh:
+        tree = ast.parse(fh.read())
+    found = []
+    for node in ast.walk(tree):
+        if isinstance(node, ast.ImportFrom) and node.module == "tinytherm":
+            found.extend(a.name for a in node.names)
+        elif isinstance(node, ast.ImportFrom) and node.module and \
+                node.module.startswith("tinytherm."):
+            found.append(node.module.split(".")[1])
+        elif isinstance(node, ast.Import):
+            found.extend(a.name.split(".")[1] for a in node.names
+                         if a.name.startswith("tinytherm."))
+    return sorted(set(found))
+
+
 def import_order(names):
-    """Modules in an order where each one's core imports come first."""
-    first = ["__init__", "status", "model", "crc"]
-    rest = [n for n in names if n not in first]
-    return [n for n in first if n in names] + rest
+    """Modules in an order where each one's core imports come first, so each
+    module's heap figure is its own (dependencies already counted)."""
+    order = []
+
+    def visit(n, path):
+        if n in order or n not in names:
+            return
+        if n in path:
+            raise SystemExit("import cycle: %s" % " -> ".join(path + [n]))
+        for dep in core_imports(n):
+            visit(dep, path + [n])
+        order.append(n)
+    for n in ["__init__"] + sorted(names):
+        visit(n, [])
+    return order
 
 
 def main(argv=None):
     ap = argparse.ArgumentParser(description="Measure the core's flash/RAM budget on MicroPython")
     ap.add_argument("--updates", type=int, default=2000, help="updates to average over")
     ap.add_argument("--heap", default="8M", help="micropython heap size (-X heapsize)")
+    ap.add_argument("--commit", default=None,
+                    help="commit to print when the tree is not a git checkout (a git archive export)")
     args = ap.parse_args(argv)
 
     with tempfile.TemporaryDirectory() as tmp:
@@ -146,6 +187,8 @@ def main(argv=None):
         print("measuring .py imports ...", file=sys.stderr)
         src = run_probe(ROOT, mods, args.updates, args.heap)
 
+    print("Measured at commit %s%s" % ((args.commit, "") if args.commit else commit_id()))
+    print()
     print("Flash and import heap (unix port, 64-bit; heap %s)" % args.heap)
     print()
     print("| module | .py bytes | .mpy bytes | heap after import, .mpy (B) | from .py (B) |")
@@ -169,7 +212,20 @@ def main(argv=None):
             name = key[len("alloc "):]
             print("| allocated per call: %s (retained after gc: %d B) | %.0f |" % (
                 name, mpy["kept " + name], mpy[key]))
+    print("| saved state blob (save() length) | %d |" % mpy["blob_bytes"])
     return 0
+
+
+def commit_id():
+    """(short commit, " + uncommitted changes in tinytherm/" or "") of the measured tree."""
+    try:
+        head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=ROOT,
+                              capture_output=True, text=True, timeout=30).stdout.strip()
+        dirty = subprocess.run(["git", "status", "--porcelain", "--", "tinytherm"], cwd=ROOT,
+                               capture_output=True, text=True, timeout=30).stdout.strip()
+    except OSError:
+        return "unknown", ""
+    return head or "unknown", " + uncommitted changes in tinytherm/" if dirty else ""
 
 
 if __name__ == "__main__":
