@@ -196,7 +196,7 @@ class ThermalEstimator:
     """
 
     def __init__(self, ambient_c=None, ambient_prior_c=21.0, ambient_prior_sd_c=8.0,
-                 heater=False, memory_s=600.0, block_s=10.0, interval=0.8, settle_s=60.0,
+                 heater=False, memory_s=600.0, block_s=20.0, interval=0.8, settle_s=60.0,
                  max_relative_sd=0.25, rate_prior_per_s=1.0 / 1800.0, excitation_c=0.5,
                  min_temp_c=-55.0, max_temp_c=150.0, quantum_c=0.0625, spike_window=3,
                  max_gap_s=120.0, restart_gap_s=3600.0, stuck_change_c=1.0, stuck_min_s=30.0,
@@ -731,6 +731,59 @@ class ThermalEstimator:
         # only the k prior itself pulls towards k0 (the ambient pseudo
         # observation kR - R0 k = 0 has mean zero)
         b1 = self._cxy + (p_kk if p_k0 is None else p_k0) * self._k0
+        if not (centred_t or self.heater):
+            # one parameter (ambient known or measured, no heater): k alone;
+            # the small systems are solved directly, which on MicroPython
+            # saves the heap of the padded 3x3 (this runs at every block)
+            if not a11 > 0.0:
+                return False
+            i11 = 1.0 / a11
+            self._k = b1 * i11
+            self._kr = 0.0
+            self._g = 0.0
+            self._i11 = i11
+            self._i12 = 0.0
+            self._i13 = 0.0
+            self._i22 = 0.0
+            self._i23 = 0.0
+            self._i33 = 0.0
+            return True
+        if not (centred_t and self.heater):
+            # two parameters: (k, kR) or (k, g)
+            if centred_t:
+                a12 = self._cxt + p_kt
+                a22 = self._ctt + p_tt
+                b2 = self._cty
+            else:
+                a12 = self._cxu
+                a22 = self._cuu + p_gg
+                b2 = self._cuy
+            det = a11 * a22 - a12 * a12
+            if not det > 0.0:
+                return False
+            inv = 1.0 / det
+            i11 = a22 * inv
+            i12 = -a12 * inv
+            i22 = a11 * inv
+            self._k = i11 * b1 + i12 * b2
+            second = i12 * b1 + i22 * b2
+            self._i11 = i11
+            if centred_t:
+                self._kr = second
+                self._g = 0.0
+                self._i12 = i12
+                self._i22 = i22
+                self._i13 = 0.0
+                self._i33 = 0.0
+            else:
+                self._kr = 0.0
+                self._g = second
+                self._i13 = i12
+                self._i33 = i22
+                self._i12 = 0.0
+                self._i22 = 0.0
+            self._i23 = 0.0
+            return True
         if centred_t:
             a12 = self._cxt + p_kt
             a22 = self._ctt + p_tt

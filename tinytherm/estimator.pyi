@@ -46,7 +46,7 @@ class ThermalEstimator:
     temp_est_c: Optional[float]
     def __init__(self, ambient_c: Optional[float] = None, ambient_prior_c: float = 21.0,
                  ambient_prior_sd_c: float = 8.0, heater: bool = False, memory_s: float = 600.0,
-                 block_s: float = 10.0, interval: float = 0.8, settle_s: float = 60.0,
+                 block_s: float = 20.0, interval: float = 0.8, settle_s: float = 60.0,
                  max_relative_sd: float = 0.25, rate_prior_per_s: float = ...,
                  excitation_c: float = 0.5, min_temp_c: float = -55.0,
                  max_temp_c: float = 150.0, quantum_c: float = 0.0625, spike_window: int = 3,
