@@ -985,7 +985,8 @@ class ThermalEstimator:
         w = self._w
         if self.readings < 2 or self._w_blocks < 3.0 or not _finite(target_c):
             self._clear_answer(st.GATHERING)
-            if self.readings:
+            if self.readings and not self._fresh:
+                # the last reading (none just after a restart of the fit)
                 self.temp_est_c = self._y_prev
             return self.status
         self._clear_answer(st.SETTLING)
