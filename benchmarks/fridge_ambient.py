@@ -16,7 +16,8 @@ At moments between 10 % and 90 % of the true crossing time (every
 *same* fitted rate ``k`` and current temperature, three ways:
 
 - ``const_latest``: constant ambient = the latest air reading (the usual
-  assumption; it is what the estimator's own answer uses);
+  assumption; the estimator's own answer instead uses the measured ambient
+  smoothed with time constant ``memory_s``);
 - ``const_level``: constant ambient = the tracker's smoothed level;
 - ``varying``: the tracker's extrapolated ambient (periodic once a cycle has
   been seen, else its mean, or level and trend when a trend dominates)
