@@ -959,7 +959,7 @@ class ThermalEstimator:
         """Compute the time until ``target_c`` (deg C); return the status code.
 
         Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds
-        from the latest reading; ``None`` when there is no estimate;
+        after the latest reading; ``None`` when there is no estimate;
         ``eta_high_s`` may be ``inf`` when the data cannot rule out "never"),
         ``rate_per_s`` (1/s), ``equilibrium_c`` and ``ambient_est_c`` (deg C),
         ``gain_k_per_s`` (K/s at full duty), ``temp_est_c`` (deg C) and
@@ -1234,7 +1234,7 @@ class ThermalEstimator:
 
         ``blob.RESTORED`` (0) when the state is back. Anything else (wrong
         length, not a state blob, another layout version, CRC mismatch, a blob
-        from an estimator with other settings, impossible values) leaves a
+        written by an estimator with other settings, impossible values) leaves a
         fresh estimator, as after :meth:`reset`. Never raises. After a restore
         feed the first reading with :meth:`update` and the time slept.
         """

@@ -104,8 +104,8 @@ class ReadyByPlanner:
     def latest_start(self, start_c, target_c, deadline_s):
         """Latest moment to switch on full power so the liquid is at ``target_c`` at the deadline.
 
-        ``start_c`` now (deg C), ``target_c`` (deg C), ``deadline_s`` seconds
-        from now. Until the start the heater is off. On success (``TRACKING``)
+        ``start_c`` now (deg C), ``target_c`` (deg C), ``deadline_s`` (seconds
+        after now). Until the start the heater is off. On success (``TRACKING``)
         ``start_in_s`` is seconds from now and ``heat_for_s`` the full-power
         time. ``ARRIVED`` with REASON_NO_DRIVE_NEEDED: with the heater off it
         is already at or past the target at the deadline (past means too

@@ -147,8 +147,8 @@ def steinhart_hart_temperature_c(resistance_ohm, a, b, c):
 def steinhart_hart_resistance_ohm(temp_c, a, b, c):
     """Resistance in ohm at ``temp_c`` by inverting Steinhart-Hart (``b > 0``, ``c >= 0``).
 
-    Solves ``a + b*L + c*L**3 = 1/T`` for ``L = ln(R)`` by Newton's method
-    from the Beta-like start ``L = (1/T - a) / b``; the left side is
+    Solves ``a + b*L + c*L**3 = 1/T`` for ``L = ln(R)`` by Newton's method,
+    starting at the Beta-like ``L = (1/T - a) / b``; the left side is
     increasing in ``L`` for ``b > 0, c >= 0``, so the root is unique.
     """
     if not b > 0.0 or not c >= 0.0:
