@@ -174,6 +174,12 @@ def test_thermostat_matches_solve_ivp_events(tau, low, band, amb, gain, periodic
     k = 1.0 / tau
     high = low + band
     assume(amb + gain * tau > high + 1.0)  # else the heater never switches off
+    if periodic:
+        # Even at the ambient's trough the heater must clear the upper switch
+        # level: otherwise the liquid can hover below the lower one with the
+        # heater on (physically right, but not the bounded cycle checked
+        # here), or graze the upper one, which forecast documents it may miss.
+        assume(amb - 4.0 + gain * tau > high + 1.0)
     fc = Forecast(k, gain, amb)
     if periodic:
         fc.set_ambient_periodic(amb, 4.0, 1500.0, 0.3)
