@@ -77,6 +77,14 @@ def normal_quantile(p):
     return -z if p < 0.5 else z
 
 
+def _exp_neg(x):
+    """``exp(-x)`` for x >= 0, 0.0 where it underflows (MicroPython raises ValueError)."""
+    try:
+        return math.exp(-x)
+    except (ValueError, OverflowError):
+        return 0.0
+
+
 def _finite(x):
     return x == x and x != _INF and x != -_INF
 
@@ -312,6 +320,10 @@ class ThermalEstimator:
         self._fit_age_s = 0.0  # seconds of blocks since the fit started (to TURN_WINDOW_S)
         self._dt_cached = -1.0
         self._half_dt = 0.0
+        self._lam_bt = -1.0  # block length of the cached forgetting factor, s
+        self._lam = 1.0
+        self._lam_sq = 1.0
+        self._ambient_dt = 0.0  # known ambient times the cached dt, deg C s
         self._y_prev = 0.0
         self._r_prev = 0.0
         self._r_mean = 0.0  # smoothed measured ambient: what the future will see
@@ -485,6 +497,8 @@ class ThermalEstimator:
         if dt_s != self._dt_cached:
             self._dt_cached = dt_s
             self._half_dt = 0.5 * dt_s
+            if self._ambient_fixed is not None:
+                self._ambient_dt = self._ambient_fixed * dt_s
         yp = self._y_prev
         self._y_prev = temp_c
         # trapezoid: X += (R - (y_n + y_(n-1)) / 2) dt, R = 0 when estimated
@@ -493,7 +507,7 @@ class ThermalEstimator:
             xr = self._xr + (rn + self._r_prev - temp_c - yp) * self._half_dt
             self._r_prev = rn
         elif self._ambient_fixed is not None:
-            xr = self._xr + (self._ambient_fixed - self._half_sum(temp_c, yp)) * dt_s
+            xr = self._xr + self._ambient_dt - (temp_c + yp) * self._half_dt
         else:
             xr = self._xr - (temp_c + yp) * self._half_dt
             tr = self._tr + dt_s
@@ -519,10 +533,6 @@ class ThermalEstimator:
         # same way whether its time was carried over a wake as float32 or not)
         if bt >= self._block_close_s or self._block_n >= MAX_BLOCK_READINGS:
             self._close_block(bt)
-
-    @staticmethod
-    def _half_sum(a, b):
-        return 0.5 * (a + b)
 
     def _close_block(self, bt):
         n = self._block_n
@@ -575,17 +585,29 @@ class ThermalEstimator:
         #   C <- lam C + q (1 - a) (z - m_old)(y - m_old)
         # with lam = exp(-rho * block_t / memory): no new information, no forgetting.
         w = self._w
-        if w < 3.0 * n:
-            rho = 1.0
-        else:
+        full = w < 3.0 * n
+        if not full:
             rho = dy * dy * self._inv_exc2
-            if rho > 1.0:
-                rho = 1.0
-        try:
-            lam = math.exp(-rho * bt * self._inv_mem)
-        except (ValueError, OverflowError):
-            lam = 0.0
-        q = rho * n
+            full = rho >= 1.0
+        if full:
+            # a fully informative block (the usual case while the liquid
+            # moves): rho = 1, and regular sampling repeats the block length,
+            # so the forgetting factor comes from a cache (no float on the heap)
+            rho = 1.0
+            q = n
+            if bt == self._lam_bt:
+                lam = self._lam
+                lam2 = self._lam_sq
+            else:
+                lam = _exp_neg(bt * self._inv_mem)
+                lam2 = lam * lam
+                self._lam_bt = bt
+                self._lam = lam
+                self._lam_sq = lam2
+        else:
+            q = rho * n
+            lam = _exp_neg(rho * bt * self._inv_mem)
+            lam2 = lam * lam
         w = lam * w + q
         if not w > 0.0:
             return
@@ -593,7 +615,7 @@ class ThermalEstimator:
         self._w_blocks = lam * self._w_blocks + rho  # for the degrees of freedom
         # sum of squared per-reading weights: with forgetting the variance of
         # the estimate is about (W2 / W) s^2 times the inverse co-moment matrix
-        self._w_sq = lam * lam * self._w_sq + rho * q
+        self._w_sq = lam2 * self._w_sq + rho * q
         a = q / w
         self._my += a * dy
         # the regressors' means move by a * deviation: keep them relative

@@ -255,7 +255,8 @@ class ReadingGuard:
         if dt_s == 0.0 and self._has_accepted:
             return self._reject(status.DUPLICATE_TIME)
         if self._has_accepted:
-            pending = self._pending_s + dt_s
+            # (the common case, nothing carried over, allocates no float)
+            pending = dt_s if self._pending_s == 0.0 else self._pending_s + dt_s
             if pending > self._pending_cap_s:
                 pending = self._pending_cap_s
         else:
