@@ -330,11 +330,12 @@ class ThermalEstimator:
         self._u_prev = 0.0
         self._ambient_measured = False
         # Regressors, each relative to its weighted mean: X (temperature
-        # integral, deg C s), t (time, s), U (duty integral, s).
+        # integral, deg C s), t (time, s; at the start of the current block),
+        # U (duty integral, s).
         self._xr = 0.0
         self._tr = 0.0
         self._ur = 0.0
-        # Sums over the current block.
+        # Sums over the current block (_sum_t: of the elapsed block times).
         self._block_n = 0
         self._block_t = 0.0
         self._sum_y = 0.0
@@ -510,9 +511,6 @@ class ThermalEstimator:
             xr = self._xr + self._ambient_dt - (temp_c + yp) * self._half_dt
         else:
             xr = self._xr - (temp_c + yp) * self._half_dt
-            tr = self._tr + dt_s
-            self._tr = tr
-            self._sum_t += tr
         self._xr = xr
         self._sum_x += xr
         self._sum_y += temp_c
@@ -529,6 +527,10 @@ class ThermalEstimator:
         self._block_n += 1
         bt = self._block_t + dt_s
         self._block_t = bt
+        if not (self._ambient_measured or self._ambient_fixed is not None):
+            # the time regressor t = _tr + _block_t within a block: only the
+            # elapsed times are summed, _tr moves once per block
+            self._sum_t += bt
         # (a hair below block_s: a block of round steps, 5 x 2.0 s, closes the
         # same way whether its time was carried over a wake as float32 or not)
         if bt >= self._block_close_s or self._block_n >= MAX_BLOCK_READINGS:
@@ -544,7 +546,13 @@ class ThermalEstimator:
         dy = y_mean - self._my
         heater = self.heater
         centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
-        dt_ = self._sum_t * inv_n if centred_t else 0.0
+        if centred_t:
+            # block mean of t (relative to its weighted mean); then t at the
+            # block's end, from where the next block's elapsed times count
+            dt_ = self._tr + self._sum_t * inv_n
+            self._tr += bt
+        else:
+            dt_ = 0.0
         du = self._sum_u * inv_n if heater else 0.0
         self._sum_x = 0.0
         self._sum_y = 0.0
@@ -957,7 +965,8 @@ class ThermalEstimator:
 
     def _level(self, k, kr, g, my):
         """Current temperature (deg C): the fit's value now plus its recent lack of fit."""
-        return my + k * self._xr + kr * self._tr + g * self._ur + self._recent_residual
+        return (my + k * self._xr + kr * (self._tr + self._block_t) + g * self._ur
+                + self._recent_residual)
 
     def _eta_at(self, k, kr, g, my, target_c, duty):
         """Time to target (s) for given parameters; 1e12 for "never"."""
@@ -1352,12 +1361,6 @@ class ThermalEstimator:
             self._r_mean += self._r_prev
         else:
             self._r_mean = self._r_prev
-        # fields a full payload left out (heater with an estimated ambient):
-        # the block sums as if the block's readings sat at the current values
-        if "_sum_u" not in names and self.heater:
-            self._sum_u = block_n * self._ur
-        if "_sum_t" not in names:
-            self._sum_t = block_n * self._tr
         g._has_accepted = bool(flags & 16)
         g._last_c = y
         g._win_n = win_n
