@@ -1,8 +1,8 @@
 """MicroPython side of benchmarks/core_benchmark.py (run by it; prints key=value).
 
 Runs the same invented cooling trace through the core under the unix
-``micropython`` binary: us per update and heap bytes allocated per update (both
-with the GC disabled), retained growth over 100,000 updates, instance size.
+``micropython`` binary: us per update, heap bytes allocated per update with the
+GC disabled, bytes retained after 100,000 updates, instance size.
 """
 import gc
 import math
@@ -41,16 +41,11 @@ def main():
         for i in range(200, 1200):
             est.update(temps[i], 2.0, None, 0.5)
         alloc = (gc.mem_alloc() - a) / 1000.0
-        # timed with the collector off too (its pauses depend on the whole
-        # heap, not on the estimator); about 1 MB of garbage fits the heap
         gc.enable()
-        gc.collect()
-        gc.disable()
         t0 = time.ticks_us()
         for i in range(1200, n):
             est.update(temps[i], 2.0, None, 0.5)
         us = time.ticks_diff(time.ticks_us(), t0) / (n - 1200)
-        gc.enable()
         gc.collect()
         a = gc.mem_alloc()
         t0 = time.ticks_us()
