@@ -67,7 +67,7 @@ def main():
     if rom is None:
         print("no 1-Wire sensor found on pin %d" % board.ONEWIRE_PIN)
         return
-    # A fermenter changes over hours: long memory and pre-filter; the cellar or
+    # A fermenter changes over hours: long memory and long averaging blocks; the cellar or
     # brew room is known to within a few degrees.
     est = ThermalEstimator(ambient_prior_c=CELLAR_C, ambient_prior_sd_c=4.0, memory_s=10800.0,
                            block_s=BLOCK_S, settle_s=600.0, rate_prior_per_s=1.0 / 14400.0)
