@@ -52,7 +52,7 @@ from tinytherm.change import ChangeDetector
 from tinytherm.guard import GAP_RESTART, GAP_WIDEN, ReadingGuard
 
 _INF = math.inf
-TRUST_FLOOR_S = 30.0  # s: an ETA this sure (one standard deviation) is trusted at any length
+TRUST_FLOOR_S = 30.0  # s: an ETA whose upper bound is at most this much later is trusted
 MAX_BLOCK_READINGS = 255  # a block closes after this many readings (kept in one byte)
 MAX_AUDIT_BLOCKS = 31  # longest forecast-audit horizon, in blocks (kept in 5 bits)
 TURN_WINDOW_S = 300.0  # s: a reversal this early after a (re)start restarts the fit
@@ -1087,10 +1087,10 @@ class ThermalEstimator:
         self.eta_rel_sd = rel_sd
         # trusted once the settle time has passed and the answer itself is
         # precise enough (k alone may be loose while the ETA is not: a heater
-        # at constant duty barely separates k from g); near the end a spread
-        # of a few seconds is still a good answer (TRUST_FLOOR_S)
+        # at constant duty barely separates k from g); near the end an upper
+        # bound a few seconds above the ETA is still a good answer (TRUST_FLOOR_S)
         if self._age_s >= self.settle_s and (rel_sd <= self.max_relative_sd
-                                             or rel_sd * eta <= TRUST_FLOOR_S):
+                                             or self.eta_high_s - eta <= TRUST_FLOOR_S):
             self.status = st.TRACKING
         return self.status
 
