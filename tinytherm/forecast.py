@@ -175,6 +175,26 @@ def _finite(x):
     return x == x and x != _INF and x != -_INF
 
 
+def _seek(tt, x):
+    """Index i with tt[i] <= x < tt[i+1] in sorted breakpoints tt (-1 before, last after).
+
+    Binary search: at most log2(len(tt)) steps, no containers.
+    """
+    if x < tt[0]:
+        return -1
+    lo = 0
+    hi = len(tt) - 1
+    if tt[hi] <= x:
+        return hi
+    while hi - lo > 1:  # tt[lo] <= x < tt[hi]
+        mid = (lo + hi) >> 1
+        if tt[mid] <= x:
+            lo = mid
+        else:
+            hi = mid
+    return lo
+
+
 class Forecast:
     """Forecasts of the liquid temperature under an ambient schedule and a heater plan.
 
@@ -496,24 +516,7 @@ class Forecast:
 
     def _amb_seek(self, t_s):
         """Move the piecewise cursor so times[i] <= now+t < times[i+1] (i=-1: before)."""
-        tt = self._amb_times
-        n = len(tt)
-        x = self._amb_now + t_s
-        if x < tt[0]:
-            self._amb_i = -1
-            return
-        lo = 0
-        hi = n - 1
-        if tt[hi] <= x:
-            self._amb_i = hi
-            return
-        while hi - lo > 1:  # tt[lo] <= x < tt[hi]
-            mid = (lo + hi) >> 1
-            if tt[mid] <= x:
-                lo = mid
-            else:
-                hi = mid
-        self._amb_i = lo
+        self._amb_i = _seek(self._amb_times, self._amb_now + t_s)
 
     def _pw_value(self, t_s):
         """Piecewise ambient value at t_s using the current cursor (deg C)."""
@@ -529,24 +532,7 @@ class Forecast:
 
     def _plan_seek(self, t_s):
         """Move the duty cursor so times[i] <= now+t < times[i+1] (i=-1: before)."""
-        tt = self._plan_times
-        n = len(tt)
-        x = self._plan_now + t_s
-        if x < tt[0]:
-            self._plan_i = -1
-            return
-        lo = 0
-        hi = n - 1
-        if tt[hi] <= x:
-            self._plan_i = hi
-            return
-        while hi - lo > 1:
-            mid = (lo + hi) >> 1
-            if tt[mid] <= x:
-                lo = mid
-            else:
-                hi = mid
-        self._plan_i = lo
+        self._plan_i = _seek(self._plan_times, self._plan_now + t_s)
 
     def _next_break(self, t):
         """Time (s from now) of the next ambient/duty breakpoint after t (inf if none)."""
