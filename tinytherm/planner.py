@@ -98,6 +98,21 @@ class ReadyByPlanner:
         self.off_at_deadline_c = t_off
         return target_c - t_off
 
+    def _heater_request(self, start_c, target_c, deadline_s):
+        """Start a heater request: clear the answer, check inputs, gap at the deadline.
+
+        Returns the gap (K, see _gap_at_deadline), or None with the
+        OUT_OF_REACH answer already set (bad input, or the forecast's reason).
+        """
+        self._clear()
+        if not self._inputs_ok(start_c, target_c, deadline_s):
+            self._answer(status.OUT_OF_REACH, REASON_BAD_INPUT)
+            return None
+        gap = self._gap_at_deadline(start_c, target_c, deadline_s)
+        if gap is None:
+            self._answer(status.OUT_OF_REACH, self.forecast.reason)
+        return gap
+
     def _inputs_ok(self, start_c, target_c, deadline_s):
         return _finite(start_c) and _finite(target_c) and _finite(deadline_s) and deadline_s >= 0.0
 
@@ -114,15 +129,12 @@ class ReadyByPlanner:
         or REASON_TOO_SLOW (``earliest_s`` is the earliest arrival, starting
         now). Returns the status code.
         """
-        self._clear()
+        gap = self._heater_request(start_c, target_c, deadline_s)
+        if gap is None:
+            return self.status
         fc = self.forecast
-        if not self._inputs_ok(start_c, target_c, deadline_s):
-            return self._answer(status.OUT_OF_REACH, REASON_BAD_INPUT)
         g = fc._g
         k = fc._k
-        gap = self._gap_at_deadline(start_c, target_c, deadline_s)
-        if gap is None:
-            return self._answer(status.OUT_OF_REACH, fc.reason)
         if g == 0.0:
             if gap <= 0.0:
                 return self._answer(status.ARRIVED, REASON_NO_DRIVE_NEEDED)
@@ -159,15 +171,12 @@ class ReadyByPlanner:
         also the first arrival; under a varying ambient it is the temperature
         at the deadline that is planned. Returns the status code.
         """
-        self._clear()
+        gap = self._heater_request(start_c, target_c, deadline_s)
+        if gap is None:
+            return self.status
         fc = self.forecast
-        if not self._inputs_ok(start_c, target_c, deadline_s):
-            return self._answer(status.OUT_OF_REACH, REASON_BAD_INPUT)
         g = fc._g
         k = fc._k
-        gap = self._gap_at_deadline(start_c, target_c, deadline_s)
-        if gap is None:
-            return self._answer(status.OUT_OF_REACH, fc.reason)
         if gap == 0.0 or (g == 0.0 and gap < 0.0) or (g != 0.0 and (gap > 0.0) != (g > 0.0)):
             self.duty = 0.0
             return self._answer(status.ARRIVED, REASON_NO_DRIVE_NEEDED)
