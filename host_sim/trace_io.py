@@ -18,6 +18,12 @@ and the problem, unless ``skip_bad=True``, in which case the row is skipped and
 counted in :attr:`Trace.skipped_rows` (with the reasons in
 :attr:`Trace.skipped_reasons`).
 
+:func:`iter_trace_rows` streams a file one row at a time (constant memory);
+:func:`read_trace`/:func:`parse_trace` collect every row into a :class:`Trace`.
+Input must be UTF-8 text (a leading byte-order mark is accepted); a header
+without commas that holds ``;`` or a tab uses that as the separator. Numbers
+are plain ASCII decimals (``80.5``, ``-1e-3``); quoted fields may not span lines.
+
 Prediction CSV (one row per input row) has exactly the columns
 :data:`PREDICTION_COLUMNS`; ``eta_*``, ``rate_per_s`` and ``equilibrium_c`` are
 empty when the estimator has no value, and ``eta_high_s`` is ``inf`` when the
@@ -25,6 +31,7 @@ data cannot rule out "never".
 """
 import csv
 import math
+import re
 
 import numpy as np
 
@@ -83,112 +90,393 @@ class Trace:
         return self.ambient_c is not None
 
 
+# A plain decimal number in ASCII: float() alone would also take "8_0.9",
+# Arabic-Indic or full-width digits, "infinity" and surrounding Unicode spaces.
+_NUMBER = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?\Z")
+
+MAX_LINE_BYTES = 1 << 20     # one line of a trace (a 100,000-column header fits)
+MAX_COLUMNS = 200000
+MAX_REASONS_KEPT = 100       # skipped-row messages kept in full; all are counted
+_ZIP_MAGIC = b"PK\x03\x04"
+_BOMS = ((b"\xef\xbb\xbf", None), (b"\xff\xfe", "UTF-16"), (b"\xfe\xff", "UTF-16"))
+
+
 def _parse_float(text, column, where):
     text = text.strip()
     if text == "":
         raise TraceError("%s: empty %s" % (where, column))
-    try:
-        value = float(text)
-    except ValueError:
-        raise TraceError("%s: %s is not a number: %r" % (where, column, text)) from None
+    if not _NUMBER.match(text):
+        low = text.lower()
+        if low in ("nan", "inf", "+inf", "-inf", "infinity", "-infinity", "+infinity"):
+            raise TraceError("%s: %s is not finite: %r" % (where, column, text))
+        hint = ""
+        if re.fullmatch(r"[+-]?[0-9]+,[0-9]+", text):
+            hint = " (a decimal comma? write the number with a point: %s)" % text.replace(",", ".")
+        elif any(ch.isdigit() for ch in text) and not text.isascii():
+            hint = " (digits must be ASCII 0-9)"
+        elif "_" in text:
+            hint = " (no underscores in numbers)"
+        raise TraceError("%s: %s is not a number: %r%s" % (where, column, text, hint))
+    value = float(text)
     if not math.isfinite(value):
-        raise TraceError("%s: %s is not finite: %r" % (where, column, text))
+        raise TraceError("%s: %s is too large: %r" % (where, column, text))
     return value
 
 
-def read_trace(path, fahrenheit=False, skip_bad=False):
+class TraceRow(tuple):
+    """One data row: ``(time_s, temp_c, ambient_c, heater, event)``.
+
+    ``time_s`` seconds (after ``time_unit`` conversion), ``temp_c`` deg C,
+    ``ambient_c`` deg C or None (no column or empty cell), ``heater`` duty in
+    [0, 1] or None (no column), ``event`` str or None (no column or empty cell).
+    """
+    __slots__ = ()
+    _fields = ("time_s", "temp_c", "ambient_c", "heater", "event")
+
+    def __new__(cls, time_s, temp_c, ambient_c=None, heater=None, event=None):
+        return tuple.__new__(cls, (time_s, temp_c, ambient_c, heater, event))
+
+    time_s = property(lambda self: self[0], doc="seconds since the start")
+    temp_c = property(lambda self: self[1], doc="reading, deg C")
+    ambient_c = property(lambda self: self[2], doc="ambient reading, deg C, or None")
+    heater = property(lambda self: self[3], doc="heater duty 0..1, or None")
+    event = property(lambda self: self[4], doc="event text, or None")
+
+
+TIME_UNITS = {"s": 1.0, "ms": 0.001, "min": 60.0}
+
+
+def _decoded_lines(handle, source):
+    """Text lines from a binary file handle, with clear errors for non-UTF-8 input."""
+    first = True
+    number = 0
+    while True:
+        raw = handle.readline(MAX_LINE_BYTES + 1)
+        if not raw:
+            return
+        number += 1
+        if first:
+            first = False
+            if raw.startswith(_ZIP_MAGIC):
+                raise TraceError("%s: this is a ZIP archive (a spreadsheet .xlsx or a zipped "
+                                 "file?), not CSV text: export or unzip it as .csv" % source)
+            for bom, enc in _BOMS:
+                if raw.startswith(bom):
+                    if enc is not None:
+                        raise TraceError("%s: the file is %s text; save it as UTF-8 CSV"
+                                         % (source, enc))
+                    raw = raw[len(bom):]
+                    break
+        if len(raw) > MAX_LINE_BYTES and not raw.endswith(b"\n"):
+            raise TraceError("%s:%d: line longer than %d bytes (not a trace, or a missing "
+                             "line break?)" % (source, number, MAX_LINE_BYTES))
+        if b"\x00" in raw:
+            raise TraceError("%s:%d: NUL bytes: this is binary or UTF-16 data, not UTF-8 "
+                             "CSV text; save it as UTF-8 CSV" % (source, number))
+        try:
+            text = raw.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            raise TraceError("%s:%d: not UTF-8 text (byte 0x%02x at column %d; Latin-1 or "
+                             "Windows-1252?): save the file as UTF-8 CSV"
+                             % (source, number, raw[exc.start], exc.start + 1)) from None
+        yield text
+
+
+def _text_lines(lines, source):
+    """Lines from an iterable of str (or bytes), BOM on the first one removed."""
+    first = True
+    for number, line in enumerate(lines, 1):
+        if isinstance(line, (bytes, bytearray)):
+            try:
+                line = bytes(line).decode("utf-8")
+            except UnicodeDecodeError:
+                raise TraceError("%s:%d: not UTF-8 text: save the file as UTF-8 CSV"
+                                 % (source, number)) from None
+        if first:
+            first = False
+            line = line.lstrip("\ufeff")
+        if len(line) > MAX_LINE_BYTES:
+            raise TraceError("%s:%d: line longer than %d characters"
+                             % (source, number, MAX_LINE_BYTES))
+        if "\x00" in line:
+            raise TraceError("%s:%d: NUL characters: binary data, not CSV text"
+                             % (source, number))
+        yield line
+
+
+def _split(line, sep, where):
+    """Fields of one physical line; quotes may not span lines."""
+    line = line.rstrip("\r\n")
+    if '"' not in line:
+        return line.split(sep)
+    if line.count('"') % 2:
+        raise TraceError('%s: unbalanced double quote (a quoted field must close on the same '
+                         'line): remove or close the quote' % where)
+    try:
+        return next(csv.reader([line], delimiter=sep, strict=True))
+    except csv.Error as exc:
+        raise TraceError("%s: malformed CSV (%s)" % (where, exc)) from None
+
+
+def _is_comment(fields):
+    return not "".join(fields).strip() or fields[0].lstrip().startswith("#")
+
+
+class TraceRows:
+    """Streaming trace reader: iterate to get :class:`TraceRow` tuples one at a time.
+
+    Holds one line at a time (not the file). The header is read on
+    construction (a bad header raises :class:`TraceError` at once).
+    ``source``: a path (opened in binary, decoded as UTF-8 with an optional
+    byte-order mark) or an iterable of text lines. ``fahrenheit``: temperature
+    columns in deg F (header may say ``temp_f``/``ambient_f``), converted to
+    deg C. ``time_unit``: ``"s"``, ``"ms"`` or ``"min"`` for the time column,
+    converted to seconds. ``skip_bad``: skip malformed rows, counting them.
+
+    Attributes: ``columns`` (header names after aliasing), ``separator``,
+    ``has_ambient``, ``has_heater``, ``has_event``, ``line`` (file line of the
+    last row yielded), ``rows`` (rows yielded so far), ``skipped_rows``,
+    ``skipped_reasons`` (the first :data:`MAX_REASONS_KEPT` messages),
+    ``skipped_by_reason`` (dict: short reason -> count), ``name``.
+    """
+
+    def __init__(self, source, fahrenheit=False, skip_bad=False, time_unit="s", name=None):
+        if time_unit not in TIME_UNITS:
+            raise ValueError("time_unit must be one of %s" % ", ".join(TIME_UNITS))
+        self._scale = TIME_UNITS[time_unit]
+        self.fahrenheit = bool(fahrenheit)
+        self.skip_bad = bool(skip_bad)
+        self._handle = None
+        if isinstance(source, (str, bytes)) or hasattr(source, "__fspath__"):
+            self.name = str(source) if name is None else name
+            try:
+                self._handle = open(source, "rb")
+            except IsADirectoryError:
+                raise TraceError("%s: is a folder, not a trace file" % self.name) from None
+            except FileNotFoundError:
+                raise TraceError("%s: no such file" % self.name) from None
+            except OSError as exc:
+                raise TraceError("%s: cannot open (%s)" % (self.name, exc.strerror or exc)) from None
+            self._lines = _decoded_lines(self._handle, self.name)
+        else:
+            self.name = "<trace>" if name is None else name
+            self._lines = _text_lines(source, self.name)
+        self.line = 0
+        self.rows = 0
+        self.skipped_rows = 0
+        self.skipped_reasons = []
+        self.skipped_by_reason = {}
+        self.keep_reasons = MAX_REASONS_KEPT
+        self._started = False
+        try:
+            self._read_header()
+        except BaseException:
+            self.close()
+            raise
+
+    def _next_line(self):
+        try:
+            text = next(self._lines)
+        except OSError as exc:
+            raise TraceError("%s: read error (%s)" % (self.name, exc)) from None
+        self.line += 1
+        return text
+
+    def _read_header(self):
+        while True:
+            try:
+                text = self._next_line()
+            except StopIteration:
+                raise TraceError("%s: empty file (no header row)" % self.name) from None
+            stripped = text.strip()
+            if stripped and not stripped.startswith("#"):
+                break
+        where = "%s:%d" % (self.name, self.line)
+        sep = ","
+        if "," not in text:
+            for cand in (";", "\t"):
+                if cand in text:
+                    sep = cand
+                    break
+        self.separator = sep
+        header = [c.strip().lower() for c in _split(text, sep, where)]
+        if len(header) > MAX_COLUMNS:
+            raise TraceError("%s: header has %d columns (at most %d)"
+                             % (where, len(header), MAX_COLUMNS))
+        if self.fahrenheit:
+            aliases = {"temp_f": "temp_c", "ambient_f": "ambient_c"}
+            header = [aliases.get(c, c) for c in header]
+        for name in REQUIRED_COLUMNS:
+            if name not in header:
+                hint = ""
+                if name == "temp_c" and "temp_f" in header:
+                    hint = " (found temp_f: use --fahrenheit)"
+                elif len(header) == 1 and any(s in text for s in (";", "\t", "|")):
+                    hint = " (separate columns with commas)"
+                shown = ",".join(header)
+                if len(shown) > 200:
+                    shown = shown[:200] + "... (%d columns)" % len(header)
+                raise TraceError("%s: header has no %s column%s; header is %s; a trace "
+                                 "starts with the line time_s,temp_c"
+                                 % (where, name, hint, shown))
+        seen, dup = set(), set()
+        for c in header:
+            if c in seen and c:
+                dup.add(c)
+            seen.add(c)
+        if dup:
+            shown = sorted(dup)
+            raise TraceError("%s: duplicate column(s) %s" % (
+                where, ",".join(shown[:10]) + (" and %d more" % (len(shown) - 10)
+                                               if len(shown) > 10 else "")))
+        self.columns = header
+        self.header_line = self.line
+        col = {}
+        for i, c in enumerate(header):
+            col.setdefault(c, i)
+        self._i_time, self._i_temp = col["time_s"], col["temp_c"]
+        self._i_amb, self._i_heat, self._i_event = (col.get("ambient_c"), col.get("heater"),
+                                                    col.get("event"))
+        self.has_ambient = self._i_amb is not None
+        self.has_heater = self._i_heat is not None
+        self.has_event = self._i_event is not None
+
+    def _row(self, fields, where, last_time):
+        if len(fields) != len(self.columns):
+            raise TraceError("%s: expected %d fields (as in the header), got %d"
+                             % (where, len(self.columns), len(fields)))
+        raw_t = _parse_float(fields[self._i_time], "time_s", where)
+        if raw_t < 0.0:
+            raise TraceError("%s: time_s is negative: %r" % (where, fields[self._i_time].strip()))
+        t = raw_t * self._scale
+        if t < last_time:
+            raise TraceError("%s: time_s decreases (%g after %g)" % (where, t, last_time))
+        temp = _parse_float(fields[self._i_temp], "temp_c", where)
+        if self.fahrenheit:
+            temp = fahrenheit_to_celsius(temp)
+        amb = None
+        if self._i_amb is not None and fields[self._i_amb].strip() != "":
+            amb = _parse_float(fields[self._i_amb], "ambient_c", where)
+            if self.fahrenheit:
+                amb = fahrenheit_to_celsius(amb)
+        duty = None
+        if self._i_heat is not None:
+            duty = _parse_float(fields[self._i_heat], "heater", where)
+            if not 0.0 <= duty <= 1.0:
+                raise TraceError("%s: heater duty %r is outside 0..1"
+                                 % (where, fields[self._i_heat].strip()))
+        event = None
+        if self._i_event is not None:
+            event = fields[self._i_event].strip() or None
+        return TraceRow(t, temp, amb, duty, event)
+
+    def __iter__(self):
+        if self._started:
+            raise RuntimeError("a TraceRows object can be iterated once")
+        self._started = True
+        return self._generate()
+
+    def _generate(self):
+        last_time = -math.inf
+        sep = self.separator
+        try:
+            while True:
+                try:
+                    text = self._next_line()
+                except StopIteration:
+                    break
+                if not text.strip():
+                    continue
+                where = "%s:%d" % (self.name, self.line)
+                try:
+                    fields = _split(text, sep, where)
+                    if _is_comment(fields):
+                        continue
+                    row = self._row(fields, where, last_time)
+                except TraceError as exc:
+                    if not self.skip_bad:
+                        raise
+                    self._skip(str(exc), where)
+                    continue
+                last_time = row[0]
+                self.rows += 1
+                yield row
+        finally:
+            self.close()
+        if not self.rows:
+            raise TraceError("%s: no data rows%s" % (
+                self.name, " (all %d skipped as bad)" % self.skipped_rows
+                if self.skipped_rows else ""))
+
+    def _skip(self, message, where):
+        self.skipped_rows += 1
+        if self.keep_reasons is None or len(self.skipped_reasons) < self.keep_reasons:
+            self.skipped_reasons.append(message)
+        short = message[len(where) + 2:] if message.startswith(where + ": ") else message
+        short = short.split(":")[0].split(" (")[0]
+        short = re.sub(r"\d+", "N", short)
+        self.skipped_by_reason[short] = self.skipped_by_reason.get(short, 0) + 1
+
+    def close(self):
+        """Close the file (if this reader opened one); safe to call twice."""
+        if self._handle is not None:
+            self._handle.close()
+            self._handle = None
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+        return False
+
+
+def iter_trace_rows(source, fahrenheit=False, skip_bad=False, time_unit="s", name=None):
+    """Streaming read of a trace: a :class:`TraceRows` (iterable of :class:`TraceRow`).
+
+    ``source`` is a path or an iterable of text lines; see :class:`TraceRows`
+    for the arguments and the header attributes. Memory stays one line.
+    """
+    return TraceRows(source, fahrenheit=fahrenheit, skip_bad=skip_bad, time_unit=time_unit,
+                     name=name)
+
+
+def read_trace(path, fahrenheit=False, skip_bad=False, time_unit="s"):
     """Read a trace CSV file; returns a :class:`Trace` with temperatures in deg C.
 
     ``fahrenheit``: the ``temp_c``/``ambient_c`` columns hold deg F (a header
     may then also name them ``temp_f``/``ambient_f``). ``skip_bad``: skip and
     count malformed rows instead of raising :class:`TraceError`. A missing
-    required column or an empty file always raises.
+    required column or an empty file always raises. ``time_unit``: unit of
+    the time column (``s``, ``ms`` or ``min``), converted to seconds. Holds
+    every row in memory: use :func:`iter_trace_rows` to stream.
     """
-    with open(path, newline="") as handle:
-        return parse_trace(handle, fahrenheit=fahrenheit, skip_bad=skip_bad, source=str(path))
+    return _collect(TraceRows(path, fahrenheit=fahrenheit, skip_bad=skip_bad,
+                              time_unit=time_unit))
 
 
-def parse_trace(lines, fahrenheit=False, skip_bad=False, source="<trace>"):
+def parse_trace(lines, fahrenheit=False, skip_bad=False, source="<trace>", time_unit="s"):
     """Parse trace CSV text from an iterable of lines (see :func:`read_trace`)."""
-    reader = csv.reader(lines)
-    header = None
-    header_line = 0
-    for row in reader:
-        if not row or not "".join(row).strip() or row[0].lstrip().startswith("#"):
-            continue
-        header = [c.strip().lower() for c in row]
-        header_line = reader.line_num
-        break
-    if header is None:
-        raise TraceError("%s: empty file (no header row)" % source)
-    aliases = {}
-    if fahrenheit:
-        aliases = {"temp_f": "temp_c", "ambient_f": "ambient_c"}
-    header = [aliases.get(c, c) for c in header]
-    for name in REQUIRED_COLUMNS:
-        if name not in header:
-            hint = ""
-            if name == "temp_c" and "temp_f" in header:
-                hint = " (found temp_f: use --fahrenheit)"
-            raise TraceError("%s:%d: header has no %s column%s; header is %s"
-                             % (source, header_line, name, hint, ",".join(header)))
-    dup = sorted(set(c for c in header if header.count(c) > 1 and c))
-    if dup:
-        raise TraceError("%s:%d: duplicate column(s) %s" % (source, header_line, ",".join(dup)))
-    col = {name: header.index(name) for name in header}
-    i_time, i_temp = col["time_s"], col["temp_c"]
-    i_amb, i_heat, i_event = col.get("ambient_c"), col.get("heater"), col.get("event")
-    ncols = len(header)
+    return _collect(TraceRows(lines, fahrenheit=fahrenheit, skip_bad=skip_bad,
+                              time_unit=time_unit, name=source))
 
-    times, temps, ambs, heats, events, lines_out, reasons = [], [], [], [], [], [], []
-    last_time = -math.inf
+
+def _collect(reader):
+    times, temps, ambs, heats, events, lines_out = [], [], [], [], [], []
+    reader.keep_reasons = None           # a Trace keeps every message
     for row in reader:
-        line = reader.line_num
-        if not row or not "".join(row).strip() or row[0].lstrip().startswith("#"):
-            continue
-        where = "%s:%d" % (source, line)
-        try:
-            if len(row) != ncols:
-                raise TraceError("%s: expected %d fields (as in the header), got %d"
-                                 % (where, ncols, len(row)))
-            t = _parse_float(row[i_time], "time_s", where)
-            if t < 0.0:
-                raise TraceError("%s: time_s is negative: %r" % (where, row[i_time].strip()))
-            if t < last_time:
-                raise TraceError("%s: time_s decreases (%g after %g)" % (where, t, last_time))
-            temp = _parse_float(row[i_temp], "temp_c", where)
-            if fahrenheit:
-                temp = fahrenheit_to_celsius(temp)
-            amb = math.nan
-            if i_amb is not None and row[i_amb].strip() != "":
-                amb = _parse_float(row[i_amb], "ambient_c", where)
-                if fahrenheit:
-                    amb = fahrenheit_to_celsius(amb)
-            duty = 0.0
-            if i_heat is not None:
-                duty = _parse_float(row[i_heat], "heater", where)
-                if not 0.0 <= duty <= 1.0:
-                    raise TraceError("%s: heater duty %r is outside 0..1" % (where, row[i_heat].strip()))
-        except TraceError as exc:
-            if not skip_bad:
-                raise
-            reasons.append(str(exc))
-            continue
-        last_time = t
-        times.append(t)
-        temps.append(temp)
-        ambs.append(amb)
-        heats.append(duty)
-        events.append(row[i_event].strip() if i_event is not None else "")
-        lines_out.append(line)
-    if not times:
-        raise TraceError("%s: no data rows%s" % (
-            source, " (all %d skipped as bad)" % len(reasons) if reasons else ""))
+        times.append(row[0])
+        temps.append(row[1])
+        ambs.append(math.nan if row[2] is None else row[2])
+        heats.append(0.0 if row[3] is None else row[3])
+        events.append(row[4] or "")
+        lines_out.append(reader.line)
     return Trace(times, temps,
-                 ambient_c=ambs if i_amb is not None else None,
-                 heater=heats if i_heat is not None else None,
+                 ambient_c=ambs if reader.has_ambient else None,
+                 heater=heats if reader.has_heater else None,
                  events=events, line_numbers=lines_out,
-                 skipped_rows=len(reasons), skipped_reasons=reasons, source=source)
+                 skipped_rows=reader.skipped_rows, skipped_reasons=reader.skipped_reasons,
+                 source=reader.name)
 
 
 def _fmt(value, digits):
