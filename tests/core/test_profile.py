@@ -1,0 +1,199 @@
+"""VesselProfile: device blob, reasons for rejecting one, interval table, passive closed form.
+
+Runs under CPython (pytest) and the unix micropython (tests/core/mp_run.py).
+The golden blob below was written by CPython; the same bytes must come out of
+``to_blob`` and be read back by ``from_blob`` on both runtimes, so a profile
+frozen on the PC reads the same on the device (and the reverse: a blob written
+under MicroPython is read by CPython in tests/test_profile_runtimes.py).
+The closed form is checked here against its defining equation by a
+fine-step RK4 integration, and against scipy's solve_ivp in
+tests/test_host_calibrate.py.
+"""
+import math
+import struct
+
+from support import close
+from tinytherm import crc
+from tinytherm import profile as pr
+from tinytherm.profile import VesselProfile
+
+GOLDEN_HEX = ("0101b4a2913acdcc4c3e0000c0bf3333333f9a99993e9a99193e000000410000a03f"
+              "70fe06ff6aff9cfff4012c01c80078005840e629")
+
+
+def kettle_like():
+    return VesselProfile(heater=True, rate_per_s=1.0 / 900.0, rate_log_sd=0.2, eq_offset_c=-1.5,
+                         eq_offset_sd_c=0.7, gain_k_per_s=0.3, gain_rel_sd=0.15,
+                         probe_lag_s=8.0, rate_exponent=1.25,
+                         log_q_low=(-0.4, -0.25, -0.15, -0.1),
+                         log_q_high=(0.5, 0.3, 0.2, 0.12))
+
+
+def f32(x):
+    return struct.unpack("<f", struct.pack("<f", x))[0]
+
+
+def test_blob_is_small_and_matches_the_golden_bytes():
+    blob = kettle_like().to_blob()
+    assert len(blob) == pr.PROFILE_SIZE <= 64
+    assert blob.hex() == GOLDEN_HEX
+    # the CRC field is the CRC-32 of everything before it
+    stored = struct.unpack_from("<I", blob, len(blob) - 4)[0]
+    assert stored == crc.crc32(blob, 0, 0, len(blob) - 4)
+
+
+def test_golden_blob_reads_back_every_field():
+    prof, reason = VesselProfile.from_blob(bytes.fromhex(GOLDEN_HEX))
+    assert reason == pr.REASON_OK and pr.reason_name(reason) == "ok"
+    src = kettle_like()
+    assert prof.heater is True
+    for name in ("rate_per_s", "rate_log_sd", "eq_offset_c", "eq_offset_sd_c", "gain_k_per_s",
+                 "gain_rel_sd", "probe_lag_s", "rate_exponent"):
+        assert getattr(prof, name) == f32(getattr(src, name)), name
+    for i in range(4):
+        assert abs(prof.log_q_low[i] - src.log_q_low[i]) <= 0.0005 + 1e-12
+        assert abs(prof.log_q_high[i] - src.log_q_high[i]) <= 0.0005 + 1e-12
+    # a second trip through the blob is exact
+    assert prof.to_blob() == bytes.fromhex(GOLDEN_HEX)
+
+
+def test_round_trip_without_heater_and_default_table():
+    src = VesselProfile(rate_per_s=1.0 / 2500.0, rate_log_sd=0.3, eq_offset_c=-2.25,
+                        probe_lag_s=15.0, rate_exponent=1.3)
+    # default table: +-z(0.9) * rate_log_sd in every bin (ln T_remaining ~ -ln k)
+    assert close(src.log_q_high[2], 1.2815515655446004 * 0.3, 1e-12)
+    assert src.log_q_low[0] == -src.log_q_high[0]
+    prof, reason = VesselProfile.from_blob(bytearray(src.to_blob()))
+    assert reason == pr.REASON_OK
+    assert prof.heater is False and prof.gain_k_per_s == 0.0
+    assert close(prof.rate_per_s, 1.0 / 2500.0, 1e-7)
+    assert close(prof.eq_offset_c, -2.25, 0.0)
+    assert abs(prof.log_q_high[1] - 0.384) < 0.0006
+
+
+def _resealed(blob, offset, fmt, value):
+    buf = bytearray(blob)
+    struct.pack_into(fmt, buf, offset, value)
+    struct.pack_into("<I", buf, 50, crc.crc32(buf, 0, 0, 50))
+    return bytes(buf)
+
+
+def test_bad_blobs_are_rejected_with_a_reason():
+    good = bytes.fromhex(GOLDEN_HEX)
+    cases = [
+        (None, pr.REASON_LENGTH),
+        ("0101", pr.REASON_LENGTH),
+        ([1] * 54, pr.REASON_LENGTH),
+        (good[:53], pr.REASON_LENGTH),
+        (good + b"\x00", pr.REASON_LENGTH),
+        (b"\x02" + good[1:], pr.REASON_VERSION),
+        (good[:10] + bytes([good[10] ^ 0x04]) + good[11:], pr.REASON_CRC),
+        (good[:52] + bytes([good[52] ^ 0x80]) + good[53:], pr.REASON_CRC),
+        (_resealed(good, 1, "<B", 3), pr.REASON_FLAGS),
+        (_resealed(good, 2, "<f", float("nan")), pr.REASON_RANGE),        # rate NaN
+        (_resealed(good, 2, "<f", -0.001), pr.REASON_RANGE),              # negative rate
+        (_resealed(good, 26, "<f", -1.0), pr.REASON_RANGE),               # negative probe lag
+        (_resealed(good, 30, "<f", float("inf")), pr.REASON_RANGE),       # exponent inf
+        (_resealed(good, 34, "<h", 900), pr.REASON_RANGE),                # low > high in bin 0
+        (_resealed(_resealed(good, 1, "<B", 0), 18, "<f", 0.3), pr.REASON_RANGE),  # gain, no heater
+        (bytes(54), pr.REASON_VERSION),
+    ]
+    for blob, want in cases:
+        prof, reason = VesselProfile.from_blob(blob)
+        assert prof is None and reason == want, (blob, reason, want)
+        assert pr.reason_name(reason).startswith("profile_")
+    assert pr.reason_name(99) == "unknown"
+    # memoryview is accepted like bytes
+    prof, reason = VesselProfile.from_blob(memoryview(good))
+    assert reason == pr.REASON_OK and prof is not None
+
+
+def test_constructor_raises_value_error_naming_the_value():
+    bad = [dict(rate_per_s=0.0), dict(rate_per_s=float("nan")), dict(rate_log_sd=-0.1),
+           dict(eq_offset_c=80.0), dict(gain_k_per_s=0.2), dict(heater=True, gain_k_per_s=20.0),
+           dict(probe_lag_s=-1.0), dict(rate_exponent=0.1),
+           dict(log_q_low=(0.1, 0.0, 0.0, 0.0), log_q_high=(0.0, 0.1, 0.1, 0.1)),
+           dict(log_q_low=(0.0, 0.0, 0.0))]
+    for kw in bad:
+        try:
+            VesselProfile(**kw)
+        except ValueError as exc:
+            assert "profile" in str(exc) or "values" in str(exc), exc
+        else:
+            raise AssertionError("accepted %r" % (kw,))
+
+
+def test_interval_bounds_interpolate_in_log_eta_between_bins():
+    p = kettle_like()
+    a = pr.BIN_ANCHORS_S
+    # exactly the bin values at the anchors, held constant outside
+    for i in range(4):
+        lo, hi = p.interval_log_bounds(a[i])
+        assert close(lo, p.log_q_low[i], 1e-9) and close(hi, p.log_q_high[i], 1e-9)
+    assert p.interval_log_bounds(1.0) == (p.log_q_low[0], p.log_q_high[0])
+    assert p.interval_log_bounds(0.0) == (p.log_q_low[0], p.log_q_high[0])
+    assert p.interval_log_bounds(float("nan")) == (p.log_q_low[0], p.log_q_high[0])
+    assert p.interval_log_bounds(1e7) == (p.log_q_low[3], p.log_q_high[3])
+    # halfway in ln(eta) between the anchors 134.16 and 600 s: the mean of the bins
+    lo, hi = p.interval_log_bounds(math.sqrt(a[1] * a[2]))
+    assert close(lo, 0.5 * (p.log_q_low[1] + p.log_q_low[2]), 1e-6)
+    assert close(hi, 0.5 * (p.log_q_high[1] + p.log_q_high[2]), 1e-6)
+    # monotone between anchors when the table is
+    prev = None
+    eta = 31.0
+    while eta < 2400.0:
+        hi = p.interval_log_bounds(eta)[1]
+        if prev is not None:
+            assert hi <= prev + 1e-12
+        prev = hi
+        eta *= 1.1
+    # the edges of the bins stay where the module says
+    assert pr.BIN_EDGES_S == (60.0, 300.0, 1200.0)
+
+
+def test_rate_at_follows_the_power_law():
+    p = VesselProfile(rate_per_s=0.001, rate_exponent=1.25)
+    assert close(p.rate_at(10.0), 0.001, 1e-12)
+    assert close(p.rate_at(-10.0), 0.001, 1e-12)
+    assert close(p.rate_at(40.0), 0.001 * 4.0 ** 0.25, 1e-12)
+    assert p.rate_at(0.0) == 0.0
+    assert VesselProfile(rate_per_s=0.002).rate_at(3.0) == 0.002
+
+
+def _rk4_time(a, n, e, t0, target, h=0.05):
+    """Seconds until T reaches target under dT/dt = -a|T-E|^n sign(T-E), by RK4."""
+    def f(t):
+        d = t - e
+        return -a * abs(d) ** n * (1.0 if d > 0 else -1.0)
+    t = t0
+    s = 0.0
+    while (t - target) * (t0 - target) > 0.0:
+        prev = t
+        k1 = f(t)
+        k2 = f(t + 0.5 * h * k1)
+        k3 = f(t + 0.5 * h * k2)
+        k4 = f(t + h * k3)
+        t = t + h * (k1 + 2 * k2 + 2 * k3 + k4) / 6.0
+        s += h
+    # linear interpolation inside the last step
+    return s - h + h * (prev - target) / (prev - t)
+
+
+def test_time_to_target_closed_form_against_rk4():
+    for n, t0, target, e in ((1.25, 85.0, 60.0, 21.0), (1.0, 85.0, 60.0, 21.0),
+                             (0.8, 30.0, 50.0, 55.0), (1.6, 4.0, 9.0, 12.0)):
+        p = VesselProfile(rate_per_s=1.0 / 300.0, rate_exponent=n)
+        a = p.rate_per_s / pr.DIFF_REF_C ** (n - 1.0)
+        got = p.time_to_target_s(t0, target, e)
+        want = _rk4_time(a, n, e, t0, target)
+        assert close(got, want, 2e-4), (n, got, want)
+    p = VesselProfile(rate_per_s=0.001)
+    assert close(p.time_to_target_s(80.0, 50.0, 20.0), math.log(2.0) / 0.001, 1e-12)
+    assert p.time_to_target_s(50.0, 50.0, 20.0) == 0.0
+    assert p.time_to_target_s(50.0, 60.0, 20.0) is None      # away from the equilibrium
+    assert p.time_to_target_s(50.0, 10.0, 20.0) is None      # beyond it
+    assert p.time_to_target_s(50.0, 20.0, 20.0) is None      # only in infinite time (n = 1)
+    # n < 1 reaches the equilibrium itself in finite time: d0^(1-n) / (a (1-n))
+    q = VesselProfile(rate_per_s=0.01, rate_exponent=0.5)
+    a = 0.01 * 10.0 ** 0.5
+    assert close(q.time_to_target_s(36.0, 20.0, 20.0), 4.0 / (a * 0.5), 1e-12)

@@ -1,0 +1,312 @@
+"""A vessel profile: what calibration on the PC learned about one vessel, for the device.
+
+A product ships one vessel (the same mug, kettle or bath, heater, probe and
+probe position in every unit); only the fill, the start temperature and the
+room change between uses. ``host_sim.calibrate`` fits a richer model than the
+device's to many recorded uses of prototypes and freezes the result here:
+
+    dT/dt = -a |T - E|^n sign(T - E) + g q(t),    a = k / DIFF_REF_C^(n - 1)
+    E = R + eq_offset_c                            (R: the given or measured ambient)
+    probe: ds/dt = (T - s) / probe_lag_s
+
+``k`` (:attr:`VesselProfile.rate_per_s`) is the effective first-order rate
+``-(dT/dt) / (T - E)`` at a temperature difference of :data:`DIFF_REF_C`
+(10 K); ``n`` (:attr:`VesselProfile.rate_exponent`) bends it (1.0 = first
+order, 1.25 ~ natural convection). ``q`` is the heater duty; ``g``
+(:attr:`VesselProfile.gain_k_per_s`) the heating rate at full duty.
+
+The interval table holds the 10 % and 90 % points of
+``ln(actual / predicted remaining time)`` of the estimator without a profile,
+in four bins of the predicted remaining time (edges :data:`BIN_EDGES_S`:
+60, 300, 1200 s), calibrated split-conformally on held-out uses.
+
+Device form (:meth:`VesselProfile.to_blob`, :data:`PROFILE_SIZE` = 54 bytes,
+little-endian)::
+
+    offset  size  field
+    0       1     format version (:data:`PROFILE_FORMAT`)
+    1       1     flags (bit 0: the vessel has a heater)
+    2       32    8 x float32: rate_per_s, rate_log_sd, eq_offset_c,
+                  eq_offset_sd_c, gain_k_per_s, gain_rel_sd, probe_lag_s,
+                  rate_exponent
+    34      16    8 x int16, 1/1000 units: log_q_low[0..3], log_q_high[0..3]
+    50      4     CRC-32 (IEEE, :mod:`tinytherm.crc`) of bytes 0..49
+
+:meth:`VesselProfile.from_blob` never raises: it returns ``(profile, REASON_OK)``
+or ``(None, reason)`` with one of the ``REASON_*`` codes; the estimator then
+runs without a profile.
+"""
+import math
+import struct
+
+from tinytherm.crc import crc32
+
+PROFILE_FORMAT = 1
+PROFILE_SIZE = 54
+_FLOATS = "<8f"
+_QUANTS = "<8h"
+_FLOATS_AT = 2
+_QUANTS_AT = 34
+_CRC_AT = 50
+FLAG_HEATER = 1
+
+DIFF_REF_C = 10.0                 # K: the difference at which rate_per_s is the rate
+BIN_EDGES_S = (60.0, 300.0, 1200.0)
+# Where each bin's quantiles apply exactly (s); in between, linear in ln(eta).
+# Geometric middles of the inner bins, and 30 s / 2400 s for the outer ones.
+BIN_ANCHORS_S = (30.0, 134.1640786, 600.0, 2400.0)
+QUANTILE_LOW = 0.1
+QUANTILE_HIGH = 0.9
+_Z90 = 1.2815515655446004         # standard normal 90 % point
+
+# from_blob results; anything but REASON_OK means "run without a profile"
+REASON_OK = 0
+REASON_LENGTH = 1      # not bytes-like, or not exactly PROFILE_SIZE bytes
+REASON_VERSION = 2     # another format version
+REASON_CRC = 3         # checksum mismatch: corrupted
+REASON_FLAGS = 4       # unknown flag bits set
+REASON_RANGE = 5       # checksum fine, but a value is impossible or out of range
+REASON_NAMES = ("ok", "profile_length", "profile_version", "profile_crc", "profile_flags",
+                "profile_range")
+
+
+def reason_name(code):
+    """Lower-case name of a :meth:`VesselProfile.from_blob` reason code."""
+    if 0 <= code < len(REASON_NAMES):
+        return REASON_NAMES[code]
+    return "unknown"
+
+
+def _ok(x, lo, hi):
+    # NaN fails both comparisons
+    return lo <= x <= hi
+
+
+class VesselProfile:
+    """One vessel's calibrated dynamics and ETA interval table (SI units, deg C).
+
+    Attributes (all read by the estimator, none changed by it):
+
+    - ``heater`` (bool): the vessel has a heater;
+    - ``rate_per_s`` (1/s): typical effective rate k at |T - E| = DIFF_REF_C;
+    - ``rate_log_sd``: standard deviation of ln k across uses (fill, room...);
+    - ``eq_offset_c`` (deg C): effective equilibrium minus the given or
+      measured ambient (evaporation pulls it below the room, a warm base above);
+    - ``eq_offset_sd_c`` (deg C): its spread across uses;
+    - ``gain_k_per_s`` (K/s): heating rate at full duty (0.0 without heater);
+    - ``gain_rel_sd``: relative spread of that gain across uses;
+    - ``probe_lag_s`` (s): first-order time constant of the probe (and, with a
+      heater, of the element, which the fit cannot tell apart from it);
+    - ``rate_exponent``: n in ``dT/dt = -a |T-E|^n sign(T-E)`` (1.0 = first order);
+    - ``log_q_low``, ``log_q_high`` (tuples of 4): 10 % and 90 % points of
+      ``ln(actual / predicted remaining time)`` for predicted remaining times
+      below 60 s, 60-300 s, 300-1200 s and above 1200 s.
+
+    The constructor checks every value and raises ``ValueError`` naming the
+    first bad one. Without ``log_q_low``/``log_q_high`` the table is
+    ``-+1.2816 * rate_log_sd`` in every bin (ln T_remaining ~ -ln k).
+    """
+
+    def __init__(self, heater=False, rate_per_s=1.0 / 1200.0, rate_log_sd=0.5,
+                 eq_offset_c=0.0, eq_offset_sd_c=3.0, gain_k_per_s=0.0, gain_rel_sd=0.0,
+                 probe_lag_s=0.0, rate_exponent=1.0, log_q_low=None, log_q_high=None):
+        self.heater = bool(heater)
+        self.rate_per_s = float(rate_per_s)
+        self.rate_log_sd = float(rate_log_sd)
+        self.eq_offset_c = float(eq_offset_c)
+        self.eq_offset_sd_c = float(eq_offset_sd_c)
+        self.gain_k_per_s = float(gain_k_per_s)
+        self.gain_rel_sd = float(gain_rel_sd)
+        self.probe_lag_s = float(probe_lag_s)
+        self.rate_exponent = float(rate_exponent)
+        half = _Z90 * self.rate_log_sd
+        if log_q_low is None:
+            log_q_low = (-half, -half, -half, -half)
+        if log_q_high is None:
+            log_q_high = (half, half, half, half)
+        if len(log_q_low) != 4 or len(log_q_high) != 4:
+            raise ValueError("log_q_low and log_q_high need 4 values (one per horizon bin)")
+        self.log_q_low = (float(log_q_low[0]), float(log_q_low[1]), float(log_q_low[2]),
+                          float(log_q_low[3]))
+        self.log_q_high = (float(log_q_high[0]), float(log_q_high[1]), float(log_q_high[2]),
+                           float(log_q_high[3]))
+        bad = self.problem()
+        if bad is not None:
+            raise ValueError("bad profile value: " + bad)
+
+    def problem(self):
+        """Name of the first out-of-range value (a short text), or None when all are valid.
+
+        Ranges: 1e-7 <= rate_per_s <= 1 1/s; 0 <= rate_log_sd <= 5;
+        |eq_offset_c| <= 50 C; 0 <= eq_offset_sd_c <= 50 C; |gain_k_per_s| <= 10
+        K/s and exactly 0 without a heater; 0 <= gain_rel_sd <= 10;
+        0 <= probe_lag_s <= 3600 s; 0.25 <= rate_exponent <= 4; every quantile
+        within +-30 and low <= high in each bin.
+        """
+        if not _ok(self.rate_per_s, 1e-7, 1.0):
+            return "rate_per_s"
+        if not _ok(self.rate_log_sd, 0.0, 5.0):
+            return "rate_log_sd"
+        if not _ok(self.eq_offset_c, -50.0, 50.0):
+            return "eq_offset_c"
+        if not _ok(self.eq_offset_sd_c, 0.0, 50.0):
+            return "eq_offset_sd_c"
+        if not _ok(self.gain_k_per_s, -10.0, 10.0):
+            return "gain_k_per_s"
+        if not self.heater and self.gain_k_per_s != 0.0:
+            return "gain_k_per_s (no heater)"
+        if not _ok(self.gain_rel_sd, 0.0, 10.0):
+            return "gain_rel_sd"
+        if not _ok(self.probe_lag_s, 0.0, 3600.0):
+            return "probe_lag_s"
+        if not _ok(self.rate_exponent, 0.25, 4.0):
+            return "rate_exponent"
+        for i in range(4):
+            lo = self.log_q_low[i]
+            hi = self.log_q_high[i]
+            if not (_ok(lo, -30.0, 30.0) and _ok(hi, -30.0, 30.0)) or lo > hi:
+                return "log_q_low/log_q_high[%d]" % i
+        return None
+
+    # ---------------------------------------------------------------- the model
+    def rate_at(self, diff_c):
+        """Effective first-order rate (1/s) at a temperature difference ``diff_c`` (K).
+
+        ``k (|diff| / DIFF_REF_C)^(n - 1)``; at ``diff_c == 0`` the limit for
+        n < 1 is unbounded and 0.0 is returned for n > 1.
+        """
+        d = abs(diff_c)
+        n = self.rate_exponent
+        if n == 1.0:
+            return self.rate_per_s
+        if d == 0.0:
+            return 0.0 if n > 1.0 else self.rate_per_s
+        try:
+            return self.rate_per_s * math.exp((n - 1.0) * math.log(d / DIFF_REF_C))
+        except (ValueError, OverflowError):
+            return self.rate_per_s
+
+    def time_to_target_s(self, temp_c, target_c, equilibrium_c):
+        """Seconds for the passive law to take the liquid from ``temp_c`` to ``target_c``.
+
+        Closed form of ``dT/dt = -a |T-E|^n sign(T-E)`` (deg C in, seconds
+        out): with ``d = |T - E|``, ``d^(1-n)`` moves linearly in time, so
+        ``t = (d0^(1-n) - d1^(1-n)) / (a (1-n))``; for n = 1,
+        ``t = ln(d0/d1) / k``. Returns 0.0 when already there, None when the
+        target is not between the temperature and the equilibrium (never
+        reached without a heater; the equilibrium itself only when n < 1).
+        """
+        d0 = temp_c - equilibrium_c
+        d1 = target_c - equilibrium_c
+        if d0 == d1:
+            return 0.0
+        n = self.rate_exponent
+        if d0 * d1 < 0.0 or abs(d1) > abs(d0) or (d1 == 0.0 and n >= 1.0):
+            return None
+        d0 = abs(d0)
+        d1 = abs(d1)
+        k = self.rate_per_s
+        try:
+            if n == 1.0:
+                return math.log(d0 / d1) / k
+            p = 1.0 - n
+            a = k * math.exp(p * math.log(DIFF_REF_C))
+            end = 0.0 if d1 == 0.0 else math.exp(p * math.log(d1))
+            return (math.exp(p * math.log(d0)) - end) / (a * p)
+        except (ValueError, OverflowError, ZeroDivisionError):
+            return None
+
+    def interval_log_bounds(self, eta_s):
+        """``(low, high)``: 10 % and 90 % points of ln(actual / predicted) for ``eta_s`` (s).
+
+        Linear in ``ln(eta_s)`` between the bin anchors :data:`BIN_ANCHORS_S`,
+        constant beyond the first and last anchor. The interval for a
+        predicted remaining time ``eta_s`` is ``eta_s * exp(low)`` ..
+        ``eta_s * exp(high)``.
+        """
+        anchors = BIN_ANCHORS_S
+        lo = self.log_q_low
+        hi = self.log_q_high
+        if not eta_s > anchors[0]:   # also NaN and negative
+            return lo[0], hi[0]
+        if eta_s >= anchors[3]:
+            return lo[3], hi[3]
+        i = 0
+        while eta_s >= anchors[i + 1]:
+            i += 1
+        try:
+            f = math.log(eta_s / anchors[i]) / math.log(anchors[i + 1] / anchors[i])
+        except (ValueError, OverflowError):
+            f = 0.0
+        return (lo[i] + f * (lo[i + 1] - lo[i]), hi[i] + f * (hi[i + 1] - hi[i]))
+
+    # ----------------------------------------------------------- device form
+    def to_blob(self):
+        """The device form: :data:`PROFILE_SIZE` bytes (layout in the module docstring).
+
+        Floats are rounded to float32, quantiles to 1/1000 (at most 0.0005 off).
+        """
+        buf = bytearray(PROFILE_SIZE)
+        buf[0] = PROFILE_FORMAT
+        buf[1] = FLAG_HEATER if self.heater else 0
+        struct.pack_into(_FLOATS, buf, _FLOATS_AT, self.rate_per_s, self.rate_log_sd,
+                         self.eq_offset_c, self.eq_offset_sd_c, self.gain_k_per_s,
+                         self.gain_rel_sd, self.probe_lag_s, self.rate_exponent)
+        q = self.log_q_low
+        r = self.log_q_high
+        struct.pack_into(_QUANTS, buf, _QUANTS_AT,
+                         _milli(q[0]), _milli(q[1]), _milli(q[2]), _milli(q[3]),
+                         _milli(r[0]), _milli(r[1]), _milli(r[2]), _milli(r[3]))
+        struct.pack_into("<I", buf, _CRC_AT, crc32(buf, 0, 0, _CRC_AT))
+        return bytes(buf)
+
+    @staticmethod
+    def from_blob(blob):
+        """``(VesselProfile, REASON_OK)`` from a device blob, or ``(None, REASON_*)``.
+
+        Never raises, whatever ``blob`` is: wrong type or length, another
+        format version, a CRC mismatch, unknown flags or a value outside the
+        ranges of :meth:`problem` each give their reason code.
+        """
+        t = type(blob)
+        if not (t is bytes or t is bytearray or t is memoryview):
+            return None, REASON_LENGTH
+        if len(blob) != PROFILE_SIZE:
+            return None, REASON_LENGTH
+        if blob[0] != PROFILE_FORMAT:
+            return None, REASON_VERSION
+        if struct.unpack_from("<I", blob, _CRC_AT)[0] != crc32(blob, 0, 0, _CRC_AT):
+            return None, REASON_CRC
+        flags = blob[1]
+        if flags & ~FLAG_HEATER:
+            return None, REASON_FLAGS
+        f = struct.unpack_from(_FLOATS, blob, _FLOATS_AT)
+        q = struct.unpack_from(_QUANTS, blob, _QUANTS_AT)
+        try:
+            prof = VesselProfile(
+                heater=bool(flags & FLAG_HEATER), rate_per_s=f[0], rate_log_sd=f[1],
+                eq_offset_c=f[2], eq_offset_sd_c=f[3], gain_k_per_s=f[4], gain_rel_sd=f[5],
+                probe_lag_s=f[6], rate_exponent=f[7],
+                log_q_low=(q[0] * 0.001, q[1] * 0.001, q[2] * 0.001, q[3] * 0.001),
+                log_q_high=(q[4] * 0.001, q[5] * 0.001, q[6] * 0.001, q[7] * 0.001))
+        except (ValueError, OverflowError):
+            return None, REASON_RANGE
+        return prof, REASON_OK
+
+    def __repr__(self):
+        return ("VesselProfile(heater=%r, rate_per_s=%r, rate_log_sd=%r, eq_offset_c=%r, "
+                "eq_offset_sd_c=%r, gain_k_per_s=%r, gain_rel_sd=%r, probe_lag_s=%r, "
+                "rate_exponent=%r, log_q_low=%r, log_q_high=%r)" % (
+                    self.heater, self.rate_per_s, self.rate_log_sd, self.eq_offset_c,
+                    self.eq_offset_sd_c, self.gain_k_per_s, self.gain_rel_sd,
+                    self.probe_lag_s, self.rate_exponent, self.log_q_low, self.log_q_high))
+
+
+def _milli(x):
+    """x in 1/1000 units, rounded half away from zero, as an int16-range int."""
+    v = int(x * 1000.0 + (0.5 if x >= 0.0 else -0.5))
+    if v > 32767:
+        return 32767
+    if v < -32768:
+        return -32768
+    return v

@@ -1,0 +1,47 @@
+from typing import Optional, Sequence, Tuple, Union
+
+PROFILE_FORMAT: int
+PROFILE_SIZE: int
+FLAG_HEATER: int
+DIFF_REF_C: float
+BIN_EDGES_S: Tuple[float, float, float]
+BIN_ANCHORS_S: Tuple[float, float, float, float]
+QUANTILE_LOW: float
+QUANTILE_HIGH: float
+REASON_OK: int
+REASON_LENGTH: int
+REASON_VERSION: int
+REASON_CRC: int
+REASON_FLAGS: int
+REASON_RANGE: int
+REASON_NAMES: Tuple[str, ...]
+
+def reason_name(code: int) -> str: ...
+
+class VesselProfile:
+    heater: bool
+    rate_per_s: float
+    rate_log_sd: float
+    eq_offset_c: float
+    eq_offset_sd_c: float
+    gain_k_per_s: float
+    gain_rel_sd: float
+    probe_lag_s: float
+    rate_exponent: float
+    log_q_low: Tuple[float, float, float, float]
+    log_q_high: Tuple[float, float, float, float]
+    def __init__(self, heater: bool = False, rate_per_s: float = ..., rate_log_sd: float = 0.5,
+                 eq_offset_c: float = 0.0, eq_offset_sd_c: float = 3.0,
+                 gain_k_per_s: float = 0.0, gain_rel_sd: float = 0.0,
+                 probe_lag_s: float = 0.0, rate_exponent: float = 1.0,
+                 log_q_low: Optional[Sequence[float]] = None,
+                 log_q_high: Optional[Sequence[float]] = None) -> None: ...
+    def problem(self) -> Optional[str]: ...
+    def rate_at(self, diff_c: float) -> float: ...
+    def time_to_target_s(self, temp_c: float, target_c: float,
+                         equilibrium_c: float) -> Optional[float]: ...
+    def interval_log_bounds(self, eta_s: float) -> Tuple[float, float]: ...
+    def to_blob(self) -> bytes: ...
+    @staticmethod
+    def from_blob(blob: Union[bytes, bytearray, memoryview]
+                  ) -> Tuple[Optional["VesselProfile"], int]: ...
