@@ -37,11 +37,15 @@ sub-steps of ``period / PERIODIC_SUBSTEPS`` after a rigorous bound has ruled out
 the stretches where no crossing can be) and then solved by Newton's method with
 a bisection fallback.
 
-Work per call is capped: at most ``MAX_PIECES`` pieces and sub-steps per call,
-and at most ``MAX_ROOT_ITERATIONS`` iterations per root solve (two solves per
-piece at most, three for the thermostat). A call that hits the cap says so
-(``reason == REASON_WORK_CAP``) instead of running on. No lists, dicts or
-tuples are created per call; the state lives in fixed instance attributes.
+Work per call is capped: at most ``MAX_PIECES`` units of work per call, and
+at most ``MAX_ROOT_ITERATIONS`` iterations per root solve (two solves per
+piece at most, three for the thermostat). A unit is a piece, a sinusoid
+sub-step, a doubling of an endless ramp's search span, or one look at a
+breakpoint beyond the first per piece (many breakpoints at the same time, or a
+start far into a schedule, are skipped by galloping and bisection, every look
+counted). A call that hits the cap says so (``reason == REASON_WORK_CAP``)
+instead of running on, and ``work`` is the count. No lists, dicts or tuples
+are created per call; the state lives in fixed instance attributes.
 """
 import math
 
@@ -73,9 +77,9 @@ PLAN_THERMOSTAT = const(3)   # on/off with hysteresis
 # --- reason beside a status code (why there is no answer, or a caveat) ---
 REASON_NONE = const(0)            # an answer was found
 REASON_NEVER = const(1)           # proved never reached under this ambient and plan
-REASON_HORIZON = const(2)         # not reached within horizon_s (may be later)
+REASON_HORIZON = const(2)         # not reached within horizon_s or float time (may be later)
 REASON_WORK_CAP = const(3)        # stopped at the work cap; searched_s says how far
-REASON_BAD_INPUT = const(4)       # an argument is not usable (NaN, negative k, ...)
+REASON_BAD_INPUT = const(4)       # an argument is not usable (NaN, negative k, overflow...)
 REASON_HELD = const(5)            # the plan holds the liquid short of the target
 REASON_TOO_SLOW = const(6)        # full power cannot get there by the deadline
 REASON_NO_DRIVE_NEEDED = const(7)  # at the deadline it is at/past target with the heater off
@@ -175,6 +179,32 @@ def _finite(x):
     return x == x and x != _INF and x != -_INF
 
 
+def _real(x):
+    """``x`` as a float; NaN for a non-number (None, str, list...) or an int beyond float range."""
+    if isinstance(x, float):
+        return x
+    if isinstance(x, (str, bytes, bytearray)):
+        return math.nan
+    try:
+        return float(x)
+    except (TypeError, ValueError, OverflowError):
+        return math.nan
+
+
+def _sin(x):
+    """``sin(x)`` (rad); NaN for a non-finite angle (math.sin raises there)."""
+    if x - x != 0.0:
+        return math.nan
+    return math.sin(x)
+
+
+def _cos(x):
+    """``cos(x)`` (rad); NaN for a non-finite angle."""
+    if x - x != 0.0:
+        return math.nan
+    return math.cos(x)
+
+
 def _seek(tt, x):
     """Index i with tt[i] <= x < tt[i+1] in sorted breakpoints tt (-1 before, last after).
 
@@ -206,8 +236,8 @@ class Forecast:
 
     After :meth:`time_to_target_s`: ``status`` (a :mod:`tinytherm.status`
     code), ``reason`` (a ``REASON_*`` code), ``eta_s`` (seconds from now or
-    None), ``searched_s`` (how far the search got, s) and ``work`` (pieces and
-    sub-steps used, <= ``MAX_PIECES``).
+    None), ``searched_s`` (how far the search got, s) and ``work`` (units of
+    work used, <= ``MAX_PIECES``; see the module doc).
     """
 
     def __init__(self, rate_per_s=0.0, gain_k_per_s=0.0, ambient_c=20.0):
@@ -228,6 +258,8 @@ class Forecast:
         self._amb_i = 0          # cursor into the piecewise breakpoints
         self._amb_lo = 0.0       # ambient range scratch, deg C
         self._amb_hi = 0.0
+        self._pw_lo = 0.0        # lowest and highest piecewise value, deg C
+        self._pw_hi = 0.0
         self.set_ambient_constant(ambient_c)
         # heater plan
         self._plan = PLAN_DUTY
@@ -255,7 +287,8 @@ class Forecast:
         self._work = 0
         self._f = 0.0         # root solver scratch: function value
         self._df = 0.0        # root solver scratch: derivative
-        self._reached_s = 0.0  # how far a capped piece search got, s into the piece
+        self._reached_s = 0.0  # how far a stopped piece search got, s into the piece
+        self._stop = REASON_NONE  # why a piece search stopped early (WORK_CAP or HORIZON)
         self._state_T = 0.0   # temperature at the end of the last run, deg C
         # answers
         self.status = status.GATHERING
@@ -267,17 +300,20 @@ class Forecast:
     # ------------------------------------------------------------------ setup
     def set_model(self, rate_per_s, gain_k_per_s=0.0):
         """Set ``k`` (1/s, finite, >= 0) and ``g`` (K/s at full duty). Raises ValueError."""
+        rate_per_s = _real(rate_per_s)
+        gain_k_per_s = _real(gain_k_per_s)
         if not (_finite(rate_per_s) and rate_per_s >= 0.0 and _finite(gain_k_per_s)):
             raise ValueError("rate_per_s must be finite and >= 0, gain_k_per_s finite")
-        self._k = float(rate_per_s)
-        self._g = float(gain_k_per_s)
+        self._k = rate_per_s
+        self._g = gain_k_per_s
 
     def set_ambient_constant(self, ambient_c):
         """Constant ambient ``ambient_c`` (deg C)."""
+        ambient_c = _real(ambient_c)
         if not _finite(ambient_c):
             raise ValueError("ambient_c must be finite")
         self._amb_kind = AMBIENT_CONSTANT
-        self._amb_c = float(ambient_c)
+        self._amb_c = ambient_c
         self._amb_times = None
         self._amb_values = None
 
@@ -287,12 +323,15 @@ class Forecast:
         The usual extrapolation of a measured ambient: its recent level and
         trend, frozen after ``ramp_s`` seconds.
         """
+        level_c = _real(level_c)
+        slope_c_per_s = _real(slope_c_per_s)
+        ramp_s = _real(ramp_s)
         if not (_finite(level_c) and _finite(slope_c_per_s) and ramp_s >= 0.0):
             raise ValueError("level_c, slope_c_per_s must be finite, ramp_s >= 0")
         self._amb_kind = AMBIENT_RAMP
-        self._amb_c = float(level_c)
-        self._amb_slope = float(slope_c_per_s)
-        self._amb_ramp_s = float(ramp_s)
+        self._amb_c = level_c
+        self._amb_slope = slope_c_per_s
+        self._amb_ramp_s = ramp_s
         self._amb_times = None
         self._amb_values = None
 
@@ -303,45 +342,65 @@ class Forecast:
         read in place, not copied, so do not change them while forecasting.
         ``now_s`` is where now falls on the same clock. Held at the first value
         before the first time and at the last value after the last time.
-        Validation reads every breakpoint once (O(n)).
+        Validation reads every breakpoint once (O(n)) and keeps the lowest and
+        highest value, so no later call reads them all again.
         """
+        now_s = _real(now_s)
         n = len(times_s)
         if n < 1 or len(values_c) != n or not _finite(now_s):
             raise ValueError("need >= 1 breakpoint, equal lengths, finite now_s")
+        lo = _INF
+        hi = -_INF
+        prev = -_INF
         i = 0
         while i < n:
-            if not (_finite(times_s[i]) and _finite(values_c[i])):
-                raise ValueError("breakpoints must be finite")
-            if i and times_s[i] < times_s[i - 1]:
+            t = _real(times_s[i])
+            v = _real(values_c[i])
+            if not (_finite(t) and _finite(v)):
+                raise ValueError("breakpoints must be finite numbers")
+            if t < prev:
                 raise ValueError("times_s must be non-decreasing")
+            prev = t
+            if v < lo:
+                lo = v
+            if v > hi:
+                hi = v
             i += 1
         self._amb_kind = AMBIENT_PIECEWISE
         self._amb_times = times_s
         self._amb_values = values_c
-        self._amb_now = float(now_s)
+        self._amb_now = now_s
+        self._pw_lo = lo
+        self._pw_hi = hi
 
     def set_ambient_periodic(self, mean_c, amplitude_c, period_s, phase_rad=0.0):
         """Ambient ``mean_c + amplitude_c * sin(2*pi*t/period_s + phase_rad)``.
 
         deg C, K, s (> 0), rad; ``phase_rad`` is the angle at now (t = 0).
+        ``2*pi/period_s`` must be finite (a period above about 3.5e-308 s).
         """
+        mean_c = _real(mean_c)
+        amplitude_c = _real(amplitude_c)
+        period_s = _real(period_s)
+        phase_rad = _real(phase_rad)
         if not (_finite(mean_c) and _finite(amplitude_c) and _finite(phase_rad)
-                and _finite(period_s) and period_s > 0.0):
+                and _finite(period_s) and period_s > 0.0 and _finite(_TWO_PI / period_s)):
             raise ValueError("finite arguments and period_s > 0 required")
         self._amb_kind = AMBIENT_PERIODIC
-        self._amb_c = float(mean_c)
-        self._amb_amp = float(amplitude_c)
-        self._amb_period = float(period_s)
-        self._amb_phase = math.fmod(float(phase_rad), _TWO_PI)
+        self._amb_c = mean_c
+        self._amb_amp = amplitude_c
+        self._amb_period = period_s
+        self._amb_phase = math.fmod(phase_rad, _TWO_PI)
         self._amb_times = None
         self._amb_values = None
 
     def set_plan_duty(self, duty):
         """Constant heater duty in [0, 1] (0 = heater off)."""
+        duty = _real(duty)
         if not (duty == duty and 0.0 <= duty <= 1.0):
             raise ValueError("duty must be in [0, 1]")
         self._plan = PLAN_DUTY
-        self._duty = float(duty)
+        self._duty = duty
         self._plan_times = None
         self._plan_duties = None
 
@@ -353,21 +412,25 @@ class Forecast:
         after the last time. Read in place, not copied. ``now_s`` is where now
         falls on that clock.
         """
+        now_s = _real(now_s)
         n = len(times_s)
         if n < 1 or len(duties) != n or not _finite(now_s):
             raise ValueError("need >= 1 step, equal lengths, finite now_s")
+        prev = -_INF
         i = 0
         while i < n:
-            d = duties[i]
-            if not (_finite(times_s[i]) and d == d and 0.0 <= d <= 1.0):
+            t = _real(times_s[i])
+            d = _real(duties[i])
+            if not (_finite(t) and d == d and 0.0 <= d <= 1.0):
                 raise ValueError("finite times and duties in [0, 1] required")
-            if i and times_s[i] < times_s[i - 1]:
+            if t < prev:
                 raise ValueError("times_s must be non-decreasing")
+            prev = t
             i += 1
         self._plan = PLAN_SCHEDULE
         self._plan_times = times_s
         self._plan_duties = duties
-        self._plan_now = float(now_s)
+        self._plan_now = now_s
 
     def set_plan_boost_hold(self, hold_c):
         """Full power until ``hold_c`` (deg C), then held there.
@@ -377,10 +440,11 @@ class Forecast:
         ``0 <= k*(hold_c - R)/g <= 1`` at every ambient; check with
         :meth:`hold_is_sustainable`.
         """
+        hold_c = _real(hold_c)
         if not _finite(hold_c):
             raise ValueError("hold_c must be finite")
         self._plan = PLAN_BOOST_HOLD
-        self._hold_c = float(hold_c)
+        self._hold_c = hold_c
         self._plan_times = None
         self._plan_duties = None
 
@@ -391,25 +455,35 @@ class Forecast:
         inside the band the heater is on when ``start_on`` is true. Meant for a
         heater (``g > 0``); switching is ideal (no sensor lag).
         """
+        on_below_c = _real(on_below_c)
+        off_above_c = _real(off_above_c)
         if not (_finite(on_below_c) and _finite(off_above_c) and on_below_c < off_above_c):
             raise ValueError("need finite on_below_c < off_above_c")
         self._plan = PLAN_THERMOSTAT
-        self._on_below_c = float(on_below_c)
-        self._off_above_c = float(off_above_c)
+        self._on_below_c = on_below_c
+        self._off_above_c = off_above_c
         self._start_on = bool(start_on)
         self._plan_times = None
         self._plan_duties = None
 
     # ---------------------------------------------------------------- queries
     def ambient_at_c(self, t_s):
-        """Ambient in deg C at ``t_s`` seconds from now (O(log n) for breakpoints)."""
+        """Ambient in deg C at ``t_s`` seconds from now (O(log n) for breakpoints).
+
+        NaN for a ``t_s`` that is not a number (a periodic ambient: not finite).
+        """
+        t_s = _real(t_s)
         kind = self._amb_kind
         if kind == AMBIENT_CONSTANT:
             return self._amb_c
+        if t_s != t_s:
+            return math.nan
         if kind == AMBIENT_RAMP:
             return self._amb_c + self._amb_slope * min(max(t_s, 0.0), self._amb_ramp_s)
         if kind == AMBIENT_PERIODIC:
-            return self._amb_c + self._amb_amp * math.sin(self._angle_at(t_s))
+            if not _finite(t_s):
+                return math.nan
+            return self._amb_c + self._amb_amp * _sin(self._angle_at(t_s))
         self._amb_seek(t_s)
         return self._pw_value(t_s)
 
@@ -426,14 +500,8 @@ class Forecast:
             lo = self._amb_c - abs(self._amb_amp)
             hi = self._amb_c + abs(self._amb_amp)
         elif kind == AMBIENT_PIECEWISE:
-            v = self._amb_values
-            lo = v[0]
-            hi = v[0]
-            for x in v:
-                if x < lo:
-                    lo = x
-                if x > hi:
-                    hi = x
+            lo = self._pw_lo  # kept by set_ambient_piecewise: O(1) here
+            hi = self._pw_hi
         self._amb_lo = lo
         self._amb_hi = hi
 
@@ -441,7 +509,8 @@ class Forecast:
         """True when the boost-hold plan can hold ``hold_c`` at every ambient value.
 
         Needs ``0 <= k*(hold_c - R)/g <= 1`` over the whole ambient range
-        (piecewise: O(n) over the breakpoints).
+        (O(1): the piecewise range is kept when the breakpoints are set).
+        Never raises.
         """
         self._ambient_range()
         g = self._g
@@ -456,9 +525,13 @@ class Forecast:
         """Temperature in deg C ``t_s`` seconds from now, starting at ``start_c`` deg C.
 
         Exact under every plan (thermostat switches are located by root
-        solving). Returns NaN on bad input or when the work cap is hit before
-        ``t_s`` (``self.reason`` says which).
+        solving). Returns NaN on bad input (not a number, not finite, negative
+        ``t_s``, or so extreme that the temperature overflows) or when the work
+        cap is hit before ``t_s`` (``self.reason`` says which); otherwise a
+        finite number. Never raises.
         """
+        t_s = _real(t_s)
+        start_c = _real(start_c)
         if not (_finite(t_s) and t_s >= 0.0 and _finite(start_c)):
             self.reason = REASON_BAD_INPUT
             return math.nan
@@ -471,16 +544,22 @@ class Forecast:
         """Seconds from now until the liquid first reaches ``target_c`` (deg C), or None.
 
         Starts at ``start_c`` deg C; searches at most ``horizon_s`` seconds
-        ahead (and at most ``MAX_PIECES`` pieces). Sets ``status``:
-        ``ARRIVED`` (already there, 0.0), ``TRACKING`` (found), or
-        ``OUT_OF_REACH`` with ``reason`` NEVER, HELD, HORIZON, WORK_CAP or
-        BAD_INPUT. Never raises.
+        ahead (and at most ``MAX_PIECES`` units of work). Sets ``status``:
+        ``ARRIVED`` (already there, 0.0), ``TRACKING`` (found; a finite
+        ``eta_s``), or ``OUT_OF_REACH`` with ``reason`` NEVER, HELD, HORIZON
+        (also: later than the largest float time), WORK_CAP or BAD_INPUT (not
+        a number, or so extreme that the arithmetic overflows). Never raises.
         """
         self.eta_s = None
+        start_c = _real(start_c)
+        target_c = _real(target_c)
+        horizon_s = _real(horizon_s)
         if not (_finite(start_c) and _finite(target_c) and horizon_s == horizon_s
                 and horizon_s >= 0.0):
             self.status = status.OUT_OF_REACH
             self.reason = REASON_BAD_INPUT
+            self.searched_s = 0.0
+            self.work = 0
             return None
         if start_c == target_c:
             self.status = status.ARRIVED
@@ -530,12 +609,53 @@ class Forecast:
         t0 = tt[i]
         return v[i] + (v[i + 1] - v[i]) * ((self._amb_now + t_s - t0) / (tt[i + 1] - t0))
 
-    def _plan_seek(self, t_s):
-        """Move the duty cursor so times[i] <= now+t < times[i+1] (i=-1: before)."""
-        self._plan_i = _seek(self._plan_times, self._plan_now + t_s)
+    def _tick(self):
+        """Count one unit of work; False (and nothing counted) once MAX_PIECES are used."""
+        if self._work >= MAX_PIECES:
+            self._stop = REASON_WORK_CAP
+            return False
+        self._work += 1
+        return True
+
+    def _advance(self, tt, i, now, t):
+        """Last index j >= i with tt[j] - now <= t (breakpoints at or before t), or -2.
+
+        The usual case (the next breakpoint is after t) is one look and part
+        of the piece's work. Skipping breakpoints (many at the same time, or a
+        start far into the schedule) gallops then bisects, and every look
+        beyond the first counts as work; -2 when the work cap stops it.
+        """
+        n = len(tt)
+        if i + 1 >= n or tt[i + 1] - now > t:
+            return i
+        lo = i + 1  # tt[lo] - now <= t
+        step = 1
+        while True:
+            if not self._tick():
+                return -2
+            hi = lo + step
+            if hi >= n:
+                hi = n
+                break
+            if tt[hi] - now > t:
+                break
+            lo = hi
+            step += step
+        while hi - lo > 1:  # tt[lo] - now <= t < tt[hi] - now (hi == n: past the end)
+            if not self._tick():
+                return -2
+            mid = (lo + hi) >> 1
+            if tt[mid] - now <= t:
+                lo = mid
+            else:
+                hi = mid
+        return lo
 
     def _next_break(self, t):
-        """Time (s from now) of the next ambient/duty breakpoint after t (inf if none)."""
+        """Time (s from now) of the next ambient/duty breakpoint after t (inf if none).
+
+        -1.0 when the work cap stopped the cursor (see _advance).
+        """
         nb = _INF
         kind = self._amb_kind
         if kind == AMBIENT_RAMP:
@@ -543,17 +663,17 @@ class Forecast:
                 nb = self._amb_ramp_s
         elif kind == AMBIENT_PIECEWISE:
             tt = self._amb_times
-            i = self._amb_i
-            while i + 1 < len(tt) and tt[i + 1] - self._amb_now <= t:
-                i += 1  # skips zero-length segments (steps)
+            i = self._advance(tt, self._amb_i, self._amb_now, t)  # skips steps
+            if i == -2:
+                return -1.0
             self._amb_i = i
             if i + 1 < len(tt):
                 nb = tt[i + 1] - self._amb_now
         if self._plan == PLAN_SCHEDULE:
             tt = self._plan_times
-            i = self._plan_i
-            while i + 1 < len(tt) and tt[i + 1] - self._plan_now <= t:
-                i += 1
+            i = self._advance(tt, self._plan_i, self._plan_now, t)
+            if i == -2:
+                return -1.0
             self._plan_i = i
             if i + 1 < len(tt):
                 x = tt[i + 1] - self._plan_now
@@ -609,39 +729,51 @@ class Forecast:
             self._pr = self._amb_c
             self._pa = self._angle_at(t)
             # Periodic steady state: amplitude ratio k/sqrt(k^2+w^2), lag atan(w/k).
+            # Scaled by the larger of k, w so that neither square under- or
+            # overflows (k = 1e-200 with w = 6e-300 has k*k + w*w == 0).
             self._ppsi = math.atan2(w, k)
-            self._pAr = self._amb_amp * k / math.sqrt(k * k + w * w)
+            m = k if k > w else w
+            kr = k / m
+            wr = w / m
+            self._pAr = self._amb_amp * kr / math.sqrt(kr * kr + wr * wr)
 
     def _temp(self, s):
         """Exact temperature (deg C) at s seconds into the current piece."""
         k = self._k
         x = k * s
-        p1 = _phi1(x)
-        om = x * p1  # 1 - exp(-k s)
         T0 = self._pT
         if x < 0.5:
+            p1 = _phi1(x)
+            om = x * p1  # 1 - exp(-k s)
+            sp = s * p1  # (1 - exp(-k s)) / k, also for k = 0
             T = T0 + om * (self._pr - T0)
         else:  # settles exactly onto the ambient term for large k s
-            T = self._pr + (T0 - self._pr) * _exp(-x)
-        T += self._pq * s * p1
+            e = _exp(-x)
+            om = 1.0 - e
+            sp = om / k  # finite also when k*s overflows
+            T = self._pr + (T0 - self._pr) * e
+        T += self._pq * sp
         if self._pkind == _PIECE_LINEAR:
             # ambient slope b: particular term b*s - b*(1-exp(-ks))/k, written stably
             if self._pb != 0.0:
-                T += self._pb * k * s * s * _phi2(x)
+                if x < 0.5:
+                    T += self._pb * k * s * s * _phi2(x)
+                else:
+                    T += self._pb * (s - sp)
         elif self._pAr != 0.0:
             th0 = self._pa - self._ppsi
-            T += self._pAr * (math.sin(th0 + self._pw * s) - math.sin(th0) * (1.0 - om))
+            T += self._pAr * (_sin(th0 + self._pw * s) - _sin(th0) * (1.0 - om))
         return T
 
     def _ambient_in_piece(self, s):
         if self._pkind == _PIECE_LINEAR:
             return self._pr + self._pb * s
-        return self._pr + self._amb_amp * math.sin(self._pa + self._pw * s)
+        return self._pr + self._amb_amp * _sin(self._pa + self._pw * s)
 
     def _ambient_slope_in_piece(self, s):
         if self._pkind == _PIECE_LINEAR:
             return self._pb
-        return self._amb_amp * self._pw * math.cos(self._pa + self._pw * s)
+        return self._amb_amp * self._pw * _cos(self._pa + self._pw * s)
 
     def _slope(self, s, temp_c):
         """dT/dt (K/s) at s into the piece, from the ODE itself."""
@@ -731,8 +863,10 @@ class Forecast:
     def _first_root(self, level, length):
         """First crossing of level within [0, length] of the current piece.
 
-        Returns s >= 0, -1.0 when there is none, -2.0 when the work cap stopped
-        the search (then self._reached_s says how far it got).
+        Returns s >= 0, -1.0 when there is none, -2.0 when the search stopped
+        early: self._stop says why (REASON_WORK_CAP, or REASON_HORIZON when it
+        would run past the largest float time) and self._reached_s how far it
+        got. NaN when the arithmetic overflowed (inputs beyond float range).
         """
         T0 = self._pT
         self._reached_s = 0.0
@@ -744,13 +878,16 @@ class Forecast:
                 if self._pb == 0.0:
                     return self._root_constant_tail(level)
                 # Ramp without end: T -> +-inf along the ramp; find a finite
-                # end beyond the turning point and the crossing.
+                # end beyond the turning point and the crossing. Each doubling
+                # of the span counts as work.
                 span = 1.0 / k if k > 0.0 else 1.0
                 f0 = T0 - level
-                n = 0
-                while n < 200:
-                    n += 1
+                while True:
+                    if not self._tick():
+                        return -2.0
                     T1 = self._temp(span)
+                    if T1 != T1:
+                        return math.nan
                     f1 = T1 - level
                     if (f1 > 0.0) != (f0 > 0.0) or f1 == 0.0:
                         break
@@ -759,29 +896,33 @@ class Forecast:
                     if d1 != 0.0 and (d1 > 0.0) == (f1 > 0.0) and (self._pb > 0.0) == (f1 > 0.0):
                         break
                     span *= 2.0
+                    if not _finite(span):
+                        self._stop = REASON_HORIZON
+                        return -2.0
                 length = span
             return self._root_between(level, 0.0, T0, length, self._temp(length))
         return self._root_sine(level, length)
 
     def _root_constant_tail(self, level):
-        """Crossing on an endless piece with constant ambient and duty (closed form)."""
+        """Crossing on an endless piece with constant ambient and duty (closed form).
+
+        With ``d = dT/dt`` at the start, ``1 - exp(-k s) = z = k*gap/d``, so
+        ``s = (gap/d) * (-ln(1 - z)/z)``: no equilibrium ``R + g*u/k`` to
+        overflow for a tiny ``k``, and exact for ``k = 0`` (``s = gap/d``).
+        May return ``inf`` (later than the largest float time).
+        """
         k = self._k
         T0 = self._pT
-        q = self._pq
-        if k == 0.0:
-            gap = level - T0
-            if q == 0.0 or (gap > 0.0) != (q > 0.0):
-                return -1.0
-            return gap / q
-        eq = self._pr + q / k
-        num = T0 - eq
-        den = level - eq
-        if den == 0.0 or num == 0.0 or (num > 0.0) != (den > 0.0) or abs(den) >= abs(num):
+        gap = level - T0
+        d = self._pq - k * (T0 - self._pr)
+        if d == 0.0 or (gap > 0.0) != (d > 0.0):
             return -1.0
-        try:
-            return math.log(num / den) / k
-        except (ValueError, OverflowError):
+        z = k * gap / d  # share of the way to the equilibrium the level needs
+        if z != z:
+            return math.nan
+        if z >= 1.0:
             return -1.0
+        return (gap / d) * _log_ratio(z)
 
     def _root_sine(self, level, length):
         """First crossing on a sinusoidal-ambient piece (see module doc)."""
@@ -796,17 +937,20 @@ class Forecast:
         Ts = self._pT
         th0 = self._pa - self._ppsi
         while s < length:
-            self._work += 1
-            if self._work > MAX_PIECES:
+            if not self._tick():
                 self._reached_s = s
                 return -2.0
             # Transient part C*exp(-k(t-s)) on top of the periodic steady state.
-            c = Ts - eq - self._pAr * math.sin(th0 + self._pw * s)
+            c = Ts - eq - self._pAr * _sin(th0 + self._pw * s)
             if abs(gap) > amp + abs(c):
                 return -1.0  # the transient only shrinks: never within this piece
             h = skip
             if h > length - s:
                 h = length - s
+            if not _finite(s + h):
+                self._stop = REASON_HORIZON  # past the largest float time
+                self._reached_s = s
+                return -2.0
             c1 = c * _exp(-k * h)
             lo = gap - amp + min(c, c1)
             hi = gap + amp + max(c, c1)
@@ -822,18 +966,26 @@ class Forecast:
             s1 = s + h
             T1 = self._temp(s1)
             r = self._root_between(level, s, Ts, s1, T1)
-            if r >= 0.0:
+            if r >= 0.0 or r != r:
                 return r
             s = s1
             Ts = T1
         return -1.0
 
     def _start_plan(self, start_c):
-        """Reset cursors and thermostat/boost mode for a run starting at start_c."""
+        """Reset cursors and thermostat/boost mode for a run starting at start_c.
+
+        The cursors are found by _advance from before the first breakpoint
+        (O(log n) looks, counted as work); False when that hit the work cap.
+        """
         if self._amb_kind == AMBIENT_PIECEWISE:
-            self._amb_seek(0.0)
+            self._amb_i = self._advance(self._amb_times, -1, self._amb_now, 0.0)
+            if self._amb_i == -2:
+                return False
         if self._plan == PLAN_SCHEDULE:
-            self._plan_seek(0.0)
+            self._plan_i = self._advance(self._plan_times, -1, self._plan_now, 0.0)
+            if self._plan_i == -2:
+                return False
         elif self._plan == PLAN_THERMOSTAT:
             if start_c < self._on_below_c:
                 self._mode = 1
@@ -846,6 +998,7 @@ class Forecast:
                 self._mode = 2
             else:
                 self._mode = 1 if start_c < self._hold_c else 0
+        return True
 
     def _switch_level(self):
         """Temperature at which the thermostat/boost plan changes mode (deg C)."""
@@ -858,19 +1011,25 @@ class Forecast:
 
         Returns the crossing time (s) or -1.0; sets self.reason, self.searched_s,
         self.work and self._state_T (temperature at until_s when not searching).
+        Every piece, sine sub-step, ramp doubling and breakpoint look beyond
+        the first counts as work (see _tick); the walk stops at MAX_PIECES.
+        Times that would pass the largest float stop with REASON_HORIZON, and
+        temperatures that overflow with REASON_BAD_INPUT, so every number
+        left behind is finite.
         """
         self.reason = REASON_NONE
         self._work = 0
-        self._start_plan(start_c)
         t = 0.0
         T = start_c
         switching = self._plan == PLAN_THERMOSTAT or self._plan == PLAN_BOOST_HOLD
         result = -1.0
-        while True:
-            if self._work >= MAX_PIECES:
+        going = self._start_plan(start_c)
+        if not going:
+            self.reason = REASON_WORK_CAP
+        while going:
+            if not self._tick():
                 self.reason = REASON_WORK_CAP
                 break
-            self._work += 1
             if self._mode == 2 and self._plan == PLAN_BOOST_HOLD:
                 # Held at hold_c from here on (see set_plan_boost_hold).
                 T = self._hold_c
@@ -880,6 +1039,9 @@ class Forecast:
                     t = until_s
                 break
             t_end = self._next_break(t)
+            if t_end < 0.0:
+                self.reason = REASON_WORK_CAP
+                break
             if t_end > until_s:
                 t_end = until_s
             self._setup_piece(t, T, self._duty_now())
@@ -890,7 +1052,10 @@ class Forecast:
                 s_sw = self._first_root(self._switch_level(), length)
                 if s_sw == -2.0:
                     t += self._reached_s
-                    self.reason = REASON_WORK_CAP
+                    self.reason = self._stop
+                    break
+                if s_sw != s_sw:
+                    self.reason = REASON_BAD_INPUT
                     break
                 if s_sw >= 0.0:
                     limit = s_sw
@@ -899,9 +1064,15 @@ class Forecast:
                 s_hit = self._first_root(target_c, limit)
                 if s_hit == -2.0:
                     t += self._reached_s
-                    self.reason = REASON_WORK_CAP
+                    self.reason = self._stop
+                    break
+                if s_hit != s_hit:
+                    self.reason = REASON_BAD_INPUT
                     break
             if s_sw >= 0.0 and s_hit < 0.0:
+                if not _finite(t + s_sw):
+                    self.reason = REASON_HORIZON
+                    break
                 t += s_sw
                 T = self._switch_level()
                 if self._plan == PLAN_BOOST_HOLD:
@@ -910,6 +1081,9 @@ class Forecast:
                     self._mode = 0 if self._mode == 1 else 1
                 continue
             if s_hit >= 0.0:
+                if not _finite(t + s_hit):
+                    self.reason = REASON_HORIZON  # later than the largest float time
+                    break
                 result = t + s_hit
                 t = result
                 T = target_c
@@ -919,6 +1093,9 @@ class Forecast:
                 self.reason = REASON_NEVER
                 break
             T = self._temp(length)
+            if not _finite(T):
+                self.reason = REASON_BAD_INPUT  # the temperature overflowed
+                break
             t = t_end
             if t >= until_s:
                 if find_target:

@@ -16,8 +16,11 @@ and ``gap = target - T_off(D)``:
 
 Each method returns a :mod:`tinytherm.status` code and sets ``status``,
 ``reason`` (a ``tinytherm.forecast.REASON_*`` code) and its answers; it never
-raises. Work per call: one heater-off forecast (bounded by
-``forecast.MAX_PIECES``) plus O(1) closed forms; the cooling check is one
+raises, and every answer it sets is a finite number or None (inputs that are
+not numbers, or so extreme that the arithmetic overflows, give
+``OUT_OF_REACH`` with REASON_BAD_INPUT). Work per call: one heater-off
+forecast (bounded by ``forecast.MAX_PIECES``) plus O(1) closed forms, plus
+one full-power crossing search when too slow; the cooling check is one
 bounded crossing search. No lists or dicts are created.
 
 Caution: a plan is an estimate. Heating controllers need an independent
@@ -36,9 +39,11 @@ from tinytherm.forecast import (
     REASON_LATE,
     REASON_BEYOND_EQUILIBRIUM,
     REASON_WORK_CAP,
+    _exp,
     _phi1,
     _log_ratio,
     _finite,
+    _real,
 )
 
 
@@ -93,10 +98,10 @@ class ReadyByPlanner:
         fc = self.forecast
         fc.set_plan_duty(0.0)
         t_off = fc.temperature_at_c(deadline_s, start_c)
-        if t_off != t_off:
+        if t_off != t_off:  # NaN: the forecast's reason says why
             return None
         self.off_at_deadline_c = t_off
-        return target_c - t_off
+        return target_c - t_off  # may overflow: see _heater_request
 
     def _heater_request(self, start_c, target_c, deadline_s):
         """Start a heater request: clear the answer, check inputs, gap at the deadline.
@@ -111,6 +116,9 @@ class ReadyByPlanner:
         gap = self._gap_at_deadline(start_c, target_c, deadline_s)
         if gap is None:
             self._answer(status.OUT_OF_REACH, self.forecast.reason)
+        elif not _finite(gap):
+            self._answer(status.OUT_OF_REACH, REASON_BAD_INPUT)
+            return None
         return gap
 
     def _inputs_ok(self, start_c, target_c, deadline_s):
@@ -129,6 +137,9 @@ class ReadyByPlanner:
         or REASON_TOO_SLOW (``earliest_s`` is the earliest arrival, starting
         now). Returns the status code.
         """
+        start_c = _real(start_c)
+        target_c = _real(target_c)
+        deadline_s = _real(deadline_s)
         gap = self._heater_request(start_c, target_c, deadline_s)
         if gap is None:
             return self.status
@@ -145,8 +156,9 @@ class ReadyByPlanner:
         if z >= 1.0:
             return self._answer(status.OUT_OF_REACH, REASON_BEYOND_EQUILIBRIUM)
         heat_s = (gap / g) * _log_ratio(z)  # -ln(1 - z)/k, exact also for k -> 0
-        if heat_s > deadline_s:
-            self.heat_for_s = heat_s
+        if not (heat_s <= deadline_s):  # also inf: longer than the largest float time
+            if _finite(heat_s):
+                self.heat_for_s = heat_s
             self._earliest(start_c, target_c)
             return self._answer(status.OUT_OF_REACH, REASON_TOO_SLOW)
         self.heat_for_s = heat_s
@@ -171,6 +183,9 @@ class ReadyByPlanner:
         also the first arrival; under a varying ambient it is the temperature
         at the deadline that is planned. Returns the status code.
         """
+        start_c = _real(start_c)
+        target_c = _real(target_c)
+        deadline_s = _real(deadline_s)
         gap = self._heater_request(start_c, target_c, deadline_s)
         if gap is None:
             return self.status
@@ -185,9 +200,15 @@ class ReadyByPlanner:
         if deadline_s == 0.0:
             self._earliest(start_c, target_c)
             return self._answer(status.OUT_OF_REACH, REASON_TOO_SLOW)
-        # u = k*gap / (g*(1 - exp(-kD))) = gap / (g * D * phi1(kD))
-        duty = gap / (g * deadline_s * _phi1(k * deadline_s))
-        if duty > 1.0:
+        # u = k*gap / (g*(1 - exp(-kD))) = gap / (g * D * phi1(kD)), divided
+        # step by step (g*D can underflow to 0) and for large kD without phi1
+        # (phi1 -> 0 when k*D overflows); an overflow to inf is "too slow".
+        x = k * deadline_s
+        if x < 0.5:
+            duty = gap / g / deadline_s / _phi1(x)
+        else:
+            duty = (k * gap / g) / (1.0 - _exp(-x))
+        if not (duty <= 1.0):
             self._earliest(start_c, target_c)
             return self._answer(status.OUT_OF_REACH, REASON_TOO_SLOW)
         self.duty = duty
@@ -206,6 +227,9 @@ class ReadyByPlanner:
         """
         self._clear()
         fc = self.forecast
+        start_c = _real(start_c)
+        target_c = _real(target_c)
+        deadline_s = _real(deadline_s)
         if not self._inputs_ok(start_c, target_c, deadline_s):
             return self._answer(status.OUT_OF_REACH, REASON_BAD_INPUT)
         fc.set_plan_duty(0.0)
