@@ -15,9 +15,14 @@ Subcommands:
 import argparse
 import json
 import math
+import os
 import sys
+from array import array
+
+import numpy as np
 
 from host_sim import scenarios
+from tinytherm import __version__
 from host_sim.trace_io import TraceError, read_trace, write_predictions
 
 SAFETY_NOTE = ("Note: an estimate is never a safety interlock. Hot liquids scald; check "
@@ -25,24 +30,56 @@ SAFETY_NOTE = ("Note: an estimate is never a safety interlock. Hot liquids scald
                "codes; heaters need an independent thermal cut-out.")
 
 
+def _finite_float(text):
+    """argparse type: a finite float (nan and inf are refused)."""
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError("expected a number, got %r" % text) from None
+    if not math.isfinite(value):
+        raise argparse.ArgumentTypeError("expected a finite number, got %r" % text)
+    return value
+
+
+def _positive_float(text):
+    """argparse type: a finite float > 0."""
+    value = _finite_float(text)
+    if not value > 0.0:
+        raise argparse.ArgumentTypeError("expected a number above 0, got %r" % text)
+    return value
+
+
+def _seed(text):
+    """argparse type: a non-negative integer seed."""
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError("expected a non-negative integer, got %r"
+                                         % text) from None
+    if value < 0 or value >= 2 ** 32:
+        raise argparse.ArgumentTypeError("expected an integer 0..4294967295, got %r" % text)
+    return value
+
+
 def _add_estimator_options(p):
     g = p.add_argument_group("estimator settings (defaults: the core's own)")
-    g.add_argument("--ambient", type=float, metavar="C", default=None,
+    g.add_argument("--ambient", type=_finite_float, metavar="C", default=None,
                    help="known constant ambient, deg C (default: use the trace's ambient_c "
-                        "column if any, else estimate it)")
+                        "column if any, else estimate it); with an ambient_c column it "
+                        "needs --ignore-ambient-column")
     g.add_argument("--ignore-ambient-column", action="store_true",
                    help="do not pass the trace's ambient_c column to the estimator")
-    g.add_argument("--ambient-prior", type=float, metavar="C", default=None,
+    g.add_argument("--ambient-prior", type=_finite_float, metavar="C", default=None,
                    help="prior centre for an estimated ambient, deg C")
-    g.add_argument("--interval", type=float, metavar="P", default=None,
+    g.add_argument("--interval", type=_finite_float, metavar="P", default=None,
                    help="two-sided probability of the ETA interval, e.g. 0.8")
-    g.add_argument("--memory-s", type=float, metavar="S", default=None,
+    g.add_argument("--memory-s", type=_finite_float, metavar="S", default=None,
                    help="forgetting time constant of the fit, seconds")
-    g.add_argument("--block-s", type=float, metavar="S", default=None,
+    g.add_argument("--block-s", type=_finite_float, metavar="S", default=None,
                    help="averaging block length of the fit, seconds")
-    g.add_argument("--settle-s", type=float, metavar="S", default=None,
+    g.add_argument("--settle-s", type=_finite_float, metavar="S", default=None,
                    help="seconds of data before an answer may be trusted")
-    g.add_argument("--max-relative-sd", type=float, metavar="X", default=None,
+    g.add_argument("--max-relative-sd", type=_finite_float, metavar="X", default=None,
                    help="largest relative ETA spread still shown as tracking")
     g.add_argument("--heater", choices=("auto", "on", "off"), default="auto",
                    help="fit a heater gain from the trace's heater column (auto: when the "
@@ -64,66 +101,362 @@ def _estimator_kwargs(args):
     return kw
 
 
-def cmd_replay(args):
-    from host_sim.metrics import format_metrics, trace_metrics
-    from host_sim.replay import crossing_from_trace, replay
+class CliError(ValueError):
+    """A user error: printed as one line ``error: ...`` with exit status 2."""
+
+
+# Time-to-trust as the CLI prints it: the share of the approach (first reading to
+# the crossing) after which every shown answer stays within TRUST_TOLERANCE of the
+# true time left, measured against max(time left, TRUST_FLOOR_S). With the error
+# floor of 30 s the last 30 s asked for 3 s, about one 0.0625 C step at the end of
+# a mug's approach (0.02 K/s) and a block of the fit (20 s) long: no estimator can
+# meet it, so every trace read 1.00. 120 s asks for 12 s in the last two minutes:
+# several sensor steps and well inside a countdown shown in whole minutes.
+TRUST_FLOOR_S = 120.0
+TRUST_HELP = ("time-to-trust: share of the approach (first reading to the crossing) after "
+              "which every shown answer stays within 10 %% of the true time left (within "
+              "%.0f s in the last %.0f min); 1.00 = never" % (0.1 * TRUST_FLOOR_S,
+                                                               TRUST_FLOOR_S / 60.0))
+
+SCAN_SAMPLE = 20000          # rows whose steps and readings feed the sanity medians
+MAX_TIME_S = 1e10            # ~300 years: beyond this, row differences lose precision
+PLOT_POINTS = 20000          # rows kept for a plot (every k-th, plus events)
+LIQUID_RANGE_C = (-60.0, 150.0)
+
+
+def _finite(value, option):
+    if value is not None and not math.isfinite(value):
+        raise CliError("%s must be a finite number, got %r" % (option, value))
+    return value
+
+
+def _check_output(path, option, suffix=None, inputs=()):
+    """An output path we can create: its folder exists, it is not a folder or an input."""
+    if suffix is not None and not path.lower().endswith(suffix):
+        raise CliError("%s %s: the file name must end with %s (a PNG image is written)"
+                       % (option, path, suffix))
+    folder = os.path.dirname(os.path.abspath(path))
+    if not os.path.isdir(folder):
+        raise CliError("%s %s: folder %s does not exist (create it first)"
+                       % (option, path, folder))
+    if os.path.isdir(path):
+        raise CliError("%s %s: is a folder; give a file name" % (option, path))
+    for other in inputs:
+        if other and os.path.exists(other) and os.path.exists(path) \
+                and os.path.samefile(other, path):
+            raise CliError("%s %s would overwrite the input %s" % (option, path, other))
+
+
+def _load_truth(path, target_c):
+    """(crossing_s or None) from a scenario truth JSON checked against ``target_c``."""
     try:
-        trace = read_trace(args.trace, fahrenheit=args.fahrenheit, skip_bad=args.skip_bad)
-    except (OSError, TraceError) as exc:
+        with open(path, encoding="utf-8") as handle:
+            truth = json.load(handle)
+    except FileNotFoundError:
+        raise CliError("--truth %s: no such file" % path) from None
+    except IsADirectoryError:
+        raise CliError("--truth %s: is a folder, not a truth JSON" % path) from None
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise CliError("--truth %s: not a truth JSON from 'scenario' (%s)"
+                       % (path, str(exc).split(":")[0])) from None
+    except (OSError, RecursionError, ValueError) as exc:
+        raise CliError("--truth %s: cannot read (%s)" % (path, exc)) from None
+    if not isinstance(truth, dict) or "crossing_time_s" not in truth:
+        raise CliError("--truth %s: no crossing_time_s entry (write it with 'scenario "
+                       "--truth')" % path)
+    crossing = truth["crossing_time_s"]
+    if crossing is not None and (isinstance(crossing, bool) or not isinstance(
+            crossing, (int, float)) or not math.isfinite(crossing) or crossing < 0):
+        raise CliError("--truth %s: crossing_time_s must be a non-negative number or null, "
+                       "got %r" % (path, crossing))
+    tgt = truth.get("target_c")
+    if tgt is not None:
+        if isinstance(tgt, bool) or not isinstance(tgt, (int, float)) \
+                or not math.isfinite(tgt):
+            raise CliError("--truth %s: target_c must be a number, got %r" % (path, tgt))
+        if abs(tgt - target_c) > 1e-6:
+            raise CliError("--truth %s is for target %.4g C but --target is %.4g C: its "
+                           "crossing belongs to another target (pass --target %.4g, or "
+                           "drop --truth)" % (path, tgt, target_c, tgt))
+    return None if crossing is None else float(crossing)
+
+
+class _Scan:
+    """First pass over a trace: sizes, times and readings for the sanity checks."""
+
+    def __init__(self, reader):
+        self.columns = reader.columns
+        self.has_ambient, self.has_heater = reader.has_ambient, reader.has_heater
+        self.rows = 0
+        self.t0 = self.t_last = None
+        self.heater_on = False
+        steps, temps = [], []
+        prev = None
+        for row in reader:
+            t = row[0]
+            if prev is None:
+                self.t0 = t
+            elif len(steps) < SCAN_SAMPLE:
+                steps.append(t - prev)
+            if len(temps) < SCAN_SAMPLE:
+                temps.append(row[1])
+            if row[3] is not None and row[3] > 0.0:
+                self.heater_on = True
+            prev = t
+            self.rows += 1
+        self.t_last = prev
+        self.median_step_s = float(np.median(steps)) if steps else None
+        self.median_temp_c = float(np.median(temps))
+        self.skipped_rows = reader.skipped_rows
+        self.skipped_reasons = reader.skipped_reasons
+        self.skipped_by_reason = reader.skipped_by_reason
+
+
+def _sanity_problems(scan, unit):
+    """Messages for a trace that cannot be what the user meant (empty list if fine)."""
+    problems = []
+    span = scan.t_last - scan.t0
+    lo, hi = LIQUID_RANGE_C
+    med = scan.median_temp_c
+    if not lo <= med <= hi:
+        shown = _show_temp(med, unit)
+        if 213.0 <= med <= 423.0:
+            problems.append("the median reading is %s, beyond a liquid's %g..%g C: Kelvin? "
+                            "convert to deg C (subtract 273.15); deg F? add --fahrenheit"
+                            % (shown, lo, hi))
+        else:
+            problems.append("the median reading is %s, not a liquid temperature (%g..%g C): "
+                            "is temp_c the right column, in deg C?" % (shown, lo, hi))
+    if scan.t_last > MAX_TIME_S:
+        problems.append("time_s reaches %.3g s: row-to-row differences are lost at that size "
+                        "in double precision; write seconds since the start of the recording"
+                        % scan.t_last)
+    elif scan.rows > 1 and span == 0.0:
+        problems.append("all %d rows have the same time_s (%g): times must advance from row "
+                        "to row" % (scan.rows, scan.t0))
+    elif scan.median_step_s is not None and scan.median_step_s == 0.0:
+        problems.append("more than half of the rows repeat the previous row's time_s: "
+                        "times must advance from row to row")
+    elif scan.median_step_s is not None and scan.median_step_s < 0.1:
+        problems.append("the median time step is %.3g s (%.0f readings a second): time in "
+                        "minutes? add --time-unit min" % (scan.median_step_s,
+                                                          1.0 / scan.median_step_s))
+    elif scan.median_step_s is not None and scan.median_step_s > 3600.0:
+        problems.append("the median time step is %.3g s (%.1f h): time in milliseconds? add "
+                        "--time-unit ms" % (scan.median_step_s, scan.median_step_s / 3600.0))
+    elif span < 60.0:
+        problems.append("the trace covers only %.3g s; the estimator needs minutes of "
+                        "readings: time in minutes? add --time-unit min" % span)
+    return problems
+
+
+def _show_temp(value_c, unit):
+    """A deg C value as the user's unit: '60.0 C' or '140.0 F'."""
+    if unit == "F":
+        return "%.1f F" % (value_c * 9.0 / 5.0 + 32.0)
+    return "%.1f C" % value_c
+
+
+def _estimator_for(args, scan):
+    """The estimator and its keyword arguments for this trace and the CLI options."""
+    from tinytherm.estimator import ThermalEstimator
+    try:
+        kw = _estimator_kwargs(args)
+    except ValueError as exc:
+        raise CliError(str(exc)) from None
+    if args.heater == "auto":
+        use_heater = scan.heater_on
+    else:
+        use_heater = args.heater == "on"
+    if use_heater and not scan.has_heater:
+        raise CliError("--heater on needs a heater column in the trace")
+    kw["heater"] = use_heater
+    if args.ambient is not None:
+        kw["ambient_c"] = args.ambient
+    try:
+        return ThermalEstimator(**kw), kw
+    except (TypeError, ValueError, OverflowError) as exc:
+        raise CliError("estimator settings: %s" % exc) from None
+
+
+def cmd_replay(args):
+    try:
+        return _replay(args)
+    except (CliError, TraceError) as exc:
         print("error: %s" % exc, file=sys.stderr)
         return 2
-    if trace.skipped_rows:
-        print("skipped %d bad row(s) (--skip-bad):" % trace.skipped_rows, file=sys.stderr)
-        for reason in trace.skipped_reasons[:5]:
-            print("  " + reason, file=sys.stderr)
-        if trace.skipped_rows > 5:
-            print("  ... and %d more" % (trace.skipped_rows - 5), file=sys.stderr)
+
+
+def _replay(args):
+    from host_sim.metrics import trace_metrics
+    from host_sim.replay import crossing_from_trace
+    from host_sim.trace_io import PredictionWriter, iter_trace_rows
+    from tinytherm import status as st
+
+    unit = "F" if args.fahrenheit else "C"
+    _finite(args.target, "--target")
+    _finite(args.ambient, "--ambient")
+    if args.target_in_f and not args.fahrenheit:
+        raise CliError("--target-in-f needs --fahrenheit (the target is in deg C otherwise)")
     target = args.target
     if args.fahrenheit and args.target_in_f:
         target = (target - 32.0) * 5.0 / 9.0
-    try:
-        settings = _estimator_kwargs(args)
-        result = replay(trace, target, ambient_c=args.ambient, heater=args.heater,
-                        use_ambient_column=not args.ignore_ambient_column, progress=True,
-                        **settings)
-    except ValueError as exc:
-        print("error: %s" % exc, file=sys.stderr)
-        return 2
-    write_predictions(args.out, result.rows)
-    last = result.rows[-1]
-    print("replayed %d rows through the estimator (%s); predictions in %s"
-          % (len(trace), ", ".join("%s=%s" % kv for kv in sorted(result.settings.items())),
-             args.out))
-    print("last row: t=%.1f s, status %s, eta %s s" % (
-        last["time_s"], last["status"],
-        "-" if last["eta_s"] is None else "%.0f" % last["eta_s"]))
-    crossing, source = None, None
-    if args.truth:
-        with open(args.truth) as handle:
-            truth = json.load(handle)
-        crossing, source = truth.get("crossing_time_s"), "truth file"
-        if truth.get("target_c") is not None and abs(truth["target_c"] - target) > 1e-9:
-            print("warning: truth file target %.3f C differs from --target %.3f C"
-                  % (truth["target_c"], target), file=sys.stderr)
-    else:
-        crossing = crossing_from_trace(trace.time_s, trace.temp_c, target)
-        source = "the trace (5-reading running median)"
-    if crossing is not None:
-        shown = trace_metrics(trace.time_s, result.shown_eta(), crossing,
-                              result.shown_eta("eta_low_s"), result.shown_eta("eta_high_s"))
-        raw = trace_metrics(trace.time_s, result.column("eta_s"), crossing,
-                            result.column("eta_low_s"), result.column("eta_high_s"))
-        print("target %.2f C crossed at t=%.1f s (from %s)" % (target, crossing, source))
-        print("accuracy (answers a device shows, status tracking/arrived): " + format_metrics(shown))
-        print("accuracy (every estimate, including settling):          " + format_metrics(raw))
-    else:
-        print("the trace does not cross the target: no accuracy metrics")
+    _check_output(args.out, "--out", inputs=(args.trace, args.truth))
     if args.plot:
-        from host_sim.plots import plot_replay
-        plot_replay(trace, result, args.plot, crossing_s=crossing,
-                    title="replay of %s, target %.1f C" % (args.trace, target))
+        _check_output(args.plot, "--plot", suffix=".png", inputs=(args.trace, args.truth))
+        if os.path.abspath(args.plot) == os.path.abspath(args.out):
+            raise CliError("--plot and --out name the same file")
+    crossing = None
+    if args.truth:
+        crossing = _load_truth(args.truth, target)
+
+    def open_rows():
+        return iter_trace_rows(args.trace, fahrenheit=args.fahrenheit, skip_bad=args.skip_bad,
+                               time_unit=args.time_unit)
+
+    scan = _Scan(open_rows())
+    if scan.skipped_rows:
+        print("skipped %d bad row(s) (--skip-bad): %s" % (scan.skipped_rows, ", ".join(
+            "%s %d" % kv for kv in sorted(scan.skipped_by_reason.items(),
+                                          key=lambda kv: -kv[1]))), file=sys.stderr)
+        for reason in scan.skipped_reasons[:5]:
+            print("  " + reason, file=sys.stderr)
+        if scan.skipped_rows > 5:
+            print("  ... and %d more" % (scan.skipped_rows - 5), file=sys.stderr)
+    if args.ambient is not None and scan.has_ambient and not args.ignore_ambient_column:
+        raise CliError("--ambient %g and the trace's ambient_c column both give the ambient: "
+                       "drop --ambient to use the column, or add --ignore-ambient-column to "
+                       "use %g C" % (args.ambient, args.ambient))
+    if not args.no_checks:
+        problems = _sanity_problems(scan, unit)
+        if problems:
+            raise CliError("%s: %s (--no-checks replays it anyway)"
+                           % (args.trace, "; ".join(problems)))
+    est, settings = _estimator_for(args, scan)
+    use_amb = scan.has_ambient and not args.ignore_ambient_column
+    use_heater = settings["heater"]
+
+    n = scan.rows
+    stride = max(1, -(-n // PLOT_POINTS)) if args.plot else 0
+    t_arr, y_arr = array("d"), array("d")
+    eta_arr, low_arr, high_arr = array("d"), array("d"), array("d")
+    shown_arr = array("b")
+    plot_rows, events = [], []
+    verdicts = [0] * len(st.VERDICT_NAMES)
+    nan = math.nan
+    shown_codes = (st.TRACKING, st.ARRIVED)
+    from tqdm import tqdm
+    try:
+        writer = PredictionWriter(args.out, verdict=args.verdict)
+    except OSError as exc:
+        raise CliError("--out %s: cannot write (%s)" % (args.out, exc.strerror or exc)) from None
+    ok = False
+    try:
+        prev_t = None
+        bar = tqdm(total=n, unit="row", desc="replay", disable=None if n >= 20000 else True,
+                   file=sys.stderr, mininterval=0.5)
+        for i, row in enumerate(open_rows()):
+            t, temp, amb, duty, event = row
+            dt = 0.0 if prev_t is None else t - prev_t
+            prev_t = t
+            verdict = est.update(temp, dt, ambient_c=amb if use_amb else None,
+                                 duty=duty if use_heater else 0.0)
+            code = est.predict(target)
+            name = st.status_name(code)
+            verdict_name = st.verdict_name(verdict)
+            if 0 <= verdict < len(verdicts):
+                verdicts[verdict] += 1
+            eta, low, high = est.eta_s, est.eta_low_s, est.eta_high_s
+            writer.write(t, temp, eta, low, high, name, est.rate_per_s, est.equilibrium_c,
+                         verdict_name)
+            t_arr.append(t)
+            y_arr.append(temp)
+            eta_arr.append(nan if eta is None else eta)
+            low_arr.append(nan if low is None else low)
+            high_arr.append(nan if high is None else high)
+            shown_arr.append(code in shown_codes)
+            if event:
+                events.append((t, event))
+            if stride and (i % stride == 0 or event or verdict != st.ACCEPTED):
+                plot_rows.append((t, temp, amb, est.temp_est_c, eta, low, high, code, verdict,
+                                  est.rate_per_s, est.equilibrium_c))
+            bar.update(1)
+        bar.close()
+        ok = True
+    except OSError as exc:
+        raise CliError("--out %s: write failed (%s)" % (args.out, exc.strerror or exc)) from None
+    finally:
+        writer.close()
+        if not ok and os.path.exists(args.out):
+            os.remove(args.out)
+
+    rows_done = len(t_arr)
+    settings_shown = ", ".join("%s=%s" % kv for kv in sorted(settings.items()))
+    print("replayed %d rows through the estimator (%s); predictions in %s%s"
+          % (rows_done, settings_shown, args.out,
+             " (with a verdict column)" if args.verdict else ""))
+    counted = ", ".join("%s %d" % (st.verdict_name(v), c) for v, c in enumerate(verdicts)
+                        if c and v != st.ACCEPTED)
+    print("reading verdicts: accepted %d of %d%s" % (
+        verdicts[st.ACCEPTED], rows_done,
+        "; rejected: " + counted if counted else "; none rejected"))
+    last_eta = eta_arr[-1]
+    print("last row: t=%.1f s, %s, status %s, eta %s" % (
+        t_arr[-1], _show_temp(y_arr[-1], unit), st.status_name(code),
+        "-" if math.isnan(last_eta) else "%.0f s" % last_eta))
+
+    t_np = np.frombuffer(t_arr, dtype=float)
+    if args.truth:
+        source = "truth file %s" % args.truth
+    else:
+        crossing = crossing_from_trace(t_np, np.frombuffer(y_arr, dtype=float), target)
+        source = "the trace (5-reading running median)"
+    target_shown = _show_temp(target, unit)
+    if unit == "F":
+        target_shown += " (%.2f C)" % target
+    if crossing is not None:
+        eta_np = np.frombuffer(eta_arr, dtype=float)
+        low_np = np.frombuffer(low_arr, dtype=float)
+        high_np = np.frombuffer(high_arr, dtype=float)
+        shown = np.frombuffer(shown_arr, dtype=np.int8).astype(bool)
+        nan_arr = np.full(len(eta_np), math.nan)
+        s_eta, s_low, s_high = (np.where(shown, a, nan_arr) for a in (eta_np, low_np, high_np))
+        print("target %s crossed at t=%.1f s (from %s)" % (target_shown, crossing, source))
+        for label, e, lo_, hi_ in (("answers a device shows (tracking/arrived)",
+                                    s_eta, s_low, s_high),
+                                   ("every estimate, including settling", eta_np, low_np,
+                                    high_np)):
+            m = trace_metrics(t_np, e, crossing, lo_, hi_)
+            m_trust = trace_metrics(t_np, e, crossing, floor_s=TRUST_FLOOR_S)
+            print("accuracy, %s: %s" % (label, _format_accuracy(m, m_trust["time_to_trust"])))
+        print("  (" + TRUST_HELP + ")")
+    else:
+        print("the trace does not cross the target %s: no accuracy metrics" % target_shown)
+    if args.plot:
+        from host_sim.plots import ReplaySeries, plot_series
+        series = ReplaySeries.from_tuples(plot_rows, target, settings.get("interval", 0.8),
+                                          events=events, has_ambient=use_amb)
+        try:
+            plot_series(series, args.plot, crossing_s=crossing,
+                        crossing_label="true crossing" if args.truth else "crossing (trace)",
+                        title="replay of %s, target %s" % (os.path.basename(args.trace),
+                                                           _show_temp(target, unit)),
+                        unit=unit)
+        except OSError as exc:
+            raise CliError("--plot %s: cannot write (%s)" % (args.plot,
+                                                             exc.strerror or exc)) from None
         print("plot written to %s" % args.plot)
     return 0
+
+
+def _format_accuracy(m, trust):
+    def f(v, fmt):
+        return "n/a" if v is None else fmt % v
+    return ("median rel. error %s, p90 %s, time-to-trust %s, interval coverage %s, "
+            "no answer on %s of the readings" % (
+                f(m["median_rel_error"], "%.3f"), f(m["p90_rel_error"], "%.3f"),
+                f(trust, "%.2f"), f(m["coverage"], "%.2f"),
+                f(m["no_estimate_fraction"], "%.2f")))
 
 
 def cmd_scenario(args):
@@ -203,6 +536,7 @@ def build_parser():
         description="Replay temperature traces through the tinytherm estimator on a PC, "
                     "generate physical test scenarios, and benchmark accuracy.",
         epilog=SAFETY_NOTE)
+    p.add_argument("--version", action="version", version="%(prog)s " + __version__)
     sub = p.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
 
@@ -213,8 +547,8 @@ def build_parser():
                                    "time_s,temp_c,eta_s,eta_low_s,eta_high_s,status,"
                                    "rate_per_s,equilibrium_c.")
     r.add_argument("trace", metavar="TRACE.csv")
-    r.add_argument("--target", type=float, required=True, metavar="C",
-                   help="target temperature, deg C")
+    r.add_argument("--target", type=_finite_float, required=True, metavar="C",
+                   help="target temperature, deg C (deg F with --target-in-f)")
     r.add_argument("--out", required=True, metavar="PRED.csv", help="prediction CSV to write")
     r.add_argument("--plot", metavar="OUT.png", help="also write a PNG plot")
     r.add_argument("--truth", metavar="TRUTH.json",
@@ -225,6 +559,15 @@ def build_parser():
                    help="with --fahrenheit: --target is in deg F too")
     r.add_argument("--skip-bad", action="store_true",
                    help="skip malformed rows (their count is reported) instead of stopping")
+    r.add_argument("--time-unit", choices=("s", "ms", "min"), default="s",
+                   help="unit of the time_s column (default s); converted to seconds")
+    r.add_argument("--verdict", action="store_true",
+                   help="append a verdict column (accepted, spike, stuck, ...: what the "
+                        "reading guard decided) after the fixed columns of PRED.csv")
+    r.add_argument("--no-checks", action="store_true",
+                   help="replay even when the sampling or the readings look wrong (median "
+                        "step under 0.1 s or over 1 h, under a minute of data, median "
+                        "reading outside -60..150 C)")
     _add_estimator_options(r)
     r.set_defaults(func=cmd_replay)
 
@@ -232,10 +575,10 @@ def build_parser():
                        description="Generate a trace CSV and a truth JSON (exact crossing "
                                    "time of the noise-free sensor signal).")
     s.add_argument("kind", nargs="?", choices=scenarios.KINDS, help="scenario kind")
-    s.add_argument("--seed", type=int, default=0)
+    s.add_argument("--seed", type=_seed, default=0, help="non-negative integer (default 0)")
     s.add_argument("--out", metavar="trace.csv")
     s.add_argument("--truth", metavar="truth.json")
-    s.add_argument("--target", type=float, metavar="C", default=None,
+    s.add_argument("--target", type=_finite_float, metavar="C", default=None,
                    help="override the drawn target, deg C")
     s.add_argument("--no-faults", action="store_true",
                    help="no dropouts, spikes or stuck stretch (noise and lag remain)")
@@ -248,8 +591,8 @@ def build_parser():
                                    "optionally write a PNG.")
     d.add_argument("--plot", metavar="demo.png")
     d.add_argument("--kind", choices=scenarios.KINDS, default="mug")
-    d.add_argument("--seed", type=int, default=7)
-    d.add_argument("--every", type=float, default=60.0, metavar="S",
+    d.add_argument("--seed", type=_seed, default=7, help="non-negative integer (default 7)")
+    d.add_argument("--every", type=_positive_float, default=60.0, metavar="S",
                    help="print a line every S seconds of trace time (and at events)")
     d.set_defaults(func=cmd_demo)
 
@@ -271,4 +614,8 @@ def build_parser():
 def main(argv=None):
     """Entry point; returns the process exit code."""
     args = build_parser().parse_args(argv)
-    return args.func(args)
+    try:
+        return args.func(args)
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        return 130

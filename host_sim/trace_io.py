@@ -516,39 +516,76 @@ def write_trace(path, time_s, temp_c, ambient_c=None, heater=None, events=None):
             w.writerow(row)
 
 
-def write_predictions(path, rows):
+class PredictionWriter:
+    """Write prediction rows one at a time (constant memory); a context manager.
+
+    ``path``: the CSV to create. ``verdict``: append a ``verdict`` column
+    (the reading's verdict name) after :data:`PREDICTION_COLUMNS`, so readers
+    of the fixed columns keep working. :meth:`write` takes seconds, deg C,
+    seconds, seconds, seconds, the status name, 1/s, deg C (None = empty).
+    """
+
+    def __init__(self, path, verdict=False):
+        self.path = path
+        self.verdict = bool(verdict)
+        self._handle = open(path, "w", newline="")
+        self._w = csv.writer(self._handle, lineterminator="\n")
+        self._w.writerow(PREDICTION_COLUMNS + (("verdict",) if self.verdict else ()))
+        self.rows = 0
+
+    def write(self, time_s, temp_c, eta_s, eta_low_s, eta_high_s, status, rate_per_s,
+              equilibrium_c, verdict=None):
+        """One row; ``verdict`` (a name) is written only with ``verdict=True``."""
+        row = ["%.3f" % time_s, _fmt(temp_c, 4), _fmt(eta_s, 1), _fmt(eta_low_s, 1),
+               _fmt(eta_high_s, 1), status,
+               "" if rate_per_s is None else "%.6g" % rate_per_s, _fmt(equilibrium_c, 3)]
+        if self.verdict:
+            row.append("" if verdict is None else verdict)
+        self._w.writerow(row)
+        self.rows += 1
+
+    def close(self):
+        """Flush and close the file; safe to call twice."""
+        if self._handle is not None:
+            self._handle.close()
+            self._handle = None
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+        return False
+
+
+def write_predictions(path, rows, verdict=False):
     """Write prediction rows to ``path`` with exactly :data:`PREDICTION_COLUMNS`.
 
     Each row is a dict with those keys; ``None`` (or non-finite) values are
     written as empty cells. ``status`` is written as given (the status name).
+    ``verdict=True`` appends a ``verdict`` column from each row's ``verdict``.
     """
-    with open(path, "w", newline="") as handle:
-        w = csv.writer(handle, lineterminator="\n")
-        w.writerow(PREDICTION_COLUMNS)
+    with PredictionWriter(path, verdict=verdict) as w:
         for r in rows:
-            w.writerow([
-                "%.3f" % r["time_s"],
-                _fmt(r["temp_c"], 4),
-                _fmt(r["eta_s"], 1),
-                _fmt(r["eta_low_s"], 1),
-                _fmt(r["eta_high_s"], 1),
-                r["status"],
-                "" if r["rate_per_s"] is None else "%.6g" % r["rate_per_s"],
-                _fmt(r["equilibrium_c"], 3),
-            ])
+            w.write(r["time_s"], r["temp_c"], r["eta_s"], r["eta_low_s"], r["eta_high_s"],
+                    r["status"], r["rate_per_s"], r["equilibrium_c"], r.get("verdict"))
 
 
 def read_predictions(path):
-    """Read a prediction CSV back: dict of column -> list (floats or None; status str)."""
-    out = {c: [] for c in PREDICTION_COLUMNS}
+    """Read a prediction CSV back: dict of column -> list (floats or None; status str).
+
+    A ``verdict`` column, when present, is read as str.
+    """
+    out = None
     with open(path, newline="") as handle:
         reader = csv.reader(handle)
         header = next(reader)
-        if tuple(header) != PREDICTION_COLUMNS:
+        if tuple(header[:len(PREDICTION_COLUMNS)]) != PREDICTION_COLUMNS:
             raise TraceError("%s:1: not a prediction file; header is %s" % (path, ",".join(header)))
+        out = {c: [] for c in header}
         for row in reader:
             for name, cell in zip(header, row):
-                if name == "status":
+                if name in ("status", "verdict"):
                     out[name].append(cell)
                 else:
                     out[name].append(float(cell) if cell != "" else None)
