@@ -14,12 +14,23 @@ seconds from the latest reading, or None:
   trough (heating) of the data, so a sensor warming up after a pour does not
   spoil it.
 - :class:`ExpRefitBaseline` with ``window_s=600``: the same on the last 600 s.
+- :class:`ExpRefitBaseline` with ``window_s=300, window_frac=0.5``
+  (``exp_recent``, issue 9): the same with a FREE equilibrium over the window
+  ``max(300 s, half the elapsed time)``.
 
 To keep the benchmark fast the exponential fits are redone only every
 ``refit_every`` accepted readings (default 5) and warm-started from the last
-fit; in between, the last fitted curve's crossing time is reused (the ETA
-still counts down with the clock). None of the baselines sees the heater duty
-or the ambient column: they are the batch fits a developer would try first.
+fit; with ``refit_frac`` > 0 also not before ``refit_frac`` x the elapsed
+time has passed since the last fit, and with ``max_points`` the fit uses at
+most that many readings (an even stride over the window, always keeping the
+latest). In between, the last fitted curve's crossing time is reused (the
+ETA still counts down with the clock). None of the baselines sees the heater
+duty or the ambient column: they are the batch fits a developer would try
+first.
+
+All baselines answer 0.0 ("arrived") once their current level is on the
+other side of the target from the first reading, and None when the target
+lies behind the direction of travel or beyond the fitted equilibrium.
 """
 import math
 
@@ -67,6 +78,8 @@ class SlopeBaseline:
         if np.ptp(tt) <= 0.0:
             return None
         slope, level = np.polyfit(tt, yy, 1)
+        if (level - target_c) * (self.y[0] - target_c) < 0.0:
+            return 0.0          # the line now stands past the target: arrived
         if slope == 0.0:
             return None
         eta = (target_c - level) / slope
@@ -79,12 +92,19 @@ class SlopeBaseline:
 class ExpRefitBaseline:
     """Robust batch exponential refit on all data (``window_s=None``) or a window."""
 
-    def __init__(self, window_s=None, refit_every=5, min_points=8, min_span_s=60.0):
+    def __init__(self, window_s=None, refit_every=5, min_points=8, min_span_s=60.0,
+                 window_frac=0.0, refit_frac=0.0, max_points=None, name=None):
         self.window_s = window_s
+        self.window_frac = float(window_frac)
         self.refit_every = int(refit_every)
+        self.refit_frac = float(refit_frac)
+        self.max_points = None if max_points is None else int(max_points)
         self.min_points = int(min_points)
         self.min_span_s = float(min_span_s)
-        self.name = "exp_all" if window_s is None else "exp_window%d" % int(window_s)
+        if name is None:
+            name = "exp_all" if window_s is None else "exp_window%d" % int(window_s)
+        self.name = name
+        self.last_fit_t = None
         self.t = []
         self.y = []
         self.params = None      # (E, A, k, t_anchor)
@@ -97,14 +117,20 @@ class ExpRefitBaseline:
         self.t.append(float(time_s))
         self.y.append(float(temp_c))
         self.since_fit += 1
-        if self.params is None or self.since_fit >= self.refit_every:
+        if self.params is None:
             self._fit()
+        elif self.since_fit >= self.refit_every:
+            elapsed = self.t[-1] - self.t[0]
+            if self.refit_frac <= 0.0 or self.last_fit_t is None or \
+                    self.t[-1] - self.last_fit_t >= self.refit_frac * elapsed:
+                self._fit()
 
     def _fit(self):
         t = np.asarray(self.t)
         y = np.asarray(self.y)
         if self.window_s is not None:
-            sel = t >= t[-1] - self.window_s
+            window = max(self.window_s, self.window_frac * (t[-1] - t[0]))
+            sel = t >= t[-1] - window
             t, y = t[sel], y[sel]
         if self.target_c is not None and len(y) >= 5:
             # A developer would fit only the approach: drop readings before the
@@ -115,7 +141,11 @@ class ExpRefitBaseline:
             t, y = t[turn:], y[turn:]
         if len(t) < self.min_points or t[-1] - t[0] < self.min_span_s:
             return
+        if self.max_points is not None and len(t) > self.max_points:
+            idx = np.unique(np.round(np.linspace(0, len(t) - 1, self.max_points)).astype(int))
+            t, y = t[idx], y[idx]
         self.since_fit = 0
+        self.last_fit_t = float(t[-1])
         # Parameterised by the level y1 and slope s at the last reading and k:
         #   T(t) = y1 + s * (1 - exp(-k (t - t1))) / k
         # which is E + A exp(-k (t - t1)) with E = y1 + s/k, A = -s/k, and stays
@@ -163,9 +193,10 @@ class ExpRefitBaseline:
         e, a, k, anchor = self.params
         now = self.t[-1]
         fitted_now = e + a * math.exp(-k * (now - anchor))
-        if (target_c - fitted_now) * (e - fitted_now) <= 0.0 and (target_c - fitted_now) != 0.0:
-            # target lies behind the current fitted level (already past it)
-            return 0.0
+        if (fitted_now - target_c) * (self.y[0] - target_c) <= 0.0:
+            return 0.0          # the fitted level is past the target (seen from the start)
+        if (target_c - fitted_now) * (e - fitted_now) <= 0.0:
+            return None         # the target lies behind the direction of travel
         t_cross = _crossing_from_curve(e, a, k, anchor, target_c)
         if t_cross is None:
             return None
@@ -173,5 +204,18 @@ class ExpRefitBaseline:
 
 
 def make_baselines():
-    """The three baselines of the benchmark, fresh."""
+    """The three baselines of the scenario benchmark, fresh."""
     return [SlopeBaseline(), ExpRefitBaseline(window_s=None), ExpRefitBaseline(window_s=600.0)]
+
+
+def make_family_baselines():
+    """The three baselines of issue 9, fresh: slope, exp_all, exp_recent.
+
+    The exponential fits are redone every 5 readings but not before 2 % of
+    the elapsed time has passed since the last one, on at most 400 readings
+    of their window, so that a 5000-row trace costs about 200 fits.
+    """
+    return [SlopeBaseline(),
+            ExpRefitBaseline(window_s=None, refit_frac=0.02, max_points=400),
+            ExpRefitBaseline(window_s=300.0, window_frac=0.5, refit_frac=0.02, max_points=400,
+                             name="exp_recent")]
