@@ -122,6 +122,7 @@ SCAN_SAMPLE = 20000          # rows whose steps and readings feed the sanity med
 MAX_TIME_S = 1e10            # ~300 years: beyond this, row differences lose precision
 PLOT_POINTS = 20000          # rows kept for a plot (every k-th, plus events)
 LIQUID_RANGE_C = (-60.0, 150.0)
+MAX_SPAN_S = 30 * 86400.0    # a month: longer is more likely milliseconds read as seconds
 
 
 def _finite(value, option):
@@ -190,7 +191,7 @@ class _Scan:
         self.rows = 0
         self.t0 = self.t_last = None
         self.heater_on = False
-        steps, temps = [], []
+        steps, temps, ambs = [], [], []
         prev = None
         for row in reader:
             t = row[0]
@@ -200,6 +201,8 @@ class _Scan:
                 steps.append(t - prev)
             if len(temps) < SCAN_SAMPLE:
                 temps.append(row[1])
+            if row[2] is not None and len(ambs) < SCAN_SAMPLE:
+                ambs.append(row[2])
             if row[3] is not None and row[3] > 0.0:
                 self.heater_on = True
             prev = t
@@ -207,6 +210,7 @@ class _Scan:
         self.t_last = prev
         self.median_step_s = float(np.median(steps)) if steps else None
         self.median_temp_c = float(np.median(temps))
+        self.median_ambient_c = float(np.median(ambs)) if ambs else None
         self.skipped_rows = reader.skipped_rows
         self.skipped_reasons = reader.skipped_reasons
         self.skipped_by_reason = reader.skipped_by_reason
@@ -227,6 +231,11 @@ def _sanity_problems(scan, unit):
         else:
             problems.append("the median reading is %s, not a liquid temperature (%g..%g C): "
                             "is temp_c the right column, in deg C?" % (shown, lo, hi))
+    amb = scan.median_ambient_c
+    if amb is not None and not lo <= amb <= hi:
+        problems.append("the median ambient_c is %s, not an air or bath temperature (%g..%g "
+                        "C): Kelvin or deg F? convert it, or add --ignore-ambient-column"
+                        % (_show_temp(amb, unit), lo, hi))
     if scan.t_last > MAX_TIME_S:
         problems.append("time_s reaches %.3g s: row-to-row differences are lost at that size "
                         "in double precision; write seconds since the start of the recording"
@@ -244,6 +253,9 @@ def _sanity_problems(scan, unit):
     elif scan.median_step_s is not None and scan.median_step_s > 3600.0:
         problems.append("the median time step is %.3g s (%.1f h): time in milliseconds? add "
                         "--time-unit ms" % (scan.median_step_s, scan.median_step_s / 3600.0))
+    elif span > MAX_SPAN_S:
+        problems.append("the trace spans %.0f days: time in milliseconds? add --time-unit ms"
+                        % (span / 86400.0))
     elif span < 60.0:
         problems.append("the trace covers only %.3g s; the estimator needs minutes of "
                         "readings: time in minutes? add --time-unit min" % span)
@@ -608,6 +620,8 @@ def build_parser():
                    help="diagnosis: scenarios without dropouts, spikes or stuck stretches")
     _add_estimator_options(b)
     b.set_defaults(func=cmd_benchmark)
+    from host_sim import fleet      # the fleet subcommand lives in host_sim/fleet.py
+    fleet.add_parser(sub)
     return p
 
 
