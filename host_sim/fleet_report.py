@@ -390,8 +390,8 @@ def report_lines(rows, tag_rows, variants, worse, worse_by, folder):
             _fmt(t["p90_rel_error"]), _fmt(t["coverage"], "%.2f"),
             _fmt(t["no_estimate_fraction"], "%.2f"), _fmt(t["early_arrival"], "%d")))
         if ab:
-            lines.append("| %s | %s (baseline) | %d | %d | %s | %s | %s | %s | %s |" % (
-                t["tag"], t["value"], t["base_traces"], t["base_failed"],
+            lines.append("| %s | %s | %d | %d | %s | %s | %s | %s | %s |" % (
+                t["tag"], ("%s (baseline)" % t["value"]).strip(), t["base_traces"], t["base_failed"],
                 _fmt(t["base_median_rel_error"]), _fmt(t["base_p90_rel_error"]),
                 _fmt(t["base_coverage"], "%.2f"), _fmt(t["base_no_estimate_fraction"], "%.2f"),
                 _fmt(t["base_early_arrival"], "%d")))
@@ -406,7 +406,7 @@ def report_lines(rows, tag_rows, variants, worse, worse_by, folder):
             lines.append("none")
         for r in worse:
             link = " [replay plot](%s)" % r["plot"] if r["plot"] else ""
-            lines.append("- %s: %s -> %s (+%s)%s" % (
+            lines.append("- %s: %s -> %s (%s)%s" % (
                 r["path"], _fmt(r["base_median_rel_error"]), _fmt(r["median_rel_error"]),
-                _fmt(r["delta_median_rel_error"]), link))
+                _fmt(r["delta_median_rel_error"], "%+.3f"), link))
     return lines
