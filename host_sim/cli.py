@@ -182,6 +182,13 @@ def _load_truth(path, target_c):
     return None if crossing is None else float(crossing)
 
 
+def _median_low(values):
+    """The lower median (an element, so no overflow from averaging two), or None."""
+    if not values:
+        return None
+    return float(sorted(values)[(len(values) - 1) // 2])
+
+
 class _Scan:
     """First pass over a trace: sizes, times and readings for the sanity checks."""
 
@@ -208,26 +215,28 @@ class _Scan:
             prev = t
             self.rows += 1
         self.t_last = prev
-        self.median_step_s = float(np.median(steps)) if steps else None
-        self.median_temp_c = float(np.median(temps))
-        self.median_ambient_c = float(np.median(ambs)) if ambs else None
+        self.median_step_s = _median_low(steps)
+        self.median_temp_c = _median_low(temps)
+        self.median_ambient_c = _median_low(ambs)
         self.skipped_rows = reader.skipped_rows
         self.skipped_reasons = reader.skipped_reasons
         self.skipped_by_reason = reader.skipped_by_reason
 
 
-def _sanity_problems(scan, unit):
-    """Messages for a trace that cannot be what the user meant (empty list if fine)."""
+def _sanity_problems(scan, unit, time_unit="s"):
+    """Messages for a trace that cannot be what the user meant (empty list if fine).
+
+    ``unit``: "C" or "F" for the messages; ``time_unit``: the --time-unit given.
+    """
     problems = []
     span = scan.t_last - scan.t0
     lo, hi = LIQUID_RANGE_C
     med = scan.median_temp_c
     if not lo <= med <= hi:
         shown = _show_temp(med, unit)
-        if 213.0 <= med <= 423.0:
-            problems.append("the median reading is %s, beyond a liquid's %g..%g C: Kelvin? "
-                            "convert to deg C (subtract 273.15); deg F? add --fahrenheit"
-                            % (shown, lo, hi))
+        if hi < med <= 500.0:
+            problems.append("the median reading is %s, beyond a liquid's %g..%g C: deg F? add "
+                            "--fahrenheit; Kelvin? subtract 273.15" % (shown, lo, hi))
         else:
             problems.append("the median reading is %s, not a liquid temperature (%g..%g C): "
                             "is temp_c the right column, in deg C?" % (shown, lo, hi))
@@ -238,8 +247,9 @@ def _sanity_problems(scan, unit):
                         % (_show_temp(amb, unit), lo, hi))
     if scan.t_last > MAX_TIME_S:
         problems.append("time_s reaches %.3g s: row-to-row differences are lost at that size "
-                        "in double precision; write seconds since the start of the recording"
-                        % scan.t_last)
+                        "in double precision; %swrite seconds since the start of the recording"
+                        % (scan.t_last, "milliseconds? add --time-unit ms; otherwise "
+                           if scan.t_last < 1e14 and time_unit == "s" else ""))
     elif scan.rows > 1 and span == 0.0:
         problems.append("all %d rows have the same time_s (%g): times must advance from row "
                         "to row" % (scan.rows, scan.t0))
@@ -264,9 +274,8 @@ def _sanity_problems(scan, unit):
 
 def _show_temp(value_c, unit):
     """A deg C value as the user's unit: '60.0 C' or '140.0 F'."""
-    if unit == "F":
-        return "%.1f F" % (value_c * 9.0 / 5.0 + 32.0)
-    return "%.1f C" % value_c
+    value, name = (value_c * 9.0 / 5.0 + 32.0, "F") if unit == "F" else (value_c, "C")
+    return ("%.1f %s" if abs(value) < 1e6 else "%.3g %s") % (value, name)
 
 
 def _estimator_for(args, scan):
@@ -340,7 +349,7 @@ def _replay(args):
                        "drop --ambient to use the column, or add --ignore-ambient-column to "
                        "use %g C" % (args.ambient, args.ambient))
     if not args.no_checks:
-        problems = _sanity_problems(scan, unit)
+        problems = _sanity_problems(scan, unit, args.time_unit)
         if problems:
             raise CliError("%s: %s (--no-checks replays it anyway)"
                            % (args.trace, "; ".join(problems)))

@@ -30,6 +30,7 @@ empty when the estimator has no value, and ``eta_high_s`` is ``inf`` when the
 data cannot rule out "never".
 """
 import csv
+import io
 import math
 import re
 
@@ -98,7 +99,18 @@ MAX_LINE_BYTES = 1 << 20     # one line of a trace (a 100,000-column header fits
 MAX_COLUMNS = 200000
 MAX_REASONS_KEPT = 100       # skipped-row messages kept in full; all are counted
 _ZIP_MAGIC = b"PK\x03\x04"
+_GZIP_MAGIC = b"\x1f\x8b"
+_OTHER_MAGIC = ((b"\x89PNG", "a PNG image"), (b"%PDF", "a PDF document"),
+                (b"\xd0\xcf\x11\xe0", "an old Excel/Office file (.xls)"),
+                (b"SQLite format 3", "an SQLite database"))
 _BOMS = ((b"\xef\xbb\xbf", None), (b"\xff\xfe", "UTF-16"), (b"\xfe\xff", "UTF-16"))
+
+
+def _shown(text, limit=40):
+    """repr() of a cell for a message, cut to about ``limit`` characters."""
+    if len(text) > limit:
+        return repr(text[:limit]) + "... (%d characters)" % len(text)
+    return repr(text)
 
 
 def _parse_float(text, column, where):
@@ -109,6 +121,7 @@ def _parse_float(text, column, where):
         low = text.lower()
         if low in ("nan", "inf", "+inf", "-inf", "infinity", "-infinity", "+infinity"):
             raise TraceError("%s: %s is not finite: %r" % (where, column, text))
+        shown = _shown(text)
         hint = ""
         if re.fullmatch(r"[+-]?[0-9]+,[0-9]+", text):
             hint = " (a decimal comma? write the number with a point: %s)" % text.replace(",", ".")
@@ -116,10 +129,10 @@ def _parse_float(text, column, where):
             hint = " (digits must be ASCII 0-9)"
         elif "_" in text:
             hint = " (no underscores in numbers)"
-        raise TraceError("%s: %s is not a number: %r%s" % (where, column, text, hint))
+        raise TraceError("%s: %s is not a number: %s%s" % (where, column, shown, hint))
     value = float(text)
     if not math.isfinite(value):
-        raise TraceError("%s: %s is too large: %r" % (where, column, text))
+        raise TraceError("%s: %s is too large for a float: %s" % (where, column, _shown(text)))
     return value
 
 
@@ -160,6 +173,13 @@ def _decoded_lines(handle, source):
             if raw.startswith(_ZIP_MAGIC):
                 raise TraceError("%s: this is a ZIP archive (a spreadsheet .xlsx or a zipped "
                                  "file?), not CSV text: export or unzip it as .csv" % source)
+            if raw.startswith(_GZIP_MAGIC):
+                raise TraceError("%s: this is gzip-compressed, not CSV text: decompress it "
+                                 "first (gunzip)" % source)
+            for magic, what in _OTHER_MAGIC:
+                if raw.startswith(magic):
+                    raise TraceError("%s: this is %s, not CSV text: export the readings as "
+                                     "a UTF-8 CSV file" % (source, what))
             for bom, enc in _BOMS:
                 if raw.startswith(bom):
                     if enc is not None:
@@ -179,6 +199,10 @@ def _decoded_lines(handle, source):
             raise TraceError("%s:%d: not UTF-8 text (byte 0x%02x at column %d; Latin-1 or "
                              "Windows-1252?): save the file as UTF-8 CSV"
                              % (source, number, raw[exc.start], exc.start + 1)) from None
+        if "\r" in text.rstrip("\r\n"):
+            raise TraceError("%s:%d: a carriage return inside the line (line ends are CR "
+                             "only?): save the file with LF or CRLF line ends"
+                             % (source, number))
         yield text
 
 
@@ -228,7 +252,8 @@ class TraceRows:
     Holds one line at a time (not the file). The header is read on
     construction (a bad header raises :class:`TraceError` at once).
     ``source``: a path (opened in binary, decoded as UTF-8 with an optional
-    byte-order mark) or an iterable of text lines. ``fahrenheit``: temperature
+    byte-order mark), a binary file object (read the same way, not closed) or
+    an iterable of text lines. ``fahrenheit``: temperature
     columns in deg F (header may say ``temp_f``/``ambient_f``), converted to
     deg C. ``time_unit``: ``"s"``, ``"ms"`` or ``"min"`` for the time column,
     converted to seconds. ``skip_bad``: skip malformed rows, counting them.
@@ -247,7 +272,11 @@ class TraceRows:
         self.fahrenheit = bool(fahrenheit)
         self.skip_bad = bool(skip_bad)
         self._handle = None
-        if isinstance(source, (str, bytes)) or hasattr(source, "__fspath__"):
+        if isinstance(source, (io.BufferedIOBase, io.RawIOBase)):
+            self.name = getattr(source, "name", "<trace>") if name is None else name
+            self.name = str(self.name)
+            self._lines = _decoded_lines(source, self.name)
+        elif isinstance(source, (str, bytes)) or hasattr(source, "__fspath__"):
             self.name = str(source) if name is None else name
             try:
                 self._handle = open(source, "rb")
@@ -343,14 +372,18 @@ class TraceRows:
 
     def _row(self, fields, where, last_time):
         if len(fields) != len(self.columns):
-            raise TraceError("%s: expected %d fields (as in the header), got %d"
-                             % (where, len(self.columns), len(fields)))
+            raise TraceError("%s: expected %d fields (as in the header), got %d%s"
+                             % (where, len(self.columns), len(fields),
+                                " (quote a cell that holds the separator)"
+                                if len(fields) > len(self.columns) else ""))
         raw_t = _parse_float(fields[self._i_time], "time_s", where)
         if raw_t < 0.0:
-            raise TraceError("%s: time_s is negative: %r" % (where, fields[self._i_time].strip()))
+            raise TraceError("%s: time_s is negative: %s (times are seconds since the start)"
+                            % (where, _shown(fields[self._i_time].strip())))
         t = raw_t * self._scale
         if t < last_time:
-            raise TraceError("%s: time_s decreases (%g after %g)" % (where, t, last_time))
+            raise TraceError("%s: time_s decreases (%g after %g): rows must be in time order"
+                            % (where, t, last_time))
         temp = _parse_float(fields[self._i_temp], "temp_c", where)
         if self.fahrenheit:
             temp = fahrenheit_to_celsius(temp)
@@ -363,8 +396,8 @@ class TraceRows:
         if self._i_heat is not None:
             duty = _parse_float(fields[self._i_heat], "heater", where)
             if not 0.0 <= duty <= 1.0:
-                raise TraceError("%s: heater duty %r is outside 0..1"
-                                 % (where, fields[self._i_heat].strip()))
+                raise TraceError("%s: heater duty %r is outside 0..1 (a fraction of full "
+                                 "power, not percent)" % (where, fields[self._i_heat].strip()))
         event = None
         if self._i_event is not None:
             event = fields[self._i_event].strip() or None
