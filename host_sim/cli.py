@@ -57,7 +57,8 @@ def _seed(text):
         raise argparse.ArgumentTypeError("expected a non-negative integer, got %r"
                                          % text) from None
     if value < 0 or value >= 2 ** 32:
-        raise argparse.ArgumentTypeError("expected an integer 0..4294967295, got %r" % text)
+        raise argparse.ArgumentTypeError("expected a non-negative integer below 2**32, got %r"
+                                         % text)
     return value
 
 
