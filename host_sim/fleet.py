@@ -16,8 +16,9 @@ not grow with the trace length. Traces go to the workers in chunks; results
 are put back in manifest order, so they do not depend on the number of
 workers or on the order in which chunks finish. A malformed trace becomes a
 row with its ``error``; a chunk whose worker died is run again by the
-scheduler (up to its ``allowed-failures``), and a chunk that still fails
-becomes error rows.
+scheduler (up to its ``allowed-failures``); a chunk that still fails is run
+again one trace per task, so that only the trace that kills its worker (or
+raises) becomes an error row.
 
 A/B: ``--baseline-core PATH`` (another checkout, or a folder where a
 ``tinytherm`` package is installed) and/or ``--baseline-set NAME=VALUE``
@@ -78,11 +79,10 @@ def load_items(source, target_c=None, skip_bad=False):
     ``(items, tag_names)``; manifest rows with a bad cell get a ``problem``
     and become error rows, they do not stop the run.
     """
-    if os.path.isdir(source):
-        paths = sorted(glob.glob(os.path.join(source, "*.csv")))
-        return [_plain_item(i, p, target_c, skip_bad) for i, p in enumerate(paths)], []
-    if any(ch in source for ch in "*?["):
-        paths = sorted(p for p in glob.glob(source) if os.path.isfile(p))
+    if os.path.isdir(source) or any(ch in source for ch in "*?["):
+        pattern = os.path.join(source, "*.csv") if os.path.isdir(source) else source
+        # manifests lying among the traces are not traces
+        paths = sorted(p for p in glob.glob(pattern) if os.path.isfile(p) and not _is_manifest(p))
         return [_plain_item(i, p, target_c, skip_bad) for i, p in enumerate(paths)], []
     if not os.path.isfile(source):
         raise ValueError("%s: no such manifest, folder or pattern" % source)
@@ -208,13 +208,22 @@ def _run_dask(chunks, variants, workers, scheduler, processes, task, retries, re
         client = Client(scheduler)
     try:
         futures = client.map(task, chunks, variants=variants, retries=retries, pure=False)
-        which = {f.key: chunk for f, chunk in zip(futures, chunks)}
-        for fut in as_completed(futures):
-            chunk = which[fut.key]
+        which = {f.key: (chunk, False) for f, chunk in zip(futures, chunks)}
+        pending = as_completed(futures)
+        for fut in pending:
+            chunk, alone = which.pop(fut.key)
             try:
                 for index, res in fut.result():
                     results[index] = res
-            except Exception as exc:     # e.g. KilledWorker: the chunk's traces fail
+            except Exception as exc:     # e.g. KilledWorker
+                if len(chunk) > 1 and not alone:
+                    # run the chunk's traces one by one, so only the culprit fails
+                    for one in chunk:
+                        f = client.submit(task, [one], variants=variants, retries=retries,
+                                          pure=False)
+                        which[f.key] = ([one], True)
+                        pending.add(f)
+                    continue
                 msg = "task failed: %s: %s" % (type(exc).__name__, exc)
                 for index, _ in chunk:
                     results[index] = {name: _failed(msg) for name in variants}

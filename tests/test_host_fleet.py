@@ -206,6 +206,26 @@ def test_a_worker_that_dies_is_retried(fleet_dir, tmp_path):
         assert got[it.index]["cand"]["median_rel_error"] == want[it.index]["cand"]["median_rel_error"]
 
 
+def _raise_on_t3(chunk, variants):
+    """Task that raises whenever its chunk holds t3.csv."""
+    if any(spec["path"].endswith("t3.csv") for _, spec in chunk):
+        raise MemoryError("t3 is too much")
+    return fleet.evaluate_chunk(chunk, variants)
+
+
+def test_a_failing_chunk_is_split_so_only_its_culprit_fails(fleet_dir):
+    import cloudpickle
+    cloudpickle.register_pickle_by_value(sys.modules[__name__])
+    items, _ = fleet.load_items(str(fleet_dir / "manifest.csv"))
+    variants = {"cand": fleet.make_variant(None, [])}
+    got = fleet.run_fleet(items[:6], variants, workers=1, processes=False, progress=False,
+                          chunk_size=3, task=_raise_on_t3, retries=0)
+    errors = {os.path.basename(it.spec["path"]): got[it.index]["cand"]["error"]
+              for it in items[:6]}
+    assert "MemoryError: t3 is too much" in errors.pop("t3.csv")
+    assert set(errors.values()) == {""}
+
+
 def test_ab_against_another_core_in_a_child_process(fleet_dir, tmp_path):
     other = tmp_path / "released"
     shutil.copytree(os.path.join(ROOT, "tinytherm"), other / "tinytherm")
@@ -274,7 +294,8 @@ def test_cli_contract_subprocess_outputs_and_parquet(fleet_dir, tmp_path):
 def test_folder_and_glob_inputs(fleet_dir):
     items, tags = fleet.load_items(str(fleet_dir), target_c=50.0)
     names = sorted(os.path.basename(it.path) for it in items)
-    assert tags == [] and "t0.csv" in names and "manifest.csv" in names   # a folder: every CSV
+    # a folder: every CSV but the manifest
+    assert tags == [] and names == ["bad.csv"] + ["t%d.csv" % i for i in range(6)]
     globbed, _ = fleet.load_items(str(fleet_dir / "t*.csv"), target_c=50.0)
     assert [os.path.basename(it.path) for it in globbed] == ["t%d.csv" % i for i in range(6)]
     res = fleet.run_fleet(globbed, {"cand": fleet.make_variant(None, [])}, workers=0,
