@@ -742,24 +742,24 @@ class Forecast:
         k = self._k
         x = k * s
         T0 = self._pT
-        if x < 0.5:
+        if x >= 0.5:  # settles exactly onto the ambient term for large k s
+            e = _exp(-x)
+            om = 1.0 - e
+            sp = om / k  # k > 0 here; finite also when k*s overflows
+            T = self._pr + (T0 - self._pr) * e
+        else:  # also k = 0, and a NaN x (the result is NaN then)
             p1 = _phi1(x)
             om = x * p1  # 1 - exp(-k s)
             sp = s * p1  # (1 - exp(-k s)) / k, also for k = 0
             T = T0 + om * (self._pr - T0)
-        else:  # settles exactly onto the ambient term for large k s
-            e = _exp(-x)
-            om = 1.0 - e
-            sp = om / k  # finite also when k*s overflows
-            T = self._pr + (T0 - self._pr) * e
         T += self._pq * sp
         if self._pkind == _PIECE_LINEAR:
             # ambient slope b: particular term b*s - b*(1-exp(-ks))/k, written stably
             if self._pb != 0.0:
-                if x < 0.5:
-                    T += self._pb * k * s * s * _phi2(x)
-                else:
+                if x >= 0.5:
                     T += self._pb * (s - sp)
+                else:
+                    T += self._pb * k * s * s * _phi2(x)
         elif self._pAr != 0.0:
             th0 = self._pa - self._ppsi
             T += self._pAr * (_sin(th0 + self._pw * s) - _sin(th0) * (1.0 - om))
@@ -819,7 +819,10 @@ class Forecast:
             else:
                 hi = s
             tol = 4.0 * _EPS * (base + abs(s))
-            if ((s - hi) * df - f) * ((s - lo) * df - f) > 0.0 or abs(2.0 * f) > abs(dxold * df):
+            # Bisect unless the Newton step is safe (also when f, f' overflowed
+            # to inf/NaN or f' is 0: written so that NaN picks bisection).
+            if (df == 0.0 or not abs(2.0 * f) <= abs(dxold * df)
+                    or ((s - hi) * df - f) * ((s - lo) * df - f) > 0.0):
                 dxold = dx
                 dx = 0.5 * (hi - lo)
                 s = lo + dx
@@ -1137,6 +1140,12 @@ class AmbientTracker:
 
     def __init__(self, memory_s=1800.0, band_c=0.3, trend_s=600.0, trend_min_share=0.8,
                  min_period_s=120.0, max_period_s=14400.0):
+        memory_s = _real(memory_s)
+        band_c = _real(band_c)
+        trend_s = _real(trend_s)
+        trend_min_share = _real(trend_min_share)
+        min_period_s = _real(min_period_s)
+        max_period_s = _real(max_period_s)
         if not (memory_s > 0.0 and band_c >= 0.0 and trend_s >= 0.0
                 and 0.0 <= trend_min_share <= 1.0 and 0.0 < min_period_s < max_period_s):
             raise ValueError("memory_s > 0, band_c >= 0, trend_s >= 0, share in [0, 1], "
@@ -1181,9 +1190,13 @@ class AmbientTracker:
     def update(self, ambient_c, dt_s):
         """Add one ambient reading (deg C) taken ``dt_s`` seconds after the previous one.
 
-        Returns False (and ignores it) for a non-finite reading or a negative
-        or non-finite ``dt_s``.
+        Returns False (and ignores it) for a reading that is not a finite
+        number or a ``dt_s`` that is negative, not finite or not a number.
+        Never raises (readings so extreme that the fit overflows leave it
+        without a usable level; :meth:`apply` then leaves the forecast alone).
         """
+        ambient_c = _real(ambient_c)
+        dt_s = _real(dt_s)
         if not (_finite(ambient_c) and _finite(dt_s) and dt_s >= 0.0):
             return False
         if not self._started:
@@ -1245,8 +1258,8 @@ class AmbientTracker:
                 self._cyc_min = ambient_c
             if self.period_s is not None:
                 th = _TWO_PI * (self._since_up_s - 0.5 * dt_s) / self.period_s
-                self._cyc_sin += (mid - self.mean_c) * math.sin(th) * dt_s
-                self._cyc_cos += (mid - self.mean_c) * math.cos(th) * dt_s
+                self._cyc_sin += (mid - self.mean_c) * _sin(th) * dt_s
+                self._cyc_cos += (mid - self.mean_c) * _cos(th) * dt_s
         if self._high:
             if ambient_c < ref - self.band_c:
                 self._high = False
@@ -1289,15 +1302,25 @@ class AmbientTracker:
         return self.amplitude_c is not None and self._since_up_s >= 0.0
 
     def apply(self, fc):
-        """Set the ambient of Forecast ``fc`` from what has been seen; returns the AMBIENT_* kind."""
+        """Set the ambient of Forecast ``fc`` from what has been seen; returns the AMBIENT_* kind.
+
+        Never raises: a cycle, trend or level whose numbers are not finite
+        (readings so extreme that the sums overflowed) is skipped, and with
+        none usable ``fc`` is left as it was.
+        """
         if self.cycling():
             phase = _TWO_PI * self._since_up_s / self.period_s + self._offset_rad
-            fc.set_ambient_periodic(self.mean_c, self.amplitude_c, self.period_s, phase)
-            return AMBIENT_PERIODIC
+            if (_finite(self.mean_c) and _finite(self.amplitude_c) and _finite(phase)
+                    and _finite(_TWO_PI / self.period_s)):
+                fc.set_ambient_periodic(self.mean_c, self.amplitude_c, self.period_s, phase)
+                return AMBIENT_PERIODIC
         if self.level_c is None:
             return fc._amb_kind
-        if self.trend_s > 0.0 and self.trend_share >= self.trend_min_share:
+        if (self.trend_s > 0.0 and self.trend_share >= self.trend_min_share
+                and _finite(self.level_c) and _finite(self.slope_c_per_s)):
             fc.set_ambient_ramp(self.level_c, self.slope_c_per_s, self.trend_s)
             return AMBIENT_RAMP
-        fc.set_ambient_constant(self.mean_level_c)
-        return AMBIENT_CONSTANT
+        if _finite(self.mean_level_c):
+            fc.set_ambient_constant(self.mean_level_c)
+            return AMBIENT_CONSTANT
+        return fc._amb_kind

@@ -54,7 +54,27 @@ def temperature_at(t_s, start_c, rate_per_s, ambient_c, gain_k_per_s=0.0, duty=0
     if rate_per_s == 0.0:
         return start_c + gain_k_per_s * duty * t_s
     eq = ambient_c + gain_k_per_s * duty / rate_per_s
-    return eq + (start_c - eq) * _exp(-rate_per_s * t_s)
+    e = _exp(-rate_per_s * t_s)
+    temp = eq + (start_c - eq) * e
+    if temp - temp == 0.0:
+        return temp
+    # E or T0 - E overflowed (tiny k, huge heater term or temperatures): the
+    # same solution as finite parts T0 e + R (1 - e) + g u (1 - e)/k, which
+    # is +-inf only when the answer itself is beyond the float range.
+    if t_s == 0.0:
+        return start_c
+    x = rate_per_s * t_s
+    if -0.5 < x < 0.5:
+        # (1 - e^-x)/x by its series sum (-x)**n/(n+1)!, n = 0..15 (Horner)
+        r = 1.0
+        n = 15
+        while n >= 1:
+            r = 1.0 - x * r / (n + 1)
+            n -= 1
+        om_k = t_s * r
+    else:
+        om_k = (1.0 - e) / rate_per_s
+    return start_c * e + ambient_c * (1.0 - e) + gain_k_per_s * duty * om_k
 
 
 def time_to_target_s(start_c, target_c, rate_per_s, ambient_c, gain_k_per_s=0.0, duty=0.0):
@@ -100,7 +120,11 @@ def ambient_from_three_c(t0_c, t1_c, t2_c):
     d2 = t2_c - t1_c
     if den == 0.0 or d1 == 0.0 or (d1 > 0.0) != (d2 > 0.0) or abs(d2) >= abs(d1):
         return None
-    return (t0_c * t2_c - t1_c * t1_c) / den
+    r = (t0_c * t2_c - t1_c * t1_c) / den
+    if r - r != 0.0:
+        # the products overflowed: the same value as T2 - d2**2 / (d2 - d1)
+        r = t2_c - d2 * (d2 / (d2 - d1))
+    return r
 
 
 def rate_from_three_per_s(t0_c, t1_c, t2_c, spacing_s):
@@ -111,9 +135,13 @@ def rate_from_three_per_s(t0_c, t1_c, t2_c, spacing_s):
     """
     d1 = t1_c - t0_c
     d2 = t2_c - t1_c
-    if spacing_s <= 0.0 or d1 == 0.0 or (d1 > 0.0) != (d2 > 0.0) or abs(d2) >= abs(d1):
+    if (spacing_s <= 0.0 or d1 == 0.0 or d2 == 0.0 or (d1 > 0.0) != (d2 > 0.0)
+            or abs(d2) >= abs(d1)):
         return None
-    return math.log(d1 / d2) / spacing_s
+    try:
+        return math.log(d1 / d2) / spacing_s
+    except (ValueError, OverflowError):
+        return None
 
 
 def rate_from_physical_per_s(h_w_per_m2k, area_m2, mass_kg, specific_heat_j_per_kgk):
@@ -126,7 +154,10 @@ def rate_from_physical_per_s(h_w_per_m2k, area_m2, mass_kg, specific_heat_j_per_
     heat_capacity = mass_kg * specific_heat_j_per_kgk
     if not heat_capacity > 0.0:
         raise ValueError("mass_kg and specific_heat_j_per_kgk must be > 0")
-    return h_w_per_m2k * area_m2 / heat_capacity
+    k = h_w_per_m2k * area_m2 / heat_capacity
+    if k - k != 0.0:
+        k = (h_w_per_m2k / mass_kg) * (area_m2 / specific_heat_j_per_kgk)  # products overflowed
+    return k
 
 
 def heater_gain_k_per_s(power_w, mass_kg, specific_heat_j_per_kgk):
