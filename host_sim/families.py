@@ -634,13 +634,14 @@ class FamilyTrace:
 
     ``time_s``, ``temp_c``, ``clean_c`` (noise-free sensor signal per row)
     float arrays; ``ambient_c`` array or None; ``heater`` duty array or None;
-    ``truth`` dict (see module docstring). ``solution`` and ``sensor_signal``
-    (callable, seconds -> deg C) are present only when generated with
-    ``keep_solution=True`` (not cached).
+    ``truth`` dict (see module docstring). ``solution``, ``sensor_signal``
+    (callable, seconds -> deg C) and ``physics`` (the family instance with
+    ``rhs``, ``y0``, ``breaks``, ``mode0``) are present only when generated
+    with ``keep_solution=True`` (not cached).
     """
 
     def __init__(self, family, seed, time_s, temp_c, clean_c, ambient_c, heater, truth,
-                 solution=None, sensor_signal=None):
+                 solution=None, sensor_signal=None, physics=None):
         self.family = family
         self.seed = int(seed)
         self.time_s = np.asarray(time_s, dtype=float)
@@ -651,6 +652,7 @@ class FamilyTrace:
         self.truth = truth
         self.solution = solution
         self.sensor_signal = sensor_signal
+        self.physics = physics
 
     def __len__(self):
         return len(self.time_s)
@@ -832,7 +834,8 @@ def _try_generate(family, seed, rng, sensor_faults, keep_solution):
                        None if ambient is None else ambient[keep],
                        None if heater is None else heater[keep], truth,
                        solution=sol if keep_solution else None,
-                       sensor_signal=sensor_signal if keep_solution else None)
+                       sensor_signal=sensor_signal if keep_solution else None,
+                       physics=fam if keep_solution else None)
 
 
 # ------------------------------------------------------------------ disk cache
