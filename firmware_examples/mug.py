@@ -1,7 +1,7 @@
 """A battery mug that tells you when your drink is cool enough.
 
 Every WAKE_EVERY_S seconds the board wakes from deep sleep, restores the
-estimator from its 128-byte state blob in RTC memory, reads the NTC under the
+estimator from its 480-byte state blob in RTC memory, reads the NTC under the
 mug's floor, updates the estimator with the time slept, shows "drinkable in
 about 3 min" (or "levelling off at 31 C" when the drink will never get there),
 saves the blob back into RTC memory, and goes back to sleep.
@@ -15,7 +15,7 @@ Copy board.py and this file to the board, install tinytherm (see README,
 "On the device"), and call ``mug.main()`` from main.py.
 
 State across deep sleep: RTC memory holds exactly what ``est.save()`` returns
-(``tinytherm.blob.BLOB_SIZE`` = 128 bytes, CRC-checked). After a power-on, or
+(``tinytherm.blob.BLOB_SIZE`` = 480 bytes, CRC-checked). After a power-on, or
 when the blob is truncated, corrupted or from other settings, ``restore()``
 leaves a fresh estimator and the mug starts learning again; it never crashes
 on what it finds in RTC memory.
@@ -46,7 +46,7 @@ def new_estimator():
     A saved blob restores only into an estimator with the same settings:
     after changing them here the first wake starts afresh.
     """
-    return ThermalEstimator(ambient_prior_c=21.0, memory_s=600.0)
+    return ThermalEstimator(ambient_prior_c=21.0)
 
 
 def read_mug_c(adc):

@@ -1,14 +1,15 @@
 """Fixed-size saved-state blob: header, payload and CRC-32, for deep sleep.
 
-Layout (little-endian, :data:`BLOB_SIZE` = 128 bytes in total)::
+Layout (little-endian, :data:`BLOB_SIZE` = 480 bytes in total: it fits the
+512 bytes of RTC user memory of the smallest common boards)::
 
     offset  size  field
     0       2     magic b"tT"
     2       1     layout version (:data:`LAYOUT_VERSION`)
     3       1     settings byte (which fields the payload holds; the owner
                   checks it matches its own configuration)
-    4       120   payload (layout chosen by the owner; unused bytes are zero)
-    124     4     CRC-32 (IEEE, :mod:`tinytherm.crc`) of bytes 0..123
+    4       472   payload (layout chosen by the owner; unused bytes are zero)
+    476     4     CRC-32 (IEEE, :mod:`tinytherm.crc`) of bytes 0..475
 
 The estimator packs its payload with ``struct.pack_into`` at
 :data:`PAYLOAD_OFFSET`; this module writes and checks the frame. Checking
@@ -18,12 +19,12 @@ import struct
 
 from tinytherm.crc import crc32
 
-BLOB_SIZE = 128
+BLOB_SIZE = 480
 MAGIC = b"tT"
-LAYOUT_VERSION = 1
+LAYOUT_VERSION = 2
 PAYLOAD_OFFSET = 4
-PAYLOAD_SIZE = 120
-CRC_OFFSET = 124
+PAYLOAD_SIZE = 472
+CRC_OFFSET = 476
 
 # Results of a restore attempt; anything but RESTORED means a fresh start.
 RESTORED = 0         # the blob was valid and the state is back
@@ -63,7 +64,7 @@ def new_frame(settings):
 
 
 def seal(buf):
-    """Write the CRC-32 of bytes 0..123 into bytes 124..127 of ``buf``; returns ``buf``."""
+    """Write the CRC-32 of bytes 0..475 into bytes 476..479 of ``buf``; returns ``buf``."""
     struct.pack_into("<I", buf, CRC_OFFSET, crc32(buf, 0, 0, CRC_OFFSET))
     return buf
 

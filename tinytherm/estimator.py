@@ -1,47 +1,68 @@
 """Online fit of the lumped thermal model and the time-to-target answer.
 
-Model (see :mod:`tinytherm.model`)::
+One principle: *fit the first-order law on the recent part of the approach,
+anchor the answer at the current reading, and judge the answer by the fit's
+own forecasts.*
 
-    dT/dt = -k (T - R) + g u
+Model, with ``G = T - R`` the gap to a reference ``R`` (the known ambient, the
+measured ambient smoothed, or 0 when nothing is known) and ``u`` the duty::
 
-How the fit works (the reasons and the measurements are in DEVELOPERS.md):
+    dT/dt = s - k (G - G0) + g (u - u0)
 
-1. *Integral form.* Integrating the model from any earlier moment gives an
-   equation that is linear in the parameters and needs no derivative::
+``s`` is the slope at the reference gap ``G0`` and duty ``u0`` (both moved to
+the latest block at every block, so ``s`` is the slope *now*), ``k`` the rate
+(1/s) and ``g`` the heater gain (K/s at full duty). The equilibrium is free:
+``E = T + s/k``. Integrating from any earlier moment gives an equation linear
+in the parameters and free of derivatives::
 
-       y(t) = c + k X(t) + k R t + g U(t)
+    y(t) = c + s t - k x(t) + g v(t),   x = int (G - G0) dt,  v = int (u - u0) dt
 
-   with ``X = -integral(y dt)`` (or ``integral((R - y) dt)`` when the ambient
-   is known or measured; the ``k R t`` term then drops out) and
-   ``U = integral(u dt)``. The integrals are taken by the trapezoid rule (exact
-   for irregular steps up to the curvature between two readings); ``c`` is an
-   unknown level. The reading's noise enters once, as in a batch output-error
-   fit, which keeps the estimate close to the Cramer-Rao bound.
-2. *Exponentially weighted regression in centred form.* Weighted means and
-   co-moments are updated with West's incremental (Welford-style) formulas,
-   which keep float32 accurate. The regressors are stored *relative to their
-   own weighted means*, so the growing integrals never grow in storage.
-3. *Forgetting in proportion to excitation.* A block of readings that sits at
-   its recent mean (a long hold at equilibrium) neither adds weight nor
-   forgets: no covariance windup, no drift at a standstill. Old data are
-   forgotten with time constant ``memory_s`` while the liquid moves.
-4. *Block means.* Readings are averaged over ``block_s`` before they enter the
-   regression; the equation is linear, so it holds exactly for the means and
-   most readings cost only a few float operations (heap use on MicroPython).
-5. *Guarded input, change detection, saved state.* Every reading first passes
-   a :class:`~tinytherm.guard.ReadingGuard` (rejected readings never touch the
-   fit). At each block a :class:`~tinytherm.change.ChangeDetector` watches the
-   block's residual against the fit made before it; on an alarm (top-up, lid
-   off, ...) the fit keeps only a fraction of its information, re-levels to
-   the new readings and reports ``DISTURBED`` until it has re-converged.
-   :meth:`ThermalEstimator.save` / :meth:`ThermalEstimator.restore` keep the
-   state in a 128-byte blob across deep sleep (see :mod:`tinytherm.blob`).
-6. *Answer on demand.* :meth:`ThermalEstimator.predict` solves the small
-   ridge-regularised system (the ambient prior enters as one pseudo
-   observation), and propagates the parameter uncertainty to the
-   time-to-target by the delta method in log-time.
+(``c`` an unknown level, trapezoid integrals). Readings are averaged over
+short blocks (at most ``block_s``, shorter early on) and each block mean is
+one observation of this equation.
 
-Fixed state, no per-update containers. Runs unchanged on CPython and MicroPython.
+1. *Memory that follows the approach.* The regression forgets with a time
+   constant of ``memory_fraction`` (0.5) times the time since the fit
+   started, between ``MIN_MEMORY_S`` and ``memory_s``: about the recent half
+   of the approach, wherever the liquid is on its curve, so a rate that bends
+   along the approach (convection ~ dT^(1/4), evaporation, a warming wall) is
+   followed instead of averaged. Weighted means and co-moments are updated
+   with West's incremental formulas; coordinates are kept relative to their
+   weighted means and to the latest block (small numbers, float32-safe).
+2. *Weak hints, never the direction.* ``k`` has a ridge prior. With nothing
+   known it is ``rate_prior_per_s`` (loose). The ambient (known, measured or the
+   ``ambient_prior_c`` hint) enters only as a prior on ``k`` given the fitted
+   slope, ``k = s / (E - G0)`` with ``E - R ~ N(0, sd)``, used only when the
+   liquid moves towards it: the prior can change how fast the curve bends,
+   never which way the liquid goes.
+3. *Anchored at now.* The level for the answer is the fit's value at the
+   latest reading (``temp_est_c``); its slope gives the direction. A fit that
+   accelerates (``k < 0``) is refitted as the exact straight line (``k = 0``).
+4. *Every regime has a closed form*: ``eta = -log1p(-k D / s) / k`` with ``D``
+   the distance to the target (:func:`tinytherm.model.time_to_target_from_slope_s`),
+   ``D / s`` when ``k = 0``.
+5. *Interval from the fit's own forecasts.* Three audits at horizons of 1/8,
+   1/4 and 1/2 of the fit's age record the level, slope and rate, and when the
+   horizon has passed compare the time the fit predicted for the observed
+   change with the time it took; the squared log ratios (exponentially
+   averaged, prior :data:`AUDIT_PRIOR_VAR`) are added to the delta-method
+   variance of log(eta) at the matching horizon.
+6. *Restart on what the law cannot explain*: a jump (CUSUM and jump gate of
+   :class:`~tinytherm.change.ChangeDetector` on block innovations, reported
+   as ``DISTURBED`` until answered again), a reversal of the direction of
+   travel by more than ``turn_c`` (no heater), and a gap over
+   ``restart_gap_s``. Every reading first passes a
+   :class:`~tinytherm.guard.ReadingGuard`.
+7. *Honest arrival.* ``ARRIVED`` once the anchored level has crossed the
+   target in the direction of travel and the latest reading is at most
+   min(0.3 C, 3 noise sd) short of it; it then holds for that target until
+   the fit restarts (a real turn is a new approach).
+
+The state is the attribute block in :meth:`ThermalEstimator._restart_fit`
+(the fit) and :meth:`ThermalEstimator.reset` (counts and audits). It is saved
+plainly as float64 in a 480-byte blob (:mod:`tinytherm.blob`); the fit
+itself is re-solved on restore. Fixed state, no per-update containers. Runs
+unchanged on CPython and MicroPython.
 """
 import math
 import struct
@@ -49,27 +70,38 @@ import struct
 from tinytherm import blob as bl
 from tinytherm import status as st
 from tinytherm.change import ChangeDetector
-from tinytherm.guard import GAP_RESTART, GAP_WIDEN, ReadingGuard
+from tinytherm.guard import GAP_RESTART, ReadingGuard
+from tinytherm.model import time_to_target_from_slope_s
 
 _INF = math.inf
-TRUST_FLOOR_S = 30.0  # s: an ETA whose upper bound is at most this much later is trusted
-MAX_BLOCK_READINGS = 255  # a block closes after this many readings (kept in one byte)
-MAX_AUDIT_BLOCKS = 31  # longest forecast-audit horizon, in blocks (kept in 5 bits)
-TURN_WINDOW_S = 300.0  # s: a reversal this early after a (re)start restarts the fit
-RELEVEL_BLOCKS = 2  # blocks after a detected change that only re-level the fit
-_DETECT_S2_CAP = 0.25 * 0.25  # deg C^2: per-reading residual variance the detector believes at most
-MISMATCH_C = 0.02  # deg C: model-mismatch allowance of a block residual (change detector)
+MAX_BLOCK_READINGS = 255        # a block closes after this many readings
+MIN_MEMORY_S = 30.0             # s: shortest forgetting time constant
+AMBIENT_SMOOTH_S = 300.0        # s: time constant of the measured-ambient smoothing
+KNOWN_AMBIENT_SD_C = 2.0        # deg C: default equilibrium hint sd with a known or measured ambient
+AUDIT_FRACTIONS = (0.125, 0.25, 0.5)  # audit horizons, fractions of the fit's age
+AUDIT_MIN_S = (10.0, 20.0, 40.0)      # s: shortest audit horizons
+AUDIT_PRIOR_VAR = 0.04          # (log time)^2: forecast error assumed before any audit
+AUDIT_MEMORY = 8                # audits in the running mean of squared log errors
+AUDIT_STRETCH = 4.0             # most the longest audit's variance is stretched beyond it
+AUDIT_LOG_CAP = 2.0794          # ln 8: one audit counts at most a factor 8
+ARRIVE_TOL_C = 0.3              # deg C: most a reading may be short of the target at arrival
+DETECT_MIN_BLOCKS = 5           # blocks before the change detector listens
+MISMATCH_C = 0.03               # deg C: model-mismatch allowance of a block innovation
+NOISE_PRIOR_C = 0.05            # deg C: reading noise sd assumed before it is measured
+NOISE_PRIOR_N = 4               # readings that prior is worth
 
 
 def normal_quantile(p):
     """Standard normal quantile ``z`` with ``P(Z <= z) = p``, for 0 < p < 1.
 
     Rational approximation of Abramowitz & Stegun, Handbook of Mathematical
-    Functions, formula 26.2.23 (absolute error < 4.5e-4). Raises ValueError
-    outside (0, 1).
+    Functions, formula 26.2.23 (absolute error < 4.5e-4); exactly 0 at 0.5.
+    Raises ValueError outside (0, 1).
     """
     if not 0.0 < p < 1.0:
         raise ValueError("p must be in (0, 1)")
+    if p == 0.5:
+        return 0.0
     q = p if p < 0.5 else 1.0 - p
     t = math.sqrt(-2.0 * math.log(q))
     z = t - (2.515517 + 0.802853 * t + 0.010328 * t * t) / (
@@ -77,1306 +109,899 @@ def normal_quantile(p):
     return -z if p < 0.5 else z
 
 
+def _finite(x):
+    t = type(x)
+    return (t is float or t is int) and x == x and x != _INF and x != -_INF
+
+
+def _number(x, lo, hi):
+    """True for an int or float in [lo, hi] (comparisons only: never raises)."""
+    t = type(x)
+    return (t is float or t is int) and lo <= x <= hi
+
+
 def _exp_neg(x):
-    """``exp(-x)`` for x >= 0, 0.0 where it underflows (MicroPython raises ValueError)."""
     try:
         return math.exp(-x)
     except (ValueError, OverflowError):
         return 0.0
 
 
-def _finite(x):
-    return x == x and x != _INF and x != -_INF
+# Saved state (after the blob header): ints, then float64 fields by name.
+_INT_FMT = "<IHHBBBBBBBB"  # readings, changes, turns, block n, guard window n, guard
+#   consecutive rejections, fit readings (capped), flags | direction, audits 0 | 1, audits 2,
+#   noise samples
+_FLOATS = ("_w", "_w2", "_nb", "_my", "_ctt", "_ctx", "_ctu", "_cty", "_cxx", "_cxu",
+           "_cxy", "_cuu", "_cuy", "_cyy", "_t", "_x", "_v", "_age", "_b_dur", "_g0", "_u0",
+           "_bt", "_bx", "_bv", "_by", "_y_prev", "_r_prev", "_u_prev", "_noise2", "_s2_fit",
+           "_ext")
+_AUDIT_FLOATS = ("age", "level", "slope", "rate", "var")
+_GUARD_FLOATS = ("_w1", "_w2", "_w3", "_w4", "_run_s", "_run_rate")
+_DETECT_FLOATS = ("up", "down", "mean_abs_z")
 
 
-def _clamp_int(x, lo, hi):
-    """``round(x)`` clamped to [lo, hi] (for fixed-point fields of the saved blob)."""
-    if not x == x:
-        return lo
-    if x <= lo:
-        return lo
-    if x >= hi:
-        return hi
-    return int(x + 0.5) if x >= 0.0 else -int(0.5 - x)
+class _Audit:
+    """One forecast check: the fit's level, slope and rate when it started, and
+    the running mean of squared log errors (time taken / time predicted)."""
 
+    def __init__(self, fraction, min_s):
+        self.fraction = fraction   # horizon as a fraction of the fit's age
+        self.min_s = min_s         # shortest horizon, s
+        self.var = AUDIT_PRIOR_VAR  # (log time)^2
+        self.n = 0                 # checks in the running mean (at most AUDIT_MEMORY)
+        self.clear()
 
-# Saved blob: fixed part (counts, flags, fixed-point decision state), then the
-# value fields in promotion order (see ThermalEstimator._layout).
-_FIXED_FMT = "<IBBBHHHHHHf"
-# then one byte: blocks to the next forecast audit (5 bits), direction of
-# travel + 1 (2 bits), direction seen (1 bit)
-_EXTRA_FMT = "<B"
-_FIXED_SIZE = struct.calcsize(_FIXED_FMT) + struct.calcsize(_EXTRA_FMT)
-# Promotion order (measured with restore -> update -> save on every reading):
-# block_t first (it decides where blocks end: float32 there changes the block
-# partition and shifts the answer by ~0.5 %), the time carried over a rejected
-# reading, then the integrals and levels, the weights and co-moments; w_sq
-# (interval width only) matters least.
-_PROMOTE = ("_block_t", "pending", "_xr", "_tr", "_sum_x", "_sum_t", "_cxt", "_y_prev", "_my",
-            "_sum_y", "_w", "_cxx", "_cxy", "_ctt", "_cty", "_cyy", "_w_blocks", "_r_prev",
-            "_u_prev", "_ur", "_sum_u", "_cxu", "_cuu", "_cuy", "_ctu", "_w_sq",
-            "_audit_var", "_recent_residual", "_r_mean", "_fit_age_s", "_turn_ext",
-            "_audit_level", "_audit_pred")
-# int16 fields: the early-turn window's age always (kept in 1/16 s steps),
-# the pending forecast check when float32 does not fit
-_ALWAYS_SHORT = ("_fit_age_s",)
-_SHORT = ("_fit_age_s", "_audit_level", "_audit_pred")
+    def clear(self):
+        self.age = -1.0            # fit age at the start, s; < 0: nothing waiting
+        self.level = 0.0           # fitted level then, deg C
+        self.slope = 0.0           # fitted slope then, deg C/s
+        self.rate = 0.0            # fitted k then, 1/s
 
+    def horizon_s(self, age_s):
+        h = self.fraction * age_s
+        return h if h > self.min_s else self.min_s
 
-def _short_scale(name):
-    """Units per int16 step of a _SHORT field: 1/16 s (exact: see _close_block), 1/1024 C."""
-    if name == "_fit_age_s":
-        return 16.0
-    return 1024.0
-_NO_HEATER_ONLY = ("_fit_age_s", "_turn_ext")  # the early-turn restart is off with a heater
-# Left out, last first, when the payload is full (heater with an estimated
-# ambient): rebuilt or restarted on restore, see _unpack.
-_DROPPABLE = ("_audit_pred", "_audit_level", "_w_sq", "_recent_residual", "_audit_var")
-_CENTRED_ONLY = ("_tr", "_sum_t", "_cxt", "_ctt", "_cty", "_ctu")
-_HEATER_ONLY = ("_u_prev", "_ur", "_sum_u", "_cxu", "_cuu", "_cuy", "_ctu")
-
-
-def _values_size(names, short):
-    """Bytes the value fields take at the least: float32 each, int16 for those in ``short``."""
-    size = 0
-    for name in names:
-        size += 2 if name in short else 4
-    return size
-
-
-def _min_size(fmt):
-    """Bytes of a layout's values with every double counted as float32."""
-    return struct.calcsize(fmt.replace("d", "f"))
-
-
-def _unpack_value(kind, name, blob, offset):
-    """One saved value of struct kind "d", "f" or "h" (see _short_scale); (value, next offset)."""
-    if kind == "d":
-        return struct.unpack_from("<d", blob, offset)[0], offset + 8
-    if kind == "f":
-        return struct.unpack_from("<f", blob, offset)[0], offset + 4
-    return struct.unpack_from("<h", blob, offset)[0] / _short_scale(name), offset + 2
+    def check(self, age_s, level, slope, rate, need_c):
+        """At a block: learn from the waiting forecast if due, then start a new one."""
+        if self.age >= 0.0:
+            took = age_s - self.age
+            if took < self.horizon_s(self.age):
+                return
+            moved = level - self.level
+            if moved > need_c or moved < -need_c:
+                pred = time_to_target_from_slope_s(moved, self.slope, self.rate)
+                err = AUDIT_LOG_CAP
+                if pred is not None and pred > 0.0:
+                    try:
+                        err = math.log(took / pred)
+                    except (ValueError, OverflowError):
+                        pass
+                    if err > AUDIT_LOG_CAP:
+                        err = AUDIT_LOG_CAP
+                    elif err < -AUDIT_LOG_CAP:
+                        err = -AUDIT_LOG_CAP
+                if self.n < AUDIT_MEMORY:
+                    self.n += 1
+                self.var += (err * err - self.var) / (self.n + 1)
+        self.age = age_s
+        self.level = level
+        self.slope = slope
+        self.rate = rate
 
 
 class ThermalEstimator:
     """Feed readings in, ask how long until a target temperature.
 
-    Arguments (all optional):
+    Arguments (all optional; each is range-checked, ValueError names it):
 
-    - ``ambient_c``: known, constant ambient in deg C. ``None`` means the
-      ambient is either passed with each reading (``update(..., ambient_c=)``)
-      or, when never passed, estimated from the readings.
-    - ``ambient_prior_c``, ``ambient_prior_sd_c``: prior for an estimated
-      ambient, deg C (centre and standard deviation).
+    - ``ambient_c``: known, constant ambient in deg C (a strong hint for the
+      equilibrium). ``None``: passed with each reading
+      (``update(..., ambient_c=)``) or, when never passed, unknown.
+    - ``ambient_prior_c``, ``ambient_prior_sd_c``: weak hint for the
+      equilibrium when no ambient is known, deg C (centre and sd).
+    - ``ambient_sd_c``: how far the effective equilibrium may lie from a known
+      or measured ambient, deg C (evaporation, a bending rate); small values
+      pin it there.
     - ``heater``: ``True`` when a heater duty is passed with each reading and
       its gain (K/s at full duty) must be fitted.
-    - ``memory_s``: forgetting time constant of the fit, seconds. Shorter
-      tracks a changing world faster; longer averages more noise away.
-    - ``block_s``: readings are averaged over blocks of this many seconds
-      before entering the regression (0: every reading is its own block).
+    - ``memory_s``: longest forgetting time constant, seconds.
+    - ``memory_fraction``: forgetting time constant as a fraction of the time
+      since the fit started (0.5: about the recent half of the approach).
+    - ``block_s``: longest block of readings averaged into one observation, s.
     - ``interval``: two-sided probability of the reported time interval.
     - ``settle_s``: seconds of data before an answer may be ``TRACKING``.
-    - ``max_relative_sd``: an answer whose log-time standard deviation exceeds
-      this stays ``SETTLING``.
-    - ``rate_prior_per_s``: weak prior on ``k`` (1/s, also its prior standard
-      deviation), felt only while the data hold little information.
-    - ``excitation_c``: movement (deg C) of a block's mean reading away from
-      the recent mean that counts as a fully informative block.
-    - ``min_temp_c``, ``max_temp_c``: plausible range of readings, deg C;
-      readings outside are rejected as ``OUT_OF_RANGE``.
+    - ``max_relative_sd``: an answer whose log-time sd exceeds this stays
+      ``SETTLING``.
+    - ``rate_prior_per_s``: sd (1/s) of the loose prior on ``k``, centred on
+      0 (a straight line until the data show a bend).
+    - ``min_temp_c``, ``max_temp_c``: plausible range of readings, deg C.
     - ``quantum_c``: sensor resolution, deg C (0.0625 for a 12-bit 1-Wire
-      sensor); the floor of the spike gate's scale.
-    - ``spike_window``: 3 or 5 readings for the spike gate, 0 to switch it off.
-    - ``max_gap_s``: after a longer time without an accepted reading the fit
-      forgets in proportion to the gap (its uncertainty widens).
-    - ``restart_gap_s``: after a longer one the fit starts afresh.
-    - ``stuck_change_c``: a sensor repeating one exact value while the fit
-      says the liquid should have moved this much (deg C, over at least
-      ``stuck_min_s`` seconds) is rejected as ``STUCK``; ``None``: no test.
+      sensor).
+    - ``spike_window``, ``max_gap_s``, ``restart_gap_s``, ``stuck_change_c``,
+      ``stuck_min_s``: see :class:`~tinytherm.guard.ReadingGuard`.
     - ``fault_after``: this many consecutive rejected readings turn the
-      answer into ``SENSOR_FAULT`` (no estimate).
-    - ``detect_changes``: watch for sudden changes (top-up, lid off) and
-      re-adapt; ``keep_fraction``: share of the fit's information kept after a
-      detected change.
-
-    Raises ValueError for arguments out of range. See :mod:`tinytherm.guard`
-    and :mod:`tinytherm.change` for what is rejected and detected.
+      answer into ``SENSOR_FAULT``.
+    - ``detect_changes``: restart the fit on a sudden change (top-up, lid
+      off) and report ``DISTURBED`` until it answers again.
+    - ``turn_c``: a retreat of the block means from their extreme by more
+      than this (deg C) restarts the fit (a new approach; not with a heater).
     """
 
     def __init__(self, ambient_c=None, ambient_prior_c=21.0, ambient_prior_sd_c=8.0,
-                 heater=False, memory_s=600.0, block_s=20.0, interval=0.8, settle_s=60.0,
-                 max_relative_sd=0.25, rate_prior_per_s=1.0 / 1800.0, excitation_c=0.5,
-                 min_temp_c=-55.0, max_temp_c=150.0, quantum_c=0.0625, spike_window=3,
-                 max_gap_s=120.0, restart_gap_s=3600.0, stuck_change_c=1.0, stuck_min_s=30.0,
-                 fault_after=5, detect_changes=True, keep_fraction=0.1, audit_s=60.0,
+                 ambient_sd_c=KNOWN_AMBIENT_SD_C, heater=False, memory_s=7200.0, memory_fraction=0.5, block_s=20.0,
+                 interval=0.8, settle_s=0.0, max_relative_sd=5.0,
+                 rate_prior_per_s=1.0 / 1800.0, min_temp_c=-55.0, max_temp_c=150.0,
+                 quantum_c=0.0625, spike_window=3, max_gap_s=900.0, restart_gap_s=3600.0,
+                 stuck_change_c=1.0, stuck_min_s=30.0, fault_after=5, detect_changes=True,
                  turn_c=1.0):
-        if ambient_c is not None and not _finite(ambient_c):
-            raise ValueError("ambient_c must be a finite temperature or None")
-        if not _finite(ambient_prior_c):
-            raise ValueError("ambient_prior_c must be finite")
-        if not ambient_prior_sd_c > 0.0:
-            raise ValueError("ambient_prior_sd_c must be > 0")
-        if not memory_s > 0.0:
-            raise ValueError("memory_s must be > 0 seconds")
-        if not block_s >= 0.0:
-            raise ValueError("block_s must be >= 0 seconds (0: every reading is a block)")
-        if not 0.0 < interval < 1.0:
-            raise ValueError("interval must be a probability in (0, 1)")
-        if not settle_s >= 0.0:
-            raise ValueError("settle_s must be >= 0 seconds")
-        if not max_relative_sd > 0.0:
-            raise ValueError("max_relative_sd must be > 0")
-        if not rate_prior_per_s > 0.0:
-            raise ValueError("rate_prior_per_s must be > 0 (1/s)")
-        if not excitation_c > 0.0:
-            raise ValueError("excitation_c must be > 0 deg C")
-        if not turn_c > 0.0:
-            raise ValueError("turn_c must be > 0 deg C")
-        if not audit_s > 0.0:
-            raise ValueError("audit_s must be > 0 seconds")
-        if not min_temp_c < max_temp_c:
-            raise ValueError("min_temp_c must be below max_temp_c")
-        if type(fault_after) is not int or not 1 <= fault_after <= 31:
-            raise ValueError("fault_after must be an int in 1..31 (readings)")
-        if not 0.0 < keep_fraction < 1.0:
-            raise ValueError("keep_fraction must be in (0, 1)")
-        # ValueError with its own message for bad guard settings
+        if not _number(min_temp_c, -1e4, 1e4) or not _number(max_temp_c, -1e4, 1e4) \
+                or not min_temp_c < max_temp_c:
+            raise ValueError("min_temp_c < max_temp_c must be finite deg C within +-1e4")
+        if ambient_c is not None and not _number(ambient_c, min_temp_c, max_temp_c):
+            raise ValueError("ambient_c must be None or a temperature in [min_temp_c, max_temp_c]")
+        if not _number(ambient_prior_c, -1e4, 1e4):
+            raise ValueError("ambient_prior_c must be a finite temperature (deg C)")
+        if not _number(ambient_prior_sd_c, 1e-3, 1e4):
+            raise ValueError("ambient_prior_sd_c must be in [1e-3, 1e4] deg C")
+        if not _number(ambient_sd_c, 1e-4, 1e4):
+            raise ValueError("ambient_sd_c must be in [1e-4, 1e4] deg C")
+        if not _number(memory_s, MIN_MEMORY_S, 1e7):
+            raise ValueError("memory_s must be in [%r, 1e7] seconds" % MIN_MEMORY_S)
+        if not _number(memory_fraction, 0.05, 10.0):
+            raise ValueError("memory_fraction must be in [0.05, 10]")
+        if not _number(block_s, 0.0, 600.0):
+            raise ValueError("block_s must be in [0, 600] seconds")
+        if not _number(interval, 0.01, 0.999):
+            raise ValueError("interval must be a probability in [0.01, 0.999]")
+        if not _number(settle_s, 0.0, 1e6):
+            raise ValueError("settle_s must be in [0, 1e6] seconds")
+        if not _number(max_relative_sd, 1e-3, 1e3):
+            raise ValueError("max_relative_sd must be in [1e-3, 1e3]")
+        if not _number(rate_prior_per_s, 1e-8, 1.0):
+            raise ValueError("rate_prior_per_s must be in [1e-8, 1] (1/s)")
+        if not _number(turn_c, 0.01, 1e3):
+            raise ValueError("turn_c must be in [0.01, 1e3] deg C")
+        if type(fault_after) is not int or not 1 <= fault_after <= 255:
+            raise ValueError("fault_after must be an int in 1..255 (readings)")
+        if not _number(quantum_c, 1e-6, 10.0):
+            raise ValueError("quantum_c must be in [1e-6, 10] deg C")
+        if stuck_change_c is not None and not _number(stuck_change_c, 1e-3, 1e3):
+            raise ValueError("stuck_change_c must be None or in [1e-3, 1e3] deg C")
+        if not _number(stuck_min_s, 0.0, 1e6):
+            raise ValueError("stuck_min_s must be in [0, 1e6] seconds")
+        if not _number(max_gap_s, 1e-3, 1e5) or not _number(restart_gap_s, 1e-3, 1e5):
+            raise ValueError("max_gap_s and restart_gap_s must be in [1e-3, 1e5] seconds")
+        # the guard checks the rest of its own settings (ValueError that names them)
         self.guard = ReadingGuard(min_c=min_temp_c, max_c=max_temp_c, quantum_c=quantum_c,
                                   spike_window=spike_window, max_gap_s=max_gap_s,
                                   restart_gap_s=restart_gap_s, stuck_change_c=stuck_change_c,
                                   stuck_min_s=stuck_min_s)
         self.detector = ChangeDetector(jump_z=12.0) if detect_changes else None
-        self.fault_after = fault_after
-        self.keep_fraction = float(keep_fraction)
-        # per-reading noise variance floor for the change detector: at least
-        # the quantisation noise q^2 / 12 (uniform rounding error), deg C^2
-        self._s2_floor = max(1e-4, self.guard.quantum_c * self.guard.quantum_c / 12.0)
-        self._mismatch_c2 = MISMATCH_C * MISMATCH_C
-        self._ambient_fixed = ambient_c
+        self._ambient_fixed = None if ambient_c is None else float(ambient_c)
         self._prior_r = float(ambient_prior_c)
-        self._prior_r_var = float(ambient_prior_sd_c) ** 2
+        self._prior_sd = float(ambient_prior_sd_c)
+        self._known_sd = float(ambient_sd_c)
         self.heater = bool(heater)
         self.memory_s = float(memory_s)
-        self._inv_mem = 1.0 / self.memory_s
+        self.memory_fraction = float(memory_fraction)
         self.block_s = float(block_s)
-        self._block_close_s = self.block_s * (1.0 - 1e-6)
         self.interval = float(interval)
         self._z = normal_quantile(0.5 + 0.5 * self.interval)
         self.settle_s = float(settle_s)
         self.max_relative_sd = float(max_relative_sd)
         self._k0 = float(rate_prior_per_s)
-        self._inv_exc2 = 1.0 / (float(excitation_c) ** 2)
         self.min_temp_c = float(min_temp_c)
         self.max_temp_c = float(max_temp_c)
-        # blob layouts without / with a measured ambient, made while the heap
-        # is fresh (a small fragmented heap may lack room for them later)
-        self._layouts = [None, None]
-        self._layout(False)
-        self._layout(True)
-        self._blob_buf = None          # save() writes into this one buffer
-        # fixed-point scales of the saved decision state: each value only
-        # matters up to its threshold, so it is clamped there and stored in
-        # 16 bits over that range (see save)
-        self._age_scale = 65535.0 / self.settle_s if self.settle_s > 0.0 else 1.0
-        # the stuck run in 1/64 s up to ~1024 s (its rate is run_expected / run_s)
-        self._run_scale = 64.0
-        stuck_c = self.guard.stuck_change_c if self.guard.stuck_change_c is not None else 1.0
-        self._run_c_scale = 65535.0 / (2.0 * stuck_c)
-        self.audit_s = float(audit_s)
+        self.fault_after = fault_after
         self.turn_c = float(turn_c)
-        # a hair above turn_c: quantised readings often differ by exactly
-        # turn_c, and must decide the same way after a float32 wake
-        self._turn_cut_c = self.turn_c * (1.0 + 1e-6)
-        self._audit_floor_c = 0.1  # deg C: changes below this are noise
+        # reading noise variance floor: the rounding error of the sensor step, q^2 / 12
+        self._noise_floor = max(1e-6, self.guard.quantum_c * self.guard.quantum_c / 12.0)
+        # save() writes into this one buffer, made while the heap is fresh (a
+        # small fragmented heap may lack 480 contiguous bytes later)
+        self._blob_buf = bl.new_frame(self._settings_byte())
         self.reset()
 
+    # ------------------------------------------------------------------ state
     def reset(self):
-        """Forget all readings, the guard's window and counts; settings are kept."""
-        self.readings = 0
-        self.rejected = 0
+        """Forget all readings, the guard's window, counts and audits; settings are kept."""
+        self.readings = 0           # accepted readings since the reset
+        self.rejected = 0           # rejected readings since the reset (or restore)
         self.last_verdict = st.ACCEPTED
+        self.changes = 0            # sudden changes detected
+        self.turns = 0              # reversals of the direction of travel
         self.guard.reset()
-        self.changes = 0          # sudden changes detected since the reset
-        self._reset_turns()       # reversals of the direction of travel
+        # audits: three horizons; *_age < 0 means no forecast is waiting
+        self._audits = (_Audit(AUDIT_FRACTIONS[0], AUDIT_MIN_S[0]),
+                        _Audit(AUDIT_FRACTIONS[1], AUDIT_MIN_S[1]),
+                        _Audit(AUDIT_FRACTIONS[2], AUDIT_MIN_S[2]))
+        self._measured = False      # an ambient came with a reading
+        # reading noise variance, deg C^2: a prior of 0.05 C sd worth NOISE_PRIOR_N readings
+        self._noise2 = max(self._noise_floor, NOISE_PRIOR_C * NOISE_PRIOR_C)
+        self._noise_n = NOISE_PRIOR_N
+        self._s2_fit = self._noise2
+        self._disturbed = False
         self._restart_fit()
 
-    def _reset_turns(self):
-        self.turns = 0
-        self._turn_dir = 0
-        self._turn_ext = 0.0
-        self._turn_seen = False
-
     def _restart_fit(self):
-        """Start the fit afresh (after a reset or a very long gap); counts are kept."""
-        self._fresh = True        # the next accepted reading starts the fit
-        self._disturbed = False
-        self._have_residual = False  # the change detector's previous block residual
-        self._last_residual = 0.0
-        self._recent_residual = 0.0
-        self._relevel_blocks = 0     # blocks still to re-level after a change
-        if self.detector is not None:
-            self.detector.reset()
-        self._age_s = 0.0
-        self._fit_age_s = 0.0  # seconds of blocks since the fit started (to TURN_WINDOW_S)
-        self._dt_cached = -1.0
-        self._half_dt = 0.0
-        self._lam_bt = -1.0  # block length of the cached forgetting factor, s
-        self._lam = 1.0
-        self._lam_sq = 1.0
-        self._ambient_dt = 0.0  # known ambient times the cached dt, deg C s
-        self._y_prev = 0.0
-        self._r_prev = 0.0
-        self._r_mean = 0.0  # smoothed measured ambient: what the future will see
-        self._u_prev = 0.0
-        self._ambient_measured = False
-        # Regressors, each relative to its weighted mean: X (temperature
-        # integral, deg C s), t (time, s; at the start of the current block),
-        # U (duty integral, s).
-        self._xr = 0.0
-        self._tr = 0.0
-        self._ur = 0.0
-        # Sums over the current block (_sum_t: of the elapsed block times).
-        self._block_n = 0
-        self._block_t = 0.0
-        self._sum_y = 0.0
-        self._sum_x = 0.0
-        self._sum_t = 0.0
-        self._sum_u = 0.0
-        # Weighted regression: weights, mean reading, centred co-moments.
+        """Zero the fit: the next accepted reading starts a new approach."""
+        self._fresh = True          # no reading in this fit yet
+        self._fit_readings = 0
+        # weighted sums: weight, sum of squared weights, effective blocks, mean reading
         self._w = 0.0
-        self._w_blocks = 0.0
-        self._w_sq = 0.0
+        self._w2 = 0.0
+        self._nb = 0.0
         self._my = 0.0
-        self._cxx = 0.0
-        self._cxt = 0.0
-        self._cxu = 0.0
-        self._ctt = 0.0
-        self._ctu = 0.0
-        self._cuu = 0.0
-        self._cxy = 0.0
-        self._cty = 0.0
-        self._cuy = 0.0
-        self._cyy = 0.0
-        # forecast self-check (see _audit)
-        self._audit_due = 1  # blocks until the next check (see _audit)
-        self._audit_pending = False
-        self._audit_level = 0.0
-        self._audit_pred = 0.0
-        self._audit_var = 0.04  # prior: 20 % relative error until checked
-        self._s2 = 1e-4
-        # solver outputs (scratch, so the answer path stores no containers)
-        self._k = 0.0
-        self._kr = 0.0
-        self._g = 0.0
-        self._i11 = 0.0
-        self._i12 = 0.0
-        self._i13 = 0.0
-        self._i22 = 0.0
-        self._i23 = 0.0
-        self._i33 = 0.0
+        # co-moments of (t, x, v, y) about their weighted means
+        self._ctt = self._ctx = self._ctu = self._cty = 0.0
+        self._cxx = self._cxu = self._cxy = 0.0
+        self._cuu = self._cuy = self._cyy = 0.0
+        # current t, x, v relative to their weighted means; the fit's age
+        self._t = self._x = self._v = 0.0
+        self._age = 0.0
+        self._g0 = 0.0              # reference gap G0 = T - R, deg C
+        self._u0 = 0.0              # reference duty
+        # the open block: readings, duration, sums of t, x, v, y
+        self._bn = 0
+        self._b_dur = 0.0
+        self._bt = self._bx = self._bv = self._by = 0.0
+        self._y_prev = 0.0          # latest accepted reading, deg C
+        self._r_prev = 0.0          # reference R at it (0 when unknown), deg C
+        self._u_prev = 0.0          # duty over the latest interval
+        self._dir = 0               # direction of travel of the block means (+1, -1, 0)
+        self._ext = 0.0             # first block mean while _dir == 0, then the extreme
+        for a in self._audits:
+            a.clear()
+        self._clear_fit()
         self._clear_answer(st.GATHERING)
+
+    def _clear_fit(self):
+        """Derived from the state by _solve (never saved)."""
+        self._ok = False
+        self._s = 0.0               # slope at G0, u0, deg C/s
+        self._k = 0.0               # rate, 1/s
+        self._g = 0.0               # heater gain, K/s
+        self._p_ss = self._p_sk = self._p_sg = self._p_kk = self._p_kg = self._p_gg = 0.0
+        self._var_my = 0.0
 
     def _clear_answer(self, code):
         self.status = code
         self.eta_s = None
         self.eta_low_s = None
         self.eta_high_s = None
+        self.eta_rel_sd = None
         self.rate_per_s = None
         self.equilibrium_c = None
         self.ambient_est_c = None
         self.gain_k_per_s = 0.0
         self.temp_est_c = None
-        self.eta_rel_sd = None
 
-    # ------------------------------------------------------------------ update
+    # ---------------------------------------------------------------- readings
     def update_ticks(self, temp_c, ticks_ms, ambient_c=None, duty=0.0):
-        """Add a reading stamped with MicroPython-style millisecond ticks.
+        """Add a reading stamped with millisecond ticks that wrap at 2**30.
 
-        ``ticks_ms`` is an int from a counter that wraps at 2**30 (as
-        ``time.ticks_ms()``); the difference to the previous call is taken
-        wrap-safe. Returns the reading's verdict code (see :meth:`update`).
-        After :meth:`restore` the tick reference is unknown (tick counters
-        restart at boot): the first call only sets it and returns
-        ``BAD_INPUT``; prefer :meth:`update` with the slept time there.
-        Rejections decided before the spike gate allocate nothing.
+        ``ticks_ms`` is an int as from ``time.ticks_ms()``; the difference to
+        the previous call is taken wrap-safe. Returns the verdict code (see
+        :meth:`update`). After :meth:`restore` the first call only sets the
+        tick reference and returns ``BAD_INPUT``; prefer :meth:`update` with
+        the slept time there.
         """
-        inputs_ok = self._inputs_ok(ambient_c, duty)
-        verdict = self.guard.check_ticks(temp_c, ticks_ms, self._expected_rate(temp_c, duty),
-                                         inputs_ok)
-        if verdict:
-            self.rejected += 1
-            self.last_verdict = verdict
-            return verdict
-        return self._accept(temp_c, ambient_c, duty)
+        ok = self._inputs_ok(ambient_c, duty)
+        verdict = self.guard.check_ticks(temp_c, ticks_ms,
+                                         self._expected_rate(temp_c, duty) if ok else 0.0, ok)
+        return self._after_guard(verdict, temp_c, ambient_c, duty)
 
     def update(self, temp_c, dt_s, ambient_c=None, duty=0.0):
         """Add one reading; return its verdict (``status.ACCEPTED`` == 0 if used).
 
         ``temp_c``: the liquid reading, deg C. ``dt_s``: seconds since the
-        previous call (ignored on the first reading). ``ambient_c``: a
-        measured ambient for this reading, deg C, or ``None``. ``duty``: heater
-        duty in [0, 1] applied since the previous reading. Never raises for a
-        bad reading: it is rejected with a verdict code from
-        :mod:`tinytherm.status`, counted (``rejected``, and per reason in
-        ``guard.count(verdict)``), and leaves the fit untouched; the time it
-        spanned still counts for the next accepted reading.
+        previous call (ignored on the first reading). ``ambient_c``: a measured
+        ambient for this reading, deg C, or ``None``. ``duty``: heater duty in
+        [0, 1] applied since the previous reading. Never raises: a bad reading
+        or argument is rejected with a verdict code from :mod:`tinytherm.status`,
+        counted, and leaves the fit untouched (its time still counts).
         """
-        inputs_ok = self._inputs_ok(ambient_c, duty)
-        verdict = self.guard.check(temp_c, dt_s, self._expected_rate(temp_c, duty), inputs_ok)
-        if verdict:
-            self.rejected += 1
-            self.last_verdict = verdict
-            return verdict
-        return self._accept(temp_c, ambient_c, duty)
+        try:
+            if not _number(dt_s, -1e300, 1e300):
+                dt_s = math.nan  # a huge int, a string, None: BAD_INPUT in the guard
+        except (OverflowError, ValueError):  # MicroPython compares big ints as floats
+            dt_s = math.nan
+        ok = self._inputs_ok(ambient_c, duty)
+        verdict = self.guard.check(temp_c, dt_s,
+                                   self._expected_rate(temp_c, duty) if ok else 0.0, ok)
+        return self._after_guard(verdict, temp_c, ambient_c, duty)
 
     def _inputs_ok(self, ambient_c, duty):
-        """Duty in [0, 1] and ambient None or a plausible temperature; comparisons only."""
-        t = type(duty)
-        if not (t is float or t is int) or not 0.0 <= duty <= 1.0:
+        """Duty a number in [0, 1], ambient None or a plausible temperature."""
+        if not _number(duty, 0.0, 1.0):
             return False
-        if ambient_c is None:
-            return True
-        t = type(ambient_c)
-        return (t is float or t is int) and self.min_temp_c <= ambient_c <= self.max_temp_c
+        return ambient_c is None or _number(ambient_c, self.min_temp_c, self.max_temp_c)
 
     def _expected_rate(self, temp_c, duty):
-        """Model dT/dt (deg C/s) at ``temp_c``, only when the reading repeats exactly.
+        """Model dT/dt (deg C/s) when the reading repeats exactly (the guard's stuck test)."""
+        if not self._ok or temp_c != self._y_prev:
+            return 0.0
+        return self._s - self._k * (temp_c - self._r_prev - self._g0) + self._g * (duty - self._u0)
 
-        Feeds the guard's stuck test; 0.0 when the value changed or there is
-        no fit yet, so a changing reading costs nothing here.
-        """
-        if self._fresh or temp_c != self._y_prev or self._w_blocks < 3.0:
-            return 0.0
-        if not self._solve(1e-4 / (self._k0 * self._k0), 0.0, 0.0, 1e-4):
-            return 0.0
-        k = self._k
-        if not k > 0.0:
-            return 0.0
-        if self._ambient_measured or self._ambient_fixed is not None:
-            r = self._r_prev
-        else:
-            r = self._kr / k
-        return k * (r - temp_c) + self._g * duty
-
-    def _accept(self, temp_c, ambient_c, duty):
-        self.last_verdict = st.ACCEPTED
-        if self._fresh:
-            self._start(temp_c, ambient_c, duty)
-            return st.ACCEPTED
-        gap = self.guard.gap
-        if gap == GAP_RESTART:
+    def _after_guard(self, verdict, temp_c, ambient_c, duty):
+        self.last_verdict = verdict
+        if verdict:
+            self.rejected += 1
+            return verdict
+        temp_c = float(temp_c)
+        if not self.heater:
+            duty = 0.0
+        if ambient_c is not None:
+            self._measured = True
+        if self._fresh or self.guard.gap == GAP_RESTART:
             self._restart_fit()
             self._start(temp_c, ambient_c, duty)
-            return st.ACCEPTED
-        if gap == GAP_WIDEN:
-            # forget in proportion to the time without readings: the world may
-            # have moved on; lam = exp(-gap / memory)
-            try:
-                lam = math.exp(-self.guard.elapsed_s * self._inv_mem)
-            except (ValueError, OverflowError):
-                lam = 0.0
-            self._scale_information(lam)
-        self._step(temp_c, self.guard.elapsed_s, ambient_c, duty)
+        else:
+            self._step(temp_c, self.guard.elapsed_s, ambient_c, float(duty))
+        self.readings += 1
+        self._fit_readings += 1
         return st.ACCEPTED
 
+    def _reference(self, ambient_c, dt_s):
+        """The reference R for this reading, deg C: fixed, measured (smoothed) or 0."""
+        if self._ambient_fixed is not None and not self._measured:
+            return self._ambient_fixed
+        if not self._measured:
+            return 0.0
+        if ambient_c is None:
+            return self._r_prev
+        if self._fresh:
+            return float(ambient_c)
+        a = 1.0 - _exp_neg(dt_s / AMBIENT_SMOOTH_S)
+        return self._r_prev + a * (ambient_c - self._r_prev)
+
     def _start(self, temp_c, ambient_c, duty):
-        """First reading of a (re)started fit (the state was zeroed by _restart_fit)."""
-        self.readings += 1
+        """First reading of a (re)started fit: it is the first block's first reading."""
+        r = self._reference(ambient_c, 0.0)
         self._fresh = False
         self._y_prev = temp_c
+        self._r_prev = r
         self._u_prev = duty
-        if ambient_c is not None:
-            self._ambient_measured = True
-            self._r_prev = ambient_c
-        elif self._ambient_fixed is not None:
-            self._r_prev = self._ambient_fixed
-        self._r_mean = self._r_prev
+        self._g0 = temp_c - r
+        self._u0 = duty
+        self._ext = temp_c
+        self._bn = 1
+        self._by = temp_c
+        self._close_block()
 
     def _step(self, temp_c, dt_s, ambient_c, duty):
-        """One accepted reading after the first: advance integrals, add to block."""
-        self.readings += 1
-        if dt_s != self._dt_cached:
-            self._dt_cached = dt_s
-            self._half_dt = 0.5 * dt_s
-            if self._ambient_fixed is not None:
-                self._ambient_dt = self._ambient_fixed * dt_s
-        yp = self._y_prev
+        """An accepted reading after the first: advance the integrals, add to the block."""
+        r = self._reference(ambient_c, dt_s)
+        # noise: successive differences less the fitted slope, var = 2 sigma^2
+        d = temp_c - self._y_prev - self._s * dt_s if self._ok else 0.0
+        if self._ok and dt_s <= 120.0:
+            n = self._noise_n + 1 if self._noise_n < 100 else 100
+            self._noise_n = n
+            v = self._noise2 + (0.5 * d * d - self._noise2) / n
+            self._noise2 = v if v > self._noise_floor else self._noise_floor
+        if duty != self._u_prev:
+            for a in self._audits:
+                a.clear()  # the forecasts assumed the old duty
+        # trapezoid: x += ((G_n + G_(n-1)) / 2 - G0) dt, v += (u - u0) dt
+        self._x += (0.5 * (temp_c - r + self._y_prev - self._r_prev) - self._g0) * dt_s
+        self._v += (duty - self._u0) * dt_s
+        self._t += dt_s
+        self._age += dt_s
+        self._b_dur += dt_s
         self._y_prev = temp_c
-        # trapezoid: X += (R - (y_n + y_(n-1)) / 2) dt, R = 0 when estimated
-        if self._ambient_measured:
-            rn = self._r_prev if ambient_c is None else ambient_c
-            xr = self._xr + (rn + self._r_prev - temp_c - yp) * self._half_dt
-            self._r_prev = rn
-        elif self._ambient_fixed is not None:
-            xr = self._xr + self._ambient_dt - (temp_c + yp) * self._half_dt
-        else:
-            xr = self._xr - (temp_c + yp) * self._half_dt
-        self._xr = xr
-        self._sum_x += xr
-        self._sum_y += temp_c
-        if self.heater:
-            # duty is held over the interval: U += u dt exactly
-            ur = self._ur + duty * dt_s
-            self._ur = ur
-            if duty != self._u_prev:
-                # the forecast under check assumed the old duty: not a test
-                # of the model any more
-                self._audit_pending = False
-            self._u_prev = duty
-            self._sum_u += ur
-        self._block_n += 1
-        bt = self._block_t + dt_s
-        self._block_t = bt
-        if not (self._ambient_measured or self._ambient_fixed is not None):
-            # the time regressor t = _tr + _block_t within a block: only the
-            # elapsed times are summed, _tr moves once per block
-            self._sum_t += bt
-        # (a hair below block_s: a block of round steps, 5 x 2.0 s, closes the
-        # same way whether its time was carried over a wake as float32 or not)
-        if bt >= self._block_close_s or self._block_n >= MAX_BLOCK_READINGS:
-            self._close_block(bt)
+        self._r_prev = r
+        self._u_prev = duty
+        self._bn += 1
+        self._bt += self._t
+        self._bx += self._x
+        self._bv += self._v
+        self._by += temp_c
+        # blocks grow with the fit's age: every reading counts early on
+        target = self._age * 0.0625
+        if target > self.block_s:
+            target = self.block_s
+        if self._b_dur >= target or self._bn >= MAX_BLOCK_READINGS:
+            self._close_block()
 
-    def _close_block(self, bt):
-        n = self._block_n
-        inv_n = 1.0 / n
-        # Deviations of the block means from the weighted means (regressors are
-        # stored relative to their means, so their block mean is the deviation).
-        dx = self._sum_x * inv_n
-        y_mean = self._sum_y * inv_n
-        dy = y_mean - self._my
-        heater = self.heater
-        centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
-        if centred_t:
-            # block mean of t (relative to its weighted mean); then t at the
-            # block's end, from where the next block's elapsed times count
-            dt_ = self._tr + self._sum_t * inv_n
-            self._tr += bt
-        else:
-            dt_ = 0.0
-        du = self._sum_u * inv_n if heater else 0.0
-        self._sum_x = 0.0
-        self._sum_y = 0.0
-        self._sum_t = 0.0
-        self._sum_u = 0.0
-        self._block_n = 0
-        self._block_t = 0.0
-        if self._ambient_measured:
-            # a cycling fridge or a draughty room: predict with the ambient's
-            # recent mean (time constant memory_s), not its latest swing
-            f = bt * self._inv_mem
-            self._r_mean += (self._r_prev - self._r_mean) * (f if f < 1.0 else 1.0)
-        if self._age_s < self.settle_s:
-            self._age_s += bt
-        if self._fit_age_s < TURN_WINDOW_S:
-            # whole 1/16 s steps: exact in float32 and in the saved int16
-            self._fit_age_s += math.floor(bt * 16.0) * 0.0625
-            if not heater and self._turned(y_mean):
-                # The liquid reversed early on: the readings so far belong to
-                # another process (a probe warming up after the pour); start
-                # afresh. Later reversals (a top-up) are the change detector's.
-                self.turns += 1
-                self._restart_fit()
+    def _close_block(self):
+        n = self._bn
+        inv = 1.0 / n
+        tb = self._bt * inv
+        xb = self._bx * inv
+        vb = self._bv * inv
+        yb = self._by * inv
+        if self._ok and self.detector is not None and self._nb >= DETECT_MIN_BLOCKS:
+            pred = self._my + self._s * tb - self._k * xb + self._g * vb
+            sd = math.sqrt(self._noise2 * inv + 4.0 * self._var_my + MISMATCH_C * MISMATCH_C)
+            if self.detector.update(yb - pred, sd):
+                self.changes += 1
+                self._begin_again(True)
                 return
-        if self._relevel_blocks:
-            # just after a change: the sensor is still catching up; move the
-            # level onto these readings and keep them out of the fit
-            self._relevel_blocks -= 1
-            if self._solve(self._s2_floor / (self._k0 * self._k0), 0.0, 0.0, self._s2_floor):
-                self._my += dy - (self._k * dx + self._kr * dt_ + self._g * du)
-            return
-        if self.detector is not None and self._w_blocks >= 2.5 \
-                and self._watch(n, dx, dy, dt_, du):
-            return  # the block that showed the change stays out of the fit
-        # Weight q = rho * n with rho in [0, 1] the block's excitation: how far
-        # its mean reading sits from the recent mean. West's weighted update:
-        #   W <- lam W + q;  a = q / W;  m <- m + a (z - m)
-        #   C <- lam C + q (1 - a) (z - m_old)(y - m_old)
-        # with lam = exp(-rho * block_t / memory): no new information, no forgetting.
-        w = self._w
-        full = w < 3.0 * n
-        if not full:
-            rho = dy * dy * self._inv_exc2
-            full = rho >= 1.0
-        if full:
-            # a fully informative block (the usual case while the liquid
-            # moves): rho = 1, and regular sampling repeats the block length,
-            # so the forgetting factor comes from a cache (no float on the heap)
-            rho = 1.0
-            q = n
-            if bt == self._lam_bt:
-                lam = self._lam
-                lam2 = self._lam_sq
-            else:
-                lam = _exp_neg(bt * self._inv_mem)
-                lam2 = lam * lam
-                self._lam_bt = bt
-                self._lam = lam
-                self._lam_sq = lam2
-        else:
-            q = rho * n
-            lam = _exp_neg(rho * bt * self._inv_mem)
-            lam2 = lam * lam
-        w = lam * w + q
-        if not w > 0.0:
-            return
+        # forgetting: time constant memory_fraction x age, clamped
+        mem = self.memory_fraction * self._age
+        if mem < MIN_MEMORY_S:
+            mem = MIN_MEMORY_S
+        elif mem > self.memory_s:
+            mem = self.memory_s
+        lam = _exp_neg(self._b_dur / mem)
+        # West's weighted update with the new point at (tb, xb, vb) (means are 0)
+        w = lam * self._w + n
+        f = n / w
+        h = n * (1.0 - f)
+        dy = yb - self._my
+        self._ctt = lam * self._ctt + h * tb * tb
+        self._ctx = lam * self._ctx + h * tb * xb
+        self._ctu = lam * self._ctu + h * tb * vb
+        self._cty = lam * self._cty + h * tb * dy
+        self._cxx = lam * self._cxx + h * xb * xb
+        self._cxu = lam * self._cxu + h * xb * vb
+        self._cxy = lam * self._cxy + h * xb * dy
+        self._cuu = lam * self._cuu + h * vb * vb
+        self._cuy = lam * self._cuy + h * vb * dy
+        self._cyy = lam * self._cyy + h * dy * dy
+        self._my += f * dy
         self._w = w
-        self._w_blocks = lam * self._w_blocks + rho  # for the degrees of freedom
-        # sum of squared per-reading weights: with forgetting the variance of
-        # the estimate is about (W2 / W) s^2 times the inverse co-moment matrix
-        self._w_sq = lam2 * self._w_sq + rho * q
-        a = q / w
-        self._my += a * dy
-        # the regressors' means move by a * deviation: keep them relative
-        self._xr -= a * dx
-        b = q - q * a
-        bdx = b * dx
-        self._cxx = lam * self._cxx + bdx * dx
-        self._cxy = lam * self._cxy + bdx * dy
-        self._cyy = lam * self._cyy + b * dy * dy
-        if centred_t:
-            self._tr -= a * dt_
-            bdt = b * dt_
-            self._cxt = lam * self._cxt + bdx * dt_
-            self._ctt = lam * self._ctt + bdt * dt_
-            self._cty = lam * self._cty + bdt * dy
-        if heater:
-            self._ur -= a * du
-            bdu = b * du
-            self._cxu = lam * self._cxu + bdx * du
-            self._cuu = lam * self._cuu + bdu * du
-            self._cuy = lam * self._cuy + bdu * dy
-            if centred_t:
-                self._ctu = lam * self._ctu + bdt * du
-        # forecast self-check, counted in whole blocks (an exact integer state)
-        self._audit_due -= 1
-        if self._audit_due <= 0:
-            self._audit(y_mean, bt)
+        self._w2 = lam * lam * self._w2 + n
+        self._nb = lam * self._nb + 1.0
+        # new origin: the weighted means
+        self._t -= f * tb
+        self._x -= f * xb
+        self._v -= f * vb
+        # new reference gap and duty: the latest reading's, x' = x - dG t, v' = v - du t
+        dg = self._y_prev - self._r_prev - self._g0
+        t = self._t
+        self._cxx += dg * (dg * self._ctt - 2.0 * self._ctx)
+        self._ctx -= dg * self._ctt
+        self._cxu -= dg * self._ctu
+        self._cxy -= dg * self._cty
+        self._x -= dg * t
+        self._g0 += dg
+        du = self._u_prev - self._u0
+        if du != 0.0:
+            self._cuu += du * (du * self._ctt - 2.0 * self._ctu)
+            self._ctu -= du * self._ctt
+            self._cxu -= du * self._ctx
+            self._cuy -= du * self._cty
+            self._v -= du * t
+            self._u0 += du
+        self._bn = 0
+        self._b_dur = 0.0
+        self._bt = self._bx = self._bv = self._by = 0.0
+        self._s2_fit = self._noise2
+        self._solve()
+        if self._ok:
+            self._audit()
+        if self._turned(yb):
+            self.turns += 1
+            self._begin_again(False)
 
-    def _turned(self, y_mean):
-        """Track the direction of travel of block means; True at a reversal.
+    def _begin_again(self, disturbed):
+        """Restart the fit from the latest reading (a jump or a turn)."""
+        y = self._y_prev
+        r = self._r_prev
+        u = self._u_prev
+        self._restart_fit()
+        if disturbed:
+            self._disturbed = True
+        if self.detector is not None:
+            self.detector.reset()
+        self._fresh = False
+        self._y_prev = y
+        self._r_prev = r
+        self._u_prev = u
+        self._g0 = y - r
+        self._u0 = u
+        self._ext = y
+        self._bn = 1
+        self._by = y
+        self._close_block()
 
-        A reversal is a retreat of more than ``turn_c`` from the extreme block
-        mean reached in the direction of travel. Without a heater a first-order
-        liquid never reverses, so whatever came before belongs to another
-        process.
-        """
-        direction = self._turn_dir
-        ext = self._turn_ext
-        if direction == 0:
-            if not self._turn_seen:
-                self._turn_seen = True
-                self._turn_ext = y_mean
-            elif abs(y_mean - ext) > self._turn_cut_c:
-                self._turn_dir = 1 if y_mean > ext else -1
-                self._turn_ext = y_mean
+    def _turned(self, yb):
+        """Track the extreme of the block means; True on a retreat beyond turn_c."""
+        cut = self.turn_c
+        noise = 4.0 * math.sqrt(self._noise2)
+        if noise > cut:
+            cut = noise
+        if self._dir == 0:
+            if yb - self._ext > cut:
+                self._dir = 1
+                self._ext = yb
+            elif self._ext - yb > cut:
+                self._dir = -1
+                self._ext = yb
             return False
-        if (y_mean - ext) * direction > 0.0:
-            self._turn_ext = y_mean
+        if (yb - self._ext) * self._dir > 0.0:
+            self._ext = yb
             return False
-        if (ext - y_mean) * direction > self._turn_cut_c:
-            self._turn_dir = -direction
-            self._turn_ext = y_mean
-            return True
-        return False
+        return not self.heater and (self._ext - yb) * self._dir > cut
 
-    def _watch(self, n, dx, dy, dt_, du):
-        """Feed the block's residual against the fit so far to the change detector.
-
-        Residual of the block mean, ``r = dy - (k dx + kR dt + g du)`` (all as
-        deviations from the weighted means), against its standard deviation
-        ``sqrt(s2 / n)`` with ``s2`` the fit's per-reading residual variance.
-        Returns True when a change was detected (and handled).
-        """
-        if not self._solve(self._s2_floor / (self._k0 * self._k0), 0.0, 0.0, self._s2_floor):
-            return False
-        k = self._k
-        kr = self._kr
-        g = self._g
-        dof = self._w_blocks - 3.0
-        if dof < 1.0:
-            dof = 1.0
-        s2 = (self._cyy - k * self._cxy - kr * self._cty - g * self._cuy) / dof
-        if s2 < self._s2_floor:
-            s2 = self._s2_floor
-        elif s2 > _DETECT_S2_CAP:
-            # a fit spoilt by an earlier, undetected change must not blind the
-            # detector to the next one
-            s2 = _DETECT_S2_CAP
-        r = dy - (k * dx + kr * dt_ + g * du)
-        # recent lack of fit (about three blocks): where the readings sit now
-        # relative to a fit that averages over memory_s
-        self._recent_residual += 0.3 * (r - self._recent_residual)
-        prev = self._last_residual
-        self._last_residual = r
-        if not self._have_residual:
-            self._have_residual = True
-            return False
-        # The detector sees the change of the residual from one block to the
-        # next: a slowly growing bias (ambient drift, a liquid at rest between
-        # two quantisation steps, a loss law that is not quite exponential)
-        # cancels, a jump shows at once and a changed rate as a steady shift.
-        # Its standard deviation: two blocks' noise s2 / n plus an allowance.
-        if not self.detector.update(r - prev, math.sqrt(2.0 * s2 / n + self._mismatch_c2)):
-            return False
-        # A change: keep a fraction of the information (k, R, g stay as prior
-        # knowledge), re-level the mean onto the next two blocks (so the old
-        # data agree with the new level: a top-up shifts the level, not k),
-        # and hold the answer at DISTURBED until it re-converges.
-        self.changes += 1
-        self._disturbed = True
-        self._audit_pending = False  # the forecast under check did not know of it
-        self._scale_information(self.keep_fraction)
-        self._relevel_blocks = RELEVEL_BLOCKS
-        self._age_s = 0.0
-        self._have_residual = False
-        return True
-
-    def _scale_information(self, f):
-        """Multiply the fit's information by ``f`` in [0, 1]; means and estimates stay."""
-        self._w *= f
-        self._w_blocks *= f
-        self._w_sq *= f * f
-        self._cxx *= f
-        self._cxt *= f
-        self._cxu *= f
-        self._ctt *= f
-        self._ctu *= f
-        self._cuu *= f
-        self._cxy *= f
-        self._cty *= f
-        self._cuy *= f
-        self._cyy *= f
-
-    # ----------------------------------------------------------------- answer
-    def _solve(self, p_kk, p_tt, p_kt, p_gg, p_k0=None):
-        """Solve the ridge-regularised normal equations for (k, kR, g).
-
-        ``p_*`` are prior precisions added to the co-moment matrix (scaled by
-        the residual variance). Unused parameters get an identity row. Sets
-        ``_k, _kr, _g`` and the inverse matrix ``_i11 .. _i33``. Returns False
-        when the system is singular.
-        """
-        centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
-        a11 = self._cxx + p_kk
-        # only the k prior itself pulls towards k0 (the ambient pseudo
-        # observation kR - R0 k = 0 has mean zero)
-        b1 = self._cxy + (p_kk if p_k0 is None else p_k0) * self._k0
-        if not (centred_t or self.heater):
-            # one parameter (ambient known or measured, no heater): k alone;
-            # the small systems are solved directly, which on MicroPython
-            # saves the heap of the padded 3x3 (this runs at every block)
-            if not a11 > 0.0:
-                return False
-            i11 = 1.0 / a11
-            self._k = b1 * i11
-            self._kr = 0.0
-            self._g = 0.0
-            self._i11 = i11
-            self._i12 = 0.0
-            self._i13 = 0.0
-            self._i22 = 0.0
-            self._i23 = 0.0
-            self._i33 = 0.0
-            return True
-        if not (centred_t and self.heater):
-            # two parameters: (k, kR) or (k, g)
-            if centred_t:
-                a12 = self._cxt + p_kt
-                a22 = self._ctt + p_tt
-                b2 = self._cty
-            else:
-                a12 = self._cxu
-                a22 = self._cuu + p_gg
-                b2 = self._cuy
-            det = a11 * a22 - a12 * a12
-            if not det > 0.0:
-                return False
-            inv = 1.0 / det
-            i11 = a22 * inv
-            i12 = -a12 * inv
-            i22 = a11 * inv
-            self._k = i11 * b1 + i12 * b2
-            second = i12 * b1 + i22 * b2
-            self._i11 = i11
-            if centred_t:
-                self._kr = second
-                self._g = 0.0
-                self._i12 = i12
-                self._i22 = i22
-                self._i13 = 0.0
-                self._i33 = 0.0
-            else:
-                self._kr = 0.0
-                self._g = second
-                self._i13 = i12
-                self._i33 = i22
-                self._i12 = 0.0
-                self._i22 = 0.0
-            self._i23 = 0.0
-            return True
-        if centred_t:
-            a12 = self._cxt + p_kt
-            a22 = self._ctt + p_tt
-            b2 = self._cty
+    # --------------------------------------------------------------------- fit
+    def _solve(self):
+        """Ridge-regularised least squares for (s, -k, g); caches the fit."""
+        self._clear_fit()
+        if self._nb < 1.5 or not self._w > 0.0:
+            return
+        s2 = self._s2_fit  # the noise level at the last block (a restore re-solves with it)
+        # loose prior k ~ N(0, k0^2): a straight line until the data show a bend
+        lk = s2 / (self._k0 * self._k0)
+        if not self._solve_with(lk, 0.0, 0.0, s2):
+            return
+        # the equilibrium hint E ~ N(e, sd^2), used only when moving towards it: one
+        # pseudo-observation 0 = s - k (e - G0) with sd k sd (scale k from the slope)
+        if self._ambient_fixed is not None or self._measured:
+            e_gap = 0.0
+            sd = self._known_sd
         else:
-            a12 = 0.0
-            a22 = 1.0
-            b2 = 0.0
-        if self.heater:
-            a13 = self._cxu
-            a23 = self._ctu if centred_t else 0.0
-            a33 = self._cuu + p_gg
+            e_gap = self._prior_r
+            sd = self._prior_sd
+        dist = e_gap - self._g0
+        slope = self._s - self._g * self._u0   # slope without heat input
+        if (dist > 2.0 * sd or dist < -2.0 * sd) and slope * dist > 0.0:
+            self._solve_with(0.0, s2 * dist * dist / (slope * slope * sd * sd), dist, s2)
+        if self._ok and self._k < 0.0:
+            # accelerating: the exact straight line instead
+            self._solve_with(-1.0, 0.0, 0.0, s2)
+
+    def _solve_with(self, lk, lh, dist, s2):
+        """One solve with prior weight ``lk`` on k ~ N(0, s2 / lk) (``lk < 0`` pins
+        k = 0) and weight ``lh`` on the hint 0 = s + dist * m (m = -k)."""
+        heater = self.heater
+        a11 = self._ctt + lh
+        a12 = self._ctx + lh * dist
+        a22 = self._cxx + (lk if lk > 0.0 else 0.0) + lh * dist * dist
+        b1 = self._cty
+        b2 = self._cxy
+        if heater:
+            lg = s2  # prior g ~ N(0, 1 K/s)
+            a13 = self._ctu
+            a23 = self._cxu
+            a33 = self._cuu + lg
             b3 = self._cuy
         else:
-            a13 = 0.0
-            a23 = 0.0
+            a13 = a23 = b3 = 0.0
             a33 = 1.0
-            b3 = 0.0
+        if lk < 0.0:
+            a12 = a23 = 0.0
+            a22 = 1.0
+            b2 = 0.0
         # symmetric 3x3 inverse by cofactors
         c11 = a22 * a33 - a23 * a23
         c12 = a13 * a23 - a12 * a33
         c13 = a12 * a23 - a13 * a22
+        c22 = a11 * a33 - a13 * a13
+        c23 = a12 * a13 - a11 * a23
+        c33 = a11 * a22 - a12 * a12
         det = a11 * c11 + a12 * c12 + a13 * c13
-        if not det > 0.0:
+        if not det > 1e-300 * (1.0 + a11 * a22 * a33):
             return False
         inv = 1.0 / det
-        i11 = c11 * inv
-        i12 = c12 * inv
-        i13 = c13 * inv
-        i22 = (a11 * a33 - a13 * a13) * inv
-        i23 = (a12 * a13 - a11 * a23) * inv
-        i33 = (a11 * a22 - a12 * a12) * inv
-        self._k = i11 * b1 + i12 * b2 + i13 * b3
-        self._kr = (i12 * b1 + i22 * b2 + i23 * b3) if centred_t else 0.0
-        self._g = (i13 * b1 + i23 * b2 + i33 * b3) if self.heater else 0.0
-        self._i11 = i11
-        self._i12 = i12
-        self._i13 = i13
-        self._i22 = i22
-        self._i23 = i23
-        self._i33 = i33
+        s = (c11 * b1 + c12 * b2 + c13 * b3) * inv
+        m = (c12 * b1 + c22 * b2 + c23 * b3) * inv
+        g = (c13 * b1 + c23 * b2 + c33 * b3) * inv if heater else 0.0
+        if lk < 0.0:
+            m = 0.0
+        # residual variance per reading: weighted SSR over the effective blocks
+        ssr = self._cyy - s * b1 - m * (self._cxy) - g * b3
+        dof = self._nb - (3.0 if heater else 2.0)
+        s2r = ssr / dof if dof > 1.0 else s2
+        if s2r < s2:
+            s2r = s2
+        scale = s2r * self._w2 / self._w * inv
+        if not (_finite(s) and _finite(m) and _finite(g) and _finite(scale)):
+            return False
+        self._s = s
+        self._k = -m
+        self._g = g
+        # covariance of (s, k, g): k = -m flips the sign of its cross terms
+        self._p_ss = c11 * scale
+        self._p_sk = -c12 * scale
+        self._p_sg = c13 * scale
+        self._p_kk = c22 * scale if lk >= 0.0 else 0.0  # (pinned: no spread)
+        self._p_kg = -c23 * scale
+        self._p_gg = c33 * scale if heater else 0.0
+        self._var_my = s2r * self._w2 / (self._w * self._w)
+        self._ok = True
         return True
 
-    def _fit(self, centred_t, heater):
-        """Solve for (k, kR, g) with the priors; sets ``_k, _kr, _g, _s2``.
+    def _level(self):
+        """Fitted temperature at the latest reading, deg C."""
+        return self._my + self._s * self._t - self._k * self._x + self._g * self._v
 
-        Priors enter as pseudo-observations, in units of the residual variance
-        s2: k ~ N(k0, k0^2); g ~ N(0, (1 K/s)^2); and, for an estimated
-        ambient, kR - R0 k ~ N(0, (k sd_R)^2). s2 and k are refined over
-        three passes. Returns False when the system is singular.
-        """
-        n_par = 2.0 + (1.0 if centred_t else 0.0) + (1.0 if heater else 0.0)
-        dof = self._w_blocks - n_par
-        if dof < 1.0:
-            dof = 1.0
-        s2 = 1e-4  # deg C^2: a floor of about one hundredth of a degree
-        k = self._k0
-        sd_r = math.sqrt(self._prior_r_var)
-        for _ in (0, 1, 2, 3):
-            p_k0 = s2 / (self._k0 * self._k0)
-            p_kk = p_k0
-            p_gg = s2
-            p_tt = 0.0
-            p_kt = 0.0
-            if centred_t:
-                kk = k if k > 0.1 * self._k0 else 0.1 * self._k0
-                p_r = s2 / (kk * kk * self._prior_r_var)
-                if _ == 3:
-                    # The free fit put the ambient where no room is (or made k
-                    # negative): the curvature is not Newton's. Pin the ambient
-                    # to the prior and fit k alone.
-                    p_r *= 1e6
-                r0 = self._prior_r
-                p_kk += p_r * r0 * r0
-                p_tt = p_r
-                p_kt = -p_r * r0
-            if _ == 3:
-                r_fit = self._kr / k if k > 0.0 else _INF
-                if not (centred_t and (k <= 0.0 or abs(r_fit - self._prior_r) > 3.0 * sd_r)):
-                    break
-            if not self._solve(p_kk, p_tt, p_kt, p_gg, p_k0):
-                return False
-            k = self._k
-            rss = self._cyy - k * self._cxy - self._kr * self._cty - self._g * self._cuy
-            s2_new = rss / dof
-            s2 = s2_new if s2_new > 1e-4 else 1e-4
-        self._s2 = s2
-        return True
+    def _slope(self, level):
+        """Fitted dT/dt at ``level`` (deg C) and the latest duty, deg C/s."""
+        return (self._s - self._k * (level - self._r_prev - self._g0)
+                + self._g * (self._u_prev - self._u0))
 
-    def _audit(self, level_c, block_t_s):
-        """Check the forecast made one horizon ago; make the next one.
+    # ------------------------------------------------------------------ audits
+    def _audit(self):
+        level = self._level()
+        slope = self._slope(level)
+        need = 4.0 * math.sqrt(self._var_level()) + 0.5 * self.guard.quantum_c
+        for a in self._audits:
+            a.check(self._age, level, slope, self._k, need)
 
-        The model's own forecasts are its best test: every horizon (``audit_s``
-        or longer for a slow liquid) the change it predicted is compared with the change
-        the readings show (block means), and the squared relative error feeds
-        an exponentially weighted mean. It is the model-mismatch part of the
-        uncertainty (non-exponential physics, a lid, a sensor lag), which the
-        residual variance of the fit cannot see.
-        """
-        if self._audit_pending:
-            actual = level_c - self._audit_level
-            pred = self._audit_pred
-            scale = abs(pred)
-            if scale < self._audit_floor_c:
-                scale = self._audit_floor_c
-            err = (actual - pred) / scale
-            self._audit_var = 0.8 * self._audit_var + 0.2 * err * err
-            self._audit_pending = False
-        due = int(self.audit_s / block_t_s + 0.5) if block_t_s > 0.0 else 1
-        if due < 1:
-            due = 1
-        self._audit_due = due if due < MAX_AUDIT_BLOCKS else MAX_AUDIT_BLOCKS
-        centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
-        if self._w_blocks < 3.0 or not self._fit(centred_t, self.heater):
-            return
-        k = self._k
-        if not k > 0.0:
-            return
-        kr = self._kr
-        g = self._g
-        r = kr / k if centred_t else self._r_mean
-        eq = r + g * self._u_prev / k
-        lev = self._level(k, kr, g, self._my)
-        # horizon: long enough for the model to predict about 1 deg C of
-        # change (a slow fermenter needs minutes, a kettle seconds), between
-        # audit_s and 20 audit_s
-        rate = abs(k * (eq - lev))
-        horizon = 1.0 / rate if rate > 0.0 else _INF
-        if horizon < self.audit_s:
-            horizon = self.audit_s
-        elif horizon > 20.0 * self.audit_s:
-            horizon = 20.0 * self.audit_s
-        # rounded to the nearest block (not up): a horizon of round numbers,
-        # 60 s over 10 s blocks, gives the same count after a wake
-        blocks = int(horizon / block_t_s + 0.5) if block_t_s > 0.0 else 1
-        if blocks < 1:
-            blocks = 1
-        if blocks > MAX_AUDIT_BLOCKS:
-            blocks = MAX_AUDIT_BLOCKS  # the saved state holds the countdown in 5 bits
-        self._audit_due = blocks
-        horizon = blocks * block_t_s  # the blocks to come last about as long as this one
-        try:
-            decay = math.exp(-k * horizon)
-        except (ValueError, OverflowError):
-            decay = 0.0
-        self._audit_level = level_c
-        self._audit_pred = (eq - lev) * (1.0 - decay)
-        self._audit_pending = True
+    def _audit_var(self, eta_s):
+        """Forecast-error variance of log(eta) at horizon ``eta_s`` (interpolated in log h)."""
+        a0 = self._audits[0]
+        a1 = self._audits[1]
+        a2 = self._audits[2]
+        h0 = a0.horizon_s(self._age)
+        h2 = a2.horizon_s(self._age)
+        if eta_s <= h0:
+            return a0.var
+        if eta_s >= h2:
+            # beyond the longest audit: grow with the horizon, at most AUDIT_STRETCH x
+            f = eta_s / h2
+            return a2.var * (f if f < AUDIT_STRETCH else AUDIT_STRETCH)
+        # the horizons are a factor 2 apart: interpolate on log2(eta / h0)
+        pos = math.log(eta_s / h0) / math.log(h2 / h0) * 2.0
+        if pos <= 1.0:
+            return a0.var + pos * (a1.var - a0.var)
+        return a1.var + (pos - 1.0) * (a2.var - a1.var)
 
-    def _level(self, k, kr, g, my):
-        """Current temperature (deg C): the fit's value now plus its recent lack of fit."""
-        return (my + k * self._xr + kr * (self._tr + self._block_t) + g * self._ur
-                + self._recent_residual)
+    def _var_level(self):
+        """Variance of the fitted level at the latest reading, deg C^2."""
+        t = self._t
+        x = -self._x   # d level / d k
+        v = self._v
+        return (self._var_my + t * t * self._p_ss + x * x * self._p_kk + v * v * self._p_gg
+                + 2.0 * (t * x * self._p_sk + t * v * self._p_sg + x * v * self._p_kg))
 
-    def _eta_at(self, k, kr, g, my, target_c, duty):
-        """Time to target (s) for given parameters; 1e12 for "never"."""
-        if self._ambient_measured or self._ambient_fixed is not None:
-            r = self._r_mean
-        else:
-            r = kr / k
-        # time_to_target_s of tinytherm.model for k > 0, inlined so that the
-        # estimator does not pull that module (3.5 KB of heap) onto a device
-        gap_now = self._level(k, kr, g, my) - (r + g * duty / k)
-        gap_target = target_c - (r + g * duty / k)
-        if gap_now == 0.0 or gap_target == 0.0 or (gap_now > 0.0) != (gap_target > 0.0) \
-                or abs(gap_target) > abs(gap_now):
-            return 0.0 if gap_target == gap_now else 1e12
-        try:
-            return math.log(gap_now / gap_target) / k
-        except (ValueError, OverflowError):
-            return 1e12
-
+    # ----------------------------------------------------------------- answer
     def predict(self, target_c):
         """Compute the time until ``target_c`` (deg C); return the status code.
 
         Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds
-        after the latest reading; ``None`` when there is no estimate;
-        ``eta_high_s`` may be ``inf`` when the data cannot rule out "never"),
-        ``rate_per_s`` (1/s), ``equilibrium_c`` and ``ambient_est_c`` (deg C),
-        ``gain_k_per_s`` (K/s at full duty), ``temp_est_c`` (deg C) and
-        ``eta_rel_sd`` (standard deviation of log-time: parameters plus the
-        forecast audit's model mismatch; ``None`` without an ETA).
-        Never raises.
+        after the latest reading; ``None`` without an estimate; ``eta_high_s``
+        may be ``inf``), ``rate_per_s`` (1/s), ``equilibrium_c`` (deg C, ``None``
+        when the fit does not level off), ``ambient_est_c`` (the reference in
+        use, deg C, ``None`` when unknown), ``gain_k_per_s`` (K/s at full duty),
+        ``temp_est_c`` (the fitted temperature now, deg C) and ``eta_rel_sd``
+        (sd of log eta). Never raises.
         """
         try:
             self._predict(target_c)
         except (ValueError, OverflowError, ZeroDivisionError, TypeError):
             self._clear_answer(st.SETTLING)
         if self.guard.consecutive_rejections >= self.fault_after:
-            # the recent readings were all rejected: show no estimate
             self._clear_answer(st.SENSOR_FAULT)
         elif self._disturbed:
-            if self.status == st.TRACKING:
-                self._disturbed = False  # re-converged after the change
+            if self.status == st.TRACKING or self.status == st.ARRIVED:
+                self._disturbed = False  # answering again after the change
             elif self.status == st.SETTLING or self.status == st.GATHERING:
                 self.status = st.DISTURBED
         return self.status
 
     def _predict(self, target_c):
-        w = self._w
-        if self.readings < 2 or self._w_blocks < 3.0 or not _finite(target_c):
+        if self._fit_readings < 3 or not self._ok or not _number(target_c, -1e4, 1e4):
             self._clear_answer(st.GATHERING)
             if self.readings and not self._fresh:
-                # the last reading (none just after a restart of the fit)
                 self.temp_est_c = self._y_prev
-            return self.status
+            return
         self._clear_answer(st.SETTLING)
-        centred_t = not (self._ambient_measured or self._ambient_fixed is not None)
-        heater = self.heater
-        duty = self._u_prev if heater else 0.0
-        if not self._fit(centred_t, heater):
-            return self.status
+        target_c = float(target_c)
+        level = self._level()
+        slope = self._slope(level)
         k = self._k
-        s2 = self._s2
-        kr = self._kr
-        g = self._g
-        # variance of the parameters: s2 * (W2 / W) * inverse matrix
-        s2p = s2 * self._w_sq / w
+        self.temp_est_c = level
         self.rate_per_s = k
-        self.gain_k_per_s = g
-        if not k > 0.0:
-            return self.status
-        my = self._my
-        r = kr / k if centred_t else self._r_mean
-        eq = r + g * duty / k
-        temp = self._level(k, kr, g, my)
-        self.temp_est_c = temp
-        self.equilibrium_c = eq
-        self.ambient_est_c = r
-        gap_eq = eq - temp
-        gap_target = target_c - temp
-        if gap_target == 0.0 or (gap_eq != 0.0 and (gap_target > 0.0) != (gap_eq > 0.0)):
-            # at the target, or past it in the direction of travel
-            self.status = st.ARRIVED
-            self.eta_s = 0.0
-            self.eta_low_s = 0.0
-            self.eta_high_s = 0.0
-            return self.status
-        if gap_eq == 0.0 or abs(gap_target) >= abs(gap_eq):
-            self.status = st.OUT_OF_REACH
-            return self.status
-        eta = math.log(gap_eq / (eq - target_c)) / k
-        # Delta method: var(eta) = grad' Cov grad with forward differences; the
-        # mean reading is independent of the slopes in centred form.
-        hk = 1e-4 * k
-        gk = (self._eta_at(k + hk, kr, g, my, target_c, duty) - eta) / hk
-        var_eta = gk * gk * self._i11
-        if centred_t:
-            hr = 1e-4 * abs(kr) + 1e-12
-            gr = (self._eta_at(k, kr + hr, g, my, target_c, duty) - eta) / hr
-            var_eta += gr * gr * self._i22 + 2.0 * gk * gr * self._i12
+        self.gain_k_per_s = self._g
+        if k > 0.0:
+            self.equilibrium_c = level + slope / k
+        if self._ambient_fixed is not None or self._measured:
+            self.ambient_est_c = self._r_prev
+        elif k > 0.0:
+            # unknown ambient: where the liquid would level off without heat input
+            self.ambient_est_c = self.equilibrium_c - self._g * self._u_prev / k
+        # slope uncertainty at the level: d slope / d(s, k, g) = (1, -(G - G0), u - u0)
+        gk = -(level - self._r_prev - self._g0)
+        gg = self._u_prev - self._u0
+        var_slope = (self._p_ss + gk * gk * self._p_kk + gg * gg * self._p_gg
+                     + 2.0 * (gk * self._p_sk + gg * self._p_sg + gk * gg * self._p_kg))
+        noise = math.sqrt(self._noise2)
+        # direction of travel: the slope when it stands out of its noise, else the block means
+        if slope * slope > 4.0 * var_slope:
+            d = 1 if slope > 0.0 else -1
         else:
-            gr = 0.0
-        if heater:
-            hg = 1e-4 * abs(g) + 1e-9
-            gg = (self._eta_at(k, kr, g + hg, my, target_c, duty) - eta) / hg
-            var_eta += gg * gg * self._i33 + 2.0 * gk * gg * self._i13 + 2.0 * gr * gg * self._i23
-        var_eta *= s2p
-        # the mean reading: d eta / d level = 1 / (k (T - E)), variance s2p / W
-        gm = 1.0 / (k * (temp - eq))
-        var_eta += gm * gm * s2p / w
-        if var_eta < 0.0:
+            d = self._dir
+        gap = target_c - level
+        # arrived: the block means have travelled past the target (their
+        # extreme holds until the fit restarts on a real turn) and the latest
+        # reading is not more than min(0.3 C, 3 noise sd) short of it
+        m = self._dir
+        if m != 0 and (self._ext - target_c) * m >= 0.0:
+            tol = 3.0 * noise
+            if tol > ARRIVE_TOL_C:
+                tol = ARRIVE_TOL_C
+            if (self._y_prev - target_c) * m >= -tol:
+                self._arrive()
+                return
+        if gap * d <= 0.0:
+            gap = target_c - self._y_prev  # the level crossed, the readings not yet
+        if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
+            return  # not moving, or turning: no honest time
+        eta = time_to_target_from_slope_s(gap, slope, k)
+        if eta is None:
+            # beyond the equilibrium: say so only when even a slow bend reaches it
+            k_lo = k - 2.0 * math.sqrt(self._p_kk)
+            if k_lo * gap / slope >= 1.0:
+                self.status = st.OUT_OF_REACH
+            return
+        # delta method on eta(D, slope, k): D = target - level
+        q = k * gap / slope
+        if q > -1e-4 and q < 1e-4:
+            de_dk = gap * gap / (slope * slope) * (0.5 + q / 1.5)
+        else:
+            de_dk = (math.log(1.0 - q) + q / (1.0 - q)) / (k * k)
+        de_ds = -gap / (slope * slope * (1.0 - q))
+        de_dl = -1.0 / (slope * (1.0 - q))      # d eta / d level
+        # level and slope are both linear in (my, s, k, g)
+        t = self._t
+        xk = -self._x
+        v = self._v
+        a_s = de_dl * t + de_ds
+        a_k = de_dl * xk + de_ds * gk + de_dk
+        a_g = de_dl * v + de_ds * gg
+        var_eta = (de_dl * de_dl * self._var_my + a_s * a_s * self._p_ss + a_k * a_k * self._p_kk
+                   + a_g * a_g * self._p_gg + 2.0 * (a_s * a_k * self._p_sk + a_s * a_g * self._p_sg
+                                                    + a_k * a_g * self._p_kg))
+        if not var_eta > 0.0:
             var_eta = 0.0
-        rel_sd = math.sqrt(var_eta) / eta if eta > 0.0 else 0.0
-        # add the model-mismatch part measured by the forecast self-check
-        rel_sd = math.sqrt(rel_sd * rel_sd + self._audit_var)
-        spread = math.exp(self._z * rel_sd) if self._z * rel_sd < 50.0 else _INF
+        rel2 = var_eta / (eta * eta) if eta > 0.0 else 0.0
+        rel = math.sqrt(rel2 + self._audit_var(eta))
+        zr = self._z * rel
+        spread = math.exp(zr) if zr < 50.0 else _INF
         self.eta_s = eta
         self.eta_low_s = eta / spread
         self.eta_high_s = eta * spread
-        self.eta_rel_sd = rel_sd
-        # trusted once the settle time has passed and the answer itself is
-        # precise enough (k alone may be loose while the ETA is not: a heater
-        # at constant duty barely separates k from g); near the end an upper
-        # bound a few seconds above the ETA is still a good answer (TRUST_FLOOR_S)
-        if self._age_s >= self.settle_s and (rel_sd <= self.max_relative_sd
-                                             or self.eta_high_s - eta <= TRUST_FLOOR_S):
+        self.eta_rel_sd = rel
+        if self._age >= self.settle_s and rel <= self.max_relative_sd:
             self.status = st.TRACKING
-        return self.status
 
-    # ------------------------------------------------------------- save/restore
+    def _arrive(self):
+        self.status = st.ARRIVED
+        self.eta_s = 0.0
+        self.eta_low_s = 0.0
+        self.eta_high_s = 0.0
+
+    # ------------------------------------------------------------ save/restore
     def _settings_byte(self):
         return ((1 if self.heater else 0) | (2 if self._ambient_fixed is not None else 0)
                 | (4 if self.guard.spike_window == 5 else 0)
-                | (8 if self.detector is not None else 0)
-                | (16 if self.guard.spike_window == 0 else 0))
-
-    def _layout(self, measured):
-        """(struct format, value field names) of the payload after the fixed part (cached)."""
-        if self._layouts[1 if measured else 0] is None:
-            self._layouts[1 if measured else 0] = self._make_layout(measured)
-        return self._layouts[1 if measured else 0]
-
-    def _make_layout(self, measured):
-        """(struct format, value field names) of the payload after the fixed part.
-
-        Every field starts as float32; fields are promoted to float64 in the
-        order of _PROMOTE (the values that carry levels and integrals first,
-        where float32 rounding would shift the answer most) while the payload
-        fits in PAYLOAD_SIZE bytes.
-        """
-        centred = not (measured or self._ambient_fixed is not None)
-        names = []
-        for name in _PROMOTE:
-            if name in _CENTRED_ONLY and not centred:
-                continue
-            if name in _HEATER_ONLY and not self.heater:
-                continue
-            if (name == "_r_prev" or name == "_r_mean") and not measured:
-                continue
-            if name in _NO_HEATER_ONLY and self.heater:
-                continue
-            names.append(name)
-        window = 8 if self.guard.spike_window == 5 else 4  # the spike gate's older readings
-        # the pending forecast check goes as float32 where it fits, else as
-        # int16 (1/1024 deg C), else (after _w_sq) not at all
-        n_always = len([n for n in names if n in _ALWAYS_SHORT])
-        fits = _FIXED_SIZE + window + 4 * len(names) - 2 * n_always <= bl.PAYLOAD_SIZE
-        short = _ALWAYS_SHORT if fits else _SHORT
-        for name in _DROPPABLE:
-            # a full payload (an estimated ambient, a heater): the least
-            # important fields go (the pending forecast check is dropped,
-            # _w_sq rebuilt) before the spike gate loses its window
-            if _FIXED_SIZE + window + _values_size(names, short) <= bl.PAYLOAD_SIZE:
-                break
-            if name in names:
-                names.remove(name)
-        # int16 fields first: the payload then ends with a float, so any NaN
-        # written over its tail is caught on restore
-        shorts = [n for n in names if n in short]
-        names = shorts + [n for n in names if n not in short]
-        n_float = len(names) - len(shorts)
-        values = _values_size(names, short)
-        fixed = _FIXED_SIZE + 2 * self._window_slots(values)
-        spare = bl.PAYLOAD_SIZE - fixed - values
-        doubles = spare // 4
-        if doubles > n_float:
-            doubles = n_float
-        fmt = "<" + "h" * len(shorts) + "d" * doubles + "f" * (n_float - doubles)
-        return fmt, tuple(names)
-
-    @staticmethod
-    def _values_offset(fmt, slots):
-        """Where the guard window and the values start: they end at the CRC."""
-        return bl.PAYLOAD_OFFSET + bl.PAYLOAD_SIZE - 2 * slots - struct.calcsize(fmt)
-
-    def _window_slots(self, values_size):
-        """How many older readings of the guard's spike window fit in the blob (0, 2 or 4).
-
-        Those left out are restored as copies of the last reading (heater with
-        an estimated ambient: the fit needs every byte there).
-        """
-        room = (bl.PAYLOAD_SIZE - _FIXED_SIZE - values_size) // 2
-        want = 4 if self.guard.spike_window == 5 else 2
-        if room >= want:
-            return want
-        return 2 if room >= 2 else 0
+                | (8 if self.detector is not None else 0))
 
     def save(self):
-        """The whole state as a blob of ``tinytherm.blob.BLOB_SIZE`` (128) bytes.
+        """The whole state as a blob of ``tinytherm.blob.BLOB_SIZE`` (480) bytes.
 
         Returns the estimator's own ``bytearray``, rewritten by the next
-        ``save()`` (no allocation for the frame on a small heap): write it to
-        RTC memory or flash, or copy it with ``bytes(...)`` to keep it.
-
-        Layout: magic, layout version, settings byte, payload, CRC-32 (see
-        :mod:`tinytherm.blob`). The payload holds counts and flags, the state
-        behind the accept/reject and change decisions as float32 (age, stuck
-        run, detector sums, last residual) and the guard's window as 1/256 C
-        offsets from the last reading (exact for sensors with a 1/16 C step),
-        then the fit: the mean and block sum of the readings as float32
-        offsets from the last reading, everything else as float64 where it
-        fits (in :data:`_PROMOTE` order) and float32 beyond. The per-reason
-        guard counts, ``rejected`` and ``changes`` count since the last
-        restore. Allocates a little; call it once per wake, not per reading.
+        ``save()``: write it to RTC memory or flash, or copy it with
+        ``bytes(...)``. Every value is stored exactly (float64); the guard's
+        per-reason counts and ``rejected`` count since the last restore.
         """
         g = self.guard
-        d = self.detector
-        if self._blob_buf is None:
-            self._blob_buf = bl.new_frame(self._settings_byte())
         buf = self._blob_buf
         flags = ((1 if self._fresh else 0) | (2 if self._disturbed else 0)
-                 | (4 if self._have_residual else 0) | (8 if self._ambient_measured else 0)
-                 | (16 if g._has_accepted else 0))
-        y = self._y_prev
-        flags |= self._relevel_blocks << 5
-        fmt, names = self._layout(self._ambient_measured)
-        if self._audit_pending and "_audit_level" in names:
-            flags |= 128  # a pending forecast check travels only with its start level
-        age = self._age_s if self._age_s < self.settle_s else self.settle_s
-        struct.pack_into(
-            _FIXED_FMT, buf, bl.PAYLOAD_OFFSET,
-            _clamp_int(self.readings, 0, 0xFFFFFFFF), _clamp_int(self._block_n, 0, 0xFF),
-            flags, g._win_n | (_clamp_int(g.consecutive_rejections, 0, 31) << 3),
-            _clamp_int(age * self._age_scale, 0, 0xFFFF),
-            _clamp_int(g._run_s * self._run_scale, 0, 0xFFFF),
-            _clamp_int(g._run_expected_c * self._run_c_scale, 0, 0xFFFF),
-            _clamp_int(d.up / d.threshold * 65535.0, 0, 0xFFFF) if d is not None else 0,
-            _clamp_int(d.down / d.threshold * 65535.0, 0, 0xFFFF) if d is not None else 0,
-            _clamp_int(d.mean_abs_z * 4096.0, 0, 0xFFFF) if d is not None else 0,
-            self._last_residual)
-        struct.pack_into(
-            _EXTRA_FMT, buf, bl.PAYLOAD_OFFSET + struct.calcsize(_FIXED_FMT),
-            _clamp_int(self._audit_due, 0, MAX_AUDIT_BLOCKS) | ((self._turn_dir + 1) << 5)
-            | (128 if self._turn_seen else 0))
-        slots = self._window_slots(_min_size(fmt))
-        offset = self._values_offset(fmt, slots)
-        if slots:
-            struct.pack_into("<hh", buf, offset, _clamp_int((g._w1 - y) * 256.0, -32767, 32767),
-                             _clamp_int((g._w2 - y) * 256.0, -32767, 32767))
-            offset += 4
-        if slots == 4:
-            struct.pack_into("<hh", buf, offset, _clamp_int((g._w3 - y) * 256.0, -32767, 32767),
-                             _clamp_int((g._w4 - y) * 256.0, -32767, 32767))
-            offset += 4
-        # one field at a time: no list of values on a small, fragmented heap
-        for i in range(len(names)):
-            kind = fmt[i + 1]
-            if kind == "d":
-                struct.pack_into("<d", buf, offset, self._saved_value(names[i]))
+                 | (4 if self._measured else 0) | (8 if g._has_accepted else 0))
+        struct.pack_into(_INT_FMT, buf, bl.PAYLOAD_OFFSET, self.readings & 0xFFFFFFFF,
+                         self.changes & 0xFFFF, self.turns & 0xFFFF, self._bn, g._win_n,
+                         g.consecutive_rejections if g.consecutive_rejections < 255 else 255,
+                         self._fit_readings if self._fit_readings < 255 else 255,
+                         flags | ((self._dir + 1) << 4),
+                         self._audits[0].n | (self._audits[1].n << 4), self._audits[2].n,
+                         self._noise_n)
+        offset = bl.PAYLOAD_OFFSET + struct.calcsize(_INT_FMT)
+        for name in _FLOATS:
+            struct.pack_into("<d", buf, offset, getattr(self, name))
+            offset += 8
+        for a in self._audits:
+            for name in _AUDIT_FLOATS:
+                struct.pack_into("<d", buf, offset, getattr(a, name))
                 offset += 8
-            elif kind == "f":
-                struct.pack_into("<f", buf, offset, self._saved_value(names[i]))
-                offset += 4
-            else:
-                code = _clamp_int(self._saved_value(names[i]) * _short_scale(names[i]),
-                                  -32767, 32767)
-                struct.pack_into("<h", buf, offset, code)
-                offset += 2
+        for name in _GUARD_FLOATS:
+            struct.pack_into("<d", buf, offset, getattr(g, name))
+            offset += 8
+        struct.pack_into("<d", buf, offset, g._pending_s + g._pending_ms * 0.001)
+        offset += 8
+        d = self.detector
+        for name in _DETECT_FLOATS:
+            struct.pack_into("<d", buf, offset, getattr(d, name) if d is not None else 0.0)
+            offset += 8
         return bl.seal(buf)
-
-    def _saved_value(self, name):
-        if name == "pending":
-            return self.guard._pending_s + self.guard._pending_ms * 0.001
-        if name == "_my":
-            return self._my - self._y_prev  # small offset: float32 keeps it precise
-        if name == "_sum_y":
-            return self._sum_y - self._block_n * self._y_prev
-        if name == "_audit_level":
-            return self._audit_level - self._y_prev
-        if name == "_r_mean":
-            return self._r_mean - self._r_prev
-        if name == "_turn_ext":
-            return self._turn_ext - self._y_prev
-        return getattr(self, name)
 
     def restore(self, blob):
         """Load a blob written by :meth:`save`; returns a ``tinytherm.blob`` code.
 
-        ``blob.RESTORED`` (0) when the state is back. Anything else (wrong
-        length, not a state blob, another layout version, CRC mismatch, a blob
-        written by an estimator with other settings, impossible values) leaves a
-        fresh estimator, as after :meth:`reset`. Never raises. After a restore
-        feed the first reading with :meth:`update` and the time slept.
+        ``blob.RESTORED`` (0) when the state is back and every value is within
+        its valid range. Anything else leaves a fresh estimator, as after
+        :meth:`reset`. Never raises. After a restore feed the next reading
+        with :meth:`update` and the time slept.
         """
-        code = bl.check(blob, self._settings_byte())
-        if code == bl.RESTORED:
-            try:
+        try:
+            code = bl.check(blob, self._settings_byte())
+            if code == bl.RESTORED:
                 code = self._unpack(blob)
-            except Exception:  # noqa: BLE001 - a blob must never crash the device
-                code = bl.BLOB_VALUES
+        except Exception:  # noqa: BLE001 - a blob must never crash the device
+            code = bl.BLOB_VALUES
         if code != bl.RESTORED:
             self.reset()
         return code
 
     def _unpack(self, blob):
-        (readings, block_n, flags, flags2, age_code, run_code, run_exp_code,
-         up_code, down_code, mabs_code, last_residual) = struct.unpack_from(
-            _FIXED_FMT, blob, bl.PAYLOAD_OFFSET)
-        age_s = age_code / self._age_scale
-        if age_s >= self.settle_s:
-            age_s = self.settle_s
-        run_s = run_code / self._run_scale
-        run_expected_c = run_exp_code / self._run_c_scale
-        d = self.detector
-        threshold = d.threshold if d is not None else 0.0
-        up = up_code * threshold / 65535.0
-        down = down_code * threshold / 65535.0
-        mean_abs_z = mabs_code / 4096.0
-        consecutive = flags2 >> 3
-        bits = struct.unpack_from(
-            _EXTRA_FMT, blob, bl.PAYLOAD_OFFSET + struct.calcsize(_FIXED_FMT))[0]
-        if (bits >> 5) & 3 > 2:
-            return bl.BLOB_VALUES
-        measured = bool(flags & 8)
-        fmt, names = self._layout(measured)
-        slots = self._window_slots(_min_size(fmt))
-        offset = self._values_offset(fmt, slots)
-        w1_code = w2_code = 0
-        if slots:
-            w1_code, w2_code = struct.unpack_from("<hh", blob, offset)
-            offset += 4
-        w3_code = w4_code = w2_code
-        if slots == 4:
-            w3_code, w4_code = struct.unpack_from("<hh", blob, offset)
-            offset += 4
-        # check every value before touching the state, one at a time (no tuple)
-        start = offset
-        for i in range(len(names)):
-            v, offset = _unpack_value(fmt[i + 1], names[i], blob, offset)
-            if not _finite(v):
-                return bl.BLOB_VALUES
-        if not _finite(last_residual):
-            return bl.BLOB_VALUES
-        relevel = (flags >> 5) & 3
-        win_n = flags2 & 7
-        if relevel > RELEVEL_BLOCKS or win_n > 4:
-            return bl.BLOB_VALUES
-        self.reset()
-        pending = 0.0
-        offset = start
-        for i in range(len(names)):
-            v, offset = _unpack_value(fmt[i + 1], names[i], blob, offset)
-            if names[i] == "pending":
-                pending = v
-            else:
-                setattr(self, names[i], v)
-        y = self._y_prev
-        self._my += y
-        self._sum_y += block_n * y
-        if self._ambient_fixed is not None:
-            self._r_prev = self._ambient_fixed
-        if "_w_sq" not in names and self._w_blocks > 0.0:
-            # equal blocks: sum of squared weights ~ W^2 / (number of blocks)
-            self._w_sq = self._w * self._w / self._w_blocks
         g = self.guard
+        (readings, changes, turns, bn, win_n, rej, fit_readings, flags, n01, n2,
+         noise_n) = struct.unpack_from(_INT_FMT, blob, bl.PAYLOAD_OFFSET)
+        offset = bl.PAYLOAD_OFFSET + struct.calcsize(_INT_FMT)
+        direction = (flags >> 4) - 1
+        flags &= 15
+        n0 = n01 & 15
+        n1 = n01 >> 4
+        if not (bn <= MAX_BLOCK_READINGS and win_n <= 4 and -1 <= direction <= 1 and n0 <= AUDIT_MEMORY
+                and n1 <= AUDIT_MEMORY and n2 <= AUDIT_MEMORY and noise_n <= 100
+                and fit_readings <= readings):
+            return bl.BLOB_VALUES
+        # every float must be finite and of a plausible size before any is used
+        big = 1e12
+        for i in range(len(_FLOATS) + 3 * len(_AUDIT_FLOATS) + len(_GUARD_FLOATS) + 1
+                       + len(_DETECT_FLOATS)):
+            if not _number(struct.unpack_from("<d", blob, offset + 8 * i)[0], -big, big):
+                return bl.BLOB_VALUES
+        self.reset()
+        for name in _FLOATS:
+            setattr(self, name, struct.unpack_from("<d", blob, offset)[0])
+            offset += 8
+        for a in self._audits:
+            for name in _AUDIT_FLOATS:
+                setattr(a, name, struct.unpack_from("<d", blob, offset)[0])
+                offset += 8
+            if not (a.var >= 0.0 and a.age <= self._age):
+                return bl.BLOB_VALUES
+        for name in _GUARD_FLOATS:
+            setattr(g, name, struct.unpack_from("<d", blob, offset)[0])
+            offset += 8
+        pending = struct.unpack_from("<d", blob, offset)[0]
+        offset += 8
+        d = self.detector
+        for name in _DETECT_FLOATS:
+            if d is not None:
+                setattr(d, name, struct.unpack_from("<d", blob, offset)[0])
+            offset += 8
+        lo = self.min_temp_c
+        hi = self.max_temp_c
+        if not (self._w >= 0.0 and self._w2 >= 0.0 and self._nb >= 0.0
+                and self._ctt >= 0.0 and self._cxx >= 0.0 and self._cuu >= 0.0
+                and self._cyy >= 0.0 and self._age >= 0.0 and 0.0 <= self._b_dur <= self._age
+                and 0.0 <= self._u0 <= 1.0 and 0.0 <= self._u_prev <= 1.0
+                and self._noise2 > 0.0
+                and self._s2_fit > 0.0 and lo <= self._y_prev <= hi and 0.0 <= pending <= g._pending_cap_s
+                and g._run_s >= 0.0 and g._run_rate >= 0.0
+                and (win_n < 1 or lo <= g._w1 <= hi) and (win_n < 2 or lo <= g._w2 <= hi)
+                and (win_n < 3 or lo <= g._w3 <= hi) and (win_n < 4 or lo <= g._w4 <= hi)):
+            return bl.BLOB_VALUES
+        if d is not None and not (d.up >= 0.0 and d.down >= 0.0 and d.mean_abs_z >= 0.0):
+            return bl.BLOB_VALUES
         self.readings = readings
-        self._block_n = block_n
+        self.changes = changes
+        self.turns = turns
+        self._bn = bn
+        self._dir = direction
+        self._audits[0].n = n0
+        self._audits[1].n = n1
+        self._audits[2].n = n2
+        self._fit_readings = fit_readings
+        self._noise_n = noise_n
         self._fresh = bool(flags & 1)
         self._disturbed = bool(flags & 2)
-        self._have_residual = bool(flags & 4)
-        self._ambient_measured = measured
-        self._relevel_blocks = relevel
-        self._age_s = age_s
-        self._last_residual = last_residual
-        self._turn_dir = ((bits >> 5) & 3) - 1
-        self._turn_seen = bool(bits & 128)
-        if not self.heater:
-            self._turn_ext += y
-        self._audit_due = bits & 31
-        if "_audit_level" in names:
-            self._audit_pending = bool(flags & 128)
-            self._audit_level += y
-        if measured:
-            self._r_mean += self._r_prev
-        else:
-            self._r_mean = self._r_prev
-        g._has_accepted = bool(flags & 16)
-        g._last_c = y
+        self._measured = bool(flags & 4)
+        g._has_accepted = bool(flags & 8)
         g._win_n = win_n
-        g._w1 = y + w1_code / 256.0
-        g._w2 = y + w2_code / 256.0
-        g._w3 = y + w3_code / 256.0
-        g._w4 = y + w4_code / 256.0
-        g._run_s = run_s
-        g._run_expected_c = run_expected_c
-        g._run_rate = run_expected_c / run_s if run_s > 0.0 else 0.0
-        g.consecutive_rejections = consecutive
+        g.consecutive_rejections = rej
+        g._last_c = self._y_prev
+        g._run_expected_c = g._run_rate * g._run_s
         g._pending_s = pending
-        if d is not None:
-            d.up = up
-            d.down = down
-            d.mean_abs_z = mean_abs_z
+        g._pending_ms = 0
+        g._has_time = False
+        self._solve()
+        if self._nb >= 1.5 and not self._ok:
+            return bl.BLOB_VALUES
         return bl.RESTORED
 
     def __repr__(self):

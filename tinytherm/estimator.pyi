@@ -3,20 +3,31 @@ from typing import Optional, Union
 from tinytherm.change import ChangeDetector
 from tinytherm.guard import ReadingGuard
 
+ARRIVE_TOL_C: float
+AMBIENT_SMOOTH_S: float
+AUDIT_FRACTIONS: tuple[float, float, float]
+AUDIT_LOG_CAP: float
+AUDIT_MEMORY: int
+AUDIT_MIN_S: tuple[float, float, float]
+AUDIT_PRIOR_VAR: float
+AUDIT_STRETCH: float
+DETECT_MIN_BLOCKS: int
 GAP_RESTART: int
-GAP_WIDEN: int
-MAX_AUDIT_BLOCKS: int
+KNOWN_AMBIENT_SD_C: float
 MAX_BLOCK_READINGS: int
+MIN_MEMORY_S: float
 MISMATCH_C: float
-RELEVEL_BLOCKS: int
-TRUST_FLOOR_S: float
-TURN_WINDOW_S: float
+NOISE_PRIOR_C: float
+NOISE_PRIOR_N: int
 
 def normal_quantile(p: float) -> float: ...
+def time_to_target_from_slope_s(gap_c: float, slope_c_per_s: float,
+                                rate_per_s: float) -> Optional[float]: ...
 
 class ThermalEstimator:
     heater: bool
     memory_s: float
+    memory_fraction: float
     block_s: float
     interval: float
     settle_s: float
@@ -24,8 +35,6 @@ class ThermalEstimator:
     min_temp_c: float
     max_temp_c: float
     fault_after: int
-    keep_fraction: float
-    audit_s: float
     turn_c: float
     guard: ReadingGuard
     detector: Optional[ChangeDetector]
@@ -45,15 +54,15 @@ class ThermalEstimator:
     gain_k_per_s: float
     temp_est_c: Optional[float]
     def __init__(self, ambient_c: Optional[float] = None, ambient_prior_c: float = 21.0,
-                 ambient_prior_sd_c: float = 8.0, heater: bool = False, memory_s: float = 600.0,
-                 block_s: float = 20.0, interval: float = 0.8, settle_s: float = 60.0,
-                 max_relative_sd: float = 0.25, rate_prior_per_s: float = ...,
-                 excitation_c: float = 0.5, min_temp_c: float = -55.0,
+                 ambient_prior_sd_c: float = 8.0, ambient_sd_c: float = 2.0,
+                 heater: bool = False, memory_s: float = 7200.0,
+                 memory_fraction: float = 0.5, block_s: float = 20.0, interval: float = 0.8,
+                 settle_s: float = 0.0, max_relative_sd: float = 5.0,
+                 rate_prior_per_s: float = ..., min_temp_c: float = -55.0,
                  max_temp_c: float = 150.0, quantum_c: float = 0.0625, spike_window: int = 3,
-                 max_gap_s: float = 120.0, restart_gap_s: float = 3600.0,
+                 max_gap_s: float = 900.0, restart_gap_s: float = 3600.0,
                  stuck_change_c: Optional[float] = 1.0, stuck_min_s: float = 30.0,
                  fault_after: int = 5, detect_changes: bool = True,
-                 keep_fraction: float = 0.1, audit_s: float = 60.0,
                  turn_c: float = 1.0) -> None: ...
     def reset(self) -> None: ...
     def update_ticks(self, temp_c: float, ticks_ms: int, ambient_c: Optional[float] = None,

@@ -84,28 +84,13 @@ def time_to_target_s(start_c, target_c, rate_per_s, ambient_c, gain_k_per_s=0.0,
     equals the target, and ``None`` when the target is never reached: it lies
     on the far side of (or exactly at) the equilibrium, or on the wrong side of
     the start. Call :func:`equilibrium_c` to tell the user where it levels off.
-    ``rate_per_s`` is ``k`` in 1/s; ``k == 0`` (no losses) means a linear ramp.
+    ``rate_per_s`` is ``k`` in 1/s; ``k == 0`` (no losses) means a linear ramp
+    and ``k < 0`` (a runaway, e.g. a fitted rate below zero) an accelerating
+    curve: every regime has its exact answer (see
+    :func:`time_to_target_from_slope_s`).
     """
-    gap = target_c - start_c
-    if gap == 0.0:
-        return 0.0
-    if rate_per_s == 0.0:
-        slope = gain_k_per_s * duty
-        if slope == 0.0 or (gap > 0.0) != (slope > 0.0):
-            return None
-        return gap / slope
-    if rate_per_s < 0.0:
-        return None
-    eq = ambient_c + gain_k_per_s * duty / rate_per_s
-    num = start_c - eq
-    den = target_c - eq
-    # Reachable only when the target lies strictly between start and equilibrium.
-    if den == 0.0 or num == 0.0 or (num > 0.0) != (den > 0.0) or abs(den) >= abs(num):
-        return None
-    try:
-        return math.log(num / den) / rate_per_s
-    except (ValueError, OverflowError):
-        return None
+    slope = gain_k_per_s * duty - rate_per_s * (start_c - ambient_c)
+    return time_to_target_from_slope_s(target_c - start_c, slope, rate_per_s)
 
 
 def ambient_from_three_c(t0_c, t1_c, t2_c):
@@ -184,3 +169,40 @@ def heating_time_s(mass_kg, specific_heat_j_per_kgk, start_c, target_c, power_w,
         raise ValueError("loss_w_per_k must be >= 0")
     return time_to_target_s(start_c, target_c, loss_w_per_k / heat_capacity, ambient_c,
                             power_w / heat_capacity, 1.0)
+
+
+def time_to_target_from_slope_s(gap_c, slope_c_per_s, rate_per_s):
+    """Seconds until the liquid has moved ``gap_c`` deg C (target minus now).
+
+    The liquid starts with slope ``slope_c_per_s`` (deg C/s) and follows
+    ``dT/dt = slope - k (T - T_now)`` with ``k = rate_per_s`` (1/s), so that
+    its equilibrium is ``T_now + slope / k``. One closed form serves every
+    regime::
+
+        eta = -log1p(-k D / s) / k      (D = gap_c, s = slope)
+
+    which is ``D / s`` for ``k = 0`` (a straight line), the familiar
+    exponential approach for ``k > 0`` and an accelerating curve for
+    ``k < 0``. Returns ``0.0`` for a zero gap and ``None`` when the target is
+    never reached: behind the direction of travel, no movement, or at or past
+    the equilibrium (``k D / s >= 1``), or for non-finite input.
+    """
+    if gap_c == 0.0:
+        return 0.0
+    if not (slope_c_per_s == slope_c_per_s and gap_c == gap_c and rate_per_s == rate_per_s):
+        return None
+    if slope_c_per_s == 0.0 or (gap_c > 0.0) != (slope_c_per_s > 0.0):
+        return None
+    ratio = gap_c / slope_c_per_s          # seconds at the starting slope, > 0
+    if ratio == math.inf:
+        return None
+    q = rate_per_s * ratio
+    if not q < 1.0:
+        return None  # (also NaN and inf)
+    if -1e-4 < q < 1e-4:
+        # series of -log(1 - q) / q: exact to ~1e-16 here, no cancellation
+        return ratio * (1.0 + q * (0.5 + q / 3.0))
+    try:
+        return -math.log(1.0 - q) / rate_per_s
+    except (ValueError, OverflowError, ZeroDivisionError):
+        return None

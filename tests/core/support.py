@@ -39,6 +39,11 @@ def round_instance_floats(obj, rounder):
         v = d[name]
         if isinstance(v, float):
             setattr(obj, name, rounder(v))
+        elif isinstance(v, tuple):
+            # small helper objects held in a fixed tuple (the estimator's audits)
+            for item in v:
+                if hasattr(item, "__dict__"):
+                    round_instance_floats(item, rounder)
 
 
 def close(a, b, rel=1e-9, abs_tol=0.0):

@@ -123,7 +123,7 @@ def test_arrived_and_out_of_reach():
     assert est.eta_s == 0.0
     assert est.predict(15.0) == st.OUT_OF_REACH  # below the room: never
     assert est.eta_s is None
-    assert close(est.equilibrium_c, 22.0, 1e-9)
+    assert abs(est.equilibrium_c - 22.0) < 0.05  # free equilibrium, the known ambient a hint
 
 
 def test_bad_readings_rejected_and_counted():
@@ -175,9 +175,10 @@ def check_precision(updates):
         k, eta, est = precision_run(rounder, updates)
         assert close(k, k64, 0.01), (k, k64)
         assert close(eta, eta64, 0.01), (eta, eta64)
-        # positive definiteness of the information the fit holds
-        assert est._cxx > 0.0 and est._cuu > 0.0
-        assert est._cxx * est._cuu - est._cxu * est._cxu > 0.0
+        # positive definiteness of the information the fit holds on (s, k)
+        # (the duty is constant since the heater came on: no information on g)
+        assert est._ctt > 0.0 and est._cxx > 0.0
+        assert est._ctt * est._cxx - est._ctx * est._ctx > 0.0
 
 
 def test_float32_and_float30_agree_with_float64():

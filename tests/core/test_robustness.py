@@ -12,7 +12,7 @@ from support import XorShift, round_instance_floats, to_float32
 
 from tinytherm import blob as bl
 from tinytherm import status as st
-from tinytherm.estimator import TRUST_FLOOR_S, ThermalEstimator
+from tinytherm.estimator import ThermalEstimator
 
 try:
     import micropython
@@ -168,42 +168,34 @@ def test_stuck_sensor_rejected_while_model_expects_movement():
     assert est.guard.count(st.STUCK) >= 20
 
 
-def _feed(est, tr, rounder):
-    est.update(tr.temp_c, tr.dt_s)
+def _feed(est, tr, rounder, ambient=None):
+    est.update(tr.temp_c, tr.dt_s, ambient, 0.5 if (est.heater and tr.count % 400 < 200) else 0.0)
     if rounder is not None:
         round_instance_floats(est, rounder)
 
 
-def wake_cycle_error(kwargs, hours, rounder=None, seed=5):
-    """Largest relative difference of the answer: save/restore on every reading vs none."""
+def wake_cycle_error(kwargs, hours, rounder=None, seed=5, measured=False):
+    """Largest relative difference of the answer: save/restore on every reading vs none.
+
+    Statuses must agree exactly; returns the worst relative difference of the
+    answer fields (checked every 25 readings).
+    """
     tr = FaultTrace(seed=seed, hours=hours, period_s=2.0)
     steady = ThermalEstimator(**kwargs)
     saved = None
     worst = 0.0
     while tr.step():
-        _feed(steady, tr, rounder)
+        ambient = (21.0 + 0.5 * math.sin(tr.count / 50.0)) if measured else None
+        _feed(steady, tr, rounder, ambient)
         woken = ThermalEstimator(**kwargs)
         if saved is not None:
             assert woken.restore(saved) == bl.RESTORED
-        _feed(woken, tr, rounder)
+        _feed(woken, tr, rounder, ambient)
         # firmware order on each wake: restore, update, predict, save
         if tr.count % 25 == 0:
             steady.predict(40.0)
             woken.predict(40.0)
-            if steady.status != woken.status:
-                # Only allowed where the float32 fields of the blob move the
-                # trust test across its threshold: both runs settling or
-                # tracking, their ETA spreads within 0.1 % of each other and of
-                # a threshold (max_relative_sd, or an upper bound TRUST_FLOOR_S
-                # seconds above the ETA).
-                assert {steady.status, woken.status} == {st.SETTLING, st.TRACKING}
-                a = steady.eta_rel_sd
-                b = woken.eta_rel_sd
-                assert abs(a - b) <= 1e-3 * a
-                near_rel = abs(a - steady.max_relative_sd) <= 1e-3 * a
-                spread = steady.eta_high_s - steady.eta_s
-                near_floor = abs(spread - TRUST_FLOOR_S) <= 1e-3 * TRUST_FLOOR_S
-                assert near_rel or near_floor, (a, steady.eta_s, spread)
+            assert steady.status == woken.status, (tr.count, steady.status, woken.status)
             assert steady.readings == woken.readings
             for name in ANSWER_FIELDS:
                 a = getattr(steady, name)
@@ -219,41 +211,43 @@ def wake_cycle_error(kwargs, hours, rounder=None, seed=5):
     return worst
 
 
-# Save -> restore on every reading of an hour-long faulty trace against an
-# uninterrupted run. The issue asks for exact agreement in float64 and 1e-6
-# with float32 rounding; the 128-byte blob cannot hold the whole fit as
-# float64, so these bounds are what the layout achieves (measured, with about
-# 3x margin; figures in DEVELOPERS.md), not the goal. Re-measured when the
-# forecast audit, turn state and 20 s blocks came in (layout with 5 doubles
-# for a known ambient, none for an estimated one).
+# Save -> restore on every reading of a faulty trace against an uninterrupted
+# run, in every mode: the blob stores every value as float64, so the answers
+# must agree to the last bit (the goal of 1e-6 relative is met with room).
+WAKE_MODES = ({}, {"ambient_c": 21.0}, {"heater": True}, {"heater": True, "ambient_c": 21.0},
+              {"spike_window": 5}, {"detect_changes": False})
 
-def test_wake_cycles_match_uninterrupted_run_known_ambient():
-    # Known ambient: the levels and integrals are float64, the co-moments
-    # float32 (they move s2 and with it the prior's weight). Measured 2.3e-5.
-    worst = wake_cycle_error({"ambient_c": 21.0}, 1.0)
-    assert worst < 7e-5, worst
+
+def test_wake_cycles_match_uninterrupted_run_every_mode():
+    for kwargs in WAKE_MODES:
+        worst = wake_cycle_error(kwargs, 0.3)
+        assert worst <= 1e-12, (kwargs, worst)
+
+
+def test_wake_cycles_with_measured_ambient_over_a_fixed_one():
+    # a fixed ambient_c and a measured ambient per reading: the measured one
+    # is in use, and a restore must keep it so
+    for kwargs in ({"ambient_c": 25.0}, {}, {"heater": True}):
+        worst = wake_cycle_error(kwargs, 0.3, measured=True)
+        assert worst <= 1e-12, (kwargs, worst)
 
 
 def test_wake_cycles_match_uninterrupted_run_float32_device():
     # A float32 device (every estimator float rounded after each update in
-    # both runs). Measured 2.8e-7 (known ambient) and 9.2e-4 (estimated).
-    worst = wake_cycle_error({"ambient_c": 21.0}, 1.0, to_float32)
-    assert worst < 1.2e-5, worst
-    worst = wake_cycle_error({}, 1.0, to_float32)
-    assert worst < 2.8e-3, worst
-
-
-def test_wake_cycles_estimated_ambient_close():
-    # Estimated ambient: every fit value goes as float32, the co-moments of
-    # the nearly collinear (integral, time) pair among them. Measured 8.5e-3.
-    worst = wake_cycle_error({}, 1.0)
-    assert worst < 2.6e-2, worst
+    # both runs): the blob carries the rounded state exactly, but a restore
+    # re-solves the fit (derived values) in float64 where the steady run holds
+    # them rounded, so the answers differ by float32 rounding: measured 1.4e-6
+    # (known ambient) and 8.5e-4 with a heater, whose (time, duty integral)
+    # pair is nearly collinear at constant duty and amplifies the rounding. On
+    # a float32 device the re-solve is float32 too and repeats exactly.
+    for kwargs, bound in (({"ambient_c": 21.0}, 2e-5), ({}, 2e-5), ({"heater": True}, 3e-3)):
+        worst = wake_cycle_error(kwargs, 0.3, to_float32)
+        assert worst <= bound, (kwargs, worst)
 
 
 def test_blob_round_trip_is_stable_for_every_mode():
     tr = FaultTrace(seed=8, hours=0.5, period_s=2.0)
-    configs = ({}, {"ambient_c": 20.0}, {"heater": True}, {"heater": True, "ambient_c": 20.0},
-               {"spike_window": 5}, {"detect_changes": False})
+    configs = WAKE_MODES
     ests = [ThermalEstimator(**c) for c in configs]
     while tr.step():
         for i, est in enumerate(ests):
@@ -261,13 +255,14 @@ def test_blob_round_trip_is_stable_for_every_mode():
                        0.5 if est.heater else 0.0)
     for c, est in zip(configs, ests):
         blob = est.save()
-        assert len(blob) == 128
+        assert len(blob) == bl.BLOB_SIZE == 480
         other = ThermalEstimator(**c)
         assert other.restore(blob) == bl.RESTORED
         assert other.save() == blob, c
         est.predict(40.0)
         other.predict(40.0)
         assert other.readings == est.readings
+        assert other.status == est.status and other.eta_s == est.eta_s
 
 
 def _sample_blob():
@@ -291,7 +286,13 @@ def test_corrupted_blobs_are_rejected_with_a_fresh_start():
         assert code in (bl.BLOB_MAGIC, bl.BLOB_VERSION, bl.BLOB_CRC), (i, code)
         assert est.readings == 0 and est.status == st.GATHERING
     # truncated, too long, not bytes at all
-    for bad in (blob[:127], blob[:0], blob + b"\x00", None, 12345, "x" * 128, [0] * 128):
+    strided = None
+    try:
+        strided = memoryview(blob)[::2]  # (MicroPython has no strided slices)
+    except NotImplementedError:
+        pass
+    for bad in (blob[:479], blob[:0], blob + b"\x00", None, 12345, "x" * 480, [0] * 480,
+                strided):
         assert est.restore(bad) == bl.BLOB_LENGTH
     # another layout version, correctly sealed
     other = bytearray(blob)
@@ -299,11 +300,14 @@ def test_corrupted_blobs_are_rejected_with_a_fresh_start():
     assert est.restore(bl.seal(other)) == bl.BLOB_VERSION
     # written by a differently configured estimator
     assert ThermalEstimator(heater=True).restore(blob) == bl.BLOB_SETTINGS
-    # a NaN inside a correctly sealed payload
-    poisoned = bytearray(blob)
-    struct.pack_into("<d", poisoned, bl.CRC_OFFSET - 8, NAN)
-    assert est.restore(bl.seal(poisoned)) == bl.BLOB_VALUES
-    assert est.readings == 0
+    # a NaN, an infinity or a huge value in any float field of a sealed payload
+    first = bl.PAYLOAD_OFFSET + 16
+    for offset in range(first, first + 8 * 56, 8):
+        for bad_value in (NAN, INF, -1e300):
+            poisoned = bytearray(blob)
+            struct.pack_into("<d", poisoned, offset, bad_value)
+            assert est.restore(bl.seal(poisoned)) == bl.BLOB_VALUES, offset
+            assert est.readings == 0
     # and the intact blob still restores
     assert est.restore(blob) == bl.RESTORED and est.readings == readings
     assert bl.restore_name(bl.BLOB_CRC) == "blob_crc" and bl.restore_name(99) == "unknown"
