@@ -184,23 +184,23 @@ def replay_baseline(base, time_s, temp_c, target_c):
 
 def score_all(time_s, temp_c, target_c, crossing_s, clean_c, noise_sd_c, direction,
               plan, heater=None, ambient_c=None, quantum_c=0.0625):
-    """Metrics per method label, and compute seconds per label."""
+    """Metrics per method label, and CPU seconds (process time) per label."""
     out, cost = {}, {}
     for label, _name, spec, setting in plan:
         cls = load_class(spec)
         kw = device_kwargs(cls, heater is not None, quantum_c)
         kw.update(setting)
-        t0 = time.perf_counter()
+        t0 = time.process_time()
         eta, low, high, status = replay_estimator(cls, kw, time_s, temp_c, target_c,
                                                   ambient_c=ambient_c, heater=heater)
-        cost[label] = time.perf_counter() - t0
+        cost[label] = time.process_time() - t0
         out[label] = trace_metrics(time_s, eta, crossing_s, low, high, status=status,
                                    true_signal_c=clean_c, target_c=target_c,
                                    noise_sd_c=noise_sd_c, direction=direction)
     for base in make_family_baselines():
-        t0 = time.perf_counter()
+        t0 = time.process_time()
         eta, status = replay_baseline(base, time_s, temp_c, target_c)
-        cost[base.name] = time.perf_counter() - t0
+        cost[base.name] = time.process_time() - t0
         out[base.name] = trace_metrics(time_s, eta, crossing_s, status=status,
                                        true_signal_c=clean_c, target_c=target_c,
                                        noise_sd_c=noise_sd_c, direction=direction)
@@ -210,6 +210,7 @@ def score_all(time_s, temp_c, target_c, crossing_s, clean_c, noise_sd_c, directi
 def run_job(job):
     """One (seed set, family, seed): generate or load the trace, score every method."""
     seed_set, family, seed, plan, faults = job
+    cpu0 = time.process_time()
     ft = fam.load_or_generate(family, seed, sensor_faults=faults)
     tr = ft.truth
     metrics, cost = score_all(ft.time_s, ft.temp_c, tr["target_c"], tr["crossing_time_s"],
@@ -219,7 +220,7 @@ def run_job(job):
     return {"seed_set": seed_set, "family": family, "seed": seed, "rows": len(ft),
             "interval_s": tr["sample_interval_s"], "quantum_c": tr["quantum_c"],
             "heater_column": tr["has_heater_column"], "ambient_column": tr["has_ambient_column"],
-            "metrics": metrics, "cost": cost}
+            "metrics": metrics, "cost": cost, "cpu_s": time.process_time() - cpu0}
 
 
 def run_traces(seed_sets, per_family, plan, jobs, faults=True):
@@ -278,6 +279,19 @@ def grouped_table(results, methods, key, groups, title):
             lines.extend(table_rows(g, sel, methods))
     lines.extend(table_rows("**all**", results, methods))
     return lines
+
+
+COLUMN_GROUPS = ("heater", "ambient", "heater+ambient", "neither")
+
+
+def _columns_key(r):
+    if r["heater_column"] and r["ambient_column"]:
+        return "heater+ambient"
+    if r["heater_column"]:
+        return "heater"
+    if r["ambient_column"]:
+        return "ambient"
+    return "neither"
 
 
 def summary_of(results, method, family=None):
@@ -514,6 +528,8 @@ def main(argv=None):
         print("\n### %s: by sampling interval\n" % s)
         print("\n".join(grouped_table(sel, methods, lambda r: "%g s" % r["interval_s"],
                                       ["%g s" % i for i in fam.INTERVALS_S], "interval")))
+        print("\n### %s: by the columns a device has (heater duty, ambient sensor, neither)\n" % s)
+        print("\n".join(grouped_table(sel, methods, _columns_key, COLUMN_GROUPS, "columns")))
         print("\n### %s: by probe resolution\n" % s)
         print("\n".join(grouped_table(sel, methods, lambda r: "%g C" % r["quantum_c"],
                                       ["%g C" % q for q in fam.QUANTA_C], "resolution")))
@@ -539,10 +555,14 @@ def main(argv=None):
     rows = sum(r["rows"] for r in results)
     cost = {m: sum(r["cost"][m] for r in results) for m in methods}
     ref = cost["core"]
-    print("compute: %d rows; %s (seconds in the workers; ratio to core in brackets); wall %.0f s "
-          "with %d jobs" % (rows, ", ".join("%s %.1f s (%.1f)" % (m, c, c / ref if ref else math.nan)
-                                             for m, c in cost.items()),
-                            time.perf_counter() - start, args.jobs))
+    cpu = sum(r["cpu_s"] for r in results)
+    print("compute: %d rows; CPU seconds per method in the workers (ratio to core): %s; all work "
+          "in the workers incl. trace generation or cache reads %.0f CPU s (%.1f min on %d free "
+          "cores); wall %.0f s with %d jobs" % (
+              rows, ", ".join("%s %.1f s (%.1f)" % (m, c, c / ref if ref else math.nan)
+                              for m, c in cost.items()),
+              cpu, cpu / 60.0 / max(args.jobs, 1), args.jobs, time.perf_counter() - start,
+              args.jobs))
     if args.out:
         write_csv(args.out, results, real)
         print("per-trace figures written to %s" % args.out)
