@@ -53,10 +53,11 @@ one observation of this equation.
    travel by more than ``turn_c`` (no heater), and a gap over
    ``restart_gap_s``. Every reading first passes a
    :class:`~tinytherm.guard.ReadingGuard`.
-7. *Honest arrival.* ``ARRIVED`` once the anchored level has crossed the
-   target in the direction of travel and the latest reading is at most
-   min(0.3 C, 3 noise sd) short of it; it then holds for that target until
-   the fit restarts (a real turn is a new approach).
+7. *Honest arrival.* ``ARRIVED`` once the block means or the anchored level
+   have crossed the target in the direction of travel (and the fit is at
+   least ``ARRIVE_MIN_S`` old) and the latest reading is at most
+   min(0.3 C, 3 noise sd) short of it; the extreme of the block means holds
+   it until the fit restarts (a real turn is a new approach).
 
 The state is the attribute block in :meth:`ThermalEstimator._restart_fit`
 (the fit) and :meth:`ThermalEstimator.reset` (counts and audits). It is saved
@@ -85,6 +86,7 @@ AUDIT_MEMORY = 8                # audits in the running mean of squared log erro
 AUDIT_STRETCH = 4.0             # most the longest audit's variance is stretched beyond it
 AUDIT_LOG_CAP = 2.0794          # ln 8: one audit counts at most a factor 8
 ARRIVE_TOL_C = 0.3              # deg C: most a reading may be short of the target at arrival
+ARRIVE_MIN_S = 30.0             # s: no arrival in a fit younger than this (a probe warming up)
 DETECT_MIN_BLOCKS = 5           # blocks before the change detector listens
 MISMATCH_C = 0.03               # deg C: model-mismatch allowance of a block innovation
 NOISE_PRIOR_C = 0.05            # deg C: reading noise sd assumed before it is measured
@@ -808,11 +810,14 @@ class ThermalEstimator:
         # extreme holds until the fit restarts on a real turn) and the latest
         # reading is not more than min(0.3 C, 3 noise sd) short of it
         m = self._dir
-        if m != 0 and (self._ext - target_c) * m >= 0.0:
+        if m != 0 and self._age >= ARRIVE_MIN_S and ((self._ext - target_c) * m >= 0.0
+                                                     or gap * m <= 0.0):
             tol = 3.0 * noise
             if tol > ARRIVE_TOL_C:
                 tol = ARRIVE_TOL_C
             if (self._y_prev - target_c) * m >= -tol:
+                if (self._ext - target_c) * m < 0.0:
+                    self._ext = target_c  # the level crossed first: hold it there
                 self._arrive()
                 return
         if gap * d <= 0.0:

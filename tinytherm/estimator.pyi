@@ -3,6 +3,7 @@ from typing import Optional, Union
 from tinytherm.change import ChangeDetector
 from tinytherm.guard import ReadingGuard
 
+ARRIVE_MIN_S: float
 ARRIVE_TOL_C: float
 AMBIENT_SMOOTH_S: float
 AUDIT_FRACTIONS: tuple[float, float, float]
