@@ -76,7 +76,6 @@ def main(hours):
                 faults += 1
         if n % 600 == 0:
             blob = est.save()
-            changes += est.changes  # counts since the last restore
             if est.restore(blob) != bl.RESTORED:
                 restores_failed += 1
             woke = True
@@ -92,7 +91,7 @@ def main(hours):
     late = sum(rest[half:]) // (len(rest) - half) if rest else 0
     print("RESULT updates=%d accepted=%d rejected=%d changes=%d faults=%d restores_failed=%d "
           "heap_min=%d heap_max=%d early_mean=%d late_mean=%d trend=%d hours=%d"
-          % (trace.count, accepted, rejected, changes + est.changes, faults, restores_failed,
+          % (trace.count, accepted, rejected, est.changes, faults, restores_failed,
              min(rest) if rest else 0, max(rest) if rest else 0, early, late, late - early,
              len(samples)))
 
