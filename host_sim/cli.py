@@ -632,6 +632,8 @@ def build_parser():
     b.set_defaults(func=cmd_benchmark)
     from host_sim import fleet      # the fleet subcommand lives in host_sim/fleet.py
     fleet.add_parser(sub)
+    from host_sim import calibrate  # the calibrate subcommand lives in host_sim/calibrate.py
+    calibrate.add_parser(sub)
     return p
 
 
