@@ -648,6 +648,45 @@ def forecast_errors(prof, pairs, heater_lag_s, ambient_c=None):
     return float(np.median(prof_err)), float(np.median(dev_err)), per_pair
 
 
+def transfer_check(cal, traces, ambient_c=None, settings=None):
+    """Does a calibration help on other traces? A dict with the figures and the reasons.
+
+    Replays each trace (three targets along its approach) through the device
+    without a profile and compares, on the same shown rows, the median
+    relative error of the device with that of the profile model
+    (:func:`profile_forecast`). ``improves`` is True when the profile model's
+    error is lower; ``reasons`` lists what the data show against the profile
+    (temperature ranges that do not overlap, a fitted exponent at its bound,
+    no ambient to anchor the equilibrium, too few training uses).
+    """
+    preps = [prepare(tr, ambient_c=ambient_c) for tr in traces]
+    pairs = [p for pr in preps for p in replay_pairs(pr, cal.fit.heater, settings)]
+    e_prof, e_dev, per_pair = forecast_errors(cal.profile, pairs, cal.fit.heater_lag_s,
+                                              ambient_c)
+    fit_lo = min(float(np.min(pr.s)) for pr in cal.preps)
+    fit_hi = max(float(np.max(pr.s)) for pr in cal.preps)
+    test_lo = min(float(np.min(pr.s)) for pr in preps)
+    test_hi = max(float(np.max(pr.s)) for pr in preps)
+    reasons = []
+    overlap = min(fit_hi, test_hi) - max(fit_lo, test_lo)
+    if overlap < 0.5 * (test_hi - test_lo):
+        reasons.append("the test temperatures (%.1f-%.1f C) lie mostly outside the range the "
+                       "profile was fitted on (%.1f-%.1f C): its rate law is extrapolated"
+                       % (test_lo, test_hi, fit_lo, fit_hi))
+    reasons += fit_warnings(cal.fit)
+    if not cal.fit.has_ambient and ambient_c is None:
+        reasons.append("no ambient reading: the equilibrium is inferred from the slope with "
+                       "the typical rate, so a wrong rate moves the equilibrium too")
+    if len(cal.preps) < 3:
+        reasons.append("calibrated on %d use(s): the spread across uses is unknown"
+                       % len(cal.preps))
+    improves = bool(np.isfinite(e_prof) and np.isfinite(e_dev) and e_prof < e_dev)
+    return {"improves": improves, "median_rel_error_profile_model": e_prof,
+            "median_rel_error_device": e_dev, "pairs": len(per_pair),
+            "fit_range_c": (fit_lo, fit_hi), "test_range_c": (test_lo, test_hi),
+            "reasons": reasons}
+
+
 # ------------------------------------------------------------- the pipeline
 class Calibration:
     """Everything :func:`calibrate` learned; see :meth:`as_dict` for the fields and units."""
