@@ -186,6 +186,21 @@ class VesselProfile:
         except (ValueError, OverflowError):
             return self.rate_per_s
 
+    def local_first_order(self, temp_c, ambient_c):
+        """``(k_local, e_local)``: the first-order law tangent to the profile's law at ``temp_c``.
+
+        With ``d = temp_c - (ambient_c + eq_offset_c)`` (deg C) the passive law
+        ``f(T) = -a |d|^n sign(d)`` has ``f'(T) = -n a |d|^(n-1) = -n rate_at(d)``,
+        so the straight line ``dT/dt = -k_local (T - e_local)`` that matches
+        both the rate of change and its slope at ``temp_c`` has
+        ``k_local = n * rate_at(d)`` (1/s) and ``e_local = temp_c - d / n``
+        (deg C). This is what a first-order fit over a short recent window sees;
+        for n = 1 it is ``(rate_per_s, ambient_c + eq_offset_c)``.
+        """
+        n = self.rate_exponent
+        d = temp_c - (ambient_c + self.eq_offset_c)
+        return n * self.rate_at(d), temp_c - d / n
+
     def time_to_target_s(self, temp_c, target_c, equilibrium_c):
         """Seconds for the passive law to take the liquid from ``temp_c`` to ``target_c``.
 

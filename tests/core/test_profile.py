@@ -197,3 +197,20 @@ def test_time_to_target_closed_form_against_rk4():
     q = VesselProfile(rate_per_s=0.01, rate_exponent=0.5)
     a = 0.01 * 10.0 ** 0.5
     assert close(q.time_to_target_s(36.0, 20.0, 20.0), 4.0 / (a * 0.5), 1e-12)
+
+
+def test_local_first_order_is_the_tangent_of_the_power_law():
+    p = VesselProfile(rate_per_s=0.001, rate_exponent=1.5, eq_offset_c=-2.0)
+    k, e = p.local_first_order(62.0, 22.0)        # d = 62 - 20 = 42 K
+    a = 0.001 / 10.0 ** 0.5
+
+    def f(t):
+        return -a * (t - 20.0) ** 1.5
+    # same rate of change and same slope (central difference) at 62 C
+    assert close(-k * (62.0 - e), f(62.0), 1e-12)
+    h = 1e-3
+    assert close(-k, (f(62.0 + h) - f(62.0 - h)) / (2 * h), 1e-6)
+    assert close(e, 62.0 - 42.0 / 1.5, 1e-12)
+    # first order: the profile's own rate and equilibrium
+    q = VesselProfile(rate_per_s=0.002, eq_offset_c=1.5)
+    assert q.local_first_order(80.0, 20.0) == (0.002, 21.5)
