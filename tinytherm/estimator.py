@@ -24,7 +24,8 @@ one observation of this equation.
 1. *Memory that follows the approach.* The regression forgets with a time
    constant of ``memory_fraction`` (0.5) times the time since the fit
    started, between ``MIN_MEMORY_S`` and ``memory_s``: about the recent half
-   of the approach, wherever the liquid is on its curve, so a rate that bends
+   of the approach (and at least ``SPAN_BLOCKS`` block durations, for sparse
+   readings), wherever the liquid is on its curve, so a rate that bends
    along the approach (convection ~ dT^(1/4), evaporation, a warming wall) is
    followed instead of averaged. Weighted means and co-moments are updated
    with West's incremental formulas; coordinates are kept relative to their
@@ -73,10 +74,12 @@ from tinytherm import status as st
 from tinytherm.change import ChangeDetector
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.model import time_to_target_from_slope_s
+from tinytherm.profile import VesselProfile
 
 _INF = math.inf
 MAX_BLOCK_READINGS = 255        # a block closes after this many readings
 MIN_MEMORY_S = 30.0             # s: shortest forgetting time constant
+SPAN_BLOCKS = 4.0               # forgetting time constant at least this many block durations
 AMBIENT_SMOOTH_S = 300.0        # s: time constant of the measured-ambient smoothing
 KNOWN_AMBIENT_SD_C = 2.0        # deg C: default equilibrium hint sd with a known or measured ambient
 AUDIT_FRACTIONS = (0.125, 0.25, 0.5)  # audit horizons, fractions of the fit's age
@@ -91,6 +94,11 @@ DETECT_MIN_BLOCKS = 5           # blocks before the change detector listens
 MISMATCH_C = 0.03               # deg C: model-mismatch allowance of a block innovation
 NOISE_PRIOR_C = 0.05            # deg C: reading noise sd assumed before it is measured
 NOISE_PRIOR_N = 4               # readings that prior is worth
+PROFILE_HEATER_MISMATCH = 100   # profile_reason: a heater profile for a passive estimator, or back
+PROFILE_REJECTED = 101         # profile_reason: dropped, its forecasts failed (see _audit)
+PROFILE_Z80 = 1.2815515655446004  # the profile's table holds 10 % / 90 % points
+PROFILE_MISMATCH_VAR = 4.0      # a profile is dropped when the audits' error variance exceeds
+PROFILE_MISMATCH_N = 3          # this many times its own, over at least this many checks
 
 
 def normal_quantile(p):
@@ -227,6 +235,15 @@ class ThermalEstimator:
       off) and report ``DISTURBED`` until it answers again.
     - ``turn_c``: a retreat of the block means from their extreme by more
       than this (deg C) restarts the fit (a new approach; not with a heater).
+    - ``profile``: a :class:`~tinytherm.profile.VesselProfile` or its device
+      blob. It sets the priors (rate bent by its power law at the current
+      distance to the equilibrium, equilibrium offset from the ambient, heater
+      gain) and the interval (its calibrated quantiles). A bad blob or a profile
+      for the other heater mode is not used (``profile_reason`` says why, a
+      :mod:`tinytherm.profile` reason code or ``PROFILE_HEATER_MISMATCH``);
+      a profile whose forecasts fail on this liquid (audit errors beyond
+      ``PROFILE_MISMATCH_VAR`` times its own spread) is dropped for the rest of
+      the use (``PROFILE_REJECTED``) and the free fit carries on.
     """
 
     def __init__(self, ambient_c=None, ambient_prior_c=21.0, ambient_prior_sd_c=8.0,
@@ -235,7 +252,7 @@ class ThermalEstimator:
                  rate_prior_per_s=1.0 / 1800.0, min_temp_c=-55.0, max_temp_c=150.0,
                  quantum_c=0.0625, spike_window=3, max_gap_s=900.0, restart_gap_s=3600.0,
                  stuck_change_c=1.0, stuck_min_s=30.0, fault_after=5, detect_changes=True,
-                 turn_c=1.0):
+                 turn_c=1.0, profile=None):
         if not _number(min_temp_c, -1e4, 1e4) or not _number(max_temp_c, -1e4, 1e4) \
                 or not min_temp_c < max_temp_c:
             raise ValueError("min_temp_c < max_temp_c must be finite deg C within +-1e4")
@@ -273,6 +290,20 @@ class ThermalEstimator:
             raise ValueError("stuck_min_s must be in [0, 1e6] seconds")
         if not _number(max_gap_s, 1e-3, 1e5) or not _number(restart_gap_s, 1e-3, 1e5):
             raise ValueError("max_gap_s and restart_gap_s must be in [1e-3, 1e5] seconds")
+        # a vessel profile (tinytherm.profile): an object, or its device blob; a
+        # bad blob is not an error: the estimator runs without it and says why
+        self._profile = None
+        self.profile_reason = 0
+        if profile is not None:
+            t = type(profile)
+            if t is bytes or t is bytearray or t is memoryview:
+                profile, self.profile_reason = VesselProfile.from_blob(profile)
+            elif not isinstance(profile, VesselProfile):
+                raise ValueError("profile must be a VesselProfile, its blob or None")
+            if profile is not None and profile.heater != bool(heater):
+                profile = None
+                self.profile_reason = PROFILE_HEATER_MISMATCH
+            self._profile = profile
         # the guard checks the rest of its own settings (ValueError that names them)
         self.guard = ReadingGuard(min_c=min_temp_c, max_c=max_temp_c, quantum_c=quantum_c,
                                   spike_window=spike_window, max_gap_s=max_gap_s,
@@ -322,6 +353,7 @@ class ThermalEstimator:
         self._noise_n = NOISE_PRIOR_N
         self._s2_fit = self._noise2
         self._disturbed = False
+        self._profile_on = self._profile is not None  # dropped when its forecasts fail
         self._restart_fit()
 
     def _restart_fit(self):
@@ -518,8 +550,11 @@ class ThermalEstimator:
                 self.changes += 1
                 self._begin_again(True)
                 return
-        # forgetting: time constant memory_fraction x age, clamped
+        # forgetting: time constant memory_fraction x age, clamped; at least a
+        # few block durations, so that sparse readings still overlap
         mem = self.memory_fraction * self._age
+        if mem < SPAN_BLOCKS * self._b_dur:
+            mem = SPAN_BLOCKS * self._b_dur
         if mem < MIN_MEMORY_S:
             mem = MIN_MEMORY_S
         elif mem > self.memory_s:
@@ -623,41 +658,60 @@ class ThermalEstimator:
         if self._nb < 1.5 or not self._w > 0.0:
             return
         s2 = self._s2_fit  # the noise level at the last block (a restore re-solves with it)
-        # loose prior k ~ N(0, k0^2): a straight line until the data show a bend
-        lk = s2 / (self._k0 * self._k0)
-        if not self._solve_with(lk, 0.0, 0.0, s2):
-            return
-        # the equilibrium hint E ~ N(e, sd^2), used only when moving towards it: one
-        # pseudo-observation 0 = s - k (e - G0) with sd k sd (scale k from the slope)
+        prof = self._profile if self._profile_on else None
+        # the equilibrium hint E ~ N(e, sd^2) as a gap G = T - R
         if self._ambient_fixed is not None or self._measured:
             e_gap = 0.0
             sd = self._known_sd
         else:
             e_gap = self._prior_r
             sd = self._prior_sd
+        if prof is not None:
+            e_gap += prof.eq_offset_c
+            sd = prof.eq_offset_sd_c if prof.eq_offset_sd_c > 0.05 else 0.05
         dist = e_gap - self._g0
+        # prior on k: loose N(0, k0^2) (a straight line until the data show a
+        # bend), or the profile's rate at this distance, N(kp, (kp sd_ln k)^2)
+        kp = 0.0
+        lk = s2 / (self._k0 * self._k0)
+        gp = 0.0
+        lg = s2  # heater gain ~ N(0, 1 K/s) without a profile
+        if prof is not None:
+            kp = prof.rate_at(dist)
+            rel = prof.rate_log_sd if prof.rate_log_sd > 0.02 else 0.02
+            lk = s2 / (kp * kp * rel * rel)
+            gp = prof.gain_k_per_s
+            rel = prof.gain_rel_sd if prof.gain_rel_sd > 0.02 else 0.02
+            if gp != 0.0:
+                lg = s2 / (gp * gp * rel * rel)
+        if not self._solve_with(lk, kp, 0.0, 0.0, lg, gp, s2):
+            return
+        # the hint, used only when the liquid moves towards it: one
+        # pseudo-observation 0 = s - k (e - G0) with sd k sd (k scaled from the slope)
         slope = self._s - self._g * self._u0   # slope without heat input
         if (dist > 2.0 * sd or dist < -2.0 * sd) and slope * dist > 0.0:
-            self._solve_with(0.0, s2 * dist * dist / (slope * slope * sd * sd), dist, s2)
+            if prof is None:
+                lk = 0.0  # the hint replaces the loose prior
+            self._solve_with(lk, kp, s2 * dist * dist / (slope * slope * sd * sd), dist, lg, gp,
+                             s2)
         if self._ok and self._k < 0.0:
             # accelerating: the exact straight line instead
-            self._solve_with(-1.0, 0.0, 0.0, s2)
+            self._solve_with(-1.0, 0.0, 0.0, 0.0, lg, gp, s2)
 
-    def _solve_with(self, lk, lh, dist, s2):
-        """One solve with prior weight ``lk`` on k ~ N(0, s2 / lk) (``lk < 0`` pins
-        k = 0) and weight ``lh`` on the hint 0 = s + dist * m (m = -k)."""
+    def _solve_with(self, lk, kp, lh, dist, lg, gp, s2):
+        """One solve with priors k ~ N(kp, s2 / lk) (``lk < 0`` pins k = 0),
+        g ~ N(gp, s2 / lg) and weight ``lh`` on the hint 0 = s + dist * m (m = -k)."""
         heater = self.heater
         a11 = self._ctt + lh
         a12 = self._ctx + lh * dist
         a22 = self._cxx + (lk if lk > 0.0 else 0.0) + lh * dist * dist
         b1 = self._cty
-        b2 = self._cxy
+        b2 = self._cxy - (kp * lk if lk > 0.0 else 0.0)
         if heater:
-            lg = s2  # prior g ~ N(0, 1 K/s)
             a13 = self._ctu
             a23 = self._cxu
             a33 = self._cuu + lg
-            b3 = self._cuy
+            b3 = self._cuy + lg * gp
         else:
             a13 = a23 = b3 = 0.0
             a33 = 1.0
@@ -715,11 +769,24 @@ class ThermalEstimator:
 
     # ------------------------------------------------------------------ audits
     def _audit(self):
+        if self._nb < DETECT_MIN_BLOCKS:
+            return  # a fit of a few readings forecasts noise, not the model's error
         level = self._level()
         slope = self._slope(level)
         need = 4.0 * math.sqrt(self._var_level()) + 0.5 * self.guard.quantum_c
         for a in self._audits:
             a.check(self._age, level, slope, self._k, need)
+            if self._profile_on and a.n >= PROFILE_MISMATCH_N:
+                lo, hi = self._profile.interval_log_bounds(a.horizon_s(self._age))
+                own = (hi - lo) / (2.0 * PROFILE_Z80)
+                if own < 0.05:
+                    own = 0.05
+                if a.var > PROFILE_MISMATCH_VAR * own * own:
+                    # its forecasts fail on this liquid: another vessel's profile
+                    self._profile_on = False
+                    self.profile_reason = PROFILE_REJECTED
+                    self._solve()
+                    return
 
     def _audit_var(self, eta_s):
         """Forecast-error variance of log(eta) at horizon ``eta_s`` (interpolated in log h)."""
@@ -852,12 +919,21 @@ class ThermalEstimator:
         if not var_eta > 0.0:
             var_eta = 0.0
         rel2 = var_eta / (eta * eta) if eta > 0.0 else 0.0
-        rel = math.sqrt(rel2 + self._audit_var(eta))
-        zr = self._z * rel
-        spread = math.exp(zr) if zr < 50.0 else _INF
         self.eta_s = eta
-        self.eta_low_s = eta / spread
-        self.eta_high_s = eta * spread
+        if self._profile_on:
+            # the profile's interval: quantiles of ln(actual / predicted) measured on
+            # held-out uses of this vessel (split-conformal, see host_sim.calibrate)
+            lo, hi = self._profile.interval_log_bounds(eta)
+            z = self._z / PROFILE_Z80
+            self.eta_low_s = eta * math.exp(z * lo)
+            self.eta_high_s = eta * math.exp(z * hi) if z * hi < 50.0 else _INF
+            rel = (hi - lo) / (2.0 * PROFILE_Z80)
+        else:
+            rel = math.sqrt(rel2 + self._audit_var(eta))
+            zr = self._z * rel
+            spread = math.exp(zr) if zr < 50.0 else _INF
+            self.eta_low_s = eta / spread
+            self.eta_high_s = eta * spread
         self.eta_rel_sd = rel
         if self._age >= self.settle_s and rel <= self.max_relative_sd:
             self.status = st.TRACKING
@@ -872,7 +948,8 @@ class ThermalEstimator:
     def _settings_byte(self):
         return ((1 if self.heater else 0) | (2 if self._ambient_fixed is not None else 0)
                 | (4 if self.guard.spike_window == 5 else 0)
-                | (8 if self.detector is not None else 0))
+                | (8 if self.detector is not None else 0)
+                | (16 if self._profile is not None else 0))
 
     def save(self):
         """The whole state as a blob of ``tinytherm.blob.BLOB_SIZE`` (480) bytes.
@@ -890,7 +967,7 @@ class ThermalEstimator:
                          self.changes & 0xFFFF, self.turns & 0xFFFF, self._bn, g._win_n,
                          g.consecutive_rejections if g.consecutive_rejections < 255 else 255,
                          self._fit_readings if self._fit_readings < 255 else 255,
-                         flags | ((self._dir + 1) << 4),
+                         flags | ((self._dir + 1) << 4) | (64 if self._profile_on else 0),
                          self._audits[0].n | (self._audits[1].n << 4), self._audits[2].n,
                          self._noise_n)
         offset = bl.PAYLOAD_OFFSET + struct.calcsize(_INT_FMT)
@@ -935,7 +1012,10 @@ class ThermalEstimator:
         (readings, changes, turns, bn, win_n, rej, fit_readings, flags, n01, n2,
          noise_n) = struct.unpack_from(_INT_FMT, blob, bl.PAYLOAD_OFFSET)
         offset = bl.PAYLOAD_OFFSET + struct.calcsize(_INT_FMT)
-        direction = (flags >> 4) - 1
+        direction = ((flags >> 4) & 3) - 1
+        profile_on = bool(flags & 64)
+        if flags & 128 or (profile_on and self._profile is None):
+            return bl.BLOB_VALUES
         flags &= 15
         n0 = n01 & 15
         n1 = n01 >> 4
@@ -993,6 +1073,7 @@ class ThermalEstimator:
         self._audits[2].n = n2
         self._fit_readings = fit_readings
         self._noise_n = noise_n
+        self._profile_on = profile_on
         self._fresh = bool(flags & 1)
         self._disturbed = bool(flags & 2)
         self._measured = bool(flags & 4)

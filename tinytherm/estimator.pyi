@@ -2,6 +2,7 @@ from typing import Optional, Union
 
 from tinytherm.change import ChangeDetector
 from tinytherm.guard import ReadingGuard
+from tinytherm.profile import VesselProfile
 
 ARRIVE_MIN_S: float
 ARRIVE_TOL_C: float
@@ -17,9 +18,15 @@ GAP_RESTART: int
 KNOWN_AMBIENT_SD_C: float
 MAX_BLOCK_READINGS: int
 MIN_MEMORY_S: float
+SPAN_BLOCKS: float
 MISMATCH_C: float
 NOISE_PRIOR_C: float
 NOISE_PRIOR_N: int
+PROFILE_HEATER_MISMATCH: int
+PROFILE_MISMATCH_N: int
+PROFILE_MISMATCH_VAR: float
+PROFILE_REJECTED: int
+PROFILE_Z80: float
 
 def normal_quantile(p: float) -> float: ...
 def time_to_target_from_slope_s(gap_c: float, slope_c_per_s: float,
@@ -37,6 +44,7 @@ class ThermalEstimator:
     max_temp_c: float
     fault_after: int
     turn_c: float
+    profile_reason: int
     guard: ReadingGuard
     detector: Optional[ChangeDetector]
     readings: int
@@ -64,7 +72,9 @@ class ThermalEstimator:
                  max_gap_s: float = 900.0, restart_gap_s: float = 3600.0,
                  stuck_change_c: Optional[float] = 1.0, stuck_min_s: float = 30.0,
                  fault_after: int = 5, detect_changes: bool = True,
-                 turn_c: float = 1.0) -> None: ...
+                 turn_c: float = 1.0,
+                 profile: Union[VesselProfile, bytes, bytearray, memoryview, None] = None
+                 ) -> None: ...
     def reset(self) -> None: ...
     def update_ticks(self, temp_c: float, ticks_ms: int, ambient_c: Optional[float] = None,
                      duty: float = 0.0) -> int: ...
