@@ -19,6 +19,8 @@ Vessels (all our own inventions with our own numbers):
 
 - ``mug``: 0.35 kg stoneware mug, open top, 12 s probe lag; 0.20-0.34 kg of
   drink poured at 78-94 C; rooms 18-26 C; one hour.
+- ``flask``: lidded travel mug (the mug physics with the lid on, a heavier
+  wall, 20 s probe lag); 0.25-0.40 kg at 80-95 C; rooms 16-26 C; two hours.
 - ``kettle``: 2.2 kW plastic-bodied kettle, 6 s probe lag; 0.5-1.6 kg of
   water at 8-22 C; stops before 96 C.
 - ``bath``: 1.2 kW bath in a polymer tub, covered, 8 s probe lag; 4-9 kg of
@@ -41,14 +43,15 @@ from scipy.integrate import solve_ivp
 
 from host_sim import scenarios
 
-VESSELS = ("mug", "kettle", "bath", "lab_pot")
+VESSELS = ("mug", "flask", "kettle", "bath", "lab_pot")
 VESSEL_TITLES = {
     "mug": "stoneware mug, open top (cooling)",
+    "flask": "lidded travel mug (cooling)",
     "kettle": "2.2 kW kettle (heating)",
     "bath": "1.2 kW covered bath (heating)",
     "lab_pot": "reference pot with the profile's own physics (heat, then cool)",
 }
-_CODE = {"mug": 101, "kettle": 102, "bath": 103, "lab_pot": 104}
+_CODE = {"mug": 101, "kettle": 102, "bath": 103, "lab_pot": 104, "flask": 105}
 QUANTUM_C = scenarios.QUANTUM_C
 
 # lab_pot: the profile's model with these known values
@@ -84,6 +87,15 @@ class _Mug(_Fixed, scenarios.Mug):
     varied = {"room_c": (18.0, 26.0), "pour_c": (78.0, 94.0), "liquid_kg": (0.20, 0.34)}
 
 
+class _Flask(_Fixed, scenarios.Mug):
+    # a lidded double-wall travel mug: the mug physics with the lid on, a heavier
+    # wall and a slower probe
+    fixed = dict(_Mug.fixed, mug_kg=0.45, wall_half_r=0.006, lid_u=1.5, sensor_lag_s=20.0,
+                 outer_area_m2=0.030)
+    varied = {"room_c": (16.0, 26.0), "pour_c": (80.0, 95.0), "liquid_kg": (0.25, 0.40)}
+    lid = True
+
+
 class _Kettle(_Fixed, scenarios.Kettle):
     fixed = {"power_w": 2200.0, "element_j_per_k": 0.35 * scenarios.C_STEEL,
              "element_w_per_k": 70.0, "body_j_per_k": 220.0, "body_w_per_k": 14.0,
@@ -104,6 +116,7 @@ class _Bath(_Fixed, scenarios.Bath):
 _SPEC = {
     # class, sample interval s, probe noise deg C, horizon s, heater
     "mug": (_Mug, 5.0, 0.04, 3600.0),
+    "flask": (_Flask, 10.0, 0.04, 7200.0),
     "kettle": (_Kettle, 1.0, 0.05, 900.0),
     "bath": (_Bath, 5.0, 0.04, 7200.0),
 }
@@ -142,7 +155,7 @@ def _scenario_use(name, seed):
     k.draw()
     p = k.p
     duty = float(p.get("duty", 1.0))
-    mode = {"lid": False, "duty": duty, "stir": 1.0}
+    mode = {"lid": bool(getattr(k, "lid", False)), "duty": duty, "stir": 1.0}
     sol = scenarios.integrate_piecewise(k.rhs, k.y0(), horizon_s, [], mode)
     end = horizon_s
     if name == "kettle":
@@ -162,7 +175,7 @@ def _scenario_use(name, seed):
              "room_c": float(p["room_c"]), "has_heater": bool(k.has_heater),
              "params": {key: (float(v) if isinstance(v, (int, float)) and not isinstance(v, bool)
                               else v) for key, v in p.items()}}
-    if name == "mug":
+    if name in ("mug", "flask"):
         truth["fill_kg"] = float(p["liquid_kg"])
         truth["start_c"] = float(p["pour_c"])
     else:
