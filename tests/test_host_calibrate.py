@@ -179,3 +179,27 @@ def test_cooling_water_first_half_on_second_half():
         assert check["reasons"]
         assert any("outside the range" in r for r in check["reasons"])
         assert check["fit_range_c"][0] > check["test_range_c"][1] - 0.5
+
+
+def test_vessels_fix_the_product_and_vary_the_use():
+    # the same vessel: same probe and geometry in every use; fill, start and room vary
+    for name in ("mug", "flask", "kettle", "bath"):
+        a, b = vessels.generate_use(name, 1), vessels.generate_use(name, 2)
+        assert a.truth["probe_lag_s"] == b.truth["probe_lag_s"]
+        fixed = {k: v for k, v in a.truth["params"].items()
+                 if k not in ("room_c", "pour_c", "liquid_kg", "start_c", "water_kg", "duty")}
+        assert fixed == {k: b.truth["params"][k] for k in fixed}
+        assert a.truth["fill_kg"] != b.truth["fill_kg"] and a.truth["room_c"] != b.truth["room_c"]
+        assert len(a.time_s) > 50 and np.all(np.diff(a.time_s) > 0)
+        # the room sensor reads the room; readings are 0.0625 C steps
+        assert abs(np.median(a.ambient_c) - a.truth["room_c"]) < 0.07
+        assert np.allclose(a.temp_c / 0.0625, np.round(a.temp_c / 0.0625))
+        again = vessels.generate_use(name, 1)
+        assert np.array_equal(again.temp_c, a.temp_c)   # seeded
+    k = vessels.generate_use("kettle", 3)
+    p = k.truth["params"]
+    heat_cap = p["water_kg"] * 4181.0 + p["element_j_per_k"] + p["body_j_per_k"]
+    assert k.truth["gain_k_per_s"] == pytest.approx(p["power_w"] / heat_cap, rel=1e-12)
+    assert k.temp_c[-1] < 97.0 and k.heater is not None
+    with pytest.raises(ValueError):
+        vessels.generate_use("teapot", 1)
