@@ -5,8 +5,8 @@ Scaling: ``--traces`` synthetic traces (Newton cooling plus white noise,
 with two tags, replayed in this process (the peer) and on a LocalCluster of 1
 and 2 single-threaded worker processes reached through its scheduler address
 (the ``--scheduler`` path). Prints traces per second, the speed-up against
-the 1-worker run, and each worker's peak resident memory (ru_maxrss) after
-the run. Results of all runs are compared for equality.
+the 1-worker run, and each worker's peak resident memory (VmHWM) after
+the run (VmHWM) and before it. Results of all runs are compared for equality.
 
 Memory: one generated trace of ``--memory-rows`` rows (a slow cooling that
 crosses the target near the end, so nearly every row is evaluated), replayed
@@ -56,6 +56,18 @@ def write_fleet(folder, n, rows):
 
 
 def _peak_rss_mb():
+    """This process's peak resident memory, MB: VmHWM (Linux), else ru_maxrss.
+
+    ru_maxrss survives exec on Linux, so a child started from a big parent
+    would report the parent's peak; VmHWM belongs to the new address space.
+    """
+    try:
+        with open("/proc/self/status") as handle:
+            for line in handle:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) / 1024.0
+    except OSError:
+        pass
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
 
 
@@ -82,6 +94,8 @@ def scaling(n, rows):
         cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
                                dashboard_address=None, silence_logs=logging.ERROR)
         try:
+            with Client(cluster) as client:
+                idle = client.run(_peak_rss_mb)
             t = time.perf_counter()
             runs[workers] = fleet.run_fleet(items, variants, scheduler=cluster.scheduler_address,
                                             progress=False,
@@ -93,8 +107,10 @@ def scaling(n, rows):
             cluster.close()
         speeds[workers] = n / wall
         print("%d worker(s): %7.1f s  %7.1f traces/s  (%.2f x the in-process peer)  peak RSS "
-              "per worker %s MB" % (workers, wall, n / wall, base_s / wall,
-                                    ", ".join("%.0f" % v for v in sorted(peaks.values()))))
+              "per worker %s MB (%s MB before the run)"
+              % (workers, wall, n / wall, base_s / wall,
+                 ", ".join("%.0f" % v for v in sorted(peaks.values())),
+                 ", ".join("%.0f" % v for v in sorted(idle.values()))))
     print("2 workers / 1 worker: %.2f x" % (speeds[2] / speeds[1]))
     same = all(json.dumps(runs[w], sort_keys=True) == json.dumps(runs[0], sort_keys=True)
                for w in (1, 2))
@@ -123,7 +139,7 @@ def write_long_trace(path, rows):
 
 
 CHILD = """
-import json, resource, sys, time
+import json, sys, time
 sys.path.insert(0, %r)
 mode, path, target, out = sys.argv[1], sys.argv[2], float(sys.argv[3]), sys.argv[4]
 t = time.perf_counter()
@@ -145,9 +161,11 @@ else:
     figs = {"rows": len(tr), "median_rel_error": m["median_rel_error"],
             "evaluated_rows": m["evaluated_rows"]}
 figs["wall_s"] = time.perf_counter() - t
-figs["peak_mb"] = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+sys.path.insert(0, %r)
+from fleet_scaling import _peak_rss_mb
+figs["peak_mb"] = _peak_rss_mb()
 print(json.dumps(figs))
-""" % ROOT
+""" % (ROOT, os.path.join(ROOT, "benchmarks"))
 
 
 def memory(rows, peer_rows):
@@ -189,8 +207,9 @@ def main():
     import platform
     rev = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=ROOT,
                          capture_output=True, text=True).stdout.strip()
-    print("fleet benchmark at %s, Python %s, %d CPU(s)" % (rev, platform.python_version(),
-                                                          os.cpu_count()))
+    print("fleet benchmark at %s, Python %s, %d CPU(s)" % (
+        rev or os.environ.get("FLEET_BENCH_REV", "(not a git checkout)"),
+        platform.python_version(), os.cpu_count()))
     if args.only in (None, "scaling"):
         scaling(args.traces, args.rows)
     if args.only in (None, "memory"):
