@@ -49,10 +49,10 @@ from tinytherm import forecast as forecast_now  # noqa: E402
 from tinytherm import planner as planner_now  # noqa: E402
 
 FIGURES = ("calls", "scenarios", "exceptions", "nonfinite", "broken", "refused", "max_work",
-           "max_reads_per_work", "model_calls", "model_inf")
+           "max_planner_work", "max_reads_per_work", "model_calls", "model_inf")
 
 
-def fuzz_cpython(calls, seed, chunk=2000):
+def fuzz_cpython(calls, seed, chunk=200):
     """Scenarios until ``calls`` checked calls; returns (Stats, seconds)."""
     st = fcases.Stats()
     rng = XorShift(seed)
@@ -241,8 +241,10 @@ def print_stats(label, d, seconds):
         label, d["calls"], d["scenarios"], seconds, d["calls"] / max(seconds, 1e-9)))
     print("  exceptions %d, non-finite %d, other broken promises %d, setter refusals %d" % (
         d["exceptions"], d["nonfinite"], d["broken"], d["refused"]))
-    print("  max work %d (cap %d), max breakpoint reads per unit of work %.1f" % (
-        d["max_work"], forecast_now.MAX_PIECES, d["max_reads_per_work"]))
+    print("  max work %d per Forecast call (cap %d), %d per planner call (cap %d), "
+          "max breakpoint reads per unit of work %.1f" % (
+              d["max_work"], forecast_now.MAX_PIECES, d["max_planner_work"],
+              2 * forecast_now.MAX_PIECES, d["max_reads_per_work"]))
     print("  model calls %d, of which overflowed to +-inf %d" % (d["model_calls"], d["model_inf"]))
 
 

@@ -7,7 +7,7 @@ never-raise methods never raise; ``temperature_at_c`` is finite exactly when
 ``reason`` is REASON_NONE (NaN otherwise); ``time_to_target_s`` is None or a
 finite time >= 0 matching ``status``/``eta_s``; planner answers are None or
 finite (duty in [0, 1]); ``work`` stays within MAX_PIECES and accounts for
-every breakpoint read (reads <= 12 per unit of work, whatever the count of
+every breakpoint read (reads <= 16 per unit of work, whatever the count of
 breakpoints). Small budget (a few hundred examples); the million-case run is
 benchmarks/fuzz_forecast.py.
 """
@@ -17,6 +17,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as hs
 
 from forecast_cases import CountingSeq
+from test_forecast_hostile import READS_PER_WORK
 from tinytherm import forecast, status
 from tinytherm.forecast import MAX_PIECES, Forecast
 from tinytherm.planner import ReadyByPlanner
@@ -119,7 +120,7 @@ def test_forecast_promises_hold_on_any_input(rate, gain, amb, ambient, plan, sta
     else:
         assert v != v
     assert 0 <= fc.work <= MAX_PIECES
-    assert _reads(seqs) <= 12 * (fc.work + 1)
+    assert _reads(seqs) <= READS_PER_WORK * (fc.work + 1)
     eta = fc.time_to_target_s(start, target, horizon)
     assert eta is None or (_finite(eta) and eta >= 0.0 and fc.eta_s == eta)
     if eta is None:
@@ -128,7 +129,7 @@ def test_forecast_promises_hold_on_any_input(rate, gain, amb, ambient, plan, sta
         assert fc.status in (status.TRACKING, status.ARRIVED)
     assert _finite(fc.searched_s)
     assert 0 <= fc.work <= MAX_PIECES
-    assert _reads(seqs) <= 12 * (fc.work + 1)
+    assert _reads(seqs) <= READS_PER_WORK * (fc.work + 1)
     assert fc.hold_is_sustainable() in (True, False)
     fc.ambient_at_c(t)  # may be NaN, must not raise
 

@@ -534,6 +534,8 @@ class Forecast:
         start_c = _real(start_c)
         if not (_finite(t_s) and t_s >= 0.0 and _finite(start_c)):
             self.reason = REASON_BAD_INPUT
+            self.searched_s = 0.0
+            self.work = 0
             return math.nan
         self._run(start_c, 0.0, t_s, False)
         if self.reason != REASON_NONE:

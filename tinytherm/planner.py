@@ -59,6 +59,8 @@ class ReadyByPlanner:
     runs), ``duty`` (constant duty), ``eta_s`` (cooling arrival),
     ``earliest_s`` (earliest arrival at full power when too slow),
     ``off_at_deadline_c`` (heater-off temperature at the deadline, deg C).
+    ``work``: units of forecast work the last call used, summed over its
+    forecast runs (at most two, so at most ``2 * forecast.MAX_PIECES``).
     """
 
     def __init__(self, rate_per_s=0.0, ambient_c=20.0, gain_k_per_s=0.0):
@@ -72,6 +74,7 @@ class ReadyByPlanner:
         self.earliest_s = None
         self.off_at_deadline_c = None
         self.on_time = False
+        self.work = 0
 
     def set_model(self, rate_per_s, ambient_c, gain_k_per_s):
         """Fitted ``k`` (1/s), constant ambient (deg C) and ``g`` (K/s). Raises ValueError."""
@@ -87,6 +90,7 @@ class ReadyByPlanner:
         self.earliest_s = None
         self.off_at_deadline_c = None
         self.on_time = False
+        self.work = 0
 
     def _answer(self, code, reason):
         self.status = code
@@ -98,6 +102,7 @@ class ReadyByPlanner:
         fc = self.forecast
         fc.set_plan_duty(0.0)
         t_off = fc.temperature_at_c(deadline_s, start_c)
+        self.work += fc.work
         if t_off != t_off:  # NaN: the forecast's reason says why
             return None
         self.off_at_deadline_c = t_off
@@ -170,6 +175,7 @@ class ReadyByPlanner:
         fc = self.forecast
         fc.set_plan_duty(1.0)
         self.earliest_s = fc.time_to_target_s(start_c, target_c)
+        self.work += fc.work
         fc.set_plan_duty(0.0)
 
     def constant_duty(self, start_c, target_c, deadline_s):
@@ -234,6 +240,7 @@ class ReadyByPlanner:
             return self._answer(status.OUT_OF_REACH, REASON_BAD_INPUT)
         fc.set_plan_duty(0.0)
         eta = fc.time_to_target_s(start_c, target_c)
+        self.work += fc.work
         if eta is None:
             reason = fc.reason
             if reason != REASON_WORK_CAP and reason != REASON_BAD_INPUT:

@@ -23,6 +23,7 @@ class ReadyByPlanner:
     earliest_s: Optional[float]
     off_at_deadline_c: Optional[float]
     on_time: bool
+    work: int
     def __init__(self, rate_per_s: float = 0.0, ambient_c: float = 20.0,
                  gain_k_per_s: float = 0.0) -> None: ...
     def set_model(self, rate_per_s: float, ambient_c: float, gain_k_per_s: float) -> None: ...
