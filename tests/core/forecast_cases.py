@@ -441,6 +441,7 @@ MODEL_FUNCS = (
     ("rate_from_physical_per_s", 4, True),
     ("heater_gain_k_per_s", 3, True),
     ("heating_time_s", 7, True),
+    ("time_to_target_from_slope_s", 3, False),
 )
 
 
