@@ -74,7 +74,6 @@ from tinytherm import status as st
 from tinytherm.change import ChangeDetector
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.model import time_to_target_from_slope_s
-from tinytherm.profile import VesselProfile
 
 _INF = math.inf
 MAX_BLOCK_READINGS = 255        # a block closes after this many readings
@@ -144,7 +143,7 @@ _INT_FMT = "<IHHBBBBBBBB"  # readings, changes, turns, block n, guard window n, 
 _FLOATS = ("_w", "_w2", "_nb", "_my", "_ctt", "_ctx", "_ctu", "_cty", "_cxx", "_cxu",
            "_cxy", "_cuu", "_cuy", "_cyy", "_t", "_x", "_v", "_age", "_b_dur", "_g0", "_u0",
            "_bt", "_bx", "_bv", "_by", "_y_prev", "_r_prev", "_u_prev", "_noise2", "_s2_fit",
-           "_ext")
+           "_ext", "_hint_slope")
 _AUDIT_FLOATS = ("age", "level", "slope", "rate", "var")
 _GUARD_FLOATS = ("_w1", "_w2", "_w3", "_w4", "_run_s", "_run_rate")
 _DETECT_FLOATS = ("up", "down", "mean_abs_z")
@@ -295,6 +294,8 @@ class ThermalEstimator:
         self._profile = None
         self.profile_reason = 0
         if profile is not None:
+            # imported only when used: the module costs about 10 KB of RAM
+            from tinytherm.profile import VesselProfile
             t = type(profile)
             if t is bytes or t is bytearray or t is memoryview:
                 profile, self.profile_reason = VesselProfile.from_blob(profile)
@@ -383,6 +384,7 @@ class ThermalEstimator:
         self._u_prev = 0.0          # duty over the latest interval
         self._dir = 0               # direction of travel of the block means (+1, -1, 0)
         self._ext = 0.0             # first block mean while _dir == 0, then the extreme
+        self._hint_slope = 0.0      # slope without heat input at the last solve, deg C/s
         for a in self._audits:
             a.clear()
         self._clear_fit()
@@ -506,34 +508,39 @@ class ThermalEstimator:
         """An accepted reading after the first: advance the integrals, add to the block."""
         r = self._reference(ambient_c, dt_s)
         # noise: successive differences less the fitted slope, var = 2 sigma^2
-        d = temp_c - self._y_prev - self._s * dt_s if self._ok else 0.0
         if self._ok and dt_s <= 120.0:
+            # clipped at 3 sd: a misfit (a jump, a young fit's slope) must not pass for noise
+            d2 = temp_c - self._y_prev - self._s * dt_s
+            d2 = 0.5 * d2 * d2
+            cap = 9.0 * self._noise2
             n = self._noise_n + 1 if self._noise_n < 100 else 100
             self._noise_n = n
-            v = self._noise2 + (0.5 * d * d - self._noise2) / n
+            v = self._noise2 + ((d2 if d2 < cap else cap) - self._noise2) / n
             self._noise2 = v if v > self._noise_floor else self._noise_floor
         if duty != self._u_prev:
             for a in self._audits:
                 a.clear()  # the forecasts assumed the old duty
         # trapezoid: x += ((G_n + G_(n-1)) / 2 - G0) dt, v += (u - u0) dt
-        self._x += (0.5 * (temp_c - r + self._y_prev - self._r_prev) - self._g0) * dt_s
-        self._v += (duty - self._u0) * dt_s
+        if r == 0.0 and self._r_prev == 0.0:
+            self._x += (0.5 * (temp_c + self._y_prev) - self._g0) * dt_s
+        else:
+            self._x += (0.5 * (temp_c - r + self._y_prev - self._r_prev) - self._g0) * dt_s
         self._t += dt_s
         self._age += dt_s
         self._b_dur += dt_s
         self._y_prev = temp_c
         self._r_prev = r
-        self._u_prev = duty
         self._bn += 1
         self._bt += self._t
         self._bx += self._x
-        self._bv += self._v
         self._by += temp_c
-        # blocks grow with the fit's age: every reading counts early on
-        target = self._age * 0.0625
-        if target > self.block_s:
-            target = self.block_s
-        if self._b_dur >= target or self._bn >= MAX_BLOCK_READINGS:
+        if self.heater:
+            self._v += (duty - self._u0) * dt_s
+            self._u_prev = duty
+            self._bv += self._v
+        # blocks grow with the fit's age (every reading counts early on)
+        if self._b_dur >= self.block_s or self._b_dur >= self._age * 0.0625 \
+                or self._bn >= MAX_BLOCK_READINGS:
             self._close_block()
 
     def _close_block(self):
@@ -604,6 +611,8 @@ class ThermalEstimator:
         self._b_dur = 0.0
         self._bt = self._bx = self._bv = self._by = 0.0
         self._s2_fit = self._noise2
+        # the hint's scale: the slope without heat input of the fit so far
+        self._hint_slope = self._s - self._g * self._u0 if self._ok else 0.0
         self._solve()
         if self._ok:
             self._audit()
@@ -684,16 +693,17 @@ class ThermalEstimator:
             rel = prof.gain_rel_sd if prof.gain_rel_sd > 0.02 else 0.02
             if gp != 0.0:
                 lg = s2 / (gp * gp * rel * rel)
-        if not self._solve_with(lk, kp, 0.0, 0.0, lg, gp, s2):
-            return
         # the hint, used only when the liquid moves towards it: one
-        # pseudo-observation 0 = s - k (e - G0) with sd k sd (k scaled from the slope)
-        slope = self._s - self._g * self._u0   # slope without heat input
+        # pseudo-observation 0 = s - k (e - G0) with sd k sd, k scaled from the
+        # slope of the previous solve (``_hint_slope``, kept in the saved state)
+        lh = 0.0
+        slope = self._hint_slope
         if (dist > 2.0 * sd or dist < -2.0 * sd) and slope * dist > 0.0:
             if prof is None:
                 lk = 0.0  # the hint replaces the loose prior
-            self._solve_with(lk, kp, s2 * dist * dist / (slope * slope * sd * sd), dist, lg, gp,
-                             s2)
+            lh = s2 * dist * dist / (slope * slope * sd * sd)
+        if not self._solve_with(lk, kp, lh, dist, lg, gp, s2):
+            return
         if self._ok and self._k < 0.0:
             # accelerating: the exact straight line instead
             self._solve_with(-1.0, 0.0, 0.0, 0.0, lg, gp, s2)
