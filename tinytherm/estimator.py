@@ -675,10 +675,16 @@ class ThermalEstimator:
         else:
             e_gap = self._prior_r
             sd = self._prior_sd
-        if prof is not None:
-            e_gap += prof.eq_offset_c
-            sd = prof.eq_offset_sd_c if prof.eq_offset_sd_c > 0.05 else 0.05
         dist = e_gap - self._g0
+        if prof is not None:
+            # the first-order law tangent to the profile's power law at this gap:
+            # k = n rate_at(d), E = T - d / n (tinytherm.profile.local_first_order)
+            n = prof.rate_exponent
+            d = -(dist + prof.eq_offset_c)
+            dist = -d / n
+            sd = prof.eq_offset_sd_c / n
+            if sd < 0.05:
+                sd = 0.05
         # prior on k: loose N(0, k0^2) (a straight line until the data show a
         # bend), or the profile's rate at this distance, N(kp, (kp sd_ln k)^2)
         kp = 0.0
@@ -686,7 +692,7 @@ class ThermalEstimator:
         gp = 0.0
         lg = s2  # heater gain ~ N(0, 1 K/s) without a profile
         if prof is not None:
-            kp = prof.rate_at(dist)
+            kp = prof.rate_exponent * prof.rate_at(d)
             rel = prof.rate_log_sd if prof.rate_log_sd > 0.02 else 0.02
             lk = s2 / (kp * kp * rel * rel)
             gp = prof.gain_k_per_s
@@ -930,20 +936,26 @@ class ThermalEstimator:
             var_eta = 0.0
         rel2 = var_eta / (eta * eta) if eta > 0.0 else 0.0
         self.eta_s = eta
+        rel = math.sqrt(rel2 + self._audit_var(eta))
+        zr = self._z * rel
+        spread = math.exp(zr) if zr < 50.0 else _INF
+        self.eta_low_s = eta / spread
+        self.eta_high_s = eta * spread
         if self._profile_on:
-            # the profile's interval: quantiles of ln(actual / predicted) measured on
-            # held-out uses of this vessel (split-conformal, see host_sim.calibrate)
+            # and the profile's: quantiles of ln(actual / predicted) measured on
+            # held-out uses of this vessel (split-conformal, see host_sim.calibrate);
+            # the union, since the table was measured on the estimator without it
             lo, hi = self._profile.interval_log_bounds(eta)
             z = self._z / PROFILE_Z80
-            self.eta_low_s = eta * math.exp(z * lo)
-            self.eta_high_s = eta * math.exp(z * hi) if z * hi < 50.0 else _INF
-            rel = (hi - lo) / (2.0 * PROFILE_Z80)
-        else:
-            rel = math.sqrt(rel2 + self._audit_var(eta))
-            zr = self._z * rel
-            spread = math.exp(zr) if zr < 50.0 else _INF
-            self.eta_low_s = eta / spread
-            self.eta_high_s = eta * spread
+            low = eta * math.exp(z * lo)
+            high = eta * math.exp(z * hi) if z * hi < 50.0 else _INF
+            if low < self.eta_low_s:
+                self.eta_low_s = low
+            if high > self.eta_high_s:
+                self.eta_high_s = high
+            own = (hi - lo) / (2.0 * PROFILE_Z80)
+            if own < rel:
+                rel = own  # the sd that decides TRACKING: the profile's when tighter
         self.eta_rel_sd = rel
         if self._age >= self.settle_s and rel <= self.max_relative_sd:
             self.status = st.TRACKING
