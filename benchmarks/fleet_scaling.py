@@ -5,8 +5,8 @@ Scaling: ``--traces`` synthetic traces (Newton cooling plus white noise,
 with two tags, replayed in this process (the peer) and on a LocalCluster of 1
 and 2 single-threaded worker processes reached through its scheduler address
 (the ``--scheduler`` path). Prints traces per second, the speed-up against
-the 1-worker run, and each worker's peak resident memory (VmHWM) after
-the run (VmHWM) and before it. Results of all runs are compared for equality.
+the in-process peer, and each worker's peak resident memory (VmHWM) after
+the run and before it. Results of all runs are compared for equality.
 
 Memory: one generated trace of ``--memory-rows`` rows (a slow cooling that
 crosses the target near the end, so nearly every row is evaluated), replayed
@@ -89,6 +89,8 @@ def scaling(n, rows):
     runs[0] = fleet.run_fleet(items, variants, workers=0, progress=False)
     base_s = time.perf_counter() - t
     print("in this process (peer, no dask): %7.1f s  %7.1f traces/s" % (base_s, n / base_s))
+    print("  load average (1 min) after the run: %.1f on %d CPU(s)"
+          % (os.getloadavg()[0], os.cpu_count()))
     speeds = {}
     for workers in (1, 2):
         cluster = LocalCluster(n_workers=workers, threads_per_worker=1, processes=True,
@@ -106,6 +108,8 @@ def scaling(n, rows):
         finally:
             cluster.close()
         speeds[workers] = n / wall
+        print("  load average (1 min) after the run: %.1f on %d CPU(s)"
+              % (os.getloadavg()[0], os.cpu_count()))
         print("%d worker(s): %7.1f s  %7.1f traces/s  (%.2f x the in-process peer)  peak RSS "
               "per worker %s MB (%s MB before the run)"
               % (workers, wall, n / wall, base_s / wall,

@@ -355,9 +355,17 @@ def cmd_fleet(args):
                                "a LocalCluster of %d worker(s)"
                                % (args.workers or os.cpu_count() or 1))
     print("fleet: %d trace(s) on %s" % (len(items), where))
-    results = run_fleet(items, variants, workers=args.workers, scheduler=args.scheduler,
-                        processes=not args.threads, progress=not args.quiet,
-                        chunk_size=args.chunk)
+    try:
+        results = run_fleet(items, variants, workers=args.workers, scheduler=args.scheduler,
+                            processes=not args.threads, progress=not args.quiet,
+                            chunk_size=args.chunk)
+    except ImportError as exc:
+        print("error: %s (the fleet command needs the fleet extra: pip install "
+              "\"tinytherm[fleet]\", or --workers 0 without dask)" % exc, file=sys.stderr)
+        return 2
+    except OSError as exc:          # e.g. no scheduler at --scheduler ADDR
+        print("error: %s" % exc, file=sys.stderr)
+        return 2
     report = fleet_report.write_all(args.out, items, tag_names, variants, results,
                                     worse_by=args.worse_by, plot_worse=args.plot_worse,
                                     plots=not args.no_plots)
