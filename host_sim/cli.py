@@ -506,7 +506,7 @@ def cmd_scenario(args):
 
 
 def cmd_demo(args):
-    from host_sim.metrics import format_metrics, trace_metrics
+    from host_sim.metrics import trace_metrics
     from host_sim.replay import replay
     from host_sim.trace_io import Trace
     gen = scenarios.generate(args.kind, args.seed)
@@ -536,7 +536,10 @@ def cmd_demo(args):
             "%.0f" % true_left if true_left > 0 else "-", ("   <- " + ev) if ev else ""))
     m = trace_metrics(trace.time_s, result.shown_eta(), tr["crossing_time_s"],
                       result.shown_eta("eta_low_s"), result.shown_eta("eta_high_s"))
-    print("accuracy: " + format_metrics(m))
+    trust = trace_metrics(trace.time_s, result.shown_eta(), tr["crossing_time_s"],
+                          floor_s=TRUST_FLOOR_S)["time_to_trust"]
+    print("accuracy of the answers shown (tracking/arrived): " + _format_accuracy(m, trust))
+    print("  (" + TRUST_HELP + ")")
     if args.plot:
         from host_sim.plots import plot_replay
         plot_replay(trace, result, args.plot, crossing_s=tr["crossing_time_s"],

@@ -5,7 +5,8 @@ temperature, the target, the ambient sensor, events and the crossing, and
 the curve the estimator had fitted at one moment of the approach, drawn
 forward to its ETA, with the ETA interval as a band around it. Bottom panel:
 the ETA against time, styled by status (tracking solid, settling grey,
-disturbed orange; gathering, disturbed and sensor-fault stretches shaded),
+disturbed orange; gathering, settling without an ETA, arrived, out of reach,
+disturbed and sensor-fault stretches shaded),
 its interval (an unbounded upper end is marked at the top edge, never drawn
 as a spike), and the true remaining time. The ETA axis fits the data: values
 above it are clipped and marked. Temperatures are drawn in deg C or deg F
@@ -22,7 +23,10 @@ _LINE = {st.TRACKING: ("ETA, tracking (shown as a countdown)", "tab:blue", "-", 
          st.ARRIVED: ("arrived", "tab:green", "-", 1.6),
          st.SETTLING: ("ETA, settling (too uncertain to show)", "0.55", "-", 0.9),
          st.DISTURBED: ("ETA, disturbed (re-learning after a change)", "tab:orange", "--", 1.1)}
+_NO_ETA_SETTLING = -1   # pseudo-code: settling rows without an ETA
 _SHADE = {st.GATHERING: ("gathering (no estimate yet)", "0.85"),
+          _NO_ETA_SETTLING: ("settling, no ETA yet", "#ececec"),
+          st.ARRIVED: ("arrived (at or past the target)", "#d6f0d6"),
           st.DISTURBED: ("disturbed", "moccasin"),
           st.SENSOR_FAULT: ("sensor fault (readings rejected)", "mistyrose"),
           st.OUT_OF_REACH: ("out of reach (levels off before the target)", "lavender")}
@@ -114,7 +118,10 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
 
     ``crossing_s``: crossing time in seconds (truth or trace-derived) or None;
     ``clean_c``: optional noise-free sensor signal at ``s.time_s`` (deg C);
-    ``unit``: ``"C"`` or ``"F"`` for the temperature axis.
+    ``unit``: ``"C"`` or ``"F"`` for the temperature axis. Returns what was
+    drawn (for tests): ``eta_axis_top_s`` (s), ``temp_axis_c`` (limits in the
+    plot's unit), counts of ``events``, ``eta_clipped``, ``unbounded_rows``
+    and ``rejected`` readings, the ``shaded`` status codes, the ``legend`` texts.
     """
     import matplotlib
     matplotlib.use("Agg")
@@ -205,10 +212,11 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
                          color="tab:blue", alpha=0.06, lw=0, hatch="///",
                          label="interval with no upper end (\"never\" not ruled out)")
     for code, (label, colour, style, width) in _LINE.items():
-        mask = s.status == code
+        mask = (s.status == code) & np.isfinite(eta)
         if not mask.any() or code == st.ARRIVED:
             continue
-        ax2.plot(minutes, np.where(mask, np.minimum(eta, top), np.nan) / 60.0, style, lw=width,
+        # values above the axis are left out of the line (marked below), not drawn on the edge
+        ax2.plot(minutes, np.where(mask & (eta <= top), eta, np.nan) / 60.0, style, lw=width,
                  color=colour, label=label)
     off = np.isfinite(eta) & (eta > top)
     if off.any():
@@ -226,7 +234,9 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
 
     # --- status stretches, events and the crossing on both panels ---
     seen = set()
-    for a, b, code in _runs(s.status):
+    shade_codes = np.where((s.status == st.SETTLING) & ~np.isfinite(eta), _NO_ETA_SETTLING,
+                           s.status)
+    for a, b, code in _runs(shade_codes):
         if code not in _SHADE:
             continue
         label, colour = _SHADE[code]
@@ -257,8 +267,13 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
         ax1.set_title(title)
     fig.tight_layout()
     fig.savefig(out_path, dpi=110, format="png")
+    drawn = {"eta_axis_top_s": top, "temp_axis_c": ylim1, "events": len(ev_shown),
+             "eta_clipped": int(off.sum()), "unbounded_rows": int(unbounded.sum()),
+             "rejected": int(rejected.sum()),
+             "shaded": sorted(set(int(c) for c in shade_codes if int(c) in _SHADE)),
+             "legend": [t.get_text() for ax in (ax1, ax2) for t in ax.get_legend().get_texts()]}
     plt.close(fig)
-    return out_path
+    return drawn
 
 
 def plot_replay(trace, result, out_path, crossing_s=None, title=None, clean_c=None, unit="C",
@@ -269,7 +284,8 @@ def plot_replay(trace, result, out_path, crossing_s=None, title=None, clean_c=No
     :class:`host_sim.replay.ReplayResult`; ``crossing_s``: the true (or
     trace-derived) crossing time in seconds, or None; ``clean_c``: optional
     noise-free sensor signal at the trace times (deg C), drawn if given;
-    ``unit``: ``"C"`` or ``"F"`` for the temperature axis.
+    ``unit``: ``"C"`` or ``"F"`` for the temperature axis. Returns what
+    :func:`plot_series` returns.
     """
     return plot_series(ReplaySeries.from_replay(trace, result), out_path,
                        crossing_s=crossing_s, title=title, clean_c=clean_c, unit=unit,
