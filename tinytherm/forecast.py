@@ -1011,6 +1011,11 @@ class Forecast:
             return self._off_above_c if self._mode == 1 else self._on_below_c
         return self._hold_c
 
+    def _advanced(self, t):
+        """t plus how far a stopped piece search got (s), kept at t if that overflows."""
+        t1 = t + self._reached_s
+        return t1 if _finite(t1) else t
+
     def _run(self, start_c, target_c, until_s, find_target):
         """Walk the pieces from now to until_s; first target crossing if find_target.
 
@@ -1056,7 +1061,7 @@ class Forecast:
             if switching:
                 s_sw = self._first_root(self._switch_level(), length)
                 if s_sw == -2.0:
-                    t += self._reached_s
+                    t = self._advanced(t)
                     self.reason = self._stop
                     break
                 if s_sw != s_sw:
@@ -1068,7 +1073,7 @@ class Forecast:
             if find_target:
                 s_hit = self._first_root(target_c, limit)
                 if s_hit == -2.0:
-                    t += self._reached_s
+                    t = self._advanced(t)
                     self.reason = self._stop
                     break
                 if s_hit != s_hit:

@@ -276,3 +276,16 @@ def test_seeded_hostile_fuzz_small_budget():
     assert st.broken == 0, st.messages
     assert 0 < st.max_work <= MAX_PIECES
     assert st.max_reads_per_work <= READS_PER_WORK
+
+
+def test_searched_time_stays_finite_when_a_piece_starts_near_the_largest_float():
+    # Found by benchmarks/fuzz_forecast.py (seed 1): a duty step at 1e308 s
+    # starts a sine piece whose search stops at the float range 1.3e308 s
+    # into it; t + 1.3e308 overflowed and searched_s was inf.
+    fc = Forecast(3.276e-321, -1.0546981161294356e-194, 20.0)
+    fc.set_ambient_periodic(7.266883157089696e-145, -19.162484910339117, 1e300,
+                            4.6169840292832305)
+    fc.set_plan_schedule((32.39804171025753, 3.0420289991726754e125, 1e308), (0.2, 0.7, 1.0))
+    assert fc.time_to_target_s(8.331634531705812e122, -1.032160468215147e-237) is None
+    assert fc.reason == forecast.REASON_HORIZON
+    assert _finite(fc.searched_s) and fc.searched_s >= 1e308
