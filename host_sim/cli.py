@@ -23,7 +23,7 @@ import numpy as np
 
 from host_sim import scenarios
 from tinytherm import __version__
-from host_sim.trace_io import TraceError, read_trace, write_predictions
+from host_sim.trace_io import TraceError
 
 SAFETY_NOTE = ("Note: an estimate is never a safety interlock. Hot liquids scald; check "
                "serving and food temperatures with a calibrated thermometer and follow local "
@@ -311,7 +311,7 @@ def cmd_replay(args):
 
 def _replay(args):
     from host_sim.metrics import trace_metrics
-    from host_sim.replay import crossing_from_trace
+    from host_sim.replay import CrossingFinder, replay_rows
     from host_sim.trace_io import PredictionWriter, iter_trace_rows
     from tinytherm import status as st
 
@@ -354,13 +354,12 @@ def _replay(args):
         if problems:
             raise CliError("%s: %s (--no-checks replays it anyway)"
                            % (args.trace, "; ".join(problems)))
-    est, settings = _estimator_for(args, scan)
+    _, settings = _estimator_for(args, scan)      # builds one to check the settings
     use_amb = scan.has_ambient and not args.ignore_ambient_column
-    use_heater = settings["heater"]
 
     n = scan.rows
     stride = max(1, -(-n // PLOT_POINTS)) if args.plot else 0
-    t_arr, y_arr = array("d"), array("d")
+    t_arr = array("d")
     eta_arr, low_arr, high_arr = array("d"), array("d"), array("d")
     shown_arr = array("b")
     plot_rows, events = [], []
@@ -374,34 +373,41 @@ def _replay(args):
         raise CliError("--out %s: cannot write (%s)" % (args.out, exc.strerror or exc)) from None
     ok = False
     try:
-        prev_t = None
         bar = tqdm(total=n, unit="row", desc="replay", disable=None if n >= 20000 else True,
                    file=sys.stderr, mininterval=0.5)
-        for i, row in enumerate(open_rows()):
-            t, temp, amb, duty, event = row
-            dt = 0.0 if prev_t is None else t - prev_t
-            prev_t = t
-            verdict = est.update(temp, dt, ambient_c=amb if use_amb else None,
-                                 duty=duty if use_heater else 0.0)
-            code = est.predict(target)
-            name = st.status_name(code)
-            verdict_name = st.verdict_name(verdict)
+        current = [None]
+        crossing_finder = None if args.truth else CrossingFinder(target)
+
+        def source():
+            for row in open_rows():
+                current[0] = row
+                yield row
+
+        verdict_codes = {name: code for code, name in enumerate(st.VERDICT_NAMES)}
+        for i, pred in enumerate(replay_rows(source(), target, use_ambient_column=use_amb,
+                                             **settings)):
+            t, temp, amb, _, event = current[0]
+            code = pred["status_code"]
+            verdict = verdict_codes.get(pred["verdict"], -1)
             if 0 <= verdict < len(verdicts):
                 verdicts[verdict] += 1
-            eta, low, high = est.eta_s, est.eta_low_s, est.eta_high_s
-            writer.write(t, temp, eta, low, high, name, est.rate_per_s, est.equilibrium_c,
-                         verdict_name)
+            eta, low, high = pred["eta_s"], pred["eta_low_s"], pred["eta_high_s"]
+            writer.write(t, temp, eta, low, high, pred["status"], pred["rate_per_s"],
+                         pred["equilibrium_c"], pred["verdict"])
             t_arr.append(t)
-            y_arr.append(temp)
             eta_arr.append(nan if eta is None else eta)
             low_arr.append(nan if low is None else low)
             high_arr.append(nan if high is None else high)
             shown_arr.append(code in shown_codes)
+            if crossing_finder is not None:
+                crossing_finder.add(t, temp)
+            last = (t, temp, code)
             if event:
                 events.append((t, event))
             if stride and (i % stride == 0 or event or verdict != st.ACCEPTED):
-                plot_rows.append((t, temp, amb, est.temp_est_c, eta, low, high, code, verdict,
-                                  est.rate_per_s, est.equilibrium_c))
+                plot_rows.append((t, temp, amb if use_amb else None, pred["temp_est_c"], eta,
+                                  low, high, code, verdict, pred["rate_per_s"],
+                                  pred["equilibrium_c"]))
             bar.update(1)
         bar.close()
         ok = True
@@ -424,14 +430,14 @@ def _replay(args):
         "; rejected: " + counted if counted else "; none rejected"))
     last_eta = eta_arr[-1]
     print("last row: t=%.1f s, %s, status %s, eta %s" % (
-        t_arr[-1], _show_temp(y_arr[-1], unit), st.status_name(code),
+        last[0], _show_temp(last[1], unit), st.status_name(last[2]),
         "-" if math.isnan(last_eta) else "%.0f s" % last_eta))
 
     t_np = np.frombuffer(t_arr, dtype=float)
     if args.truth:
         source = "truth file %s" % args.truth
     else:
-        crossing = crossing_from_trace(t_np, np.frombuffer(y_arr, dtype=float), target)
+        crossing = crossing_finder.result()
         source = "the trace (5-reading running median)"
     target_shown = _show_temp(target, unit)
     if unit == "F":
