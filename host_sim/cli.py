@@ -351,6 +351,12 @@ def _replay(args):
                        "use %g C" % (args.ambient, args.ambient))
     if not args.no_checks:
         problems = _sanity_problems(scan, unit, args.time_unit)
+        lo, hi = LIQUID_RANGE_C
+        if not lo <= target <= hi:
+            problems.insert(0, "the target %s is outside a liquid's %g..%g C%s" % (
+                _show_temp(target, unit), lo, hi,
+                ": deg F? add --fahrenheit --target-in-f" if hi < target <= 500.0
+                and not args.target_in_f else ""))
         if problems:
             raise CliError("%s: %s (--no-checks replays it anyway)"
                            % (args.trace, "; ".join(problems)))

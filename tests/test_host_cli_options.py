@@ -67,6 +67,16 @@ def test_bad_option_values_name_the_option(argv, text, capsys):
     assert text in capsys.readouterr().err
 
 
+def test_target_outside_a_liquids_range(mug, tmp_path, capsys):
+    _, trace, _ = mug
+    code, _, err = run(["replay", trace, "--target", "160", "--out", tmp_path / "p.csv"],
+                       capsys)
+    assert code == 2 and "--fahrenheit --target-in-f" in one_error(err)
+    code, _, err = run(["replay", trace, "--target", "1e300", "--out", tmp_path / "p.csv"],
+                       capsys)
+    assert code == 2 and "outside a liquid's -60..150 C" in one_error(err)
+
+
 def test_target_in_f_without_fahrenheit_is_an_error(mug, tmp_path, capsys):
     _, trace, _ = mug
     code, _, err = run(["replay", trace, "--target", "140", "--target-in-f", "--out",
