@@ -502,12 +502,26 @@ def cmd_scenario(args):
         print("error: scenario needs KIND and --out (or --list)", file=sys.stderr)
         return 2
     try:
+        _check_output(args.out, "--out")
+        if args.truth:
+            _check_output(args.truth, "--truth")
+            if os.path.abspath(args.truth) == os.path.abspath(args.out):
+                raise CliError("--truth and --out name the same file")
+    except CliError as exc:
+        print("error: %s" % exc, file=sys.stderr)
+        return 2
+    try:
         gen = scenarios.generate(args.kind, args.seed, target_c=args.target,
                                  sensor_faults=not args.no_faults)
     except ValueError as exc:
         print("error: %s" % exc, file=sys.stderr)
         return 2
-    scenarios.write_scenario(gen, args.out, args.truth)
+    try:
+        scenarios.write_scenario(gen, args.out, args.truth)
+    except OSError as exc:
+        print("error: cannot write %s (%s)" % (exc.filename or args.out, exc.strerror or exc),
+              file=sys.stderr)
+        return 2
     tr = gen.truth
     print("%s (seed %d): %d rows over %.0f s, target %.2f C, crossing %s"
           % (tr["title"], tr["seed"], tr["rows"], tr["duration_s"], tr["target_c"],
@@ -521,6 +535,12 @@ def cmd_demo(args):
     from host_sim.metrics import trace_metrics
     from host_sim.replay import replay
     from host_sim.trace_io import Trace
+    if args.plot:
+        try:
+            _check_output(args.plot, "--plot", suffix=".png")
+        except CliError as exc:
+            print("error: %s" % exc, file=sys.stderr)
+            return 2
     gen = scenarios.generate(args.kind, args.seed)
     tr = gen.truth
     trace = Trace(gen.time_s, gen.temp_c, ambient_c=gen.ambient_c, heater=gen.heater,
@@ -563,6 +583,12 @@ def cmd_demo(args):
 
 
 def cmd_benchmark(args):
+    if args.csv:
+        try:
+            _check_output(args.csv, "--csv")
+        except CliError as exc:
+            print("error: %s" % exc, file=sys.stderr)
+            return 2
     from host_sim import benchmark
     return benchmark.run_cli(args)
 

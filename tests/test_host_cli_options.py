@@ -274,3 +274,16 @@ def test_heater_trace_with_truth_writes_a_png(tmp_path, capsys):
                 tmp_path / "p.csv", "--plot", tmp_path / "b.png", "--truth",
                 tmp_path / "bath.json"], capsys)[0] == 0
     assert (tmp_path / "b.png").read_bytes()[:4] == b"\x89PNG"
+
+
+@pytest.mark.parametrize("argv, text", [
+    (["scenario", "mug", "--out", "{d}/missing/x.csv"], "--out"),
+    (["scenario", "mug", "--out", "{d}/x.csv", "--truth", "{d}/missing/x.json"], "--truth"),
+    (["scenario", "mug", "--out", "{d}"], "is a folder"),
+    (["demo", "--plot", "{d}/missing/d.png"], "does not exist"),
+    (["demo", "--plot", "{d}/d.txt"], "must end with .png"),
+    (["benchmark", "--csv", "{d}/missing/b.csv"], "does not exist"),
+])
+def test_other_subcommands_check_their_outputs(argv, text, tmp_path, capsys):
+    code, out, err = run([a.format(d=tmp_path) for a in argv], capsys)
+    assert code == 2 and text in one_error(err)
