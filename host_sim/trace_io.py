@@ -371,6 +371,10 @@ class TraceRows:
         self.has_event = self._i_event is not None
 
     def _row(self, fields, where, last_time):
+        if [f.strip().lower() for f in fields[:2]] == self.columns[:2] \
+                or (fields and fields[0].strip().lower() == "time_s"):
+            raise TraceError("%s: a second header line (files joined together?): remove it, "
+                             "or replay each file alone" % where)
         if len(fields) != len(self.columns):
             raise TraceError("%s: expected %d fields (as in the header), got %d%s"
                              % (where, len(self.columns), len(fields),

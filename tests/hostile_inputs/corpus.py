@@ -152,6 +152,9 @@ def cases():
         "no time_s column")
     add("duplicate_columns.csv", base.replace("time_s,temp_c", "time_s,temp_c,temp_c", 1)
         .replace("\n", ",1\n").replace("temp_c,1\n", "temp_c\n", 1), [], 2, "duplicate")
+    add("two_files_joined.csv", base + base, [], 2, "second header line")
+    add("two_files_joined_skip_bad.csv", base + csv_text(cooling(t0=400.0)), ["--skip-bad"], 0,
+        "")
     add("negative_time.csv", with_line(base, 1, "-5.0,80.0"), [], 2, "negative")
     add("decreasing_time.csv", with_line(base, 10, "1.0,78.0"), [], 2, "decreases")
     add("wrong_field_count.csv", with_line(base, 5, "20.0,79.0,1"), [], 2, "expected 2 fields")
