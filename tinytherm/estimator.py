@@ -22,8 +22,8 @@ short blocks (at most ``block_s``, shorter early on) and each block mean is
 one observation of this equation.
 
 1. *Memory that follows the approach.* The regression forgets with a time
-   constant of ``memory_fraction`` (0.5) times the time since the fit
-   started, between ``MIN_MEMORY_S`` and ``memory_s``: about the recent half
+   constant of ``memory_fraction`` (0.35, chosen by leave-one-family-out on
+   the tune seeds, see DEVELOPERS.md) times the time since the fit started, between ``MIN_MEMORY_S`` and ``memory_s``: about the recent half
    of the approach (and at least ``SPAN_BLOCKS`` block durations, for sparse
    readings), wherever the liquid is on its curve, so a rate that bends
    along the approach (convection ~ dT^(1/4), evaporation, a warming wall) is
@@ -36,9 +36,13 @@ one observation of this equation.
    slope, ``k = s / (E - G0)`` with ``E - R ~ N(0, sd)``, used only when the
    liquid moves towards it: the prior can change how fast the curve bends,
    never which way the liquid goes.
-3. *Anchored at now.* The level for the answer is the fit's value at the
-   latest reading (``temp_est_c``); its slope gives the direction. A fit that
-   accelerates (``k < 0``) is refitted as the exact straight line (``k = 0``).
+3. *Anchored at now.* The level for the answer (``temp_est_c``) is the fit's
+   value at the latest reading plus the residual of the latest blocks against
+   the fit (smoothed with gain ``ANCHOR_GAIN``): where the curve bends more
+   than one exponential can follow, the answer still starts from the
+   readings, and the fit gives only the shape of the future. Its slope gives
+   the direction. A fit that accelerates (``k < 0``) is refitted as the exact
+   straight line (``k = 0``).
 4. *Every regime has a closed form*: ``eta = -log1p(-k D / s) / k`` with ``D``
    the distance to the target (:func:`tinytherm.model.time_to_target_from_slope_s`),
    ``D / s`` when ``k = 0``.
@@ -90,6 +94,7 @@ AUDIT_LOG_CAP = 2.0794          # ln 8: one audit counts at most a factor 8
 ARRIVE_TOL_C = 0.3              # deg C: most a reading may be short of the target at arrival
 ARRIVE_MIN_S = 30.0             # s: no arrival in a fit younger than this (a probe warming up)
 DETECT_MIN_BLOCKS = 5           # blocks before the change detector listens
+ANCHOR_GAIN = 0.5               # weight of the newest block residual in the anchor
 MISMATCH_C = 0.03               # deg C: model-mismatch allowance of a block innovation
 NOISE_PRIOR_C = 0.05            # deg C: reading noise sd assumed before it is measured
 NOISE_PRIOR_N = 4               # readings that prior is worth
@@ -143,7 +148,7 @@ _INT_FMT = "<IHHBBBBBBBB"  # readings, changes, turns, block n, guard window n, 
 _FLOATS = ("_w", "_w2", "_nb", "_my", "_ctt", "_ctx", "_ctu", "_cty", "_cxx", "_cxu",
            "_cxy", "_cuu", "_cuy", "_cyy", "_t", "_x", "_v", "_age", "_b_dur", "_g0", "_u0",
            "_bt", "_bx", "_bv", "_by", "_y_prev", "_r_prev", "_u_prev", "_noise2", "_s2_fit",
-           "_ext", "_hint_slope")
+           "_ext", "_anchor")
 _AUDIT_FLOATS = ("age", "level", "slope", "rate", "var")
 _GUARD_FLOATS = ("_w1", "_w2", "_w3", "_w4", "_run_s", "_run_rate")
 _DETECT_FLOATS = ("up", "down", "mean_abs_z")
@@ -215,7 +220,7 @@ class ThermalEstimator:
       its gain (K/s at full duty) must be fitted.
     - ``memory_s``: longest forgetting time constant, seconds.
     - ``memory_fraction``: forgetting time constant as a fraction of the time
-      since the fit started (0.5: about the recent half of the approach).
+      since the fit started (0.35: most weight on about the recent half).
     - ``block_s``: longest block of readings averaged into one observation, s.
     - ``interval``: two-sided probability of the reported time interval.
     - ``settle_s``: seconds of data before an answer may be ``TRACKING``.
@@ -246,7 +251,8 @@ class ThermalEstimator:
     """
 
     def __init__(self, ambient_c=None, ambient_prior_c=21.0, ambient_prior_sd_c=8.0,
-                 ambient_sd_c=KNOWN_AMBIENT_SD_C, heater=False, memory_s=7200.0, memory_fraction=0.5, block_s=20.0,
+                 ambient_sd_c=KNOWN_AMBIENT_SD_C, heater=False, memory_s=7200.0,
+                 memory_fraction=0.35, block_s=20.0,
                  interval=0.8, settle_s=0.0, max_relative_sd=5.0,
                  rate_prior_per_s=1.0 / 1800.0, min_temp_c=-55.0, max_temp_c=150.0,
                  quantum_c=0.0625, spike_window=3, max_gap_s=900.0, restart_gap_s=3600.0,
@@ -384,7 +390,7 @@ class ThermalEstimator:
         self._u_prev = 0.0          # duty over the latest interval
         self._dir = 0               # direction of travel of the block means (+1, -1, 0)
         self._ext = 0.0             # first block mean while _dir == 0, then the extreme
-        self._hint_slope = 0.0      # slope without heat input at the last solve, deg C/s
+        self._anchor = 0.0          # smoothed residual of the latest blocks, deg C
         for a in self._audits:
             a.clear()
         self._clear_fit()
@@ -551,7 +557,7 @@ class ThermalEstimator:
         vb = self._bv * inv
         yb = self._by * inv
         if self._ok and self.detector is not None and self._nb >= DETECT_MIN_BLOCKS:
-            pred = self._my + self._s * tb - self._k * xb + self._g * vb
+            pred = self._my + self._s * tb - self._k * xb + self._g * vb + self._anchor
             sd = math.sqrt(self._noise2 * inv + 4.0 * self._var_my + MISMATCH_C * MISMATCH_C)
             if self.detector.update(yb - pred, sd):
                 self.changes += 1
@@ -611,10 +617,14 @@ class ThermalEstimator:
         self._b_dur = 0.0
         self._bt = self._bx = self._bv = self._by = 0.0
         self._s2_fit = self._noise2
-        # the hint's scale: the slope without heat input of the fit so far
-        self._hint_slope = self._s - self._g * self._u0 if self._ok else 0.0
         self._solve()
         if self._ok:
+            # anchor: the block's residual against the new fit, smoothed over
+            # about two blocks, moves the level onto the latest readings
+            tb -= f * tb
+            res = yb - (self._my + self._s * tb
+                        - self._k * (xb - f * xb - dg * tb) + self._g * (vb - f * vb - du * tb))
+            self._anchor += ANCHOR_GAIN * (res - self._anchor)
             self._audit()
         if self._turned(yb):
             self.turns += 1
@@ -699,17 +709,16 @@ class ThermalEstimator:
             rel = prof.gain_rel_sd if prof.gain_rel_sd > 0.02 else 0.02
             if gp != 0.0:
                 lg = s2 / (gp * gp * rel * rel)
+        if not self._solve_with(lk, kp, 0.0, 0.0, lg, gp, s2):
+            return
         # the hint, used only when the liquid moves towards it: one
-        # pseudo-observation 0 = s - k (e - G0) with sd k sd, k scaled from the
-        # slope of the previous solve (``_hint_slope``, kept in the saved state)
-        lh = 0.0
-        slope = self._hint_slope
+        # pseudo-observation 0 = s - k (e - G0) with sd k sd (k scaled from the slope)
+        slope = self._s - self._g * self._u0   # slope without heat input
         if (dist > 2.0 * sd or dist < -2.0 * sd) and slope * dist > 0.0:
             if prof is None:
                 lk = 0.0  # the hint replaces the loose prior
-            lh = s2 * dist * dist / (slope * slope * sd * sd)
-        if not self._solve_with(lk, kp, lh, dist, lg, gp, s2):
-            return
+            self._solve_with(lk, kp, s2 * dist * dist / (slope * slope * sd * sd), dist, lg,
+                             gp, s2)
         if self._ok and self._k < 0.0:
             # accelerating: the exact straight line instead
             self._solve_with(-1.0, 0.0, 0.0, 0.0, lg, gp, s2)
@@ -775,8 +784,9 @@ class ThermalEstimator:
         return True
 
     def _level(self):
-        """Fitted temperature at the latest reading, deg C."""
-        return self._my + self._s * self._t - self._k * self._x + self._g * self._v
+        """Temperature at the latest reading, deg C: the fit there, anchored."""
+        return (self._my + self._s * self._t - self._k * self._x + self._g * self._v
+                + self._anchor)
 
     def _slope(self, level):
         """Fitted dT/dt at ``level`` (deg C) and the latest duty, deg C/s."""

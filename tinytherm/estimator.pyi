@@ -7,6 +7,7 @@ from tinytherm.profile import VesselProfile
 ARRIVE_MIN_S: float
 ARRIVE_TOL_C: float
 AMBIENT_SMOOTH_S: float
+ANCHOR_GAIN: float
 AUDIT_FRACTIONS: tuple[float, float, float]
 AUDIT_LOG_CAP: float
 AUDIT_MEMORY: int
@@ -65,7 +66,7 @@ class ThermalEstimator:
     def __init__(self, ambient_c: Optional[float] = None, ambient_prior_c: float = 21.0,
                  ambient_prior_sd_c: float = 8.0, ambient_sd_c: float = 2.0,
                  heater: bool = False, memory_s: float = 7200.0,
-                 memory_fraction: float = 0.5, block_s: float = 20.0, interval: float = 0.8,
+                 memory_fraction: float = 0.35, block_s: float = 20.0, interval: float = 0.8,
                  settle_s: float = 0.0, max_relative_sd: float = 5.0,
                  rate_prior_per_s: float = ..., min_temp_c: float = -55.0,
                  max_temp_c: float = 150.0, quantum_c: float = 0.0625, spike_window: int = 3,

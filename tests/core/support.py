@@ -28,7 +28,7 @@ def to_float30(x):
     return math.ldexp(math.floor(m * scale + 0.5) / scale, e)
 
 
-def round_instance_floats(obj, rounder):
+def round_instance_floats(obj, rounder, skip=()):
     """Round every float attribute stored on ``obj`` with ``rounder``.
 
     Used after each update to emulate a device whose floats are narrower than
@@ -37,6 +37,8 @@ def round_instance_floats(obj, rounder):
     d = obj.__dict__
     for name in list(d.keys()):
         v = d[name]
+        if name in skip:
+            continue
         if isinstance(v, float):
             setattr(obj, name, rounder(v))
         elif isinstance(v, tuple):

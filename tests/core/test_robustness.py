@@ -168,10 +168,16 @@ def test_stuck_sensor_rejected_while_model_expects_movement():
     assert est.guard.count(st.STUCK) >= 20
 
 
+# the fit's derived values, re-solved from the state at every block (and on a
+# restore): a float32 device keeps them in float32 too, but re-solves them the
+# same way after a restore, so the emulation leaves them alone
+DERIVED = ("_s", "_k", "_g", "_p_ss", "_p_sk", "_p_sg", "_p_kk", "_p_kg", "_p_gg", "_var_my")
+
+
 def _feed(est, tr, rounder, ambient=None):
     est.update(tr.temp_c, tr.dt_s, ambient, 0.5 if (est.heater and tr.count % 400 < 200) else 0.0)
     if rounder is not None:
-        round_instance_floats(est, rounder)
+        round_instance_floats(est, rounder, DERIVED)
 
 
 def wake_cycle_error(kwargs, hours, rounder=None, seed=5, measured=False):
@@ -188,6 +194,8 @@ def wake_cycle_error(kwargs, hours, rounder=None, seed=5, measured=False):
         ambient = (21.0 + 0.5 * math.sin(tr.count / 50.0)) if measured else None
         _feed(steady, tr, rounder, ambient)
         woken = ThermalEstimator(**kwargs)
+        if rounder is not None:
+            round_instance_floats(woken, rounder, DERIVED)  # its settings are float32 too
         if saved is not None:
             assert woken.restore(saved) == bl.RESTORED
         _feed(woken, tr, rounder, ambient)
@@ -233,14 +241,15 @@ def test_wake_cycles_with_measured_ambient_over_a_fixed_one():
 
 
 def test_wake_cycles_match_uninterrupted_run_float32_device():
-    # A float32 device (every estimator float rounded after each update in
-    # both runs): the blob carries the rounded state exactly, but a restore
-    # re-solves the fit (derived values) in float64 where the steady run holds
-    # them rounded, so the answers differ by float32 rounding: measured 1.4e-6
-    # (known ambient) and 8.5e-4 with a heater, whose (time, duty integral)
-    # pair is nearly collinear at constant duty and amplifies the rounding. On
-    # a float32 device the re-solve is float32 too and repeats exactly.
-    for kwargs, bound in (({"ambient_c": 21.0}, 2e-5), ({}, 2e-5), ({"heater": True}, 3e-3)):
+    # A float32 device (every stored estimator float rounded after each update
+    # in both runs): the blob carries the rounded state exactly, but the steady
+    # run solved its fit from the state before that update's rounding, the
+    # woken one re-solves from the rounded state; on a float32 device both
+    # solve from the same float32 state. Measured (same on both runtimes)
+    # 2.4e-5 (known ambient), 5.4e-6 (estimated) and 3.6e-4 with a heater (at
+    # constant duty the time and duty integrals are nearly collinear, which
+    # amplifies rounding; with memory_fraction 0.5 it was 1.3e-2).
+    for kwargs, bound in (({"ambient_c": 21.0}, 1e-4), ({}, 1e-4), ({"heater": True}, 2e-3)):
         worst = wake_cycle_error(kwargs, 0.3, to_float32)
         assert worst <= bound, (kwargs, worst)
 
