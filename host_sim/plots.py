@@ -86,6 +86,14 @@ class ReplaySeries:
                    verdict=verdicts, events=list(zip(trace.time_s, trace.events)))
 
 
+def _plain(text, limit=60):
+    """Text from a file for the figure: no control characters, no mathtext, cut short."""
+    text = "".join(ch if ch.isprintable() else " " for ch in str(text))
+    if len(text) > limit:
+        text = text[:limit - 3] + "..."
+    return text.replace("$", r"\$")
+
+
 def _runs(codes):
     """(first index, last index, value) of runs of equal values."""
     out = []
@@ -251,7 +259,7 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
         for ax in (ax1, ax2):
             ax.axvline(te / 60.0, color="tab:purple", lw=0.9, ls="-.",
                        label="event" if (n == 0 and ax is ax2) else None)
-        ax1.annotate(text, (te / 60.0, 1.0), xycoords=("data", "axes fraction"),
+        ax1.annotate(_plain(text, 30), (te / 60.0, 1.0), xycoords=("data", "axes fraction"),
                      xytext=(2, -4), textcoords="offset points", rotation=90, va="top",
                      ha="left", fontsize=7, color="tab:purple")
     if crossing_s is not None:
@@ -264,7 +272,7 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
     ax1.legend(loc="best", fontsize=7, framealpha=0.85)
     ax2.legend(loc="upper right", fontsize=7, framealpha=0.85)
     if title:
-        ax1.set_title(title)
+        ax1.set_title(_plain(title, 100))
     fig.tight_layout()
     fig.savefig(out_path, dpi=110, format="png")
     drawn = {"eta_axis_top_s": top, "temp_axis_c": ylim1, "events": len(ev_shown),

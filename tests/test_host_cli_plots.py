@@ -113,3 +113,14 @@ def test_cli_plot_of_a_long_trace_is_thinned(tmp_path, capsys, monkeypatch):
     assert "plot written" in capsys.readouterr().out
     # every 3rd row of 60,000 (plus rejected readings): at most PLOT_POINTS points
     assert 0.9 * cli.PLOT_POINTS <= seen["rows"] <= cli.PLOT_POINTS + 100
+
+
+def test_text_from_the_file_cannot_break_the_figure(tmp_path):
+    # matplotlib reads $...$ as mathtext (an unknown command raises) and has no glyph
+    # for control characters: events and file names are drawn as plain text
+    n = 200
+    eta = [900.0 - 5.0 * i for i in range(n)]
+    s = series([st.TRACKING] * n, eta, eta)
+    s.events = [(100.0, r"$\notacommand$"), (200.0, "\x1b[31mred"), (300.0, "x" * 500)]
+    drawn = plot_series(s, tmp_path / "t.png", title=r"replay of $\bad$.csv")
+    assert drawn["events"] == 3 and (tmp_path / "t.png").read_bytes()[:8] == PNG
