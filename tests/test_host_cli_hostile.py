@@ -47,6 +47,10 @@ def test_each_hostile_file_gives_one_clear_line(case, tmp_path, capsys):
     assert code == expected_code, (name, stderr)
     if expected_code == 0:
         assert out.exists() and "replayed" in stdout
+        png = tmp_path / "plot.png"                    # accepted files also plot
+        code, stdout, stderr = run_cli(["replay", os.path.join(CORPUS, name), "--target", "60",
+                                        "--out", str(out), "--plot", str(png)] + extra, capsys)
+        assert code == 0 and png.read_bytes()[:4] == b"\x89PNG", stderr
         return
     lines = [ln for ln in stderr.splitlines() if ln.strip()]
     errors = [ln for ln in lines if ln.startswith("error: ")]
