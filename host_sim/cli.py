@@ -122,6 +122,7 @@ TRUST_HELP = ("time-to-trust: share of the approach (first reading to the crossi
 SCAN_SAMPLE = 20000          # rows whose steps and readings feed the sanity medians
 MAX_TIME_S = 1e10            # ~300 years: beyond this, row differences lose precision
 PLOT_POINTS = 20000          # rows kept for a plot (every k-th, plus events)
+MAX_EVENTS = 1000            # event markers kept for a plot (it labels the first 30)
 LIQUID_RANGE_C = (-60.0, 150.0)
 MAX_SPAN_S = 30 * 86400.0    # a month: longer is more likely milliseconds read as seconds
 
@@ -373,6 +374,9 @@ def _replay(args):
     nan = math.nan
     shown_codes = (st.TRACKING, st.ARRIVED)
     from tqdm import tqdm
+    # a partial prediction file is removed on failure, but only one this run created
+    # (never a device, a pipe or a file that was there before)
+    created = not os.path.lexists(args.out)
     try:
         writer = PredictionWriter(args.out, verdict=args.verdict)
     except OSError as exc:
@@ -408,21 +412,27 @@ def _replay(args):
             if crossing_finder is not None:
                 crossing_finder.add(t, temp)
             last = (t, temp, code)
-            if event:
+            if event and len(events) < MAX_EVENTS:
                 events.append((t, event))
-            if stride and (i % stride == 0 or event or verdict != st.ACCEPTED):
+            if stride and (i % stride == 0 or (len(plot_rows) < 2 * PLOT_POINTS and (
+                    event or verdict != st.ACCEPTED))):
                 plot_rows.append((t, temp, amb if use_amb else None, pred["temp_est_c"], eta,
                                   low, high, code, verdict, pred["rate_per_s"],
                                   pred["equilibrium_c"]))
             bar.update(1)
         bar.close()
+        writer.close()
         ok = True
     except OSError as exc:
         raise CliError("--out %s: write failed (%s)" % (args.out, exc.strerror or exc)) from None
     finally:
-        writer.close()
-        if not ok and os.path.exists(args.out):
-            os.remove(args.out)
+        if not ok:
+            try:
+                writer.close()
+            except OSError:
+                pass
+            if created and os.path.isfile(args.out) and not os.path.islink(args.out):
+                os.remove(args.out)
 
     rows_done = len(t_arr)
     settings_shown = ", ".join("%s=%s" % kv for kv in sorted(settings.items()))

@@ -1,5 +1,6 @@
 """Replay CLI options and messages (issue 13): units, checks, verdicts, truth, outputs."""
 import csv
+import os
 
 import numpy as np
 import pytest
@@ -287,3 +288,11 @@ def test_heater_trace_with_truth_writes_a_png(tmp_path, capsys):
 def test_other_subcommands_check_their_outputs(argv, text, tmp_path, capsys):
     code, out, err = run([a.format(d=tmp_path) for a in argv], capsys)
     assert code == 2 and text in one_error(err)
+
+
+@pytest.mark.skipif(not os.path.exists("/dev/full"), reason="needs Linux /dev/full")
+def test_write_failure_is_one_line_and_removes_only_what_it_created(mug, tmp_path, capsys):
+    _, trace, _ = mug
+    code, _, err = run(["replay", trace, "--target", "55", "--out", "/dev/full"], capsys)
+    assert code == 2 and "write failed" in one_error(err)
+    assert os.path.exists("/dev/full")               # a device is never removed
