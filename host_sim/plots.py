@@ -29,7 +29,7 @@ _SHADE = {st.GATHERING: ("gathering (no estimate yet)", "0.85"),
           st.ARRIVED: ("arrived (at or past the target)", "#d6f0d6"),
           st.DISTURBED: ("disturbed", "moccasin"),
           st.SENSOR_FAULT: ("sensor fault (readings rejected)", "mistyrose"),
-          st.OUT_OF_REACH: ("out of reach (levels off before the target)", "lavender")}
+          st.OUT_OF_REACH: ("out of reach (levels off before the target)", "#dcdcf5")}
 
 
 class ReplaySeries:
@@ -84,6 +84,13 @@ class ReplaySeries:
                    result.target_c, interval=result.settings.get("interval", 0.8),
                    ambient_c=trace.ambient_c if trace.has_ambient else None,
                    verdict=verdicts, events=list(zip(trace.time_s, trace.events)))
+
+
+def _dur(seconds):
+    """A duration for a legend: minutes up to two hours, then hours."""
+    if seconds < 7200.0:
+        return "%.1f min" % (seconds / 60.0)
+    return "%.1f h" % (seconds / 3600.0)
 
 
 def _plain(text, limit=60):
@@ -180,20 +187,20 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
         curve = eq + (start - eq) * np.exp(-k * tau)
         x = (t[i] + tau) / 60.0
         ax1.plot(x, temp(curve), "-", lw=1.6, color="tab:orange",
-                 label="model fitted at %.1f min, drawn forward (ETA %.1f min then)"
-                 % (t[i] / 60.0, eta / 60.0))
+                 label="model fitted at %.1f min, drawn forward (ETA %s then)"
+                 % (t[i] / 60.0, _dur(eta)))
         ax1.plot([t[i] / 60.0], [temp(start)], "o", ms=5, color="tab:orange")
         if np.isfinite(low):
             # the same curve shifted to arrive at the interval's ends
             early = np.interp(tau + (eta - low), tau, curve, right=np.nan)
             if np.isfinite(high):
                 late = np.interp(tau - (high - eta), tau, curve, left=curve[0])
-                band_label = "%d%% ETA interval then (%.1f..%.1f min)" % (
-                    round(100 * s.interval), low / 60.0, high / 60.0)
+                band_label = "%d%% ETA interval then (%s..%s)" % (
+                    round(100 * s.interval), _dur(low), _dur(high))
             else:
                 late = np.full_like(curve, curve[0])
-                band_label = "%d%% ETA interval then (%.1f min..never)" % (
-                    round(100 * s.interval), low / 60.0)
+                band_label = "%d%% ETA interval then (%s..never)" % (
+                    round(100 * s.interval), _dur(low))
             ax1.fill_between(x, temp(early), temp(late), color="tab:orange", alpha=0.18,
                              label=band_label)
     ax1.set_ylim(*ylim1)
