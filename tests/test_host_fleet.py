@@ -303,3 +303,28 @@ def test_folder_and_glob_inputs(fleet_dir):
     assert all(r["cand"]["error"] == "" for r in res.values())
     with pytest.raises(ValueError):
         fleet.make_variant(None, ["no_such_setting=1"])
+
+
+def test_readme_fleet_block_runs(tmp_path):
+    """The README's fleet section: its sh blocks run as written in a scratch folder."""
+    with open(os.path.join(ROOT, "README.md")) as handle:
+        text = handle.read()
+    section = text.split("## Fleet replay on a dask cluster", 1)[1].split("\n## ", 1)[0]
+    import re
+    blocks = re.findall(r"```sh\n(.*?)```", section, re.S)
+    assert blocks
+    bindir = tmp_path / "bin"
+    bindir.mkdir()
+    wrapper = bindir / "python"            # "python" in the README is this interpreter
+    wrapper.write_text('#!/bin/sh\nexec "%s" "$@"\n' % sys.executable)
+    wrapper.chmod(0o755)
+    env = dict(os.environ, PATH=str(bindir) + os.pathsep + os.environ["PATH"],
+               PYTHONPATH=ROOT + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    for block in blocks:
+        proc = subprocess.run(["bash", "-euc", block], cwd=tmp_path, env=env,
+                              capture_output=True, text=True, timeout=300)
+        assert proc.returncode == 0, block + "\n" + proc.stdout + proc.stderr
+    rows = _csv(tmp_path / "results.csv")
+    assert all(c in rows[0] for c in REQUIRED) and len(rows) == 4
+    assert all(r[rows[0].index("error")] == "" for r in rows[1:])
+    assert (tmp_path / "ab_report.md").read_text().count("## Traces that got worse") == 1
