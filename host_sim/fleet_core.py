@@ -21,7 +21,7 @@ import sys
 import threading
 
 from host_sim.fleet_metrics import TraceScorer
-from host_sim.replay import CrossingFinder, replay_rows
+from host_sim.replay import CrossingFinder, replay_rows, settings_for
 from host_sim.trace_io import TraceError, iter_trace_rows, write_predictions
 
 RESULT_KEYS = ("rows", "skipped_rows", "crossing_s", "median_rel_error", "p90_rel_error",
@@ -41,30 +41,6 @@ def core_root(path):
     if os.path.basename(path) == "tinytherm" and os.path.isfile(os.path.join(path, "__init__.py")):
         return os.path.dirname(path)
     raise ValueError("%s holds no tinytherm package (no tinytherm/__init__.py)" % path)
-
-
-def estimator_kwargs(settings, heater, has_heater, any_duty, ambient_c=None):
-    """The core's keyword arguments for one trace.
-
-    ``settings``: dict of core settings; ``heater``: ``"auto"`` (on when the
-    trace has a heater column with a nonzero duty), ``"on"`` or ``"off"``;
-    ``ambient_c``: a known constant ambient, deg C, or None.
-    """
-    if heater == "auto":
-        use = bool(has_heater and any_duty)
-    elif heater == "on":
-        if not has_heater:
-            raise ValueError("heater=on needs a heater column in the trace")
-        use = True
-    elif heater == "off":
-        use = False
-    else:
-        raise ValueError("heater must be auto, on or off")
-    kw = {k: v for k, v in settings.items() if v is not None}
-    kw["heater"] = use
-    if ambient_c is not None:
-        kw["ambient_c"] = float(ambient_c)
-    return kw
 
 
 def _scan(path, target_c, skip_bad, want_crossing):
@@ -103,8 +79,8 @@ def evaluate_trace(spec, variant, predictions_out=None):
         crossing, has_heater, any_duty = _scan(spec["path"], target, skip_bad, known is None)
         if known is not None:
             crossing = float(known)
-        kw = estimator_kwargs(variant.get("settings") or {}, variant.get("heater", "auto"),
-                              has_heater, any_duty, variant.get("ambient_c"))
+        kw = settings_for(has_heater, any_duty, variant.get("ambient_c"),
+                          variant.get("heater", "auto"), **(variant.get("settings") or {}))
         scorer = TraceScorer(target, crossing, spec.get("noise_sd_c"))
         with iter_trace_rows(spec["path"], skip_bad=skip_bad) as rows:
             stream = replay_rows(rows, target,

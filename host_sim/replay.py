@@ -50,15 +50,25 @@ def estimator_settings(trace, ambient_c=None, heater="auto", **settings):
     constant ambient (deg C) or None. Other ``settings`` that are None are left
     to the core's defaults.
     """
+    any_duty = bool(trace.has_heater and np.any(trace.heater > 0.0))
+    return settings_for(trace.has_heater, any_duty, ambient_c, heater, **settings)
+
+
+def settings_for(has_heater, any_duty, ambient_c=None, heater="auto", **settings):
+    """:func:`estimator_settings` from what a trace holds, for streamed traces.
+
+    ``has_heater``: the trace has a heater column; ``any_duty``: some duty in
+    it is nonzero; the other arguments as in :func:`estimator_settings`.
+    """
     if heater in ("auto", None):
-        use_heater = bool(trace.has_heater and np.any(trace.heater > 0.0))
+        use_heater = bool(has_heater and any_duty)
     elif heater in ("on", True):
         use_heater = True
     elif heater in ("off", False):
         use_heater = False
     else:
         raise ValueError("heater must be auto, on or off")
-    if use_heater and not trace.has_heater:
+    if use_heater and not has_heater:
         raise ValueError("heater=on needs a heater column in the trace")
     kw = {k: v for k, v in settings.items() if v is not None}
     kw["heater"] = use_heater
