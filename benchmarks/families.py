@@ -146,8 +146,13 @@ def device_kwargs(cls, heater, quantum_c):
     return kw
 
 
-def replay_estimator(cls, kwargs, time_s, temp_c, target_c, ambient_c=None, heater=None):
-    """Feed readings to a fresh estimator; per-row ``eta_s``, ``low``, ``high``, ``status`` lists."""
+def replay_estimator(cls, kwargs, time_s, temp_c, target_c, ambient_c=None, heater=None,
+                     approach=0):
+    """Feed readings to a fresh estimator; per-row ``eta_s``, ``low``, ``high``, ``status`` lists.
+
+    ``approach`` (-1 cools to the target, +1 heats to it, 0 not given) is passed
+    to ``predict`` when nonzero: what firmware that knows its product would say.
+    """
     est = cls(**kwargs)
     eta, low, high, status = [], [], [], []
     prev = None
@@ -160,7 +165,10 @@ def replay_estimator(cls, kwargs, time_s, temp_c, target_c, ambient_c=None, heat
             amb = float(ambient_c[i])
         duty = float(heater[i]) if heater is not None else 0.0
         est.update(float(temp_c[i]), dt, ambient_c=amb, duty=duty)
-        est.predict(target_c)
+        if approach:
+            est.predict(target_c, approach)
+        else:
+            est.predict(target_c)
         code = est.status
         name = st.status_name(code) if isinstance(code, int) else str(code)
         shown = name in ("tracking", "arrived")
@@ -189,10 +197,17 @@ def score_all(time_s, temp_c, target_c, crossing_s, clean_c, noise_sd_c, directi
     for label, _name, spec, setting in plan:
         cls = load_class(spec)
         kw = device_kwargs(cls, heater is not None, quantum_c)
+        setting = dict(setting)
+        # approach=1 in a setting: tell predict() the trace's direction, as a
+        # product's firmware knows whether it cools or heats to its target
+        approach = 0
+        if setting.pop("approach", 0):
+            approach = -1 if direction == "cooling" else 1
         kw.update(setting)
         t0 = time.process_time()
         eta, low, high, status = replay_estimator(cls, kw, time_s, temp_c, target_c,
-                                                  ambient_c=ambient_c, heater=heater)
+                                                  ambient_c=ambient_c, heater=heater,
+                                                  approach=approach)
         cost[label] = time.process_time() - t0
         out[label] = trace_metrics(time_s, eta, crossing_s, low, high, status=status,
                                    true_signal_c=clean_c, target_c=target_c,

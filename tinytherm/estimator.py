@@ -842,8 +842,15 @@ class ThermalEstimator:
                 + 2.0 * (t * x * self._p_sk + t * v * self._p_sg + x * v * self._p_kg))
 
     # ----------------------------------------------------------------- answer
-    def predict(self, target_c):
+    def predict(self, target_c, approach=0):
         """Compute the time until ``target_c`` (deg C); return the status code.
+
+        ``approach``: how the product reaches its target, when it knows: -1
+        cools to it (a drink to a drinkable temperature), +1 heats to it (a
+        kettle, a bath), 0 either way (the default: the direction of travel
+        decides). With -1 or +1 a liquid moving the other way is never
+        ``ARRIVED`` and gets no time (a probe warming up after the pour crosses
+        a drinking target on its way up): ``SETTLING``.
 
         Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds
         after the latest reading; ``None`` without an estimate; ``eta_high_s``
@@ -854,7 +861,7 @@ class ThermalEstimator:
         (sd of log eta). Never raises.
         """
         try:
-            self._predict(target_c)
+            self._predict(target_c, approach)
         except (ValueError, OverflowError, ZeroDivisionError, TypeError):
             self._clear_answer(st.SETTLING)
         if self.guard.consecutive_rejections >= self.fault_after:
@@ -866,7 +873,7 @@ class ThermalEstimator:
                 self.status = st.DISTURBED
         return self.status
 
-    def _predict(self, target_c):
+    def _predict(self, target_c, approach):
         if self._fit_readings < 3 or not self._ok or not _number(target_c, -1e4, 1e4):
             self._clear_answer(st.GATHERING)
             if self.readings and not self._fresh:
@@ -903,6 +910,10 @@ class ThermalEstimator:
         # extreme holds until the fit restarts on a real turn) and the latest
         # reading is not more than min(0.3 C, 3 noise sd) short of it
         m = self._dir
+        if approach != 0 and approach != -1 and approach != 1:
+            approach = 0  # (a bad value: as if not given, never an exception)
+        if approach != 0 and ((m if m != 0 else d) != approach or d == -approach):
+            return  # moving away from how this product reaches its target
         if m != 0 and self._age >= ARRIVE_MIN_S and ((self._ext - target_c) * m >= 0.0
                                                      or gap * m <= 0.0):
             tol = 3.0 * noise

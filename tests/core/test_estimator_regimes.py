@@ -262,3 +262,31 @@ def test_profile_state_survives_a_restore():
     # a blob of a profile-less estimator does not restore into one with a profile
     plain = ThermalEstimator(ambient_c=21.0)
     assert plain.restore(blob) == bl.BLOB_SETTINGS
+
+
+def test_approach_keeps_a_warming_probe_from_arriving():
+    # the probe of a mug starts at room temperature and warms to the drink
+    # (time constant 40 s) while the drink cools (time constant 25 min): a
+    # cooling target of 55 C is crossed on the way up
+    for approach, may_arrive_early in ((0, True), (-1, False)):
+        est = ThermalEstimator()
+        rng = XorShift(21)
+        early = 0
+        t = 0.0
+        probe = 21.0
+        arrived_at = None
+        while t < 1500.0:
+            drink = 21.0 + 64.0 * math.exp(-t / 1500.0)
+            probe += (drink - probe) * (1.0 - math.exp(-2.0 / 40.0)) if t > 0.0 else 0.0
+            est.update(probe + rng.gauss(0.03), 0.0 if t == 0.0 else 2.0)
+            code = est.predict(55.0, approach)
+            if code == st.ARRIVED:
+                if drink > 55.0 + 0.3:
+                    early += 1
+                elif arrived_at is None:
+                    arrived_at = t
+            t += 2.0
+        if may_arrive_early:
+            assert early > 0  # the reason the argument exists
+        else:
+            assert early == 0 and arrived_at is not None
