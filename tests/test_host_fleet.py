@@ -325,6 +325,6 @@ def test_readme_fleet_block_runs(tmp_path):
                               capture_output=True, text=True, timeout=300)
         assert proc.returncode == 0, block + "\n" + proc.stdout + proc.stderr
     rows = _csv(tmp_path / "results.csv")
-    assert all(c in rows[0] for c in REQUIRED) and len(rows) == 4
+    assert all(c in rows[0] for c in REQUIRED) and len(rows) == 3
     assert all(r[rows[0].index("error")] == "" for r in rows[1:])
     assert (tmp_path / "ab_report.md").read_text().count("## Traces that got worse") == 1
