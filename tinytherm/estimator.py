@@ -726,43 +726,53 @@ class ThermalEstimator:
     def _solve_with(self, lk, kp, lh, dist, lg, gp, s2):
         """One solve with priors k ~ N(kp, s2 / lk) (``lk < 0`` pins k = 0),
         g ~ N(gp, s2 / lg) and weight ``lh`` on the hint 0 = s + dist * m (m = -k)."""
-        heater = self.heater
         a11 = self._ctt + lh
-        a12 = self._ctx + lh * dist
-        a22 = self._cxx + (lk if lk > 0.0 else 0.0) + lh * dist * dist
-        b1 = self._cty
-        b2 = self._cxy - (kp * lk if lk > 0.0 else 0.0)
-        if heater:
-            a13 = self._ctu
-            a23 = self._cxu
-            a33 = self._cuu + lg
-            b3 = self._cuy + lg * gp
-        else:
-            a13 = a23 = b3 = 0.0
-            a33 = 1.0
         if lk < 0.0:
-            a12 = a23 = 0.0
+            a12 = 0.0
             a22 = 1.0
             b2 = 0.0
-        # symmetric 3x3 inverse by cofactors
-        c11 = a22 * a33 - a23 * a23
-        c12 = a13 * a23 - a12 * a33
-        c13 = a12 * a23 - a13 * a22
-        c22 = a11 * a33 - a13 * a13
-        c23 = a12 * a13 - a11 * a23
-        c33 = a11 * a22 - a12 * a12
-        det = a11 * c11 + a12 * c12 + a13 * c13
-        if not det > 1e-300 * (1.0 + a11 * a22 * a33):
-            return False
-        inv = 1.0 / det
-        s = (c11 * b1 + c12 * b2 + c13 * b3) * inv
-        m = (c12 * b1 + c22 * b2 + c23 * b3) * inv
-        g = (c13 * b1 + c23 * b2 + c33 * b3) * inv if heater else 0.0
+        else:
+            a12 = self._ctx + lh * dist
+            a22 = self._cxx + lk + lh * dist * dist
+            b2 = self._cxy - kp * lk
+        b1 = self._cty
+        if self.heater:
+            a13 = self._ctu
+            a23 = 0.0 if lk < 0.0 else self._cxu
+            a33 = self._cuu + lg
+            b3 = self._cuy + lg * gp
+            # symmetric 3x3 inverse by cofactors
+            c11 = a22 * a33 - a23 * a23
+            c12 = a13 * a23 - a12 * a33
+            c13 = a12 * a23 - a13 * a22
+            c22 = a11 * a33 - a13 * a13
+            c23 = a12 * a13 - a11 * a23
+            c33 = a11 * a22 - a12 * a12
+            det = a11 * c11 + a12 * c12 + a13 * c13
+            if not det > 1e-300 * (1.0 + a11 * a22 * a33):
+                return False
+            inv = 1.0 / det
+            s = (c11 * b1 + c12 * b2 + c13 * b3) * inv
+            m = (c12 * b1 + c22 * b2 + c23 * b3) * inv
+            g = (c13 * b1 + c23 * b2 + c33 * b3) * inv
+            dof = self._nb - 3.0
+        else:
+            # 2x2 (the common case: fewer floats on a MicroPython heap)
+            c11 = a22
+            c12 = -a12
+            c22 = a11
+            c13 = c23 = c33 = b3 = g = 0.0
+            det = a11 * a22 - a12 * a12
+            if not det > 1e-300 * (1.0 + a11 * a22):
+                return False
+            inv = 1.0 / det
+            s = (a22 * b1 - a12 * b2) * inv
+            m = (a11 * b2 - a12 * b1) * inv
+            dof = self._nb - 2.0
         if lk < 0.0:
             m = 0.0
         # residual variance per reading: weighted SSR over the effective blocks
-        ssr = self._cyy - s * b1 - m * (self._cxy) - g * b3
-        dof = self._nb - (3.0 if heater else 2.0)
+        ssr = self._cyy - s * b1 - m * self._cxy - g * b3
         s2r = ssr / dof if dof > 1.0 else s2
         if s2r < s2:
             s2r = s2
@@ -775,10 +785,11 @@ class ThermalEstimator:
         # covariance of (s, k, g): k = -m flips the sign of its cross terms
         self._p_ss = c11 * scale
         self._p_sk = -c12 * scale
-        self._p_sg = c13 * scale
         self._p_kk = c22 * scale if lk >= 0.0 else 0.0  # (pinned: no spread)
-        self._p_kg = -c23 * scale
-        self._p_gg = c33 * scale if heater else 0.0
+        if self.heater:
+            self._p_sg = c13 * scale
+            self._p_kg = -c23 * scale
+            self._p_gg = c33 * scale
         self._var_my = s2r * self._w2 / (self._w * self._w)
         self._ok = True
         return True
