@@ -290,3 +290,27 @@ def test_approach_keeps_a_warming_probe_from_arriving():
             assert early > 0  # the reason the argument exists
         else:
             assert early == 0 and arrived_at is not None
+
+
+def test_kettle_with_heater_arrives_once_and_holds():
+    # a kettle at full power (invented: 1.2 L, k = 1/3000 1/s, 0.25 K/s) fitted
+    # with its heater duty: arrives at 75 C and stays arrived up to 95 C
+    est = ThermalEstimator(heater=True)
+    rng = XorShift(31)
+    k = 1.0 / 3000.0
+    eq = 20.0 + 0.25 / k
+    t = 0.0
+    state = [None, 0]  # liquid temperature at the first arrival, flips back after it
+    while True:
+        temp = eq + (20.0 - eq) * math.exp(-k * t)
+        if temp > 95.0:
+            break
+        est.update(temp + rng.gauss(0.03), 0.0 if t == 0.0 else 1.0, None, 1.0)
+        code = est.predict(75.0, 1)
+        if code == st.ARRIVED and state[0] is None:
+            state[0] = temp
+        elif code != st.ARRIVED and state[0] is not None:
+            state[1] += 1
+        t += 1.0
+    assert state[0] is not None and 74.7 <= state[0] <= 75.5, state
+    assert state[1] == 0
