@@ -1111,7 +1111,7 @@ class ThermalEstimator:
                 and 0.0 <= self._u0 <= 1.0 and 0.0 <= self._u_prev <= 1.0
                 and self._noise2 > 0.0
                 and self._s2_fit > 0.0 and lo <= self._y_prev <= hi and 0.0 <= pending <= g._pending_cap_s
-                and g._run_s >= 0.0 and g._run_rate >= 0.0
+                and 0.0 <= g._run_s <= g._pending_cap_s and g._run_rate >= 0.0
                 and (win_n < 1 or lo <= g._w1 <= hi) and (win_n < 2 or lo <= g._w2 <= hi)
                 and (win_n < 3 or lo <= g._w3 <= hi) and (win_n < 4 or lo <= g._w4 <= hi)):
             return bl.BLOB_VALUES

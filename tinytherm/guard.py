@@ -351,6 +351,8 @@ class ReadingGuard:
                     rate = -rate
                 self._run_rate = rate
             self._run_s += step
+            if self._run_s > self._pending_cap_s:
+                self._run_s = self._pending_cap_s  # (bounded: a huge step must not grow it)
             self._run_expected_c = self._run_rate * self._run_s
             if self._run_s >= self.stuck_min_s and self._run_expected_c > self.stuck_change_c \
                     and gap != GAP_RESTART:
