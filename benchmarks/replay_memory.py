@@ -17,6 +17,7 @@ about a minute per child on this shared machine.
 import argparse
 import math
 import os
+import shutil
 import subprocess
 import sys
 import tempfile
@@ -92,6 +93,7 @@ def main():
     same = open(os.path.join(folder, "p_cli.csv")).read() == open(
         os.path.join(folder, "p_peer.csv")).read()
     print("prediction files identical: %s" % same)
+    shutil.rmtree(folder)
 
 
 if __name__ == "__main__":

@@ -22,6 +22,7 @@ import atexit
 import contextlib
 import io
 import os
+import shutil
 import sys
 import tempfile
 
@@ -120,6 +121,7 @@ def seed_corpus(folder):
 
 def main():
     # matplotlib is not needed: the fuzzed CLI never gets --plot
+    atexit.register(shutil.rmtree, WORK, True)
     atexit.register(report)
     argv = list(sys.argv)
     if not any(a.startswith("-max_len=") for a in argv):
