@@ -49,7 +49,8 @@ from tinytherm import forecast as forecast_now  # noqa: E402
 from tinytherm import planner as planner_now  # noqa: E402
 
 FIGURES = ("calls", "scenarios", "exceptions", "nonfinite", "broken", "refused", "max_work",
-           "max_planner_work", "max_reads_per_work", "model_calls", "model_inf")
+           "max_planner_work", "max_reads_per_work", "model_calls", "model_inf", "tracked",
+           "unconfirmed")
 
 
 def fuzz_cpython(calls, seed, chunk=200):
@@ -248,6 +249,8 @@ def print_stats(label, d, seconds):
               d["max_work"], forecast_now.MAX_PIECES, d["max_planner_work"],
               2 * forecast_now.MAX_PIECES, d["max_reads_per_work"]))
     print("  model calls %d, of which overflowed to +-inf %d" % (d["model_calls"], d["model_inf"]))
+    print("  crossings found %d, not confirmed by temperature_at_c within the float conditioning %d"
+          % (d["tracked"], d["unconfirmed"]))
 
 
 def _as_dict(st):

@@ -760,8 +760,8 @@ class Forecast:
             if self._pb != 0.0:
                 if x >= 0.5:
                     T += self._pb * (s - sp)
-                else:
-                    T += self._pb * k * s * s * _phi2(x)
+                else:  # b * (k s^2 phi2), small factors first (b may be near 1e308)
+                    T += self._pb * (x * s * _phi2(x))
         elif self._pAr != 0.0:
             th0 = self._pa - self._ppsi
             T += self._pAr * (_sin(th0 + self._pw * s) - _sin(th0) * (1.0 - om))
@@ -796,42 +796,77 @@ class Forecast:
             self._f = d
             self._df = -self._k * (d - self._ambient_slope_in_piece(s))
 
+    def _split(self, lo, hi):
+        """Bisection point of [lo, hi] (s into the piece).
+
+        The middle; but when the bracket is more than 2**20 time constants
+        long (a far horizon, a long sine sub-step, a fast liquid) the geometric
+        mean of lo + 1/k and hi, so that the log of the bracket halves each
+        step and MAX_ROOT_ITERATIONS reach a crossing anywhere in it (halving
+        a [0, 1e30 s] bracket 64 times leaves 5e10 s, far from a crossing at
+        500 s with k = 1/900).
+        """
+        k = self._k
+        if k > 0.0 and (hi - lo) * k > 1048576.0:
+            return math.sqrt(lo + 1.0 / k) * math.sqrt(hi)  # in (lo, hi)
+        return lo + 0.5 * (hi - lo)
+
     def _solve(self, which, level, lo, hi, flo):
         """Root of f in [lo, hi] (s into the piece), f(lo)=flo and f(hi) of the other sign.
 
         Safeguarded Newton: a Newton step is taken when it stays inside the
-        bracket and shrinks fast enough, a bisection step otherwise, so the
-        bracket always shrinks. At most MAX_ROOT_ITERATIONS iterations; stops
-        when the step is below a few ulps of the time.
+        bracket and either shrinks fast enough or follows a bisection step (so
+        a root near one end of a long bracket is reached by Newton, not by
+        hundreds of halvings), a bisection step otherwise, so the bracket
+        always shrinks. At most MAX_ROOT_ITERATIONS iterations; stops
+        when the step is below a few ulps of the time. Bisection points come
+        from _split, so a bracket many time constants long is cut in its
+        logarithm first. The first point is the Newton step from lo (its
+        tangent), when that lies inside: a root far nearer lo than the
+        bracket's rounding (1e-203 s in a 1e292 s bracket) is found at once.
         """
         base = abs(self._pt)
         dxold = hi - lo
         dx = dxold
-        s = 0.5 * (lo + hi)
+        self._eval(which, level, lo)
+        s = lo
+        d = self._df
+        if d != 0.0 and d - d == 0.0:
+            s = lo - flo / d
+        if not lo < s < hi:  # also NaN
+            s = self._split(lo, hi)
         self._eval(which, level, s)
         f = self._f
         df = self._df
+        bisected = True
         it = 0
         while it < MAX_ROOT_ITERATIONS:
             it += 1
             if f == 0.0:
                 return s
+            if f != f:
+                return math.nan  # the temperature overflowed here: no root to trust
             if (f > 0.0) == (flo > 0.0):
                 lo = s
             else:
                 hi = s
-            tol = 4.0 * _EPS * (base + abs(s))
-            # Bisect unless the Newton step is safe (also when f, f' overflowed
-            # to inf/NaN or f' is 0: written so that NaN picks bisection).
-            if (df == 0.0 or not abs(2.0 * f) <= abs(dxold * df)
-                    or ((s - hi) * df - f) * ((s - lo) * df - f) > 0.0):
-                dxold = dx
-                dx = 0.5 * (hi - lo)
-                s = lo + dx
+            # Newton when its point lies inside the bracket (also
+            # false for an infinite f or f', or f' = 0) and the step follows a
+            # bisection or shrinks fast enough; bisection otherwise.
+            newton = False
+            if df != 0.0 and df - df == 0.0 and (bisected or abs(2.0 * f) <= abs(dxold * df)):
+                s_new = s - f / df
+                newton = lo <= s_new <= hi  # an end itself: the root is within its rounding
+            dxold = dx
+            if newton:
+                dx = s - s_new
+                s = s_new
+                bisected = False
             else:
-                dxold = dx
-                dx = f / df
-                s -= dx
+                s = self._split(lo, hi)
+                dx = s - lo
+                bisected = True
+            tol = 4.0 * _EPS * (base + abs(s))  # at the new point: a log step shrinks s a lot
             if abs(dx) <= tol or hi - lo <= tol:
                 return s
             self._eval(which, level, s)
@@ -849,6 +884,8 @@ class Forecast:
         if f0 == 0.0:
             return s0
         f1 = T1 - level
+        if f0 != f0 or f1 != f1:
+            return math.nan  # overflowed: the caller reports it
         if f1 == 0.0 or (f1 > 0.0) != (f0 > 0.0):
             return self._solve(0, level, s0, s1, f0)
         d0 = self._slope(s0, T0)

@@ -155,6 +155,8 @@ class Stats:
         self.max_work = 0           # largest Forecast.work seen (cap MAX_PIECES)
         self.max_planner_work = 0   # largest ReadyByPlanner.work (cap 2 * MAX_PIECES)
         self.max_reads_per_work = 0.0
+        self.tracked = 0        # time_to_target_s answers (TRACKING) re-checked
+        self.unconfirmed = 0    # ... that temperature_at_c(eta) does not put at the target
         self.model_calls = 0
         self.model_inf = 0      # model outputs that overflowed to an infinity
         self.messages = []
@@ -265,6 +267,33 @@ def _check_work(st, obj, seqs, label, args, cap=MAX_PIECES):
         st.max_reads_per_work = r
 
 
+def _confirm(st, fc, eta, args):
+    """Count a crossing that the forecast's own temperature_at_c does not confirm.
+
+    Tolerance: 1e-6 of the largest magnitude in play (start, target, ambient,
+    heater rise) plus the slope bound times 1e-9 of the time: an answer is
+    only as good as the floats around it (a crossing 1e-200 s after the start
+    at 1e280 K/s is not representable). Counted, not a failure: a figure of
+    how often hostile magnitudes leave the answer unconfirmed.
+    """
+    start = float(args[0])
+    target = float(args[1])
+    k = fc._k
+    g = abs(fc._g)
+    amb = abs(fc._amb_c) + abs(fc._amb_amp) + abs(fc._pw_lo) + abs(fc._pw_hi)
+    if fc._amb_kind == 1:
+        amb += abs(fc._amb_slope) * min(eta, fc._amb_ramp_s)
+    heat = g * eta
+    if k > 0.0 and g / k < heat:
+        heat = g / k
+    scale = max(abs(start), abs(target), 1.0, amb, heat)
+    slope = k * scale + g
+    st.tracked += 1
+    t = fc.temperature_at_c(eta, start)
+    if not (t == t and abs(t - target) <= 1e-6 * scale + slope * (1e-9 * eta + 1e-300)):
+        st.unconfirmed += 1
+
+
 def _call_forecast(rng, fc, st, seqs):
     """One checked call of a Forecast never-raise method."""
     which = rng.next_u32() % 4
@@ -303,6 +332,8 @@ def _call_forecast(rng, fc, st, seqs):
         elif v is None and (fc.status != status.OUT_OF_REACH or fc.reason == REASON_NONE):
             st.fail("broken", _describe("time_to_target_s None without a reason ", args))
         _check_work(st, fc, seqs, "time_to_target_s", args)
+        if v is not None and fc.status == status.TRACKING:
+            _confirm(st, fc, v, args)
     elif which == 2:
         try:
             v = fc.hold_is_sustainable()

@@ -289,3 +289,21 @@ def test_searched_time_stays_finite_when_a_piece_starts_near_the_largest_float()
     assert fc.time_to_target_s(8.331634531705812e122, -1.032160468215147e-237) is None
     assert fc.reason == forecast.REASON_HORIZON
     assert _finite(fc.searched_s) and fc.searched_s >= 1e308
+
+
+def test_a_far_horizon_does_not_stop_the_root_solve_short():
+    # Was: with horizon_s = 1e30 the crossing came out as 2.7e10 s instead
+    # of 446 s (64 halvings of a [0, 1e30 s] bracket leave 5e10 s). Newton's
+    # law of cooling, t = ln((T0 - R)/(L - R)) / k (standard; from memory).
+    k = 1.0 / 900.0
+    fc = Forecast(k, 0.0, 21.0)
+    exact = math.log(64.0 / 39.0) / k
+    for horizon in (1e6, 1e20, 1e30, 1e100, 1e308):
+        assert close(fc.time_to_target_s(85.0, 60.0, horizon), exact, 1e-12), horizon
+        assert fc.status == status.TRACKING
+    # a crossing 1e-203 s after the start inside a 1.8e292 s piece: the
+    # liquid leaves at -127.44 K/s, so t = 1e-200 / 127.44 (to first order)
+    fc = Forecast(3.256701597140353e-188, -127.43992544710636, -2.88211036395908e158)
+    fc.set_plan_duty(1.0)
+    eta = fc.time_to_target_s(-0.0, -1e-200, 1.817354482481511e292)
+    assert close(eta, 1e-200 / 127.43992544710636, 1e-9)
