@@ -94,6 +94,9 @@ def run(cases, seed):
                             pick(rng, (rng.next_u32() % 3) - 1, 4))
                 if not answer_ok(est):
                     nonfinite += 1
+                    if first_error is None:
+                        first_error = "case %d mode %d non-finite answer: %r" % (
+                            case, i, [(n, getattr(est, n)) for n in FIELDS])
             elif op == 14:
                 # save -> restore into a fresh one: the next answer must not change
                 target = 20.0 + 70.0 * rng.uniform()
@@ -116,6 +119,9 @@ def run(cases, seed):
                 other.predict(40.0)
                 if not answer_ok(other):
                     nonfinite += 1
+                    if first_error is None:
+                        first_error = "case %d mode %d non-finite after a junk restore: %r" % (
+                            case, i, [(n, getattr(other, n)) for n in FIELDS])
         except Exception as exc:  # noqa: BLE001 - counting is the point
             errors += 1
             if first_error is None:

@@ -175,15 +175,19 @@ class _Audit:
         h = self.fraction * age_s
         return h if h > self.min_s else self.min_s
 
-    def check(self, age_s, level, slope, rate, need_c):
-        """At a block: learn from the waiting forecast if due, then start a new one."""
+    def check(self, est, age_s, level, slope, rate, need_c):
+        """At a block: learn from the waiting forecast if due, then start a new one.
+
+        ``est`` makes the forecast (:meth:`ThermalEstimator._forecast_s`): the
+        law its answers use.
+        """
         if self.age >= 0.0:
             took = age_s - self.age
             if took < self.horizon_s(self.age):
                 return
             moved = level - self.level
             if moved > need_c or moved < -need_c:
-                pred = time_to_target_from_slope_s(moved, self.slope, self.rate)
+                pred = est._forecast_s(moved, self.level, self.slope, self.rate)
                 err = AUDIT_LOG_CAP
                 if pred is not None and pred > 0.0:
                     try:
@@ -812,7 +816,7 @@ class ThermalEstimator:
         slope = self._slope(level)
         need = 4.0 * math.sqrt(self._var_level()) + 0.5 * self.guard.quantum_c
         for a in self._audits:
-            a.check(self._age, level, slope, self._k, need)
+            a.check(self, self._age, level, slope, self._k, need)
             if self._profile_on and a.n >= PROFILE_MISMATCH_N:
                 lo, hi = self._profile.interval_log_bounds(a.horizon_s(self._age))
                 own = (hi - lo) / (2.0 * PROFILE_Z80)
@@ -940,33 +944,41 @@ class ThermalEstimator:
         if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
             return  # not moving, or turning: no honest time
         eta = time_to_target_from_slope_s(gap, slope, k)
-        if eta is None:
+        eta_shape = self._profile_law_s(gap, level, slope)
+        if eta is None and eta_shape is None:
             # beyond the equilibrium: say so only when even a slow bend reaches it
             k_lo = k - 2.0 * math.sqrt(self._p_kk)
             if k_lo * gap / slope >= 1.0:
                 self.status = st.OUT_OF_REACH
             return
-        # delta method on eta(D, slope, k): D = target - level
-        q = k * gap / slope
-        if q > -1e-4 and q < 1e-4:
-            de_dk = gap * gap / (slope * slope) * (0.5 + q / 1.5)
-        else:
-            de_dk = (math.log(1.0 - q) + q / (1.0 - q)) / (k * k)
-        de_ds = -gap / (slope * slope * (1.0 - q))
-        de_dl = -1.0 / (slope * (1.0 - q))      # d eta / d level
-        # level and slope are both linear in (my, s, k, g)
-        t = self._t
-        xk = -self._x
-        v = self._v
-        a_s = de_dl * t + de_ds
-        a_k = de_dl * xk + de_ds * gk + de_dk
-        a_g = de_dl * v + de_ds * gg
-        var_eta = (de_dl * de_dl * self._var_my + a_s * a_s * self._p_ss + a_k * a_k * self._p_kk
-                   + a_g * a_g * self._p_gg + 2.0 * (a_s * a_k * self._p_sk + a_s * a_g * self._p_sg
-                                                    + a_k * a_g * self._p_kg))
-        if not var_eta > 0.0:
-            var_eta = 0.0
-        rel2 = var_eta / (eta * eta) if eta > 0.0 else 0.0
+        rel2 = 0.0
+        if eta is not None:
+            # delta method on eta(D, slope, k): D = target - level
+            q = k * gap / slope
+            if q > -1e-4 and q < 1e-4:
+                de_dk = gap * gap / (slope * slope) * (0.5 + q / 1.5)
+            else:
+                de_dk = (math.log(1.0 - q) + q / (1.0 - q)) / (k * k)
+            de_ds = -gap / (slope * slope * (1.0 - q))
+            de_dl = -1.0 / (slope * (1.0 - q))      # d eta / d level
+            # level and slope are both linear in (my, s, k, g)
+            t = self._t
+            xk = -self._x
+            v = self._v
+            a_s = de_dl * t + de_ds
+            a_k = de_dl * xk + de_ds * gk + de_dk
+            a_g = de_dl * v + de_ds * gg
+            var_eta = (de_dl * de_dl * self._var_my + a_s * a_s * self._p_ss
+                       + a_k * a_k * self._p_kk + a_g * a_g * self._p_gg
+                       + 2.0 * (a_s * a_k * self._p_sk + a_s * a_g * self._p_sg
+                                + a_k * a_g * self._p_kg))
+            if not var_eta > 0.0:
+                var_eta = 0.0
+            rel2 = var_eta / (eta * eta) if eta > 0.0 else 0.0
+        if eta_shape is not None:
+            # the profile's law gives the shape, scaled by the fitted slope now
+            # (the parameters' relative spread carried over)
+            eta = eta_shape
         self.eta_s = eta
         rel = math.sqrt(rel2 + self._audit_var(eta))
         zr = self._z * rel
@@ -991,6 +1003,50 @@ class ThermalEstimator:
         self.eta_rel_sd = rel
         if self._age >= self.settle_s and rel <= self.max_relative_sd:
             self.status = st.TRACKING
+
+    def _forecast_s(self, moved_c, level_c, slope_c_per_s, rate_per_s):
+        """Seconds the answer's law takes to move ``moved_c`` from ``level_c`` (audits)."""
+        t = self._profile_law_s(moved_c, level_c, slope_c_per_s)
+        if t is not None:
+            return t
+        return time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
+
+    def _profile_law_s(self, gap_c, level_c, slope_c_per_s):
+        """Seconds to move ``gap_c`` under the profile's power law, or None.
+
+        ``dT/dt = -a |T - E|^n sign(T - E)`` with the profile's ``n`` and ``E``
+        (the ambient in use, or the hint, plus its offset) and ``a`` set so that
+        the law's slope at ``level_c`` is the fitted one: the profile gives the
+        shape, the data the scale. Passive liquids only (no heater); None without
+        a profile, when the liquid moves away from E, or when the target is not
+        between the level and E.
+        """
+        if not self._profile_on or self.heater:
+            return None
+        prof = self._profile
+        if self._ambient_fixed is not None or self._measured:
+            e = self._r_prev + prof.eq_offset_c
+        else:
+            e = self._prior_r + prof.eq_offset_c
+        d0 = level_c - e
+        d1 = d0 + gap_c
+        if d0 == 0.0 or slope_c_per_s * d0 >= 0.0 or d1 * d0 <= 0.0:
+            return None
+        if d0 < 0.0:
+            d0 = -d0
+            d1 = -d1
+        if d1 > d0:
+            return None
+        n = prof.rate_exponent
+        rate = -slope_c_per_s / (level_c - e)      # the local rate, 1/s, > 0
+        try:
+            if n == 1.0:
+                return math.log(d0 / d1) / rate
+            # with a = rate / d0^(n-1): t = (d0^(1-n) - d1^(1-n)) / (a (1-n))
+            p = 1.0 - n
+            return (1.0 - math.exp(p * math.log(d1 / d0))) / (rate * p)
+        except (ValueError, OverflowError, ZeroDivisionError):
+            return None
 
     def _arrive(self):
         self.status = st.ARRIVED
