@@ -501,8 +501,11 @@ class ThermalEstimator:
         return self._r_prev + a * (ambient_c - self._r_prev)
 
     def _start(self, temp_c, ambient_c, duty):
-        """First reading of a (re)started fit: it is the first block's first reading."""
-        r = self._reference(ambient_c, 0.0)
+        """First reading of a (re)started fit."""
+        self._first(temp_c, self._reference(ambient_c, 0.0), duty)
+
+    def _first(self, temp_c, r, duty):
+        """The fit's first reading (reference ``r``): the first block's first reading."""
         self._fresh = False
         self._y_prev = temp_c
         self._r_prev = r
@@ -644,16 +647,7 @@ class ThermalEstimator:
             self._disturbed = True
         if self.detector is not None:
             self.detector.reset()
-        self._fresh = False
-        self._y_prev = y
-        self._r_prev = r
-        self._u_prev = u
-        self._g0 = y - r
-        self._u0 = u
-        self._ext = y
-        self._bn = 1
-        self._by = y
-        self._close_block()
+        self._first(y, r, u)
 
     def _turned(self, yb):
         """Track the extreme of the block means; True on a retreat beyond turn_c."""
