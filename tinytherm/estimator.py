@@ -897,12 +897,16 @@ class ThermalEstimator:
         self.rate_per_s = k
         self.gain_k_per_s = self._g
         if k > 0.0:
-            self.equilibrium_c = level + slope / k
+            e = level + slope / k
+            if _finite(e):  # (a vanishing k levels off nowhere in range)
+                self.equilibrium_c = e
         if self._ambient_fixed is not None or self._measured:
             self.ambient_est_c = self._r_prev
-        elif k > 0.0:
+        elif self.equilibrium_c is not None:
             # unknown ambient: where the liquid would level off without heat input
-            self.ambient_est_c = self.equilibrium_c - self._g * self._u_prev / k
+            r = self.equilibrium_c - self._g * self._u_prev / k
+            if _finite(r):
+                self.ambient_est_c = r
         # slope uncertainty at the level: d slope / d(s, k, g) = (1, -(G - G0), u - u0)
         gk = -(level - self._r_prev - self._g0)
         gg = self._u_prev - self._u0
