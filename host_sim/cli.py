@@ -82,6 +82,11 @@ def _add_estimator_options(p):
                    help="seconds of data before an answer may be trusted")
     g.add_argument("--max-relative-sd", type=_finite_float, metavar="X", default=None,
                    help="largest relative ETA spread still shown as tracking")
+    g.add_argument("--approach", choices=("either", "cool", "heat"), default="either",
+                   help="how the product reaches its target: cool (a drink cooling to "
+                        "drinkable), heat (a kettle, a bath) or either (default: the "
+                        "direction of travel decides; a probe warming up after a pour "
+                        "can then read as arrived)")
     g.add_argument("--heater", choices=("auto", "on", "off"), default="auto",
                    help="fit a heater gain from the trace's heater column (auto: when the "
                         "column exists and has a nonzero duty)")
@@ -99,6 +104,9 @@ def _estimator_kwargs(args):
     for name in kw:
         if name not in known:
             raise ValueError("this version of the estimator has no setting %s" % name)
+    approach = {"cool": -1, "heat": 1}.get(getattr(args, "approach", "either"), 0)
+    if approach:
+        kw["approach"] = approach  # for predict(), see host_sim.replay.replay_rows
     return kw
 
 
@@ -297,7 +305,9 @@ def _estimator_for(args, scan):
     if args.ambient is not None:
         kw["ambient_c"] = args.ambient
     try:
-        return ThermalEstimator(**kw), kw
+        ctor = dict(kw)
+        ctor.pop("approach", None)  # (for predict(), not the constructor)
+        return ThermalEstimator(**ctor), kw
     except (TypeError, ValueError, OverflowError) as exc:
         raise CliError("estimator settings: %s" % exc) from None
 
@@ -558,7 +568,9 @@ def cmd_demo(args):
     target = tr["target_c"]
     print("demo: %s (invented scenario, seed %d), target %.1f C" % (tr["title"], args.seed, target))
     print("true crossing of the noise-free sensor signal: %.0f s" % tr["crossing_time_s"])
-    result = replay(trace, target)
+    # the product knows how it reaches its target (see --approach of replay)
+    result = replay(trace, target,
+                    approach=-1 if tr.get("direction", "cooling") == "cooling" else 1)
     print("%8s %8s  %-12s %10s %21s %10s" % ("time_s", "temp_c", "status", "eta_s",
                                               "interval_s", "true_s"))
     next_print = 0.0

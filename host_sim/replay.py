@@ -105,11 +105,16 @@ def replay_rows(rows, target_c, use_ambient_column=True, **settings):
     goes through ``update(temp_c, dt_s, ambient_c=..., duty=...)`` then
     ``predict(target_c)`` (deg C) of a fresh estimator built with
     ``settings`` (the core's keyword arguments, e.g. from
-    :func:`estimator_settings`; ``heater=True`` feeds the duty, otherwise
+    :func:`estimator_settings`, plus ``approach``: -1 the product cools to its
+    target, +1 heats to it, 0 either, passed to ``predict``; ``heater=True`` feeds the duty, otherwise
     0.0). ``dt_s`` is the difference of consecutive ``time_s`` (0.0 first).
     Yields dicts with the keys of :attr:`ReplayResult.rows`; holds one row
     at a time, so memory does not grow with the trace.
     """
+    settings = dict(settings)
+    # approach (-1 cools to the target, +1 heats to it, 0 either) goes to
+    # predict(), not to the constructor
+    approach = int(settings.pop("approach", 0) or 0)
     est = ThermalEstimator(**settings)
     use_heater = bool(settings.get("heater", False))
     prev_t = None
@@ -127,7 +132,10 @@ def replay_rows(rows, target_c, use_ambient_column=True, **settings):
         if use_heater and row[3] is not None:
             duty = float(row[3])
         verdict = est.update(temp, dt, ambient_c=amb, duty=duty)
-        est.predict(target_c)
+        if approach:
+            est.predict(target_c, approach)
+        else:
+            est.predict(target_c)
         yield _prediction_row(est, t, temp, verdict)
 
 

@@ -521,11 +521,12 @@ class ThermalEstimator:
         """An accepted reading after the first: advance the integrals, add to the block."""
         r = self._reference(ambient_c, dt_s)
         # noise: successive differences less the fitted slope, var = 2 sigma^2
-        if self._ok and dt_s <= 120.0:
-            # clipped at 3 sd: a misfit (a jump, a young fit's slope) must not pass for noise
+        if self._ok and dt_s <= 120.0 and self._nb >= DETECT_MIN_BLOCKS:
+            # clipped at 2 sd, and only from a fit of a few blocks: a misfit (a
+            # jump, a young fit's slope) must not pass for noise
             d2 = temp_c - self._y_prev - self._s * dt_s
             d2 = 0.5 * d2 * d2
-            cap = 9.0 * self._noise2
+            cap = 4.0 * self._noise2
             n = self._noise_n + 1 if self._noise_n < 100 else 100
             self._noise_n = n
             v = self._noise2 + ((d2 if d2 < cap else cap) - self._noise2) / n
