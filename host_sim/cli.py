@@ -82,6 +82,9 @@ def _add_estimator_options(p):
                    help="seconds of data before an answer may be trusted")
     g.add_argument("--max-relative-sd", type=_finite_float, metavar="X", default=None,
                    help="largest relative ETA spread still shown as tracking")
+    g.add_argument("--profile", metavar="PROFILE.json", default=None,
+                   help="a vessel profile from `calibrate` (.json, .hex or .bin), used "
+                        "exactly as the device would: through its device blob")
     g.add_argument("--approach", choices=("either", "cool", "heat"), default="either",
                    help="how the product reaches its target: cool (a drink cooling to "
                         "drinkable), heat (a kettle, a bath) or either (default: the "
@@ -104,6 +107,17 @@ def _estimator_kwargs(args):
     for name in kw:
         if name not in known:
             raise ValueError("this version of the estimator has no setting %s" % name)
+    if getattr(args, "profile", None):
+        from host_sim.calibrate import load_profile
+        from tinytherm.profile import reason_name
+        try:
+            prof, reason = load_profile(args.profile)
+        except (OSError, ValueError, KeyError) as exc:
+            raise ValueError("--profile %s: cannot read it (%s)" % (args.profile, exc))
+        if prof is None:
+            raise ValueError("--profile %s: the device would refuse it (%s)"
+                             % (args.profile, reason_name(reason)))
+        kw["profile"] = prof
     approach = {"cool": -1, "heat": 1}.get(getattr(args, "approach", "either"), 0)
     if approach:
         kw["approach"] = approach  # for predict(), see host_sim.replay.replay_rows
