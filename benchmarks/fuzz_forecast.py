@@ -11,6 +11,9 @@
    non-finite outputs where finite is promised, other broken promises, setter
    refusals (ValueError, their documented answer), the largest ``work`` and
    the most breakpoint reads per unit of work.
+   ``--moderate-calls``: the same with everyday magnitudes (|x| <= 200 or
+   1e-6..1e6, still with non-numbers), where every crossing found must be
+   confirmed by ``temperature_at_c``.
 2. The same generator under the unix ``micropython`` binary for
    ``--mp-calls`` calls (0: skip), another seed.
 3. Work against the number of coincident breakpoints, in this process: time
@@ -53,16 +56,25 @@ FIGURES = ("calls", "scenarios", "exceptions", "nonfinite", "broken", "refused",
            "unconfirmed")
 
 
-def fuzz_cpython(calls, seed, chunk=200):
-    """Scenarios until ``calls`` checked calls; returns (Stats, seconds)."""
+def fuzz_cpython(calls, seed, chunk=200, numbers=None, label="fuzz (CPython)"):
+    """Scenarios until ``calls`` checked calls; returns (Stats, seconds).
+
+    ``numbers`` replaces the generator's float source (e.g. fcases.moderate).
+    """
     st = fcases.Stats()
     rng = XorShift(seed)
+    base = fcases.hostile
+    if numbers is not None:
+        fcases.hostile = numbers
     t0 = time.perf_counter()
-    with tqdm(total=calls, unit="call", desc="fuzz (CPython)") as bar:
-        while st.calls < calls:
-            before = st.calls
-            fcases.run(rng, st, chunk)
-            bar.update(min(st.calls, calls) - before)
+    try:
+        with tqdm(total=calls, unit="call", desc=label) as bar:
+            while st.calls < calls:
+                before = st.calls
+                fcases.run(rng, st, chunk)
+                bar.update(min(st.calls, calls) - before)
+    finally:
+        fcases.hostile = base
     return st, time.perf_counter() - t0
 
 
@@ -231,6 +243,8 @@ def atheris_run(runs, seed):
         if done[0] == runs:  # libFuzzer exits the process after the last run: report now
             print_stats("atheris (coverage-guided), %d runs" % runs, _as_dict(st),
                         time.perf_counter() - t0)
+            for m in st.unconfirmed_examples:
+                print("    unconfirmed:", m[:300])
             sys.stdout.flush()
 
     atheris.Setup([sys.argv[0], "-runs=%d" % runs, "-seed=%d" % seed, "-max_len=2048",
@@ -248,7 +262,8 @@ def print_stats(label, d, seconds):
           "max breakpoint reads per unit of work %.1f" % (
               d["max_work"], forecast_now.MAX_PIECES, d["max_planner_work"],
               2 * forecast_now.MAX_PIECES, d["max_reads_per_work"]))
-    print("  model calls %d, of which overflowed to +-inf %d" % (d["model_calls"], d["model_inf"]))
+    print("  model calls %d, of which returned +-inf %d (documented for k <= 0, or beyond the "
+          "largest float)" % (d["model_calls"], d["model_inf"]))
     print("  crossings found %d, not confirmed by temperature_at_c within the float conditioning %d"
           % (d["tracked"], d["unconfirmed"]))
 
@@ -261,6 +276,8 @@ def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--calls", type=int, default=1000000, help="checked calls on CPython")
     ap.add_argument("--seed", type=int, default=1, help="seed of the CPython run")
+    ap.add_argument("--moderate-calls", type=int, default=200000,
+                    help="checked calls with everyday magnitudes (|x| <= 1e6), CPython (0: skip)")
     ap.add_argument("--mp-calls", type=int, default=100000,
                     help="checked calls under micropython (0: skip)")
     ap.add_argument("--mp-seed", type=int, default=2, help="seed of the micropython run")
@@ -274,7 +291,14 @@ def main(argv=None):
     if args.calls > 0:
         st, secs = fuzz_cpython(args.calls, args.seed)
         print_stats("CPython fuzz, seed %d" % args.seed, _as_dict(st), secs)
-        for m in st.messages:
+        for m in st.messages + st.unconfirmed_examples:
+            print("   ", m[:300])
+    if args.moderate_calls > 0:
+        st, secs = fuzz_cpython(args.moderate_calls, args.seed + 100, numbers=fcases.moderate,
+                                label="fuzz, everyday magnitudes")
+        print_stats("CPython, everyday magnitudes, seed %d" % (args.seed + 100), _as_dict(st),
+                    secs)
+        for m in st.messages + st.unconfirmed_examples:
             print("   ", m[:300])
     if args.mp_calls > 0:
         d, messages = fuzz_micropython(args.mp_calls, args.mp_seed)

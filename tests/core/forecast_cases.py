@@ -104,6 +104,17 @@ def hostile(rng, signed=True):
     return x
 
 
+def moderate(rng, signed=True):
+    """A float of everyday size (|x| <= 200, or 1e-6..1e6): swap in for ``hostile``."""
+    if rng.next_u32() & 1:
+        x = rng.uniform(-200.0, 200.0)
+    else:
+        x = math.pow(10.0, rng.uniform(-6.0, 6.0))
+        if signed and rng.next_u32() & 1:
+            x = -x
+    return x if signed else abs(x)
+
+
 def maybe_junk(rng, x, p_in_256=6):
     """``x``, or now and then a non-number / non-finite value."""
     if rng.next_u32() % 256 < p_in_256:
@@ -157,8 +168,9 @@ class Stats:
         self.max_reads_per_work = 0.0
         self.tracked = 0        # time_to_target_s answers (TRACKING) re-checked
         self.unconfirmed = 0    # ... that temperature_at_c(eta) does not put at the target
+        self.unconfirmed_examples = []
         self.model_calls = 0
-        self.model_inf = 0      # model outputs that overflowed to an infinity
+        self.model_inf = 0      # model outputs that were +-inf (documented for k <= 0, or overflow)
         self.messages = []
         self.max_messages = 20
         self.hook = None        # called inside the except block (a traceback printer)
@@ -292,6 +304,10 @@ def _confirm(st, fc, eta, args):
     t = fc.temperature_at_c(eta, start)
     if not (t == t and abs(t - target) <= 1e-6 * scale + slope * (1e-9 * eta + 1e-300)):
         st.unconfirmed += 1
+        if len(st.unconfirmed_examples) < 5:
+            st.unconfirmed_examples.append(
+                _describe("eta=%r T(eta)=%r k=%r g=%r ambient kind %d plan %d " % (
+                    eta, t, k, fc._g, fc._amb_kind, fc._plan), args))
 
 
 def _call_forecast(rng, fc, st, seqs):
