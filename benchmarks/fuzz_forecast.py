@@ -21,7 +21,8 @@
    with 10 (piecewise ambient, duty schedule, ``latest_start``, thermostat
    plan over a piecewise ambient), with the ``work`` each reports. With
    ``--compare-commit`` the same cases also run on the forecast and planner
-   of that commit (loaded from git), for a before/after.
+   of that commit (loaded from git), for a before/after, and five everyday
+   calls are timed on both (the cost of the guards).
 4. ``--atheris-runs N``: a coverage-guided run (atheris, libFuzzer) where the
    fuzzer's bytes choose the numbers and branches; the same checks, and a
    broken promise raises so libFuzzer keeps the input. Optional; runs last
@@ -197,6 +198,25 @@ def work_ratios(fmod, pmod, big_n, label):
     return rows
 
 
+def ordinary_calls(fmod, pmod):
+    """Everyday calls (name, zero-argument call) for the cost of the hostile-input guards."""
+    out = []
+    fc = fmod.Forecast(1.0 / 900.0, 0.0, 21.0)
+    out.append(("constant cooling", lambda: fc.time_to_target_s(85.0, 60.0)))
+    f2 = fmod.Forecast(1.0 / 1200.0, 0.05, 20.0)
+    f2.set_plan_thermostat(60.0, 62.0)
+    out.append(("thermostat", lambda: f2.time_to_target_s(20.0, 61.5)))
+    f3 = fmod.Forecast(1.0 / 600.0, 0.0, 4.0)
+    f3.set_ambient_periodic(4.0, 1.5, 2400.0)
+    out.append(("periodic ambient", lambda: f3.time_to_target_s(20.0, 6.0)))
+    f4 = fmod.Forecast(1.0 / 600.0, 0.02, 20.0)
+    f4.set_plan_schedule([60.0 * i for i in range(50)], [0.5 * (i % 2) for i in range(50)])
+    out.append(("schedule, 50 steps", lambda: f4.time_to_target_s(20.0, 35.0)))
+    pl = pmod.ReadyByPlanner(1.0 / 900.0, 20.0, 0.05)
+    out.append(("latest_start", lambda: pl.latest_start(20.0, 60.0, 3600.0)))
+    return out
+
+
 def atheris_run(runs, seed):
     """Coverage-guided: atheris picks the numbers (ConsumeFloat hits NaN, inf, denormals)."""
     import atheris
@@ -310,6 +330,14 @@ def main(argv=None):
         if args.compare_commit:
             fmod, pmod = load_commit(args.compare_commit)
             runs.append((args.compare_commit, fmod, pmod))
+        if args.compare_commit:
+            print("time per everyday call, now / %s (the cost of the guards):" % args.compare_commit)
+            for (name, new), (_, old) in zip(ordinary_calls(forecast_now, planner_now),
+                                             ordinary_calls(runs[1][1], runs[1][2])):
+                t_new = time_per_call(new)
+                t_old = time_per_call(old)
+                print("  %-18s %5.2fx   (%.1f us -> %.1f us)" % (name, t_new / t_old, t_old * 1e6,
+                                                              t_new * 1e6))
         for label, fmod, pmod in runs:
             print("time per call with %d coincident breakpoints / with 10 (%s):" % (
                 args.ratio_n, label))
