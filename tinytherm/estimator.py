@@ -408,7 +408,6 @@ class ThermalEstimator:
         self._g = 0.0               # heater gain, K/s
         self._p_ss = self._p_sk = self._p_sg = self._p_kk = self._p_kg = self._p_gg = 0.0
         self._var_my = 0.0
-        self._s2r = 0.0
 
     def _clear_answer(self, code):
         self.status = code
@@ -523,11 +522,11 @@ class ThermalEstimator:
         r = self._reference(ambient_c, dt_s)
         # noise: successive differences less the fitted slope, var = 2 sigma^2
         if self._ok and dt_s <= 120.0 and self._nb >= DETECT_MIN_BLOCKS:
-            # clipped at 3 sd, and only from a fit of a few blocks: a misfit (a
+            # clipped at 2 sd, and only from a fit of a few blocks: a misfit (a
             # jump, a young fit's slope) must not pass for noise
             d2 = temp_c - self._y_prev - self._s * dt_s
             d2 = 0.5 * d2 * d2
-            cap = 9.0 * self._noise2
+            cap = 4.0 * self._noise2
             n = self._noise_n + 1 if self._noise_n < 100 else 100
             self._noise_n = n
             v = self._noise2 + ((d2 if d2 < cap else cap) - self._noise2) / n
@@ -712,17 +711,12 @@ class ThermalEstimator:
         if not self._solve_with(lk, kp, 0.0, 0.0, lg, gp, s2):
             return
         # the hint, used only when the liquid moves towards it: one
-        # pseudo-observation 0 = s - k (e - G0) with sd k sd (k scaled from the
-        # slope), weighed against the data's residual variance (noise and lack
-        # of fit: where one exponential fits badly, the data say less)
+        # pseudo-observation 0 = s - k (e - G0) with sd k sd (k scaled from the slope)
         slope = self._s - self._g * self._u0   # slope without heat input
         if (dist > 2.0 * sd or dist < -2.0 * sd) and slope * dist > 0.0:
-            s2h = self._s2r
             if prof is None:
                 lk = 0.0  # the hint replaces the loose prior
-            else:
-                lk *= s2h / s2
-            self._solve_with(lk, kp, s2h * dist * dist / (slope * slope * sd * sd), dist, lg,
+            self._solve_with(lk, kp, s2 * dist * dist / (slope * slope * sd * sd), dist, lg,
                              gp, s2)
         if self._ok and self._k < 0.0:
             # accelerating: the exact straight line instead
@@ -781,7 +775,6 @@ class ThermalEstimator:
         s2r = ssr / dof if dof > 1.0 else s2
         if s2r < s2:
             s2r = s2
-        self._s2r = s2r  # residual variance per reading, deg C^2 (derived)
         scale = s2r * self._w2 / self._w * inv
         if not (_finite(s) and _finite(m) and _finite(g) and _finite(scale)):
             return False
