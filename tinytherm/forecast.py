@@ -867,8 +867,34 @@ class Forecast:
                 dx = s - lo
                 bisected = True
             tol = 4.0 * _EPS * (base + abs(s))  # at the new point: a log step shrinks s a lot
-            if abs(dx) <= tol or hi - lo <= tol:
+            if hi - lo <= tol:
                 return s
+            if abs(dx) <= tol:
+                # A step this small is convergence only beside a sign change:
+                # in a flat tail (far horizon) Newton creeps by ulps far from
+                # the root. Look 2 tol either side; if no sign change, shrink
+                # the bracket by what was seen and bisect on.
+                a = s - 2.0 * tol
+                if a < lo:
+                    a = lo
+                b = s + 2.0 * tol
+                if b > hi:
+                    b = hi
+                self._eval(which, level, a)
+                fa = self._f
+                self._eval(which, level, b)
+                fb = self._f
+                if fa != fa or fb != fb:
+                    return math.nan
+                if fa == 0.0 or fb == 0.0 or (fa > 0.0) != (fb > 0.0):
+                    return s
+                if (fa > 0.0) == (flo > 0.0):
+                    lo = b
+                else:
+                    hi = a
+                s = self._split(lo, hi)
+                dx = s - lo
+                bisected = True
             self._eval(which, level, s)
             f = self._f
             df = self._df

@@ -307,3 +307,12 @@ def test_a_far_horizon_does_not_stop_the_root_solve_short():
     fc.set_plan_duty(1.0)
     eta = fc.time_to_target_s(-0.0, -1e-200, 1.817354482481511e292)
     assert close(eta, 1e-200 / 127.43992544710636, 1e-9)
+    # Found by hypothesis: a Newton step in the flat tail of a 1e63 s bracket
+    # moved by ulps and was taken for convergence (eta 2e32 s). Exponential
+    # approach to E = R + g u / k = -1 - 1/3 (standard first-order step
+    # response; from memory): t = ln((33 - E) / (0 - E)) / k.
+    fc = Forecast(0.09375, -1.0, -1.0)
+    fc.set_plan_duty(0.03125)
+    e = -1.0 - 0.03125 / 0.09375
+    eta = fc.time_to_target_s(33.0, 0.0, 1.0682503185248107e63)
+    assert close(eta, math.log((33.0 - e) / (0.0 - e)) / 0.09375, 1e-12)
