@@ -569,12 +569,12 @@ def main(argv=None):
             print("")
     rows = sum(r["rows"] for r in results)
     cost = {m: sum(r["cost"][m] for r in results) for m in methods}
-    ref = cost["core"]
+    ref = cost[est_labels[0]]
     cpu = sum(r["cpu_s"] for r in results)
-    print("compute: %d rows; CPU seconds per method in the workers (ratio to core): %s; all work "
+    print("compute: %d rows; CPU seconds per method in the workers (ratio to %s): %s; all work "
           "in the workers incl. trace generation or cache reads %.0f CPU s (%.1f min on %d free "
           "cores); wall %.0f s with %d jobs" % (
-              rows, ", ".join("%s %.1f s (%.1f)" % (m, c, c / ref if ref else math.nan)
+              rows, est_labels[0], ", ".join("%s %.1f s (%.1f)" % (m, c, c / ref if ref else math.nan)
                               for m, c in cost.items()),
               cpu, cpu / 60.0 / max(args.jobs, 1), args.jobs, time.perf_counter() - start,
               args.jobs))
