@@ -117,6 +117,16 @@ def _machine_epsilon():
 _EPS = _machine_epsilon()  # 2.2e-16 with doubles, 1.2e-7 on float32 ports
 
 
+def _smallest_float():
+    x = 1.0
+    while x * 0.5 != 0.0:
+        x *= 0.5
+    return x
+
+
+_TINY = _smallest_float()  # 5e-324 with doubles (denormal), about 1e-45 on float32
+
+
 def reason_name(code):
     """Lower-case name of a reason code; ``"unknown"`` for anything else."""
     if 0 <= code < len(REASON_NAMES):
@@ -866,7 +876,9 @@ class Forecast:
                 s = self._split(lo, hi)
                 dx = s - lo
                 bisected = True
-            tol = 4.0 * _EPS * (base + abs(s))  # at the new point: a log step shrinks s a lot
+            # at the new point (a log step shrinks s a lot); never below a few
+            # of the smallest floats, or a root at a denormal time never ends
+            tol = 4.0 * _EPS * (base + abs(s)) + 4.0 * _TINY
             if hi - lo <= tol:
                 return s
             if abs(dx) <= tol:
