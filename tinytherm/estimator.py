@@ -478,11 +478,17 @@ class ThermalEstimator:
             duty = 0.0
         if ambient_c is not None:
             self._measured = True
-        if self._fresh or self.guard.gap == GAP_RESTART:
+        try:
+            if self._fresh or self.guard.gap == GAP_RESTART:
+                self._restart_fit()
+                self._start(temp_c, ambient_c, duty)
+            else:
+                self._step(temp_c, self.guard.elapsed_s, ambient_c, float(duty))
+        except (ValueError, OverflowError, ZeroDivisionError):
+            # arithmetic at the edge of the float range (a reading of 1e-305 C):
+            # never raise; the fit starts again from this reading
             self._restart_fit()
             self._start(temp_c, ambient_c, duty)
-        else:
-            self._step(temp_c, self.guard.elapsed_s, ambient_c, float(duty))
         self.readings += 1
         self._fit_readings += 1
         return st.ACCEPTED
@@ -621,6 +627,11 @@ class ThermalEstimator:
             self._cuy -= du * self._cty
             self._v -= du * t
             self._u0 += du
+        # (the shifts are exact up to rounding, which may leave -1e-19 on a diagonal)
+        if self._cxx < 0.0:
+            self._cxx = 0.0
+        if self._cuu < 0.0:
+            self._cuu = 0.0
         self._bn = 0
         self._b_dur = 0.0
         self._bt = self._bx = self._bv = self._by = 0.0
@@ -713,11 +724,13 @@ class ThermalEstimator:
         # the hint, used only when the liquid moves towards it: one
         # pseudo-observation 0 = s - k (e - G0) with sd k sd (k scaled from the slope)
         slope = self._s - self._g * self._u0   # slope without heat input
-        if (dist > 2.0 * sd or dist < -2.0 * sd) and slope * dist > 0.0:
-            if prof is None:
-                lk = 0.0  # the hint replaces the loose prior
-            self._solve_with(lk, kp, s2 * dist * dist / (slope * slope * sd * sd), dist, lg,
-                             gp, s2)
+        den = slope * slope * sd * sd
+        if (dist > 2.0 * sd or dist < -2.0 * sd) and slope * dist > 0.0 and den > 0.0:
+            lh = s2 * dist * dist / den
+            if _finite(lh):
+                if prof is None:
+                    lk = 0.0  # the hint replaces the loose prior
+                self._solve_with(lk, kp, lh, dist, lg, gp, s2)
         if self._ok and self._k < 0.0:
             # accelerating: the exact straight line instead
             self._solve_with(-1.0, 0.0, 0.0, 0.0, lg, gp, s2)
@@ -1165,7 +1178,8 @@ class ThermalEstimator:
                 and self._cyy >= 0.0 and self._age >= 0.0 and 0.0 <= self._b_dur <= self._age
                 and 0.0 <= self._u0 <= 1.0 and 0.0 <= self._u_prev <= 1.0
                 and self._noise2 > 0.0
-                and self._s2_fit > 0.0 and lo <= self._y_prev <= hi and 0.0 <= pending <= g._pending_cap_s
+                and self._s2_fit > 0.0 and lo <= self._y_prev <= hi
+                and 0.0 <= pending <= g._pending_cap_s + g._pending_cap_ms * 0.001
                 and 0.0 <= g._run_s <= g._pending_cap_s and g._run_rate >= 0.0
                 and (win_n < 1 or lo <= g._w1 <= hi) and (win_n < 2 or lo <= g._w2 <= hi)
                 and (win_n < 3 or lo <= g._w3 <= hi) and (win_n < 4 or lo <= g._w4 <= hi)):
