@@ -299,7 +299,9 @@ def _confirm(st, fc, eta, args):
     if k > 0.0 and g / k < heat:
         heat = g / k
     scale = max(abs(start), abs(target), 1.0, amb, heat)
-    slope = k * scale + g
+    slope = g
+    if k > 0.0:
+        slope += k * scale  # (not 0 * inf)
     st.tracked += 1
     t = fc.temperature_at_c(eta, start)
     if not (t == t and abs(t - target) <= 1e-6 * scale + slope * (1e-9 * eta + 1e-300)):
