@@ -719,18 +719,30 @@ class ThermalEstimator:
             rel = prof.gain_rel_sd if prof.gain_rel_sd > 0.02 else 0.02
             if gp != 0.0:
                 lg = s2 / (gp * gp * rel * rel)
-        if not self._solve_with(lk, kp, 0.0, 0.0, lg, gp, s2):
-            return
+        # the slope without heat input, from the fit with the loose prior alone
+        # (without a heater only the slope is needed: a 2x2 solve for one value)
+        solved = False
+        if self.heater:
+            if not self._solve_with(lk, kp, 0.0, 0.0, lg, gp, s2):
+                return
+            solved = True
+            slope = self._s - self._g * self._u0
+        else:
+            a22 = self._cxx + lk
+            det = self._ctt * a22 - self._ctx * self._ctx
+            if not det > 1e-300 * (1.0 + self._ctt * a22):
+                return
+            slope = (a22 * self._cty - self._ctx * (self._cxy - kp * lk)) / det
         # the hint, used only when the liquid moves towards it: one
         # pseudo-observation 0 = s - k (e - G0) with sd k sd (k scaled from the slope)
-        slope = self._s - self._g * self._u0   # slope without heat input
         den = slope * slope * sd * sd
         if (dist > 2.0 * sd or dist < -2.0 * sd) and slope * dist > 0.0 and den > 0.0:
             lh = s2 * dist * dist / den
-            if _finite(lh):
-                if prof is None:
-                    lk = 0.0  # the hint replaces the loose prior
-                self._solve_with(lk, kp, lh, dist, lg, gp, s2)
+            if _finite(lh) and self._solve_with(0.0 if prof is None else lk, kp, lh, dist, lg,
+                                                gp, s2):
+                solved = True  # (without a profile the hint replaces the loose prior)
+        if not solved and not self._solve_with(lk, kp, 0.0, 0.0, lg, gp, s2):
+            return
         if self._ok and self._k < 0.0:
             # accelerating: the exact straight line instead
             self._solve_with(-1.0, 0.0, 0.0, 0.0, lg, gp, s2)
@@ -820,6 +832,11 @@ class ThermalEstimator:
     def _audit(self):
         if self._nb < DETECT_MIN_BLOCKS:
             return  # a fit of a few readings forecasts noise, not the model's error
+        for a in self._audits:
+            if a.age < 0.0 or self._age - a.age >= a.horizon_s(a.age):
+                break
+        else:
+            return  # nothing due (most blocks): the level and its variance wait
         level = self._level()
         slope = self._slope(level)
         need = 4.0 * math.sqrt(self._var_level()) + 0.5 * self.guard.quantum_c
