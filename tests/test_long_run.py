@@ -5,7 +5,7 @@ they would be for a device with a small heap: compiling sources needs more
 heap than running them, and -O3 leaves the source line numbers out of the
 bytecode (tracebacks show no lines; the core validates with exceptions, never
 with ``assert``, so nothing else changes). Measured with the redesigned
-estimator: the smallest heap in 2K steps that runs this test is 66K (64K
+estimator: the smallest heap in 2K steps that runs this test is 68K at 41ba780 (66K
 fails; the first-round estimator needed 62K), so 72K leaves a margin for the
 few hundred bytes a fresh clone has been seen to differ by.
 The trace is generated inside MicroPython (tests/long_run_mp.py). Figures are
