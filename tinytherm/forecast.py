@@ -56,6 +56,7 @@ except ImportError:  # CPython
         return x
 
 from tinytherm import status
+from tinytherm.model import _exp, _phi1  # the closed forms' shared helpers
 
 # --- work caps (per call) ---
 MAX_PIECES = const(600)          # pieces plus sinusoid sub-steps per call
@@ -132,28 +133,6 @@ def reason_name(code):
     if 0 <= code < len(REASON_NAMES):
         return REASON_NAMES[code]
     return "unknown"
-
-
-def _exp(x):
-    """``exp(x)`` that saturates instead of raising (MicroPython raises ValueError)."""
-    try:
-        return math.exp(x)
-    except (ValueError, OverflowError):
-        return 0.0 if x < 0.0 else _INF
-
-
-def _phi1(x):
-    """``(1 - exp(-x)) / x`` without cancellation near 0 (dimensionless)."""
-    if -0.5 < x < 0.5:
-        # Taylor series sum (-x)**n / (n+1)!, n = 0..15, by Horner's rule;
-        # truncation error < 0.5**16 / 17! here.
-        r = 1.0
-        n = 15
-        while n >= 1:
-            r = 1.0 - x * r / (n + 1)
-            n -= 1
-        return r
-    return (1.0 - _exp(-x)) / x
 
 
 def _phi2(x):
@@ -829,8 +808,8 @@ class Forecast:
         a root near one end of a long bracket is reached by Newton, not by
         hundreds of halvings), a bisection step otherwise, so the bracket
         always shrinks. At most MAX_ROOT_ITERATIONS iterations; stops
-        when the step is below a few ulps of the time. Bisection points come
-        from _split, so a bracket many time constants long is cut in its
+        when the step is below a few ulps of the time. Bisection points are
+        those of _split, so a bracket many time constants long is cut in its
         logarithm first. The first point is the Newton step from lo (its
         tangent), when that lies inside: a root far nearer lo than the
         bracket's rounding (1e-203 s in a 1e292 s bracket) is found at once.

@@ -23,6 +23,20 @@ def _exp(x):
         return 0.0 if x < 0.0 else math.inf
 
 
+def _phi1(x):
+    """``(1 - exp(-x)) / x`` without cancellation near 0 (dimensionless)."""
+    if -0.5 < x < 0.5:
+        # Taylor series sum (-x)**n / (n+1)!, n = 0..15, by Horner's rule;
+        # truncation error < 0.5**16 / 17! here.
+        r = 1.0
+        n = 15
+        while n >= 1:
+            r = 1.0 - x * r / (n + 1)
+            n -= 1
+        return r
+    return (1.0 - _exp(-x)) / x
+
+
 def equilibrium_c(ambient_c, rate_per_s, gain_k_per_s=0.0, duty=0.0):
     """Temperature the liquid levels off at, in deg C: ``R + g*u/k``.
 
@@ -64,16 +78,8 @@ def temperature_at(t_s, start_c, rate_per_s, ambient_c, gain_k_per_s=0.0, duty=0
     if t_s == 0.0:
         return start_c
     x = rate_per_s * t_s
-    if -0.5 < x < 0.5:
-        # (1 - e^-x)/x by its series sum (-x)**n/(n+1)!, n = 0..15 (Horner)
-        r = 1.0
-        n = 15
-        while n >= 1:
-            r = 1.0 - x * r / (n + 1)
-            n -= 1
-        om_k = t_s * r
-    else:
-        om_k = (1.0 - e) / rate_per_s
+    # (1 - e^-x)/k, by the series of _phi1 near x = 0
+    om_k = t_s * _phi1(x) if -0.5 < x < 0.5 else (1.0 - e) / rate_per_s
     return start_c * e + ambient_c * (1.0 - e) + gain_k_per_s * duty * om_k
 
 
