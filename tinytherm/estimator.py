@@ -1061,19 +1061,13 @@ class ThermalEstimator:
         d1 = d0 + gap_c
         if d0 == 0.0 or slope_c_per_s * d0 >= 0.0 or d1 * d0 <= 0.0:
             return None
-        if d0 < 0.0:
-            d0 = -d0
-            d1 = -d1
-        if d1 > d0:
+        # the profile's own closed form, rescaled: time goes as 1 / a, and
+        # the fitted local rate -slope / d0 stands for the profile's rate_at(d0)
+        t = prof.time_to_target_s(level_c, level_c + gap_c, e)
+        if t is None:
             return None
-        n = prof.rate_exponent
-        rate = -slope_c_per_s / (level_c - e)      # the local rate, 1/s, > 0
         try:
-            if n == 1.0:
-                return math.log(d0 / d1) / rate
-            # with a = rate / d0^(n-1): t = (d0^(1-n) - d1^(1-n)) / (a (1-n))
-            p = 1.0 - n
-            return (1.0 - math.exp(p * math.log(d1 / d0))) / (rate * p)
+            return t * prof.rate_at(d0) * d0 / -slope_c_per_s
         except (ValueError, OverflowError, ZeroDivisionError):
             return None
 
