@@ -319,9 +319,8 @@ def _estimator_for(args, scan):
     if args.ambient is not None:
         kw["ambient_c"] = args.ambient
     try:
-        ctor = dict(kw)
-        ctor.pop("approach", None)  # (for predict(), not the constructor)
-        return ThermalEstimator(**ctor), kw
+        from host_sim.replay import split_settings
+        return ThermalEstimator(**split_settings(kw)[0]), kw
     except (TypeError, ValueError, OverflowError) as exc:
         raise CliError("estimator settings: %s" % exc) from None
 

@@ -96,6 +96,16 @@ def _prediction_row(est, t, temp_c, verdict):
     }
 
 
+def split_settings(settings):
+    """``(constructor keyword arguments, approach)`` from replay settings.
+
+    ``approach`` (-1 the product cools to its target, +1 heats to it, 0
+    either) goes to ``predict()``, not to the constructor.
+    """
+    ctor = dict(settings)
+    return ctor, int(ctor.pop("approach", 0) or 0)
+
+
 def replay_rows(rows, target_c, use_ambient_column=True, **settings):
     """Streaming replay: a generator of prediction dicts, one per input row.
 
@@ -111,10 +121,7 @@ def replay_rows(rows, target_c, use_ambient_column=True, **settings):
     Yields dicts with the keys of :attr:`ReplayResult.rows`; holds one row
     at a time, so memory does not grow with the trace.
     """
-    settings = dict(settings)
-    # approach (-1 cools to the target, +1 heats to it, 0 either) goes to
-    # predict(), not to the constructor
-    approach = int(settings.pop("approach", 0) or 0)
+    settings, approach = split_settings(settings)
     est = ThermalEstimator(**settings)
     use_heater = bool(settings.get("heater", False))
     prev_t = None
