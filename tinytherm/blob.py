@@ -1,15 +1,17 @@
 """Fixed-size saved-state blob: header, payload and CRC-32, for deep sleep.
 
-Layout (little-endian, :data:`BLOB_SIZE` = 480 bytes in total: it fits the
-512 bytes of RTC user memory of the smallest common boards)::
+Layout (little-endian, :data:`BLOB_SIZE` = 512 bytes in total: the RTC user
+memory of the smallest common boards)::
 
     offset  size  field
     0       2     magic b"tT"
     2       1     layout version (:data:`LAYOUT_VERSION`)
-    3       1     settings byte (which fields the payload holds; the owner
-                  checks it matches its own configuration)
-    4       472   payload (layout chosen by the owner; unused bytes are zero)
-    476     4     CRC-32 (IEEE, :mod:`tinytherm.crc`) of bytes 0..475
+    3       1     zero
+    4       4     settings key: a CRC-32 of every setting of the owner (a blob
+                  of an estimator configured otherwise is refused)
+    8       500   payload (each part of the owner packs its own bytes; unused
+                  bytes are zero)
+    508     4     CRC-32 (IEEE, :mod:`tinytherm.crc`) of bytes 0..507
 
 The estimator packs its payload with ``struct.pack_into`` at
 :data:`PAYLOAD_OFFSET`; this module writes and checks the frame. Checking
@@ -19,12 +21,12 @@ import struct
 
 from tinytherm.crc import crc32
 
-BLOB_SIZE = 480
+BLOB_SIZE = 512
 MAGIC = b"tT"
-LAYOUT_VERSION = 2
-PAYLOAD_OFFSET = 4
-PAYLOAD_SIZE = 472
-CRC_OFFSET = 476
+LAYOUT_VERSION = 3
+PAYLOAD_OFFSET = 8
+PAYLOAD_SIZE = 500
+CRC_OFFSET = 508
 
 # Results of a restore attempt; anything but RESTORED means a fresh start.
 RESTORED = 0         # the blob was valid and the state is back
@@ -54,17 +56,17 @@ def restore_name(code):
 
 
 def new_frame(settings):
-    """A zeroed ``bytearray`` of BLOB_SIZE with magic, version and settings written."""
+    """A zeroed ``bytearray`` of BLOB_SIZE with magic, version and the 32-bit settings key."""
     buf = bytearray(BLOB_SIZE)
     buf[0] = MAGIC[0]
     buf[1] = MAGIC[1]
     buf[2] = LAYOUT_VERSION
-    buf[3] = settings & 0xFF
+    struct.pack_into("<I", buf, 4, settings & 0xFFFFFFFF)
     return buf
 
 
 def seal(buf):
-    """Write the CRC-32 of bytes 0..475 into bytes 476..479 of ``buf``; returns ``buf``."""
+    """Write the CRC-32 of bytes 0..507 into bytes 508..511 of ``buf``; returns ``buf``."""
     struct.pack_into("<I", buf, CRC_OFFSET, crc32(buf, 0, 0, CRC_OFFSET))
     return buf
 
@@ -86,6 +88,6 @@ def check(blob, settings):
     stored = struct.unpack_from("<I", blob, CRC_OFFSET)[0]
     if stored != crc32(blob, 0, 0, CRC_OFFSET):
         return BLOB_CRC
-    if blob[3] != (settings & 0xFF):
+    if struct.unpack_from("<I", blob, 4)[0] != (settings & 0xFFFFFFFF):
         return BLOB_SETTINGS
     return RESTORED

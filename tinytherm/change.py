@@ -122,6 +122,20 @@ class ChangeDetector:
             return self._alarm(-1)
         return 0
 
+    STATE_SIZE = 24
+
+    def pack_into(self, buf, offset):
+        import struct
+        struct.pack_into("<3d", buf, offset, self.up, self.down, self.mean_abs_z)
+
+    def unpack_from(self, buf, offset):
+        import struct
+        up, down, m = struct.unpack_from("<3d", buf, offset)
+        if not (0.0 <= up < 1e6 and 0.0 <= down < 1e6 and 0.0 <= m < 1e6):
+            return False
+        self.up, self.down, self.mean_abs_z = up, down, m
+        return True
+
     def _alarm(self, direction):
         self.up = 0.0
         self.down = 0.0

@@ -102,7 +102,9 @@ class ReadingGuard:
     def __init__(self, min_c=-40.0, max_c=150.0, quantum_c=0.0625, spike_window=3,
                  spike_k=4.0, spike_floor_c=None, error_codes=True, error_margin_c=2.0,
                  max_gap_s=300.0, restart_gap_s=3600.0, stuck_change_c=1.0,
-                 stuck_min_s=30.0):
+                 stuck_min_s=30.0, probe_codes=None):
+        if probe_codes is not None:  # (temporary shim: the guard helper's API)
+            error_codes = probe_codes
         if not (_finite(min_c) and _finite(max_c)) or not min_c < max_c:
             raise ValueError("need finite min_c < max_c (deg C), got %r, %r" % (min_c, max_c))
         if not _finite(quantum_c) or quantum_c <= 0.0:
@@ -273,10 +275,38 @@ class ReadingGuard:
         verdict = self._judge(temp_c, expected_rate_c_per_s, gap, dt_s, -1)
         if verdict == status.ACCEPTED:
             self.elapsed_s = pending
+            self.elapsed_ms = int(pending * 1000.0 + 0.5)
             self._pending_s = 0.0
         return verdict
 
-    def check_ticks(self, temp_c, ticks_ms, expected_rate_c_per_s=0.0, inputs_ok=True):
+    def settings_key(self):
+        return (self.spike_window, self.error_codes)
+
+    STATE_SIZE = 8 * 9 + 3
+
+    def pack_into(self, buf, offset):
+        import struct
+        struct.pack_into("<9dBBB", buf, offset, self._w1, self._w2, self._w3, self._w4,
+                         self._run_s, self._run_rate, self._pending_s + self._pending_ms * 0.001,
+                         self._last_c, self._run_expected_c, self._win_n,
+                         min(self.consecutive_rejections, 255), 1 if self._has_accepted else 0)
+
+    def unpack_from(self, buf, offset):
+        import struct
+        v = struct.unpack_from("<9dBBB", buf, offset)
+        for x in v[:9]:
+            if not -1e12 < x < 1e12:
+                return False
+        (self._w1, self._w2, self._w3, self._w4, self._run_s, self._run_rate, pending,
+         self._last_c, self._run_expected_c, self._win_n, self.consecutive_rejections, h) = v
+        self._has_accepted = h == 1
+        self._pending_s = pending
+        self._pending_ms = 0
+        self._has_time = False
+        return self._win_n <= 4 and h <= 1 and pending >= 0.0
+
+    def check_ticks(self, temp_c, ticks_ms, expected_rate_c_per_s=0.0, inputs_ok=True,
+                    slept_s=None):
         """Like :meth:`check` with time as integer millisecond ticks wrapping at 2**30.
 
         The difference is wrap-safe; a step of more than half the tick period
@@ -318,6 +348,7 @@ class ReadingGuard:
         verdict = self._judge(temp_c, expected_rate_c_per_s, gap, 0.0, step_ms)
         if verdict == status.ACCEPTED:
             self.elapsed_s = pending * 0.001
+            self.elapsed_ms = pending
             self._pending_ms = 0
         return verdict
 

@@ -29,10 +29,11 @@ def to_float30(x):
 
 
 def round_instance_floats(obj, rounder, skip=()):
-    """Round every float attribute stored on ``obj`` with ``rounder``.
+    """Round every float attribute stored on ``obj`` and its parts with ``rounder``.
 
     Used after each update to emulate a device whose floats are narrower than
-    the host's.
+    the host's. Parts are the objects held in attributes (the estimator's
+    guard, fit, audits...) and in fixed tuples of them.
     """
     d = obj.__dict__
     for name in list(d.keys()):
@@ -42,10 +43,11 @@ def round_instance_floats(obj, rounder, skip=()):
         if isinstance(v, float):
             setattr(obj, name, rounder(v))
         elif isinstance(v, tuple):
-            # small helper objects held in a fixed tuple (the estimator's audits)
             for item in v:
                 if hasattr(item, "__dict__"):
                     round_instance_floats(item, rounder)
+        elif hasattr(v, "__dict__") and not isinstance(v, type):
+            round_instance_floats(v, rounder)
 
 
 def close(a, b, rel=1e-9, abs_tol=0.0):

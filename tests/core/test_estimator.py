@@ -177,8 +177,8 @@ def check_precision(updates):
         assert close(eta, eta64, 0.01), (eta, eta64)
         # positive definiteness of the information the fit holds on (s, k)
         # (the duty is constant since the heater came on: no information on g)
-        assert est._ctt > 0.0 and est._cxx > 0.0
-        assert est._ctt * est._cxx - est._ctx * est._ctx > 0.0
+        assert est.reg.ctt > 0.0 and est.reg.cxx > 0.0
+        assert est.reg.ctt * est.reg.cxx - est.reg.ctx * est.reg.ctx > 0.0
 
 
 def test_float32_and_float30_agree_with_float64():

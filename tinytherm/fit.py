@@ -1,0 +1,522 @@
+"""The regression of the estimator: block sums per reading, a weighted fit per block.
+
+Model, with ``G = T - R`` the gap to a reference ``R`` and ``u`` the duty::
+
+    dT/dt = s - k (G - G0) + g (u - u0)
+
+Integrated from any earlier moment it is linear in the parameters and free
+of derivatives::
+
+    y(t) = c + s t - k x(t) + g v(t),   x = int (G - G0) dt,  v = int (u - u0) dt
+
+Two parts, each owning its state and its bytes of the saved state:
+
+- :class:`BlockSums`, per reading and in integers only: readings in counts of
+  1/:data:`SCALE` deg C, time in ms, duty in 1/:data:`DUTY_SCALE`. It advances
+  the trapezoid integrals and sums them over the open block, and keeps the
+  successive differences that measure the reading noise. On MicroPython small
+  integers are not heap objects, so a reading costs no float boxes here.
+- :class:`Regression`, once per block (a few per minute): the block means are
+  one observation of the equation above; exponentially weighted means and
+  co-moments (West's incremental formulas, coordinates kept relative to the
+  weighted means and to the latest block, so the numbers stay small and
+  float32-safe), and the ridge-regularised solve with its covariance.
+
+Runs unchanged on CPython and MicroPython.
+"""
+import math
+import struct
+
+SCALE = 256            # counts per deg C in the block sums (1/256 C: far below any probe's noise)
+DUTY_SCALE = 1024      # counts of full heater duty
+MAX_BLOCK_READINGS = 255
+NOISE_MAX_DT_MS = 120000  # successive differences further apart than this measure drift, not noise
+NOISE_PRIOR_C = 0.05      # deg C: reading noise sd assumed before it is measured
+NOISE_PRIOR_N = 4         # readings that prior is worth
+AMBIENT_SMOOTH_S = 300.0  # s: time constant of the measured-ambient smoothing
+_INV_SCALE = 1.0 / SCALE
+_MS = 0.001
+
+
+class BlockSums:
+    """Integer sums of the open block and the latest reading (see the module docstring)."""
+
+    # saved: block and noise counts, the 64-bit sums, the 32-bit ones
+    _FMT = "<HHB6q10i"
+    STATE_SIZE = 93
+
+    def __init__(self):
+        self.reset()
+
+    def reset(self):
+        """Forget the block and the latest reading (a new fit starts)."""
+        self.n = 0          # readings in the open block
+        self.it = 0         # ms since the block's start (its duration)
+        self.ix = 0         # 2 x int (G - G0) dt since the block's start, count ms
+        self.iv = 0         # int (u - u0) dt since the block's start, duty-count ms
+        self.st = 0         # sums over the block's readings of it, ix, iv and the count
+        self.sx = 0
+        self.sv = 0
+        self.sy = 0
+        self.c = 0          # latest reading, counts
+        self.rc = 0         # reference R at it, counts
+        self.uc = 0         # duty over the latest interval, counts
+        self.g0 = 0         # reference gap G0, counts (the latest block's)
+        self.u0 = 0         # reference duty, counts
+        self.cb = 0         # the reading that closed the latest block, counts
+        self.age_ms = 0     # time since the fit's first reading, ms
+        self.readings = 0   # readings in this fit (counted to 255)
+        # noise: successive differences less the fitted slope, clipped
+        self.e1 = 0         # sum of the differences, counts
+        self.e2 = 0         # sum of their squares, counts^2
+        self.en = 0         # how many
+
+    def first(self, c, rc, uc):
+        """The fit's first reading: counts of the reading, reference and duty."""
+        self.reset()
+        self.c = c
+        self.rc = rc
+        self.uc = uc
+        self.g0 = c - rc
+        self.u0 = uc
+        self.n = 1
+        self.sy = c
+        self.readings = 1
+        self.cb = c
+
+    def add(self, c, rc, uc, dt_ms, expect, clip):
+        """One reading ``dt_ms`` after the previous: integers only.
+
+        ``expect``: the difference from the previous reading the fit expects
+        (counts); ``clip``: the largest deviation from it that counts as noise.
+        """
+        # trapezoid, doubled: ix += (G_n + G_(n-1) - 2 G0) dt
+        self.ix += (c - rc + self.c - self.rc - 2 * self.g0) * dt_ms
+        if uc != self.u0 or self.iv:
+            self.iv += (uc - self.u0) * dt_ms
+        self.it += dt_ms
+        self.age_ms += dt_ms
+        self.n += 1
+        if self.readings < 255:
+            self.readings += 1
+        self.st += self.it
+        self.sx += self.ix
+        self.sv += self.iv
+        self.sy += c
+        if dt_ms <= NOISE_MAX_DT_MS:
+            e = c - self.c - expect
+            if e > clip:
+                e = clip
+            elif e < -clip:
+                e = -clip
+            self.e1 += e
+            self.e2 += e * e
+            self.en += 1
+        self.c = c
+        self.rc = rc
+        self.uc = uc
+
+    def due(self, block_ms):
+        """True when the block should close: long enough, or long for the fit's age."""
+        return self.it >= block_ms or self.it * 16 >= self.age_ms or self.n >= MAX_BLOCK_READINGS
+
+    def noise_var(self):
+        """Variance of one reading from the block's differences, deg C^2, or -1.0 if too few."""
+        n = self.en
+        if n < 2:
+            return -1.0
+        # var(difference) = 2 sigma^2, about the differences' own mean
+        return (self.e2 - self.e1 * self.e1 / n) / (2 * (n - 1)) * (_INV_SCALE * _INV_SCALE)
+
+    def next_block(self):
+        """Zero the block sums; the latest reading becomes the new reference (exact)."""
+        self.n = 0
+        self.it = self.ix = self.iv = 0
+        self.st = self.sx = self.sv = self.sy = 0
+        self.e1 = self.e2 = self.en = 0
+        self.g0 = self.c - self.rc
+        self.u0 = self.uc
+        self.cb = self.c
+
+    def pack_into(self, buf, offset):
+        struct.pack_into(self._FMT, buf, offset, self.n, self.en, self.readings, self.ix,
+                         self.iv, self.sx, self.sv, self.e2, self.age_ms, self.it, self.st,
+                         self.sy, self.c, self.rc, self.uc, self.g0, self.u0, self.e1, self.cb)
+
+    def unpack_from(self, buf, offset):
+        """Load the state; False when a value is impossible (the caller resets)."""
+        (n, en, readings, ix, iv, sx, sv, e2, age, it, st, sy, c, rc, uc, g0, u0,
+         e1, cb) = struct.unpack_from(self._FMT, buf, offset)
+        if not (0 <= n <= MAX_BLOCK_READINGS and 0 <= it <= age and 0 <= uc <= DUTY_SCALE
+                and 0 <= u0 <= DUTY_SCALE and 0 <= en <= n and e2 >= 0 and st >= 0
+                and n <= readings):
+            return False
+        self.n, self.en, self.readings, self.it, self.ix, self.iv = n, en, readings, it, ix, iv
+        self.st, self.sx, self.sv, self.sy, self.e2, self.age_ms = st, sx, sv, sy, e2, age
+        self.c, self.rc, self.uc, self.g0, self.u0, self.e1 = c, rc, uc, g0, u0, e1
+        self.cb = cb
+        return True
+
+
+class Noise:
+    """The reading noise: its variance, learnt from the blocks' successive differences.
+
+    ``var`` (deg C^2) starts at :data:`NOISE_PRIOR_C` squared worth
+    :data:`NOISE_PRIOR_N` readings, never below the rounding error of the
+    sensor step (``q^2 / 12``), and moves towards each block's estimate with
+    weight ``en / n`` (``n`` <= 100 readings). A difference counts at most
+    sqrt(8) sd from what the fit expects (2 sd of the halved square), so a
+    misfit cannot pass for noise. ``expect``/``clip`` (counts) are what
+    :meth:`BlockSums.add` needs, refreshed when the step length changes.
+    """
+
+    STATE_SIZE = 9
+
+    def __init__(self, quantum_c):
+        self.floor = max(1e-6, quantum_c * quantum_c / 12.0)
+        self.reset()
+
+    def reset(self):
+        self.var = max(self.floor, NOISE_PRIOR_C * NOISE_PRIOR_C)
+        self.n = NOISE_PRIOR_N
+        self.refresh()
+
+    def refresh(self):
+        """Derived values after ``var`` changed (never saved)."""
+        self.sd = math.sqrt(self.var)
+        self.clip = int(2.8284 * self.sd * SCALE) + 1   # counts: sqrt(8) sd
+        self.expect = 0
+        self.expect_ms = -1
+
+    def expectation(self, rate_c_per_s, dt_ms):
+        """Counts the fit expects between two readings ``dt_ms`` apart (cached per step)."""
+        if dt_ms != self.expect_ms:
+            self.expect = int(math.floor(rate_c_per_s * dt_ms * (SCALE * 0.001) + 0.5))
+            self.expect_ms = dt_ms
+        return self.expect
+
+    def learn(self, blocks):
+        """Move towards the block's own estimate (call before ``blocks.next_block``)."""
+        v = blocks.noise_var()
+        if v < 0.0:
+            return
+        m = blocks.en
+        n = self.n + m
+        if n > 100:
+            n = 100
+        self.n = n
+        v = self.var + (v - self.var) * m / n
+        self.var = v if v > self.floor else self.floor
+        self.refresh()
+
+    def pack_into(self, buf, offset):
+        struct.pack_into("<dB", buf, offset, self.var, self.n)
+
+    def unpack_from(self, buf, offset):
+        var, n = struct.unpack_from("<dB", buf, offset)
+        if not (self.floor <= var <= 1e6 and n <= 100):
+            return False
+        self.var = var
+        self.n = n
+        self.refresh()
+        return True
+
+
+class Inputs:
+    """The reference ``R`` and the duty of each reading, in counts.
+
+    ``R`` is the fixed ambient, or the measured ambient smoothed with a time
+    constant of :data:`AMBIENT_SMOOTH_S` (integer arithmetic, 16 fractional
+    bits), or 0 when nothing is known. A measured ambient, once given,
+    overrides the fixed one.
+    """
+
+    STATE_SIZE = 9
+
+    def __init__(self, fixed_c):
+        self.fixed = None if fixed_c is None else to_counts(fixed_c)
+        self.reset()
+
+    def reset(self):
+        self.measured = False
+        self.fine = 0          # smoothed measured ambient, counts * 2**16
+        self.alpha_ms = -1     # step length the smoothing weight was worked out for
+        self.alpha = 0         # smoothing weight per step, 1/2**16
+        self.duty = 0.0        # the last duty and its counts (cache)
+        self.duty_c = 0
+
+    def known(self):
+        """True when the reference is an ambient (fixed or measured), not 0."""
+        return self.measured or self.fixed is not None
+
+    def reference(self, ambient_c, dt_ms, restart):
+        """``R`` for this reading in counts (``restart``: the fit starts with it)."""
+        if ambient_c is None:
+            if self.measured:
+                return self.fine >> 16
+            return 0 if self.fixed is None else self.fixed
+        a = to_counts(ambient_c) << 16
+        if restart or not self.measured:
+            self.measured = True
+            self.fine = a
+        else:
+            if dt_ms != self.alpha_ms:
+                self.alpha = int((1.0 - math.exp(-dt_ms * 0.001 / AMBIENT_SMOOTH_S)) * 65536.0
+                                 + 0.5)
+                self.alpha_ms = dt_ms
+            self.fine += ((a - self.fine) * self.alpha) >> 16
+        return self.fine >> 16
+
+    def duty_counts(self, duty):
+        """A duty in [0, 1] as counts of 1/DUTY_SCALE (cached: the duty rarely changes)."""
+        if duty != self.duty:
+            self.duty = duty
+            self.duty_c = int(duty * DUTY_SCALE + 0.5)
+        return self.duty_c
+
+    def pack_into(self, buf, offset):
+        struct.pack_into("<qB", buf, offset, self.fine, 1 if self.measured else 0)
+
+    def unpack_from(self, buf, offset):
+        fine, measured = struct.unpack_from("<qB", buf, offset)
+        if measured > 1:
+            return False
+        self.fine = fine
+        self.measured = measured == 1
+        return True
+
+
+class Regression:
+    """Weighted co-moments of the block means and their ridge-regularised solve.
+
+    State: total weight ``w``, sum of squared weights ``w2``, effective
+    number of blocks ``nb``, weighted mean reading ``my``, the co-moments
+    ``c..`` of (t, x, v, y) about their weighted means, and ``t, x, v``: the
+    latest reading's coordinates relative to those means (s, deg C s, s).
+    Solved (never saved: :meth:`solve` rebuilds it): slope ``s`` (deg C/s),
+    rate ``k`` (1/s), heater gain ``g`` (K/s) and their covariance ``p..``;
+    ``var_my``, the variance of the fitted mean level.
+    """
+
+    _NAMES = ("w", "w2", "nb", "my", "ctt", "ctx", "cty", "cxx", "cxy", "cyy", "t", "x",
+              "v", "ctu", "cxu", "cuu", "cuy")
+
+    def __init__(self, heater):
+        self.heater = heater
+        # the heater's four co-moments are saved only with a heater
+        self._saved = 17 if heater else 13
+        self.STATE_SIZE = 8 * self._saved
+        self.reset()
+
+    def reset(self):
+        self.w = self.w2 = self.nb = self.my = 0.0
+        self.ctt = self.ctx = self.cty = self.cxx = self.cxy = self.cyy = 0.0
+        self.ctu = self.cxu = self.cuu = self.cuy = 0.0
+        self.t = self.x = self.v = 0.0
+        self.clear()
+
+    def clear(self):
+        """Drop the solution."""
+        self.ok = False
+        self.s = self.k = self.g = 0.0
+        self.pss = self.psk = self.pkk = self.psg = self.pkg = self.pgg = 0.0
+        self.var_my = 0.0
+
+    def add_block(self, n, tb, xb, vb, yb, lam, t_end, x_end, v_end, dg, du):
+        """Add one block mean (``n`` readings at ``tb, xb, vb``, mean reading ``yb``).
+
+        ``lam``: the weight the old blocks keep; ``t_end, x_end, v_end``: the
+        latest reading's coordinates (same origin as ``tb``...); ``dg, du``:
+        the change of the reference gap (deg C) and duty the new origin takes.
+        Returns the block's coordinates about the new means and reference,
+        for the residual: it is stored in ``self.rt, self.rx, self.rv``.
+        """
+        # West's weighted update with the new point at (tb, xb, vb); the old means are 0
+        w = lam * self.w + n
+        f = n / w
+        h = n * (1.0 - f)
+        dy = yb - self.my
+        ht = h * tb
+        hx = h * xb
+        self.ctt = lam * self.ctt + ht * tb
+        self.ctx = lam * self.ctx + ht * xb
+        self.cty = lam * self.cty + ht * dy
+        self.cxx = lam * self.cxx + hx * xb
+        self.cxy = lam * self.cxy + hx * dy
+        self.cyy = lam * self.cyy + h * dy * dy
+        if self.heater:
+            hv = h * vb
+            self.ctu = lam * self.ctu + ht * vb
+            self.cxu = lam * self.cxu + hx * vb
+            self.cuu = lam * self.cuu + hv * vb
+            self.cuy = lam * self.cuy + hv * dy
+        self.my += f * dy
+        self.w = w
+        self.w2 = lam * lam * self.w2 + n
+        self.nb = lam * self.nb + 1.0
+        # new origin: the weighted means (block point and latest reading move with it)
+        tm = f * tb
+        xm = f * xb
+        t = t_end - tm
+        self.rt = tb - tm
+        self.rx = xb - xm
+        self.x = x_end - xm
+        if dg != 0.0:
+            # new reference gap G0 + dg: x' = x - dg t exactly (co-moments likewise)
+            self.cxx += dg * (dg * self.ctt - 2.0 * self.ctx)
+            self.ctx -= dg * self.ctt
+            self.cxy -= dg * self.cty
+            self.x -= dg * t
+            self.rx -= dg * self.rt
+            if self.heater:
+                self.cxu -= dg * self.ctu
+            if self.cxx < 0.0:
+                self.cxx = 0.0  # (exact up to rounding, which may leave -1e-19)
+        self.t = t
+        if self.heater:
+            vm = f * vb
+            self.rv = vb - vm
+            self.v = v_end - vm
+            if du != 0.0:
+                self.cuu += du * (du * self.ctt - 2.0 * self.ctu)
+                self.ctu -= du * self.ctt
+                self.cxu -= du * self.ctx
+                self.cuy -= du * self.cty
+                self.v -= du * t
+                self.rv -= du * self.rt
+                if self.cuu < 0.0:
+                    self.cuu = 0.0
+        else:
+            self.rv = 0.0
+
+    def slope_loose(self, lk, kp):
+        """Slope ``s`` (deg C/s) of the solve with only the prior k ~ N(kp, s2/lk), no heater; None if singular."""
+        a22 = self.cxx + lk
+        det = self.ctt * a22 - self.ctx * self.ctx
+        if not det > 1e-300 * (1.0 + self.ctt * a22):
+            return None
+        return (a22 * self.cty - self.ctx * (self.cxy - kp * lk)) / det
+
+    def solve(self, s2, lk, kp, lh, dist, lg, gp):
+        """Solve for (s, -k, g) with priors; True when the solution is usable.
+
+        Priors: ``k ~ N(kp, s2 / lk)`` (``lk < 0`` pins k = 0, the exact
+        straight line), ``g ~ N(gp, s2 / lg)``, and weight ``lh`` on the
+        pseudo-observation ``0 = s + dist m`` with ``m = -k`` (the equilibrium hint). ``s2``:
+        the reading noise variance, deg C^2.
+        """
+        a11 = self.ctt + lh
+        if lk < 0.0:
+            a12 = 0.0
+            a22 = 1.0
+            b2 = 0.0
+        else:
+            a12 = self.ctx + lh * dist
+            a22 = self.cxx + lk + lh * dist * dist
+            b2 = self.cxy - kp * lk
+        b1 = self.cty
+        if self.heater:
+            a13 = self.ctu
+            a23 = 0.0 if lk < 0.0 else self.cxu
+            a33 = self.cuu + lg
+            b3 = self.cuy + lg * gp
+            # symmetric 3x3 inverse by cofactors
+            c11 = a22 * a33 - a23 * a23
+            c12 = a13 * a23 - a12 * a33
+            c13 = a12 * a23 - a13 * a22
+            c22 = a11 * a33 - a13 * a13
+            c23 = a12 * a13 - a11 * a23
+            c33 = a11 * a22 - a12 * a12
+            det = a11 * c11 + a12 * c12 + a13 * c13
+            if not det > 1e-300 * (1.0 + a11 * a22 * a33):
+                return False
+            inv = 1.0 / det
+            s = (c11 * b1 + c12 * b2 + c13 * b3) * inv
+            m = (c12 * b1 + c22 * b2 + c23 * b3) * inv
+            g = (c13 * b1 + c23 * b2 + c33 * b3) * inv
+            dof = self.nb - 3.0
+            ssr = self.cyy - s * b1 - m * self.cxy - g * b3
+        else:
+            det = a11 * a22 - a12 * a12
+            if not det > 1e-300 * (1.0 + a11 * a22):
+                return False
+            inv = 1.0 / det
+            c11 = a22
+            c12 = -a12
+            c22 = a11
+            s = (a22 * b1 - a12 * b2) * inv
+            m = (a11 * b2 - a12 * b1) * inv
+            g = 0.0
+            dof = self.nb - 2.0
+            ssr = self.cyy - s * b1 - m * self.cxy
+        if lk < 0.0:
+            m = 0.0
+            ssr = self.cyy - s * b1 - (g * b3 if self.heater else 0.0)
+        # residual variance per reading: weighted SSR over the effective blocks
+        s2r = ssr / dof if dof > 1.0 else s2
+        if s2r < s2:
+            s2r = s2
+        scale = s2r * self.w2 / self.w * inv
+        if not (_ok(s) and _ok(m) and _ok(g) and _ok(scale)):
+            return False
+        # (a failed solve above leaves the previous solution in place)
+        self.s = s
+        self.k = -m
+        self.g = g
+        # covariance of (s, k, g): k = -m flips the sign of its cross terms
+        self.pss = c11 * scale
+        if lk >= 0.0:
+            self.psk = -c12 * scale
+            self.pkk = c22 * scale
+        else:
+            self.psk = self.pkk = 0.0  # pinned: no spread
+        if self.heater:
+            self.psg = c13 * scale
+            self.pkg = -c23 * scale
+            self.pgg = c33 * scale
+        self.var_my = s2r * self.w2 / (self.w * self.w)
+        self.ok = True
+        return True
+
+    def level(self):
+        """Fitted temperature at the latest block's reading, deg C (before the anchor)."""
+        lv = self.my + self.s * self.t - self.k * self.x
+        if self.heater:
+            lv += self.g * self.v
+        return lv
+
+    def var_level(self):
+        """Variance of :meth:`level`, deg C^2."""
+        t = self.t
+        x = -self.x   # d level / d k
+        var = self.var_my + t * t * self.pss + x * x * self.pkk + 2.0 * t * x * self.psk
+        if self.heater:
+            v = self.v
+            var += v * v * self.pgg + 2.0 * (t * v * self.psg + x * v * self.pkg)
+        return var
+
+    def pack_into(self, buf, offset):
+        for i in range(self._saved):
+            struct.pack_into("<d", buf, offset, getattr(self, self._NAMES[i]))
+            offset += 8
+
+    def unpack_from(self, buf, offset):
+        """Load the state; False when a value is impossible (the caller resets)."""
+        for i in range(self._saved):
+            v = struct.unpack_from("<d", buf, offset + 8 * i)[0]
+            if not -1e15 <= v <= 1e15:  # (NaN fails too)
+                return False
+        for i in range(self._saved):
+            setattr(self, self._NAMES[i], struct.unpack_from("<d", buf, offset)[0])
+            offset += 8
+        return (self.w >= 0.0 and self.w2 >= 0.0 and self.nb >= 0.0 and self.ctt >= 0.0
+                and self.cxx >= 0.0 and self.cuu >= 0.0 and self.cyy >= 0.0)
+
+
+def _ok(x):
+    return x == x and -1e300 < x < 1e300
+
+
+def to_counts(temp_c):
+    """A temperature as counts of 1/SCALE deg C (int), rounded to nearest."""
+    return int(math.floor(temp_c * SCALE + 0.5))
