@@ -15,6 +15,7 @@ import pytest
 from scipy.optimize import least_squares
 
 from test_estimator import check_precision
+from tinytherm import estimator as estimator_module
 from tinytherm.estimator import ThermalEstimator
 
 K_TRUE = 1.0 / 1200.0
@@ -33,11 +34,24 @@ def synthetic(seed):
     return t, clean + rng.normal(0.0, NOISE, t.size)
 
 
-def run_estimator(y, **kwargs):
-    est = ThermalEstimator(memory_s=1e7, memory_fraction=10.0, **kwargs)  # ~no forgetting: batch-like
-    for i, v in enumerate(y):
-        est.update(float(v), 0.0 if i == 0 else DT)
-    est.predict(30.0)
+def run_estimator(y, constants=(), **kwargs):
+    """Run the estimator made batch-like (about no forgetting) by its module constants.
+
+    ``constants``: further (NAME, value) pairs of tinytherm.estimator to set
+    for this run (the ambient hint's sd); all are put back afterwards.
+    """
+    changes = (("MEMORY_FRACTION", 10.0), ("MAX_MEMORY_S", 1e7)) + tuple(constants)
+    saved = [(name, getattr(estimator_module, name)) for name, _ in changes]
+    try:
+        for name, value in changes:
+            setattr(estimator_module, name, value)
+        est = ThermalEstimator(**kwargs)
+        for i, v in enumerate(y):
+            est.update(float(v), 0.0 if i == 0 else DT)
+        est.predict(30.0)
+    finally:
+        for name, value in saved:
+            setattr(estimator_module, name, value)
     return est
 
 
@@ -65,9 +79,11 @@ def test_rate_spread_near_cramer_rao_bound(known_ambient):
     for seed in seeds:
         _, y = synthetic(seed)
         # a known ambient pins the equilibrium only when told it is exact
-        kwargs = ({"ambient_c": AMBIENT, "ambient_sd_c": 1e-3} if known_ambient
-                  else {"ambient_prior_sd_c": 50.0})
-        ks.append(run_estimator(y, **kwargs).rate_per_s)
+        if known_ambient:
+            est = run_estimator(y, (("KNOWN_AMBIENT_SD_C", 1e-3),), ambient_c=AMBIENT)
+        else:
+            est = run_estimator(y, (("AMBIENT_PRIOR_SD_C", 50.0),))
+        ks.append(est.rate_per_s)
     t, _ = synthetic(0)
     if known_ambient:
         # R known: the bound of the 2-parameter model (T0, k)
@@ -99,7 +115,7 @@ def test_rate_spread_near_cramer_rao_bound(known_ambient):
 def test_agrees_with_scipy_least_squares():
     for seed in (3, 11, 29):
         t, y = synthetic(seed)
-        est = run_estimator(y, ambient_prior_sd_c=50.0)
+        est = run_estimator(y, (("AMBIENT_PRIOR_SD_C", 50.0),))
 
         def resid(p):
             return p[2] + (p[0] - p[2]) * np.exp(-p[1] * t) - y

@@ -138,7 +138,8 @@ class Audits:
         for a in self.a:
             age, level, slope, rate, var, n = struct.unpack_from("<5dB", buf, offset)
             offset += 41
-            if not (-1.0 <= age <= age_s and 0.0 <= var <= 100.0 and n <= AUDIT_MEMORY
+            # (a float32 device rounds the age: allow a few ulps beyond the fit's)
+            if not (-1.0 <= age <= age_s * 1.000001 + 0.001 and 0.0 <= var <= 100.0 and n <= AUDIT_MEMORY
                     and -1e6 < level < 1e6 and -1e6 < slope < 1e6 and -1e6 < rate < 1e6):
                 return False
             a.age, a.level, a.slope, a.rate, a.var, a.n = age, level, slope, rate, var, n

@@ -66,6 +66,7 @@ DETECT_MIN_BLOCKS = 5     # blocks before the change detector listens
 ANCHOR_GAIN = 0.5         # weight of the newest block residual in the anchor
 MISMATCH_C = 0.03         # deg C: model-mismatch allowance of a block innovation
 MAX_REL_SD = 5.0          # an answer whose ln-time sd exceeds this stays SETTLING
+MAX_GAP_S = 900.0         # s: a longer gap is counted as a long gap (the guard's counts)
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
 PROFILE_HEATER_MISMATCH = 100  # profile_reason: a profile for the other heater mode
 PROFILE_REJECTED = 101    # profile_reason: dropped, its forecasts failed on this liquid
@@ -78,8 +79,8 @@ _IV_TO_S = 1.0 / (1000 * 1024)    # duty-count ms -> s at full duty
 _ARRIVE_MIN_MS = int(ARRIVE_MIN_S * 1000)
 _RISE_ARRIVE_MIN_MS = int(RISE_ARRIVE_MIN_S * 1000)
 _NAN = math.nan
-_HEAD = "<IHHBBddd"        # readings, changes, turns, flags, profile reason, anchor, extreme,
-_HEAD_SIZE = 34            # and the mean of a block whose second half is pending
+_HEAD = "<IHHBBdd"         # readings, changes, turns, flags, profile reason, anchor, extreme
+_HEAD_SIZE = 26
 
 
 def normal_quantile(p):
@@ -138,6 +139,10 @@ class ThermalEstimator:
             raise ValueError("interval must be a probability in [0.01, 0.999]")
         if probe_codes is not True and probe_codes is not False:
             raise ValueError("probe_codes must be True or False")
+        if not number(quantum_c, 1e-6, 10.0):
+            raise ValueError("quantum_c must be in [1e-6, 10] deg C")
+        if not number(restart_gap_s, 1.0, 5e5):
+            raise ValueError("restart_gap_s must be in [1, 5e5] seconds")
         self.heater = heater
         self.profile_reason = 0
         self._profile = None
@@ -146,6 +151,7 @@ class ThermalEstimator:
         # the guard checks its own settings (ValueError naming them)
         self.guard = ReadingGuard(min_c=min_temp_c, max_c=max_temp_c, quantum_c=quantum_c,
                                   spike_window=spike_window, restart_gap_s=restart_gap_s,
+                                  max_gap_s=MAX_GAP_S if MAX_GAP_S < restart_gap_s else restart_gap_s,
                                   probe_codes=probe_codes)
         self.detector = ChangeDetector(jump_z=12.0)
         self.inputs = Inputs(ambient_c)
@@ -264,6 +270,10 @@ class ThermalEstimator:
         uc = self.inputs.duty_counts(duty) if self.heater else 0
         b = self.blocks
         try:
+            # a closed block's work is spread over the readings after it, one
+            # step each, done before the reading is added (it does not depend on it)
+            if self._pending:
+                self._next_step()
             if self._fresh or self.guard.gap == GAP_RESTART:
                 self._restart_fit()
                 self._first(c, self.inputs.reference(ambient_c, 0, True), uc)
@@ -274,13 +284,9 @@ class ThermalEstimator:
                     self.audits.clear()  # the forecasts assumed the old duty
                 b.add(c, rc, uc, dt_ms, self.noise.expectation(self._slope, dt_ms),
                       self.noise.clip)
-                # a block's work is spread over the readings after it, one step
-                # each (all of it when the next block is due already: sparse readings)
-                if self._pending:
-                    self._next_step()
-                    while self._pending and b.due(_BLOCK_MS):
-                        self._next_step()
-                if not self._pending and b.due(_BLOCK_MS):
+                if b.due(_BLOCK_MS):
+                    while self._pending:
+                        self._next_step()  # (sparse readings: a block per reading)
                     self._close_block()
         except (ValueError, OverflowError, ZeroDivisionError):
             # arithmetic at the edge of the float range: never raise; start again here
@@ -376,7 +382,7 @@ class ThermalEstimator:
             self._var_mismatch = 4.0 * reg.var_my + MISMATCH_C * MISMATCH_C
             if reg.nb >= DETECT_MIN_BLOCKS:
                 self._disturbed = False  # established again after a jump
-                if self.audits.any_due(b.age_ms * 0.001):
+                if self.audits.any_due((b.age_ms - b.it) * 0.001):
                     self._pending = 2  # the audits with the next reading
         else:
             self._slope = 0.0
@@ -475,7 +481,7 @@ class ThermalEstimator:
             reg.solve(s2, -1.0, 0.0, 0.0, 0.0, lg, gp)  # accelerating: the exact line
 
     def _audit(self):
-        age = self.blocks.age_ms * 0.001
+        age = (self.blocks.age_ms - self.blocks.it) * 0.001  # at the block close
         need = 4.0 * math.sqrt(self.reg.var_level()) + 0.5 * self.guard.quantum_c
         for a in self.audits.a:
             a.check(self, age, self._level, self._slope, self.reg.k, need)
@@ -699,14 +705,16 @@ class ThermalEstimator:
         ``bytes(...)``. Every value is stored exactly; the guard's per-reason
         counts and ``rejected`` count since the last restore.
         """
+        while self._pending:
+            self._next_step()  # (as the next reading would: the blob holds no half-done block)
         buf = self._blob_buf
         o = bl.PAYLOAD_OFFSET
         flags = ((1 if self._fresh else 0) | (2 if self._disturbed else 0)
                  | (4 if self._profile_on else 0) | ((self._dir + 1) << 3)
-                 | (32 if self._known else 0) | (self._pending << 6))
+                 | (32 if self._known else 0))
         struct.pack_into(_HEAD, buf, o, self.readings & 0xFFFFFFFF, self.changes & 0xFFFF,
                          self.turns & 0xFFFF, flags, self.profile_reason, self._anchor,
-                         self._ext, self._yb)
+                         self._ext)
         o += _HEAD_SIZE
         for part in self._parts():
             part.pack_into(buf, o)
@@ -737,11 +745,11 @@ class ThermalEstimator:
 
     def _unpack(self, blob):
         o = bl.PAYLOAD_OFFSET
-        readings, changes, turns, flags, reason, anchor, ext, yb = struct.unpack_from(_HEAD, blob, o)
+        readings, changes, turns, flags, reason, anchor, ext = struct.unpack_from(_HEAD, blob, o)
         o += _HEAD_SIZE
         direction = ((flags >> 3) & 3) - 1
-        if flags >> 6 == 3 or direction > 1 or (flags & 4 and self._profile is None) \
-                or not (-1e6 < anchor < 1e6 and -1e6 < ext < 1e6 and -1e6 < yb < 1e6):
+        if flags & 0xC0 or direction > 1 or (flags & 4 and self._profile is None) \
+                or not (-1e6 < anchor < 1e6 and -1e6 < ext < 1e6):
             return bl.BLOB_VALUES
         self.reset()
         for part in self._parts():
@@ -765,12 +773,8 @@ class ThermalEstimator:
         self._dir = direction
         self._anchor = anchor
         self._ext = ext
-        self._yb = yb
         self._known = bool(flags & 32)
-        self._pending = flags >> 6
         self._gen = 1
-        if self._pending == 1:
-            return bl.RESTORED  # the next call finishes the block, as it would have
         # the solution and what follows from it are derived: as at the last block close
         self._solve(self._known)
         reg = self.reg

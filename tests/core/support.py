@@ -45,9 +45,9 @@ def round_instance_floats(obj, rounder, skip=()):
         elif isinstance(v, tuple):
             for item in v:
                 if hasattr(item, "__dict__"):
-                    round_instance_floats(item, rounder)
+                    round_instance_floats(item, rounder, skip)
         elif hasattr(v, "__dict__") and not isinstance(v, type):
-            round_instance_floats(v, rounder)
+            round_instance_floats(v, rounder, skip)
 
 
 def close(a, b, rel=1e-9, abs_tol=0.0):

@@ -139,8 +139,8 @@ def test_bad_readings_rejected_and_counted():
 
 
 def test_constructor_rejects_bad_settings():
-    for kwargs in ({"memory_s": 0.0}, {"block_s": -1.0}, {"interval": 1.0},
-                   {"ambient_prior_sd_c": 0.0}, {"min_temp_c": 10.0, "max_temp_c": 0.0}):
+    for kwargs in ({"restart_gap_s": 0.0}, {"quantum_c": -1.0}, {"interval": 1.0},
+                   {"ambient_prior_c": math.nan}, {"min_temp_c": 10.0, "max_temp_c": 0.0}):
         try:
             ThermalEstimator(**kwargs)
             raised = False
