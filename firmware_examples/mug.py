@@ -1,10 +1,10 @@
 """A battery mug that tells you when your drink is cool enough.
 
 Every WAKE_EVERY_S seconds the board wakes from deep sleep, restores the
-estimator from its 480-byte state blob in RTC memory, reads the NTC under the
-mug's floor, updates the estimator with the time slept, shows "drinkable in
-about 3 min" (or "levelling off at 31 C" when the drink will never get there),
-saves the blob back into RTC memory, and goes back to sleep.
+estimator from its 512-byte state blob in RTC memory, reads the NTC under the
+mug's floor, updates the estimator with the time slept, saves the blob back
+into RTC memory, shows "drinkable in about 3 min" (or "levelling off at 31 C"
+when the drink will never get there), and goes back to sleep.
 
 CAUTION: hot drinks scald. DRINKABLE_C is a comfort setting, not a safety
 limit; the estimate can be wrong (a top-up, a lid, a sensor that is not in
@@ -15,7 +15,7 @@ Copy board.py and this file to the board, install tinytherm (see README,
 "On the device"), and call ``mug.main()`` from main.py.
 
 State across deep sleep: RTC memory holds exactly what ``est.save()`` returns
-(``tinytherm.blob.BLOB_SIZE`` = 480 bytes, CRC-checked). After a power-on, or
+(``tinytherm.blob.BLOB_SIZE`` = 512 bytes, CRC-checked). After a power-on, or
 when the blob is truncated, corrupted or from other settings, ``restore()``
 leaves a fresh estimator and the mug starts learning again; it never crashes
 on what it finds in RTC memory.
@@ -104,11 +104,13 @@ def main():
     # restore it is the time since the reading saved before the sleep.
     slept_s = float(WAKE_EVERY_S) + WAKE_OVERHEAD_S
     est.update(NO_READING_C if temp_c is None else temp_c, slept_s)
-    est.predict(DRINKABLE_C)
+    # save right after the reading (a reset while showing loses nothing); the
+    # answer below is then exactly what a restore of this blob would answer
+    board.rtc_save(est.save())
+    est.predict(DRINKABLE_C, -1)  # a drink cools to its drinking temperature
     if temp_c is None:
         board.show("check the sensor")
     else:
         board.show(message(est, temp_c))
     print(log_line(board.wall_clock_s(), temp_c, est, restore_code))
-    board.rtc_save(est.save())
     board.deep_sleep_ms(WAKE_EVERY_S * 1000)

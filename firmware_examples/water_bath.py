@@ -97,7 +97,7 @@ def main():
           "independent thermal cut-out.")
     adc = board.ntc_adc()
     relay = board.relay()
-    est = ThermalEstimator(heater=True, ambient_prior_c=ROOM_C, memory_s=900.0)
+    est = ThermalEstimator(heater=True, ambient_prior_c=ROOM_C)
     plan = make_planner()
     phase = WAITING
     start_at_s = None

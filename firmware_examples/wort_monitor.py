@@ -21,7 +21,6 @@ from tinytherm.estimator import ThermalEstimator
 PITCH_C = 20.0          # pitching temperature, deg C (your yeast's range)
 CELLAR_C = 15.0         # rough room temperature around the fermenter, deg C
 SAMPLE_S = 60           # seconds between readings
-BLOCK_S = 300.0         # estimator block length, seconds (5 readings)
 REPORT_EVERY = 10       # print a report every this many readings
 PROBE_LAG_S = 90.0      # thermowell time constant, seconds (0 = no compensation)
 SETTLE_PROBE_MS = int(max(3.0 * PROBE_LAG_S, 60.0) * 1000)  # readings ignored after start
@@ -67,10 +66,10 @@ def main():
     if rom is None:
         print("no 1-Wire sensor found on pin %d" % board.ONEWIRE_PIN)
         return
-    # A fermenter changes over hours: long memory and long averaging blocks; the cellar or
-    # brew room is known to within a few degrees.
-    est = ThermalEstimator(ambient_prior_c=CELLAR_C, ambient_prior_sd_c=4.0, memory_s=10800.0,
-                           block_s=BLOCK_S, settle_s=600.0, rate_prior_per_s=1.0 / 14400.0)
+    # The cellar or brew room is the usual ambient; the probe is a 1-Wire one
+    # (its -127.0 and 85.0 codes are rejected). The estimator's memory follows
+    # the fit's age, so the hours a fermenter takes need no setting.
+    est = ThermalEstimator(ambient_prior_c=CELLAR_C, probe_codes=True)
     comp = sensors.LagCompensator(PROBE_LAG_S) if PROBE_LAG_S > 0.0 else None
     crc_errors = [0]
     skipped = 0

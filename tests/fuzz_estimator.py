@@ -26,7 +26,7 @@ from tinytherm.estimator import ThermalEstimator  # noqa: E402
 INF = float("inf")
 NAN = float("nan")
 MODES = ({}, {"ambient_c": 21.0}, {"heater": True}, {"heater": True, "ambient_c": 18.0},
-         {"spike_window": 5, "quantum_c": 0.5}, {"detect_changes": False, "block_s": 0.0})
+         {"spike_window": 5, "quantum_c": 0.5}, {"spike_window": 0, "probe_codes": True})
 JUNK = (NAN, INF, -INF, None, "20", [1.0], True, 10 ** 40, 10 ** 400, -10 ** 400, 1e308,
         -1e308, 5e-324, -0.0)
 FIELDS = ("eta_s", "eta_low_s", "eta_high_s", "rate_per_s", "equilibrium_c", "ambient_est_c",

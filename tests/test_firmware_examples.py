@@ -105,10 +105,10 @@ def test_mug_deep_sleep_cycle_matches_truth(tmp_path):
     # one wake every 20 s, each a fresh program: the answers need RTC memory
     assert len(logs) >= 65
     assert len(shown) == len(logs)
-    # RTC memory holds the estimator's state blob and nothing else: 480 bytes
+    # RTC memory holds the estimator's state blob and nothing else: 512 bytes
     payloads = read_rtc_log(cfg["rtc_log"])
     assert len(payloads) == len(logs)
-    assert {len(p) for p in payloads} == {480}
+    assert {len(p) for p in payloads} == {512}
     # the state really crossed every sleep: restored each wake, one more reading each time
     assert logs[0]["restore"] == "blob_length" and logs[0]["readings"] == "1"
     for i, row in enumerate(logs[1:], 2):
@@ -171,7 +171,7 @@ def test_mug_corrupted_rtc_memory_starts_afresh(tmp_path):
     out = run_example("mug", cfg, tmp_path)
     logs = parse_logs(out)
     assert len(logs) == 1000 // 20 + 1  # no wake lost to a crash
-    assert {len(p) for p in read_rtc_log(cfg["rtc_log"])} == {480}
+    assert {len(p) for p in read_rtc_log(cfg["rtc_log"])} == {512}
     # wake n is logs[n] (logs[0] is the power-on)
     assert [logs[n]["restore"] for n in (8, 16, 24)] == ["blob_crc", "blob_length", "blob_magic"]
     arrival_s = math.log((MUG["start_c"] - MUG["ambient_c"]) / (60.0 - MUG["ambient_c"])) / \

@@ -108,7 +108,7 @@ def test_sealed_payload_garbage_never_raises(index, value):
         est.update(21.0 + 50.0 * math.exp(-t / 900.0), 0.0 if i == 0 else 2.0)
         t += 2.0
     frame = bytearray(est.save())
-    if 4 <= index < bl.CRC_OFFSET:
+    if bl.PAYLOAD_OFFSET <= index < bl.CRC_OFFSET:
         frame[index] = value
     code = ThermalEstimator().restore(bytes(bl.seal(frame)))
     assert code in (bl.RESTORED, bl.BLOB_VALUES)

@@ -23,7 +23,8 @@ INF = math.inf
 
 
 class Answer:
-    """What ``predict`` tells the product (all ``None`` when unknown).
+    """What ``predict`` tells the product (all ``None`` when unknown); the
+    estimator carries these fields itself (it derives from this class).
 
     ``status`` (a :mod:`tinytherm.status` code), ``eta_s``, ``eta_low_s``,
     ``eta_high_s`` (seconds after the latest reading; ``eta_high_s`` may be
@@ -36,18 +37,14 @@ class Answer:
     which it becomes an arrival.
     """
 
-    def __init__(self):
-        self.clear(st.GATHERING)
-        self.forget()
-
     def forget(self):
         """Invalidate the cache (the next ``predict`` works the answer out)."""
-        self.gen = -1
-        self.target = None
-        self.approach = 0
-        self.age_ms = 0
-        self.arrive_dir = 0    # +1 / -1: arrival once the reading is >= / <= arrive_c
-        self.arrive_c = 0      # counts
+        self._for_gen = -1
+        self._for_target = None
+        self._for_approach = 0
+        self._for_age_ms = 0
+        self._arrive_dir = 0    # +1 / -1: arrival once the reading is >= / <= arrive_c
+        self._arrive_c = 0      # counts
 
     def clear(self, code):
         self.status = code
@@ -67,14 +64,6 @@ class Answer:
         self.eta_low_s = 0.0
         self.eta_high_s = 0.0
 
-    def arrival_flips(self, reading_c):
-        """True when the reading (counts) has moved across the arrival line since."""
-        d = self.arrive_dir
-        if d == 0:
-            return self.status == st.ARRIVED
-        now = reading_c >= self.arrive_c if d > 0 else reading_c <= self.arrive_c
-        return now != (self.status == st.ARRIVED)
-
     def count_down(self, age_ms, force=False):
         """Move the cached times on to a fit ``age_ms`` old.
 
@@ -83,7 +72,7 @@ class Answer:
         """
         if self.eta_s is None or self.status == st.ARRIVED:
             return True
-        el = (age_ms - self.age_ms) * 0.001
+        el = (age_ms - self._for_age_ms) * 0.001
         if el <= 0.0:
             return True
         eta = self.eta_s - el
@@ -95,7 +84,7 @@ class Answer:
         low = self.eta_low_s - el
         self.eta_low_s = low if low > 0.0 else 0.0
         self.eta_high_s -= el
-        self.age_ms = age_ms
+        self._for_age_ms = age_ms
         return True
 
 

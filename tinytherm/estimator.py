@@ -101,7 +101,7 @@ def normal_quantile(p):
     return -z if p < 0.5 else z
 
 
-class ThermalEstimator:
+class ThermalEstimator(Answer):
     """Feed readings in, ask how long until a target temperature.
 
     Arguments (all optional; each is range-checked, ValueError names it):
@@ -159,7 +159,6 @@ class ThermalEstimator:
         self.blocks = BlockSums()
         self.reg = Regression(heater)
         self.audits = Audits()
-        self.answer = Answer()
         self._prior_r = float(ambient_prior_c)
         self.interval = float(interval)
         self._z = normal_quantile(0.5 + 0.5 * self.interval)
@@ -214,13 +213,13 @@ class ThermalEstimator:
         self._anchor = 0.0          # smoothed residual of the latest blocks, deg C
         self._level = 0.0           # fitted level and slope at the latest block close
         self._slope = 0.0
-        self._gen = 0               # blocks finished: the answer's cache key
+        self._blocks_done = 0               # blocks finished: the answer's cache key
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
         self._yb = 0.0              # that block's mean reading, deg C
         self._var_mismatch = 0.0    # 4 var(level) + MISMATCH_C^2 of the latest solve, deg C^2
         self._known = False         # an ambient was known at the latest solve
-        self.answer.forget()
-        self.answer.clear(st.GATHERING)
+        self.forget()
+        self.clear(st.GATHERING)
 
     # ---------------------------------------------------------------- readings
     def update(self, temp_c, dt_s, ambient_c=None, duty=0.0):
@@ -367,7 +366,7 @@ class ThermalEstimator:
         self._pending = 0
         reg = self.reg
         b = self.blocks
-        self._gen += 1
+        self._blocks_done += 1
         self._solve(self._known)
         yb = self._yb
         if reg.ok:
@@ -513,7 +512,7 @@ class ThermalEstimator:
         ``temp_est_c`` (deg C) and ``gain_k_per_s`` (K/s). Reading the
         answer changes nothing in the fit. Never raises.
         """
-        ans = self.answer
+        ans = self
         target = as_float(target_c)
         if approach != 1 and approach != -1:
             approach = 0  # (a bad value: as if not given, never an exception)
@@ -523,11 +522,11 @@ class ThermalEstimator:
             return ans.status
         b = self.blocks
         age = b.age_ms
-        if ans.gen == self._gen and ans.target == target and ans.approach == approach:
+        if ans._for_gen == self._blocks_done and ans._for_target == target and ans._for_approach == approach:
             # the same block and question: count the answer down, unless the
             # latest reading has reached the arrival line
-            m = ans.arrive_dir
-            reached = m != 0 and (b.c >= ans.arrive_c if m > 0 else b.c <= ans.arrive_c)
+            m = ans._arrive_dir
+            reached = m != 0 and (b.c >= ans._arrive_c if m > 0 else b.c <= ans._arrive_c)
             if ans.status == st.ARRIVED:
                 if reached:
                     return ans.status
@@ -540,22 +539,22 @@ class ThermalEstimator:
             self._work_out(target, approach)
         except (ValueError, OverflowError, ZeroDivisionError, TypeError):
             ans.clear(st.SETTLING)
-            ans.arrive_dir = 0
+            ans._arrive_dir = 0
         if self._disturbed and (ans.status == st.SETTLING or ans.status == st.GATHERING):
             ans.status = st.DISTURBED  # re-learning after a jump
-        ans.gen = self._gen
-        ans.target = target
-        ans.approach = approach
+        ans._for_gen = self._blocks_done
+        ans._for_target = target
+        ans._for_approach = approach
         ans.count_down(age, True)
         return ans.status
 
     def _work_out(self, target, approach):
         """The full answer for the latest block close (cached by ``predict``)."""
-        ans = self.answer
+        ans = self
         reg = self.reg
         b = self.blocks
-        ans.age_ms = b.age_ms - b.it  # the answer is for the block close
-        ans.arrive_dir = 0
+        ans._for_age_ms = b.age_ms - b.it  # the answer is for the block close
+        ans._arrive_dir = 0
         if b.readings < 3 or not reg.ok or target is None or not -1e4 <= target <= 1e4:
             ans.clear(st.GATHERING)
             if self.readings and not self._fresh:
@@ -597,9 +596,9 @@ class ThermalEstimator:
             tol = 3.0 * self.noise.sd
             if tol > ARRIVE_TOL_C:
                 tol = ARRIVE_TOL_C
-            ans.arrive_dir = m
-            ans.arrive_c = to_counts(target - m * tol)
-            if (b.c - ans.arrive_c) * m >= 0 and self._arrived(target, m, approach, b.age_ms):
+            ans._arrive_dir = m
+            ans._arrive_c = to_counts(target - m * tol)
+            if (b.c - ans._arrive_c) * m >= 0 and self._arrived(target, m, approach, b.age_ms):
                 ans.arrive()
                 return
         if gap * d <= 0.0:
@@ -684,18 +683,6 @@ class ThermalEstimator:
             return None
         return t * prof.rate_at(d0) * d0 / -slope_c_per_s
 
-    # answer fields, read-only (see predict)
-    status = property(lambda self: self.answer.status)
-    eta_s = property(lambda self: self.answer.eta_s)
-    eta_low_s = property(lambda self: self.answer.eta_low_s)
-    eta_high_s = property(lambda self: self.answer.eta_high_s)
-    eta_rel_sd = property(lambda self: self.answer.eta_rel_sd)
-    rate_per_s = property(lambda self: self.answer.rate_per_s)
-    equilibrium_c = property(lambda self: self.answer.equilibrium_c)
-    ambient_est_c = property(lambda self: self.answer.ambient_est_c)
-    temp_est_c = property(lambda self: self.answer.temp_est_c)
-    gain_k_per_s = property(lambda self: self.answer.gain_k_per_s)
-
     # ------------------------------------------------------------ save/restore
     def save(self):
         """The whole state as a blob of ``tinytherm.blob.BLOB_SIZE`` bytes.
@@ -774,7 +761,7 @@ class ThermalEstimator:
         self._anchor = anchor
         self._ext = ext
         self._known = bool(flags & 32)
-        self._gen = 1
+        self._blocks_done = 1
         # the solution and what follows from it are derived: as at the last block close
         self._solve(self._known)
         reg = self.reg

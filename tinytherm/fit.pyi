@@ -1,0 +1,125 @@
+from typing import Optional, Union
+
+Buffer = Union[bytes, bytearray, memoryview]
+
+SCALE: int
+DUTY_SCALE: int
+MAX_BLOCK_READINGS: int
+NOISE_MAX_DT_MS: int
+NOISE_PRIOR_C: float
+NOISE_PRIOR_N: int
+AMBIENT_SMOOTH_S: float
+
+class BlockSums:
+    STATE_SIZE: int
+    n: int
+    it: int
+    ix: int
+    iv: int
+    st: int
+    sx: int
+    sv: int
+    sy: int
+    c: int
+    rc: int
+    uc: int
+    g0: int
+    u0: int
+    cb: int
+    age_ms: int
+    readings: int
+    e1: int
+    e2: int
+    en: int
+    def __init__(self) -> None: ...
+    def reset(self) -> None: ...
+    def first(self, c: int, rc: int, uc: int) -> None: ...
+    def add(self, c: int, rc: int, uc: int, dt_ms: int, expect: int, clip: int) -> None: ...
+    def due(self, block_ms: int) -> bool: ...
+    def noise_var(self) -> float: ...
+    def next_block(self) -> None: ...
+    def pack_into(self, buf: bytearray, offset: int) -> None: ...
+    def unpack_from(self, buf: Buffer, offset: int) -> bool: ...
+
+class Noise:
+    STATE_SIZE: int
+    floor: float
+    var: float
+    n: int
+    sd: float
+    clip: int
+    expect: int
+    expect_ms: int
+    def __init__(self, quantum_c: float) -> None: ...
+    def reset(self) -> None: ...
+    def refresh(self) -> None: ...
+    def expectation(self, rate_c_per_s: float, dt_ms: int) -> int: ...
+    def learn(self, blocks: BlockSums) -> None: ...
+    def pack_into(self, buf: bytearray, offset: int) -> None: ...
+    def unpack_from(self, buf: Buffer, offset: int) -> bool: ...
+
+class Inputs:
+    STATE_SIZE: int
+    fixed: Optional[int]
+    measured: bool
+    fine: int
+    alpha_ms: int
+    alpha: int
+    duty: float
+    duty_c: int
+    def __init__(self, fixed_c: Optional[float]) -> None: ...
+    def reset(self) -> None: ...
+    def known(self) -> bool: ...
+    def reference(self, ambient_c: Optional[float], dt_ms: int, restart: bool) -> int: ...
+    def duty_counts(self, duty: float) -> int: ...
+    def pack_into(self, buf: bytearray, offset: int) -> None: ...
+    def unpack_from(self, buf: Buffer, offset: int) -> bool: ...
+
+class Regression:
+    STATE_SIZE: int
+    heater: bool
+    ok: bool
+    w: float
+    w2: float
+    nb: float
+    my: float
+    ctt: float
+    ctx: float
+    cty: float
+    cxx: float
+    cxy: float
+    cyy: float
+    ctu: float
+    cxu: float
+    cuu: float
+    cuy: float
+    t: float
+    x: float
+    v: float
+    rt: float
+    rx: float
+    rv: float
+    s: float
+    k: float
+    g: float
+    pss: float
+    psk: float
+    pkk: float
+    psg: float
+    pkg: float
+    pgg: float
+    var_my: float
+    def __init__(self, heater: bool) -> None: ...
+    def reset(self) -> None: ...
+    def clear(self) -> None: ...
+    def add_block(self, n: int, tb: float, xb: float, vb: float, yb: float, lam: float,
+                  t_end: float, x_end: float, v_end: float, dg: float, du: float) -> None: ...
+    def slope_loose(self, lk: float, kp: float) -> Optional[float]: ...
+    def solve(self, s2: float, lk: float, kp: float, lh: float, dist: float, lg: float,
+              gp: float) -> bool: ...
+    def level(self) -> float: ...
+    def var_level(self) -> float: ...
+    def pack_into(self, buf: bytearray, offset: int) -> None: ...
+    def unpack_from(self, buf: Buffer, offset: int) -> bool: ...
+
+def to_counts(temp_c: float) -> int: ...
