@@ -2,7 +2,8 @@
 
 Shared by the property tests (tests/test_profile_properties.py, hypothesis) and
 the coverage-guided fuzz target (tests/fuzz_profile.py, atheris). Each check
-returns None when the promise held, or a short text naming what broke:
+returns a pair whose first item is None when the promise held, or a short
+text naming what broke:
 
 - ``from_blob(x)`` never raises, for any object; it returns ``(profile,
   REASON_OK)`` or ``(None, code)`` with one of the ``REASON_*`` failure codes;
@@ -31,7 +32,7 @@ def _as_bytes(blob):
 
 
 def check_blob(blob):
-    """None, or a finding about ``VesselProfile.from_blob(blob)``; returns (finding, code)."""
+    """(finding or None, code): ``VesselProfile.from_blob(blob)`` judged, and its reason code."""
     try:
         prof, code = VesselProfile.from_blob(blob)
     except Exception as exc:  # noqa: BLE001 - the promise is: never
@@ -70,14 +71,14 @@ def _profile_finding(prof):
 
 
 def check_args(kw):
-    """None, or a finding about ``VesselProfile(**kw)``."""
+    """(finding or None, built): ``VesselProfile(**kw)`` judged; built is True if it returned."""
     try:
         prof = VesselProfile(**kw)
     except ValueError as exc:
         text = str(exc)
         if not any(name in text for name in ARG_NAMES):
-            return "ValueError names no argument: %r" % text[:80]
-        return None
+            return "ValueError names no argument: %r" % text[:80], False
+        return None, False
     except Exception as exc:  # noqa: BLE001 - anything but ValueError is a finding
-        return "constructor raised %s: %s" % (type(exc).__name__, str(exc)[:80])
-    return _profile_finding(prof)
+        return "constructor raised %s: %s" % (type(exc).__name__, str(exc)[:80]), False
+    return _profile_finding(prof), True

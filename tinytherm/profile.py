@@ -308,8 +308,8 @@ class VesselProfile:
         t = type(blob)
         if t is memoryview:
             # Read a view as the bytes it covers, whatever its item format: a view of
-            # 54 doubles is 432 bytes (its len() says 54). No view of more than
-            # PROFILE_SIZE bytes is copied.
+            # 54 doubles is 432 bytes (its len() says 54). A view of more than
+            # PROFILE_SIZE bytes (CPython) or items (MicroPython) is refused uncopied.
             try:
                 size = getattr(blob, "nbytes", None)   # CPython; MicroPython views are 1-D
                 if (len(blob) if size is None else size) > PROFILE_SIZE:

@@ -317,18 +317,14 @@ def test_constructor_rejects_non_numbers_with_a_value_error_naming_the_argument(
 
 
 def test_constructor_checks_the_quantile_tables_item_by_item():
-    good = (-0.1, -0.1, -0.1, -0.1)
-    for name in ("log_q_low", "log_q_high"):
+    tables = {"log_q_low": (-0.1, -0.1, -0.1, -0.1), "log_q_high": (0.5, 0.5, 0.5, 0.5)}
+    for name in tables:
         for bad in ((0.0, 0.0, 0.0), (0.0,) * 5, (), 0.1, "abcd", {0: 0.0, 1: 0.0, 2: 0.0, 3: 0.0},
                     b"\x00\x00\x00\x00", True, object()):
             _raises_naming({name: bad}, name)
         for item in (None, "0.1", float("nan"), float("inf"), 10 ** 400, True, [0.1], 31.0):
-            table = [0.0, 0.0, 0.0, item]
-            kw = {name: table, "log_q_high" if name == "log_q_low" else "log_q_low": good}
-            if name == "log_q_low":
-                kw["log_q_high"] = (0.5, 0.5, 0.5, 0.5)
-            else:
-                kw["log_q_low"] = good
+            kw = dict(tables)
+            kw[name] = [0.0, 0.0, 0.0, item]
             _raises_naming(kw, name)
     # lists and tuples both work, ints included
     p = VesselProfile(log_q_low=[-1, -0.5, 0, 0], log_q_high=(1, 0.5, 0, 0.25))
