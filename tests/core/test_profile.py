@@ -8,7 +8,13 @@ under MicroPython is read by CPython in tests/test_profile_runtimes.py).
 The closed form is checked here against its defining equation by a
 fine-step RK4 integration, and against scipy's solve_ivp in
 tests/test_host_calibrate.py.
+Hostile input, on both runtimes: ``from_blob`` never raises on a seeded loop
+of odd objects (memoryviews of every item size, random bytes with and without
+a valid CRC), and the constructor refuses junk arguments with a ValueError
+naming the argument. The hypothesis properties and the fuzz target for the
+same promises are tests/test_profile_properties.py and tests/fuzz_profile.py.
 """
+import array
 import math
 import struct
 
@@ -224,7 +230,6 @@ ARG_NAMES = ("heater", "rate_per_s", "rate_log_sd", "eq_offset_c", "eq_offset_sd
 
 def _odd_blobs():
     """Inputs to from_blob that are not a valid profile: (description, value)."""
-    import array
     good = bytes.fromhex(GOLDEN_HEX)
     out = [
         ("54 doubles", memoryview(array.array("d", [1] * 54))),
@@ -286,7 +291,6 @@ def test_from_blob_never_raises_on_odd_inputs():
 
 def test_from_blob_reads_the_bytes_of_a_view_of_any_item_size():
     # a view is read as the bytes it covers: 27 uint16 items holding a good blob is that blob
-    import array
     good = bytes.fromhex(GOLDEN_HEX)
     halves = array.array("H", good)          # raw bytes in, on both runtimes
     assert len(halves) == 27
