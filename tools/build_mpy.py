@@ -19,8 +19,16 @@ the heap the import takes on the unix ``micropython`` (``gc.mem_alloc()``
 after ``gc.collect()``), loading the .mpy files and, for comparison, the .py
 sources (compiled on the device).
 
-``--write-package-json`` rewrites package.json (for ``mip``) so that it lists
-every core module git tracks; ``--check-package-json`` exits 1 when it does not.
+Installable parts (``PARTS``): one package.json each, for ``mip``. The root
+package.json is the core every product needs (the estimator and what it
+imports); ``packages/<part>/package.json`` holds an optional part (profile,
+forecast, planner, sensors) together with the core modules it imports, so each
+installs on its own. Each lists exactly the module-level import closure of
+its entry module (``import_closure``), so a new module is listed as soon as
+something imports it. ``--write-package-json`` rewrites them all (urls
+relative to each file, or under ``--url-base``, e.g.
+``github:OWNER/REPO``, for a host that does not resolve ``..`` in a path);
+``--check-package-json`` exits 1 when one is out of date.
 """
 import argparse
 import json
@@ -32,6 +40,16 @@ import sys
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 PKG = os.path.join(ROOT, "tinytherm")
 PACKAGE_JSON = os.path.join(ROOT, "package.json")
+
+# Installable parts: (name, package.json path relative to ROOT, entry module).
+# The core comes first: every part builds on it.
+PARTS = (
+    ("core", "package.json", "estimator"),
+    ("profile", "packages/profile/package.json", "profile"),
+    ("forecast", "packages/forecast/package.json", "forecast"),
+    ("planner", "packages/planner/package.json", "planner"),
+    ("sensors", "packages/sensors/package.json", "sensors"),
+)
 
 
 def find_mpy_cross():
@@ -50,18 +68,6 @@ def core_sources():
     return sorted(f for f in os.listdir(PKG) if f.endswith(".py"))
 
 
-def packaged_sources():
-    """Core modules for package.json: the ones git tracks (so a module still being
-    written in the work tree is not listed before it is committed), else all."""
-    try:
-        proc = subprocess.run(["git", "ls-files", "tinytherm/*.py"], cwd=ROOT,
-                              capture_output=True, text=True)
-    except OSError:
-        return core_sources()
-    names = sorted(os.path.basename(p) for p in proc.stdout.split() if p.count("/") == 1)
-    return names if proc.returncode == 0 and names else core_sources()
-
-
 def read_version():
     """The project version from pyproject.toml (one source of truth)."""
     with open(os.path.join(ROOT, "pyproject.toml")) as fh:
@@ -72,10 +78,43 @@ def read_version():
     raise SystemExit("no version in pyproject.toml")
 
 
-def package_json_data():
-    """What package.json should hold: every core module, relative urls, the version."""
-    urls = [["tinytherm/" + f, "tinytherm/" + f] for f in packaged_sources()]
+def package_json_data(path, entry, url_base=None):
+    """What the package.json at ``path`` (relative to ROOT) should hold.
+
+    urls: the import closure of ``entry``, each relative to the file's folder
+    (``../../tinytherm/x.py`` for a part), or ``url_base + "/tinytherm/x.py"``.
+    """
+    folder = os.path.dirname(os.path.join(ROOT, path))
+    rel = os.path.relpath(PKG, folder).replace(os.sep, "/")
+    urls = []
+    for mod in import_closure(entry):
+        dest = "tinytherm/%s.py" % mod
+        src = url_base.rstrip("/") + "/" + dest if url_base else rel + "/" + mod + ".py"
+        urls.append([dest, src])
     return {"urls": urls, "deps": [], "version": read_version()}
+
+
+def part_owners():
+    """{module: [part names]} for every core module: the parts that own it.
+
+    The core owns what it lists; a part owns what it lists beyond the core
+    and beyond the parts whose entry it imports (the planner lists the
+    forecast's modules, which the forecast owns). A module that no part's
+    import closure reaches is owned by none.
+    """
+    closures = {name: set(import_closure(entry)) for name, _, entry in PARTS}
+    core = closures["core"]
+    owners = {f[:-3]: [] for f in core_sources()}
+    for name, _, entry in PARTS:
+        own = set(closures[name])
+        if name != "core":
+            own -= core
+            for other, _, other_entry in PARTS:
+                if other != name and other_entry in closures[name]:
+                    own -= closures[other]
+        for mod in own:
+            owners.setdefault(mod, []).append(name)
+    return owners
 
 
 def build(out_dir, opt_level=None, march=None, mpy_cross=None):
@@ -101,8 +140,7 @@ def build(out_dir, opt_level=None, march=None, mpy_cross=None):
 
 
 # What a product imports first, per installable part (see --measure).
-MEASURED_PARTS = (("core (estimator)", "estimator"), ("profile", "profile"),
-                  ("forecast", "forecast"), ("planner", "planner"), ("sensors", "sensors"))
+MEASURED_PARTS = tuple((name, entry) for name, _, entry in PARTS)
 
 
 def module_imports(name, root=ROOT):
@@ -182,9 +220,13 @@ def main(argv=None):
     ap.add_argument("--march", default=None,
                     help="native-code architecture passed to mpy-cross (bytecode only if unset)")
     ap.add_argument("--write-package-json", action="store_true",
-                    help="rewrite package.json to list every core module, then stop")
+                    help="rewrite the package.json of every part (PARTS), then stop")
     ap.add_argument("--check-package-json", action="store_true",
-                    help="exit 1 if package.json does not list every core module")
+                    help="exit 1 if a part's package.json is out of date or a module "
+                         "is in no part or in two")
+    ap.add_argument("--url-base", default=None,
+                    help="with --write/--check-package-json: absolute urls under this base "
+                         "(e.g. github:OWNER/REPO) instead of relative ones")
     ap.add_argument("--measure", action="store_true",
                     help="print .mpy bytes (-O3) and heap after import of each part, then stop")
     args = ap.parse_args(argv)
@@ -197,19 +239,34 @@ def main(argv=None):
         return 0
 
     if args.write_package_json:
-        with open(PACKAGE_JSON, "w") as fh:
-            json.dump(package_json_data(), fh, indent=2)
-            fh.write("\n")
-        print("wrote %s (%d modules)" % (PACKAGE_JSON, len(packaged_sources())))
+        for name, path, entry in PARTS:
+            full = os.path.join(ROOT, path)
+            os.makedirs(os.path.dirname(full), exist_ok=True)
+            data = package_json_data(path, entry, args.url_base)
+            with open(full, "w") as fh:
+                json.dump(data, fh, indent=2)
+                fh.write("\n")
+            print("wrote %s (%s: %d modules)" % (path, name, len(data["urls"])))
         return 0
     if args.check_package_json:
-        with open(PACKAGE_JSON) as fh:
-            have = json.load(fh)
-        want = package_json_data()
-        if have != want:
-            print("package.json is out of date: run tools/build_mpy.py --write-package-json")
+        stale = 0
+        for name, path, entry in PARTS:
+            try:
+                with open(os.path.join(ROOT, path)) as fh:
+                    have = json.load(fh)
+            except (OSError, ValueError):
+                have = None
+            if have != package_json_data(path, entry, args.url_base):
+                print("%s is out of date: run tools/build_mpy.py --write-package-json" % path)
+                stale += 1
+        unowned = sorted(m for m, who in part_owners().items() if len(who) != 1)
+        for mod in unowned:
+            print("tinytherm/%s.py belongs to %s: one part each (add it to PARTS or import it)"
+                  % (mod, part_owners()[mod] or "no part"))
+        if stale or unowned:
             return 1
-        print("package.json lists all %d core modules" % len(packaged_sources()))
+        print("%d package.json files up to date; every core module in exactly one part"
+              % len(PARTS))
         return 0
 
     rows = build(args.out, args.opt, args.march)
