@@ -46,6 +46,8 @@ def _real(x):
     The forecast's reading of an argument: :func:`tinytherm.num.as_float`,
     except that a bool is the number it converts to (1.0 or 0.0).
     """
+    if type(x) is float:
+        return x  # the usual case, first
     if x is True or x is False:
         return 1.0 if x else 0.0
     v = as_float(x)

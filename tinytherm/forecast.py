@@ -303,11 +303,13 @@ class Forecast:
             amb.cursor = solver.advance(amb.times_s, -1, amb.now_s, 0.0)
             if amb.cursor == -2:
                 return False
-        if heater.kind == PLAN_SCHEDULE:
+        kind = heater.kind
+        if kind == PLAN_SCHEDULE:
             heater.cursor = solver.advance(heater.times_s, -1, heater.now_s, 0.0)
             if heater.cursor == -2:
                 return False
-        heater.start_mode(start_c)
+        elif kind != PLAN_DUTY:
+            heater.start_mode(start_c)
         return True
 
     def _next_break(self, t):
@@ -364,8 +366,8 @@ class Forecast:
         solver.work = 0
         t = 0.0
         T = start_c
-        switching = heater.switching()
         boost = heater.kind == PLAN_BOOST_HOLD
+        switching = boost or heater.kind == PLAN_THERMOSTAT
         result = -1.0
         going = self._start(start_c)
         if not going:

@@ -110,10 +110,6 @@ class HeaterPlan:
         self.times_s = None
         self.duties = None
 
-    def switching(self):
-        """True for a plan whose duty changes when the liquid crosses a level."""
-        return self.kind == PLAN_THERMOSTAT or self.kind == PLAN_BOOST_HOLD
-
     def start_mode(self, start_c):
         """Set ``mode`` for a run starting at ``start_c`` (deg C; switching plans only)."""
         if self.kind == PLAN_THERMOSTAT:
