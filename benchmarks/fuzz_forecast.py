@@ -124,12 +124,12 @@ def fuzz_micropython(calls, seed):
     return figures, messages
 
 
-def load_commit(rev):
-    """(forecast, planner) modules of commit ``rev``, loaded from git without touching the tree.
+def export_commit(rev):
+    """Write commit ``rev``'s core to a temporary package; returns (folder, package name).
 
-    Every core module of that commit is written to a temporary package
-    ``tinytherm_at_<rev>`` (its ``tinytherm`` imports renamed), so a commit
-    from before or after a module split loads with its own parts.
+    Every core module of that commit goes to ``FOLDER/tinytherm_at_<rev>/``
+    with its ``tinytherm`` imports renamed, so a commit from before or after
+    a module split loads with its own parts, beside the working tree's core.
     """
     def show(path):
         return subprocess.run(["git", "show", "%s:%s" % (rev, path)], cwd=ROOT, check=True,
@@ -137,13 +137,19 @@ def load_commit(rev):
     names = subprocess.run(["git", "ls-tree", "--name-only", rev, "tinytherm/"], cwd=ROOT,
                            check=True, capture_output=True, text=True).stdout.split()
     alias = "tinytherm_at_" + re.sub(r"\W", "_", rev)
-    base = tempfile.mkdtemp(prefix="fuzz_forecast_commit-")
+    base = tempfile.mkdtemp(prefix="tinytherm_commit-")
     os.mkdir(os.path.join(base, alias))
     for path in names:
         if path.endswith(".py"):
             src = re.sub(r"\btinytherm\b(?=[. ])", alias, show(path))
             with open(os.path.join(base, alias, os.path.basename(path)), "w") as fh:
                 fh.write(src)
+    return base, alias
+
+
+def load_commit(rev):
+    """(forecast, planner) modules of commit ``rev``, loaded from git without touching the tree."""
+    base, alias = export_commit(rev)
     sys.path.insert(0, base)
     return (importlib.import_module(alias + ".forecast"),
             importlib.import_module(alias + ".planner"))
