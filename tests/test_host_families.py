@@ -13,10 +13,10 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from host_sim import families as F
-from host_sim import recordings
-from host_sim.baselines import ArrivalTracker, ExpRefitBaseline, SlopeBaseline, make_family_baselines
-from host_sim.metrics import early_arrivals, summarise, trace_metrics
+from host_sim.sim import families as F
+from host_sim.replay import recordings
+from host_sim.replay.baselines import ArrivalTracker, ExpRefitBaseline, SlopeBaseline, make_family_baselines
+from host_sim.replay.metrics import early_arrivals, summarise, trace_metrics
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 

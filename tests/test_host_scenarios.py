@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from host_sim import scenarios
-from host_sim.scenarios import (QUANTUM_C, find_crossing_s, generate, integrate_piecewise,
+from host_sim.sim import scenarios
+from host_sim.sim.scenarios import (QUANTUM_C, find_crossing_s, generate, integrate_piecewise,
                                 latent_heat_j_per_kg, sat_vapour_density_kg_m3, write_scenario)
 
 

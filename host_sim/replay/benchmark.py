@@ -3,10 +3,10 @@
 ``python -m host_sim benchmark --seeds tune|holdout|both [--per-kind N]``
 
 A seeded suite of ``N`` traces per scenario kind (default 14, so 70 traces per
-seed set) is generated with :mod:`host_sim.scenarios` (sensor faults on). Each
-trace is replayed through the core (:mod:`host_sim.replay`) and through the
-three baselines of :mod:`host_sim.baselines`, and scored with
-:mod:`host_sim.metrics` against the exact truth crossing. Two disjoint seed
+seed set) is generated with :mod:`host_sim.sim.scenarios` (sensor faults on). Each
+trace is replayed through the core (:mod:`host_sim.replay.replay`) and through the
+three baselines of :mod:`host_sim.replay.baselines`, and scored with
+:mod:`host_sim.replay.metrics` against the exact truth crossing. Two disjoint seed
 sets: ``tune`` (seeds 1000 + i) may be used to choose estimator settings;
 ``holdout`` (seeds 5000 + i) must not be, and is reported beside it.
 
@@ -27,11 +27,11 @@ import multiprocessing
 import sys
 import time
 
-from host_sim import scenarios
-from host_sim.baselines import make_baselines
-from host_sim.metrics import summarise, trace_metrics
-from host_sim.replay import replay
-from host_sim.trace_io import Trace
+from host_sim.sim import scenarios
+from host_sim.replay.baselines import make_baselines
+from host_sim.replay.metrics import summarise, trace_metrics
+from host_sim.replay.replay import replay
+from host_sim.replay.trace_io import Trace
 
 SEED_BASE = {"tune": 1000, "holdout": 5000}
 METHODS = ("core", "core_raw", "slope", "exp_all", "exp_window600")
@@ -175,32 +175,3 @@ def write_csv(path, all_results):
                 for m in METHODS:
                     w.writerow([seed_set, r["kind"], r["seed"], m] +
                                ["" if r[m][k] is None else r[m][k] for k in keys])
-
-
-def run_cli(args):
-    """``benchmark`` subcommand (arguments from :mod:`host_sim.cli`)."""
-    from host_sim.cli import _estimator_kwargs
-    try:
-        settings = _estimator_kwargs(args)
-    except ValueError as exc:
-        print("error: %s" % exc, file=sys.stderr)
-        return 2
-    settings["heater"] = args.heater
-    settings["use_ambient_column"] = not args.ignore_ambient_column
-    settings["sensor_faults"] = not args.no_faults
-    if args.ambient is not None:
-        settings["ambient_c"] = args.ambient
-    sets = ("tune", "holdout") if args.seeds == "both" else (args.seeds,)
-    all_results = []
-    for seed_set in sets:
-        results = run_suite(seed_set, per_kind=args.per_kind, jobs=args.jobs, settings=settings)
-        all_results.append((seed_set, results))
-        if args.no_faults:
-            print("(diagnosis run: sensor faults off)")
-        print(format_table(seed_set, results, args.per_kind))
-        print("")
-        sys.stdout.flush()
-    if args.csv:
-        write_csv(args.csv, all_results)
-        print("per-trace figures written to %s" % args.csv)
-    return 0

@@ -748,7 +748,7 @@ def generate(kind, seed, target_c=None, sensor_faults=True):
 def write_scenario(gen, trace_path, truth_path=None):
     """Write a :class:`Generated` as a trace CSV and (optionally) its truth JSON."""
     import json
-    from host_sim.trace_io import write_trace
+    from host_sim.replay.trace_io import write_trace
     write_trace(trace_path, gen.time_s, gen.temp_c, ambient_c=gen.ambient_c,
                 heater=gen.heater, events=gen.events)
     if truth_path is not None:

@@ -1,12 +1,12 @@
 """Physics families with wide parameter ranges, for an evaluation no one can tune to.
 
-Where :mod:`host_sim.scenarios` has one narrow kind per application, each
+Where :mod:`host_sim.sim.scenarios` has one narrow kind per application, each
 family here draws its physics, its sampling and its probe from wide ranges, so
 that settings chosen on some families can be checked on a family they never
 saw (leave-one-family-out, see ``benchmarks/families.py``). The physics
 helpers (convection, radiation, evaporation, the piecewise solver, brentq
 crossings) and the constants with their sources are those of
-:mod:`host_sim.scenarios`; the numbers of each family are our own.
+:mod:`host_sim.sim.scenarios`; the numbers of each family are our own.
 
 Families (state variables in brackets; every family has a lagged sensor state
 whose input is a mixture of the liquid and, by probe position, the wall or
@@ -53,7 +53,7 @@ deviation of a reading's error: Gaussian noise and quantisation together,
 defined), faults and all drawn parameters.
 
 Generated traces are cached on disk (``.cache/families/<version>/``, the
-version a hash of this module and of :mod:`host_sim.scenarios`), so repeated
+version a hash of this module and of :mod:`host_sim.sim.scenarios`), so repeated
 benchmark runs do not integrate the ODEs again.
 """
 import hashlib
@@ -64,7 +64,7 @@ import os
 import numpy as np
 from scipy.optimize import brentq
 
-from host_sim.scenarios import (C_AIR_VERTICAL, C_CERAMIC, C_DRINK, C_GLASS, C_STEEL,
+from host_sim.sim.scenarios import (C_AIR_VERTICAL, C_CERAMIC, C_DRINK, C_GLASS, C_STEEL,
                                 C_WATER, C_WORT, C_WORT_TUBE, EPS_CERAMIC, EPS_GLASS,
                                 KELVIN, SIGMA, _soft_abs,
                                 find_crossing_s, integrate_piecewise, open_surface_loss_w,
@@ -89,7 +89,7 @@ MAX_ONE_SECOND_S = 5000.0              # longest trace sampled every second (ben
 BOIL_STOP_C = 97.0                     # heating traces end before the water reaches this
 MAX_FORCED_H = 60.0                    # W/(m^2 K), cap on the forced-air coefficient of a wall
 
-# More material constants, same conventions as host_sim.scenarios:
+# More material constants, same conventions as host_sim.sim.scenarios:
 C_PAPER = 1340.0                 # paperboard, J/(kg K) (from memory)
 C_ALUMINIUM = 900.0              # J/(kg K) (from memory)
 C_PET = 1200.0                   # PET bottle plastic, J/(kg K) (from memory)
@@ -103,7 +103,7 @@ K_PET = 0.2                      # W/(m K) (from memory)
 EPS_PAPER = 0.90                 # emissivity of paper (emissivity tables, from memory)
 EPS_STEEL = 0.30                 # dull stainless steel (from memory)
 EPS_ALUMINIUM = 0.10             # bare aluminium can (from memory)
-# Water-side free convection on a wall, h = C(T) * dT^(1/4): host_sim.scenarios
+# Water-side free convection on a wall, h = C(T) * dT^(1/4): host_sim.sim.scenarios
 # derives C ~150 near 10 C and ~350 near 60 C (water properties, from memory);
 # here linear in the liquid temperature between those two points, clamped.
 C_WATER_WALL_10C = 150.0
@@ -840,7 +840,7 @@ def _try_generate(family, seed, rng, sensor_faults, keep_solution):
 
 # ------------------------------------------------------------------ disk cache
 def cache_version():
-    """Hash of this module and of host_sim.scenarios (changes invalidate the cache)."""
+    """Hash of this module and of host_sim.sim.scenarios (changes invalidate the cache)."""
     h = hashlib.sha1()
     here = os.path.dirname(os.path.abspath(__file__))
     for name in ("families.py", "scenarios.py"):
@@ -892,6 +892,6 @@ def crossing_by_brentq(sensor_signal, target_c, t_lo, t_hi):
 
 
 def to_trace(ft):
-    """A :class:`host_sim.trace_io.Trace` of the generated columns."""
-    from host_sim.trace_io import Trace
+    """A :class:`host_sim.replay.trace_io.Trace` of the generated columns."""
+    from host_sim.replay.trace_io import Trace
     return Trace(ft.time_s, ft.temp_c, ambient_c=ft.ambient_c, heater=ft.heater)

@@ -2,7 +2,7 @@
 
 A product team ships one vessel; between uses only the fill, the start
 temperature and the room change. Each vessel here fixes the geometry, the
-heater and the probe of a :mod:`host_sim.scenarios` kind (whose physics it
+heater and the probe of a :mod:`host_sim.sim.scenarios` kind (whose physics it
 reuses unchanged: the kind's ``rhs`` and its piecewise solve_ivp integration)
 and draws per use
 
@@ -41,7 +41,7 @@ import math
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from host_sim import scenarios
+from host_sim.sim import scenarios
 
 VESSELS = ("mug", "flask", "kettle", "bath", "lab_pot")
 VESSEL_TITLES = {
@@ -255,8 +255,8 @@ def generate_use(vessel, seed):
 
 
 def use_trace(use):
-    """The use as a :class:`host_sim.trace_io.Trace` (what a logger would have recorded)."""
-    from host_sim.trace_io import Trace
+    """The use as a :class:`host_sim.replay.trace_io.Trace` (what a logger would have recorded)."""
+    from host_sim.replay.trace_io import Trace
     return Trace(use.time_s, use.temp_c, ambient_c=use.ambient_c, heater=use.heater,
                  source="%s seed %d" % (use.vessel, use.seed))
 
@@ -264,7 +264,7 @@ def use_trace(use):
 def write_use(use, trace_path, truth_path=None):
     """Write a use as a trace CSV (and its truth as JSON when ``truth_path`` is given)."""
     import json
-    from host_sim.trace_io import write_trace
+    from host_sim.replay.trace_io import write_trace
     write_trace(trace_path, use.time_s, use.temp_c, ambient_c=use.ambient_c, heater=use.heater)
     if truth_path is not None:
         with open(truth_path, "w") as handle:
