@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from host_sim import cli
-from host_sim.replay.benchmark import METHODS, format_table, run_suite
+from host_sim.cli.benchmark import METHODS, format_table, run_suite
 from host_sim.replay.replay import crossing_from_trace, replay
 from host_sim.sim.scenarios import generate, write_scenario
 from host_sim.replay.trace_io import PREDICTION_COLUMNS, Trace, read_trace

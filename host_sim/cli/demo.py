@@ -21,6 +21,7 @@ def add_parser(sub):
     d.set_defaults(func=cmd_demo)
     return d
 
+
 def cmd_demo(args):
     from host_sim.replay.metrics import trace_metrics
     from host_sim.replay.replay import replay

@@ -170,6 +170,7 @@ def add_parser(sub):
     r.set_defaults(func=cmd_replay)
     return r
 
+
 def cmd_replay(args):
     try:
         return _replay(args)

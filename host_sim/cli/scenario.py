@@ -23,6 +23,7 @@ def add_parser(sub):
     s.set_defaults(func=cmd_scenario)
     return s
 
+
 def cmd_scenario(args):
     if args.list:
         for k in scenarios.KINDS:

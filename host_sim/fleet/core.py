@@ -165,7 +165,8 @@ class CoreProcess:
         self._proc = None
 
     def _start(self):
-        here = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+        # the folder holding the host_sim package (host_sim/fleet/core.py -> three levels up)
+        here = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
         env = dict(os.environ)
         env["PYTHONPATH"] = here + (os.pathsep + env["PYTHONPATH"] if env.get("PYTHONPATH") else "")
         self._proc = subprocess.Popen([sys.executable, "-c", _BOOT, self.root],

@@ -15,7 +15,7 @@ import math
 
 import numpy as np
 
-from host_sim.replay.trace_reader import TraceError, TraceRows
+from host_sim.replay.trace_reader import FileOwner, TraceError, TraceRows
 
 PREDICTION_COLUMNS = ("time_s", "temp_c", "eta_s", "eta_low_s", "eta_high_s",
                       "status", "rate_per_s", "equilibrium_c")
@@ -136,7 +136,7 @@ def write_trace(path, time_s, temp_c, ambient_c=None, heater=None, events=None):
             w.writerow(row)
 
 
-class PredictionWriter:
+class PredictionWriter(FileOwner):
     """Write prediction rows one at a time (constant memory); a context manager.
 
     ``path``: the CSV to create. ``verdict``: append a ``verdict`` column
@@ -163,19 +163,6 @@ class PredictionWriter:
             row.append("" if verdict is None else verdict)
         self._w.writerow(row)
         self.rows += 1
-
-    def close(self):
-        """Flush and close the file; safe to call twice."""
-        if self._handle is not None:
-            self._handle.close()
-            self._handle = None
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, *exc):
-        self.close()
-        return False
 
 
 def write_predictions(path, rows, verdict=False):

@@ -197,7 +197,26 @@ def _is_comment(fields):
     return not "".join(fields).strip() or fields[0].lstrip().startswith("#")
 
 
-class TraceRows:
+class FileOwner:
+    """``close()`` and ``with`` support for an object that may hold an open file in ``_handle``."""
+
+    _handle = None
+
+    def close(self):
+        """Close the file (if this object opened one); safe to call twice."""
+        if self._handle is not None:
+            self._handle.close()
+            self._handle = None
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        self.close()
+        return False
+
+
+class TraceRows(FileOwner):
     """Streaming trace reader: iterate to get :class:`TraceRow` tuples one at a time.
 
     Holds one line at a time (not the file). The header is read on
@@ -404,19 +423,6 @@ class TraceRows:
         short = short.split(":")[0].split(" (")[0]
         short = re.sub(r"\d+", "N", short)
         self.skipped_by_reason[short] = self.skipped_by_reason.get(short, 0) + 1
-
-    def close(self):
-        """Close the file (if this reader opened one); safe to call twice."""
-        if self._handle is not None:
-            self._handle.close()
-            self._handle = None
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, *exc):
-        self.close()
-        return False
 
 
 def iter_trace_rows(source, fahrenheit=False, skip_bad=False, time_unit="s", name=None):
