@@ -197,16 +197,11 @@ def add_parser(sub):
 def cmd_benchmark(args):
     """Run the seeded suite for the chosen seed sets; returns the exit code."""
     if args.csv:
-        try:
-            check_output(args.csv, "--csv")
-        except CliError as exc:
-            print("error: %s" % exc, file=sys.stderr)
-            return 2
+        check_output(args.csv, "--csv")
     try:
         settings = estimator_kwargs(args)
     except ValueError as exc:
-        print("error: %s" % exc, file=sys.stderr)
-        return 2
+        raise CliError(str(exc)) from None
     settings["heater"] = args.heater
     settings["use_ambient_column"] = not args.ignore_ambient_column
     settings["sensor_faults"] = not args.no_faults

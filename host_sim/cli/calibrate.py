@@ -1,6 +1,8 @@
 """``calibrate TRACE.csv ... --out PROFILE.json``: learn a vessel profile (see :mod:`host_sim.calibrate`)."""
 import sys
 
+from host_sim.cli.options import CliError
+
 
 def add_parser(sub):
     """Add the ``calibrate`` subcommand to an argparse subparsers object."""
@@ -43,8 +45,7 @@ def cmd_calibrate(args):
         try:
             tr = read_trace(path, fahrenheit=args.fahrenheit, skip_bad=not args.strict)
         except (OSError, TraceError) as exc:
-            print("error: %s" % exc, file=sys.stderr)
-            return 2
+            raise CliError(str(exc)) from None
         if tr.skipped_rows:
             print("%s: skipped %d bad row(s) (a torn last row after a power loss is one)"
                   % (path, tr.skipped_rows), file=sys.stderr)
@@ -53,8 +54,7 @@ def cmd_calibrate(args):
         cal = calibrate(traces, fills=args.fill_kg, ambient_c=args.ambient, folds=args.folds,
                         smooth_s=args.smooth_s)
     except ValueError as exc:
-        print("error: %s" % exc, file=sys.stderr)
-        return 2
+        raise CliError(str(exc)) from None
     for line in report_lines(cal):
         print(line)
     paths = write_outputs(cal, args.out, plots=not args.no_plots)

@@ -22,7 +22,7 @@ import argparse
 import sys
 
 from host_sim.cli import benchmark, calibrate, demo, fleet, replay, scenario
-from host_sim.cli.options import SAFETY_NOTE
+from host_sim.cli.options import SAFETY_NOTE, CliError
 from tinytherm import __version__
 
 COMMANDS = (replay, scenario, demo, benchmark, fleet, calibrate)
@@ -44,10 +44,17 @@ def build_parser():
 
 
 def main(argv=None):
-    """Entry point; returns the process exit code."""
+    """Entry point; returns the process exit code.
+
+    A command reports a user error by raising :class:`CliError`: one line
+    ``error: ...`` on stderr and exit status 2, the same for every command.
+    """
     args = build_parser().parse_args(argv)
     try:
         return args.func(args)
+    except CliError as exc:
+        print("error: %s" % exc, file=sys.stderr)
+        return 2
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130

@@ -1,6 +1,7 @@
 """``fleet MANIFEST.csv --out RESULTS.csv``: replay many traces on a dask cluster (see :mod:`host_sim.fleet.run`)."""
 import os
-import sys
+
+from host_sim.cli.options import CliError
 
 
 def add_parser(sub):
@@ -59,11 +60,9 @@ def cmd_fleet(args):
         if args.baseline_core or args.baseline_set:
             variants["base"] = make_variant(args.baseline_core, args.baseline_set)
     except (OSError, ValueError, RuntimeError) as exc:
-        print("error: %s" % exc, file=sys.stderr)
-        return 2
+        raise CliError(str(exc)) from None
     if not items:
-        print("error: no traces in %s" % args.manifest, file=sys.stderr)
-        return 2
+        raise CliError("no traces in %s" % args.manifest)
     where = args.scheduler or ("this process" if args.workers == 0 else
                                "a LocalCluster of %d worker(s)"
                                % (args.workers or os.cpu_count() or 1))
@@ -73,12 +72,10 @@ def cmd_fleet(args):
                             processes=not args.threads, progress=not args.quiet,
                             chunk_size=args.chunk)
     except ImportError as exc:
-        print("error: %s (the fleet command needs the fleet extra: pip install "
-              "\"tinytherm[fleet]\", or --workers 0 without dask)" % exc, file=sys.stderr)
-        return 2
+        raise CliError("%s (the fleet command needs the fleet extra: pip install "
+                       "\"tinytherm[fleet]\", or --workers 0 without dask)" % exc) from None
     except OSError as exc:          # e.g. no scheduler at --scheduler ADDR
-        print("error: %s" % exc, file=sys.stderr)
-        return 2
+        raise CliError(str(exc)) from None
     report = fleet_report.write_all(args.out, items, tag_names, variants, results,
                                     worse_by=args.worse_by, plot_worse=args.plot_worse,
                                     plots=not args.no_plots)

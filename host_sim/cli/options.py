@@ -107,7 +107,8 @@ def estimator_kwargs(args):
 
 
 class CliError(ValueError):
-    """A user error: printed as one line ``error: ...`` with exit status 2."""
+    """A user error: :func:`host_sim.cli.dispatch.main` prints it as one line ``error: ...``
+    and exits with status 2."""
 
 
 # Time-to-trust as the CLI prints it: the share of the approach (first reading to

@@ -172,11 +172,11 @@ def add_parser(sub):
 
 
 def cmd_replay(args):
+    """Run the ``replay`` subcommand; returns the exit code."""
     try:
         return _replay(args)
-    except (CliError, TraceError) as exc:
-        print("error: %s" % exc, file=sys.stderr)
-        return 2
+    except TraceError as exc:
+        raise CliError(str(exc)) from None
 
 
 def _replay(args):

@@ -1,6 +1,5 @@
 """``scenario KIND --seed N --out trace.csv [--truth truth.json]``: generate a seeded physical scenario."""
 import os
-import sys
 
 from host_sim.cli.options import CliError, check_output, finite_float, seed_int
 from host_sim.sim import scenarios
@@ -25,34 +24,28 @@ def add_parser(sub):
 
 
 def cmd_scenario(args):
+    """Run the ``scenario`` subcommand; returns the exit code."""
     if args.list:
         for k in scenarios.KINDS:
             print("%-8s %s" % (k, scenarios.KIND_TITLES[k]))
         return 0
     if args.kind is None or args.out is None:
-        print("error: scenario needs KIND and --out (or --list)", file=sys.stderr)
-        return 2
-    try:
-        check_output(args.out, "--out")
-        if args.truth:
-            check_output(args.truth, "--truth")
-            if os.path.abspath(args.truth) == os.path.abspath(args.out):
-                raise CliError("--truth and --out name the same file")
-    except CliError as exc:
-        print("error: %s" % exc, file=sys.stderr)
-        return 2
+        raise CliError("scenario needs KIND and --out (or --list)")
+    check_output(args.out, "--out")
+    if args.truth:
+        check_output(args.truth, "--truth")
+        if os.path.abspath(args.truth) == os.path.abspath(args.out):
+            raise CliError("--truth and --out name the same file")
     try:
         gen = scenarios.generate(args.kind, args.seed, target_c=args.target,
                                  sensor_faults=not args.no_faults)
     except ValueError as exc:
-        print("error: %s" % exc, file=sys.stderr)
-        return 2
+        raise CliError(str(exc)) from None
     try:
         scenarios.write_scenario(gen, args.out, args.truth)
     except OSError as exc:
-        print("error: cannot write %s (%s)" % (exc.filename or args.out, exc.strerror or exc),
-              file=sys.stderr)
-        return 2
+        raise CliError("cannot write %s (%s)" % (exc.filename or args.out,
+                                                 exc.strerror or exc)) from None
     tr = gen.truth
     print("%s (seed %d): %d rows over %.0f s, target %.2f C, crossing %s"
           % (tr["title"], tr["seed"], tr["rows"], tr["duration_s"], tr["target_c"],
