@@ -1016,7 +1016,7 @@ class ThermalEstimator:
         self.eta_high_s = eta * spread
         if self._profile_on:
             # and the profile's: quantiles of ln(actual / predicted) measured on
-            # held-out uses of this vessel (split-conformal, see host_sim.calibrate);
+            # held-out uses of this vessel (split-conformal, see host_sim.calibrate.pipeline);
             # the union, since the table was measured on the estimator without it
             lo, hi = self._profile.interval_log_bounds(eta)
             z = self._z / PROFILE_Z80

@@ -2,7 +2,7 @@
 
 A product ships one vessel (the same mug, kettle or bath, heater, probe and
 probe position in every unit); only the fill, the start temperature and the
-room change between uses. ``host_sim.calibrate`` fits a richer model than the
+room change between uses. ``host_sim.calibrate.pipeline`` fits a richer model than the
 device's to many recorded uses of prototypes and freezes the result here:
 
     dT/dt = -a |T - E|^n sign(T - E) + g q(t),    a = k / DIFF_REF_C^(n - 1)
