@@ -4,7 +4,7 @@
         [--candidate NAME=module:Class ...] [--grid key=v1,v2,... ...]
         [--grid-method NAME] [--seeds tune|holdout|both] [--out results.csv]
 
-Every trace of :mod:`host_sim.families` (``N`` seeds per family and seed set;
+Every trace of :mod:`host_sim.sim.families` (``N`` seeds per family and seed set;
 ``tune`` seeds 1000+i, ``holdout`` seeds 5000+i, disjoint; the holdout set
 is never used for a choice) is replayed row by row, as firmware would feed
 it, through
@@ -14,7 +14,7 @@ it, through
   constructor keywords, ``update(temp_c, dt_s, ambient_c=, duty=)``,
   ``predict(target_c)``, ``status``, ``eta_s``, ``eta_low_s``,
   ``eta_high_s``), once per ``--grid`` setting when it is the grid method;
-- the baselines of :mod:`host_sim.baselines` (``make_family_baselines``):
+- the baselines of :mod:`host_sim.replay.baselines` (``make_family_baselines``):
   ``slope``, ``exp_all`` and ``exp_recent`` (free equilibrium over
   ``max(300 s, half the elapsed time)``).
 
@@ -26,10 +26,10 @@ that keyword. Nothing else (no room temperature, no target-specific tuning).
 An estimator's answer counts where its status is ``tracking`` or
 ``arrived`` (what a device shows); a baseline's answer is ``tracking`` when it
 gives an ETA > 0 and ``arrived`` when it gives 0. Figures per trace are those
-of :func:`host_sim.metrics.trace_metrics` (relative ETA error over the
+of :func:`host_sim.replay.metrics.trace_metrics` (relative ETA error over the
 approach after the first minute, coverage of the shown 80 % intervals,
 no-estimate fraction, early arrivals against the true noise-free signal,
-first answer); per family and overall, :func:`host_sim.metrics.summarise`.
+first answer); per family and overall, :func:`host_sim.replay.metrics.summarise`.
 
 Sections printed (markdown): per-family tables for each seed set, the same
 split by sampling interval and by probe resolution, leave-one-family-out (for
@@ -57,10 +57,10 @@ if ROOT not in sys.path:
 import numpy as np  # noqa: E402
 from tqdm import tqdm  # noqa: E402
 
-from host_sim import families as fam  # noqa: E402
-from host_sim import recordings  # noqa: E402
-from host_sim.baselines import make_family_baselines  # noqa: E402
-from host_sim.metrics import summarise, trace_metrics  # noqa: E402
+from host_sim.sim import families as fam  # noqa: E402
+from host_sim.replay import recordings  # noqa: E402
+from host_sim.replay.baselines import make_family_baselines  # noqa: E402
+from host_sim.replay.metrics import summarise, trace_metrics  # noqa: E402
 from tinytherm import status as st  # noqa: E402
 
 SEED_BASE = {"tune": 1000, "holdout": 5000}

@@ -10,7 +10,7 @@ the run and before it. Results of all runs are compared for equality.
 
 Memory: one generated trace of ``--memory-rows`` rows (a slow cooling that
 crosses the target near the end, so nearly every row is evaluated), replayed
-and scored by the streaming path (:func:`host_sim.fleet_core.evaluate_trace`,
+and scored by the streaming path (:func:`host_sim.fleet.core.evaluate_trace`,
 reading the trace and writing the prediction CSV row by row) in a fresh
 process; its peak resident memory is printed beside the same run on a
 trace ten times shorter, and beside the in-memory path (``read_trace`` +
@@ -76,7 +76,7 @@ def scaling(n, rows):
 
     from dask.distributed import Client, LocalCluster
 
-    from host_sim import fleet
+    from host_sim.fleet import run as fleet
     folder = tempfile.mkdtemp(prefix="fleet_bench_")
     t = time.perf_counter()
     manifest = write_fleet(folder, n, rows)
@@ -148,14 +148,14 @@ sys.path.insert(0, %r)
 mode, path, target, out = sys.argv[1], sys.argv[2], float(sys.argv[3]), sys.argv[4]
 t = time.perf_counter()
 if mode == "stream":
-    from host_sim.fleet_core import evaluate_trace
+    from host_sim.fleet.core import evaluate_trace
     res = evaluate_trace({"path": path, "target_c": target}, {"settings": {}}, out)
     figs = {k: res[k] for k in ("rows", "median_rel_error", "evaluated_rows", "metrics_exact",
                                 "error")}
 else:
-    from host_sim.metrics import trace_metrics
-    from host_sim.replay import crossing_from_trace, replay
-    from host_sim.trace_io import read_trace, write_predictions
+    from host_sim.replay.metrics import trace_metrics
+    from host_sim.replay.replay import crossing_from_trace, replay
+    from host_sim.replay.trace_io import read_trace, write_predictions
     tr = read_trace(path)
     r = replay(tr, target)
     write_predictions(out, r.rows)

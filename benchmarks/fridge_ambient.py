@@ -3,7 +3,7 @@
     python benchmarks/fridge_ambient.py [--seeds 24] [--first-seed 7000] [--every-s 60]
 
 Each trace comes from the simulator's ``fridge`` scenario
-(:func:`host_sim.scenarios.generate`): a drink cooling in a fridge whose air
+(:func:`host_sim.sim.scenarios.generate`): a drink cooling in a fridge whose air
 temperature cycles with the compressor (plus the warm-air transient after the
 door closes), read by a lagging, noisy, quantised air sensor written as the
 ambient column, with sensor faults on. Every row goes through the core as on
@@ -41,7 +41,7 @@ if ROOT not in sys.path:
 
 import numpy as np  # noqa: E402
 
-from host_sim import scenarios  # noqa: E402
+from host_sim.sim import scenarios  # noqa: E402
 from tinytherm import status as st  # noqa: E402
 from tinytherm.estimator import ThermalEstimator  # noqa: E402
 from tinytherm.forecast import AMBIENT_PERIODIC, AmbientTracker, Forecast  # noqa: E402

@@ -32,13 +32,13 @@ Figures only; no pass/fail (the tests are tests/core/test_forecast_hostile.py
 and tests/test_forecast_hostile_properties.py).
 """
 import argparse
+import importlib
 import os
 import re
 import subprocess
 import sys
 import tempfile
 import time
-import types
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 for p in (os.path.join(ROOT, "tests", "core"), ROOT):
@@ -124,19 +124,35 @@ def fuzz_micropython(calls, seed):
     return figures, messages
 
 
-def load_commit(rev):
-    """(forecast, planner) modules of commit ``rev``, loaded from git without touching the tree."""
+def export_commit(rev):
+    """Write commit ``rev``'s core to a temporary package; returns (folder, package name).
+
+    Every core module of that commit goes to ``FOLDER/tinytherm_at_<rev>/``
+    with its ``tinytherm`` imports renamed, so a commit from before or after
+    a module split loads with its own parts, beside the working tree's core.
+    """
     def show(path):
         return subprocess.run(["git", "show", "%s:%s" % (rev, path)], cwd=ROOT, check=True,
                               capture_output=True, text=True).stdout
-    fmod = types.ModuleType("forecast_at_" + rev)
-    exec(compile(show("tinytherm/forecast.py"), "forecast@" + rev, "exec"), fmod.__dict__)
-    sys.modules[fmod.__name__] = fmod
-    src = re.sub(r"from tinytherm\.forecast import", "from %s import" % fmod.__name__,
-                 show("tinytherm/planner.py"))
-    pmod = types.ModuleType("planner_at_" + rev)
-    exec(compile(src, "planner@" + rev, "exec"), pmod.__dict__)
-    return fmod, pmod
+    names = subprocess.run(["git", "ls-tree", "--name-only", rev, "tinytherm/"], cwd=ROOT,
+                           check=True, capture_output=True, text=True).stdout.split()
+    alias = "tinytherm_at_" + re.sub(r"\W", "_", rev)
+    base = tempfile.mkdtemp(prefix="tinytherm_commit-")
+    os.mkdir(os.path.join(base, alias))
+    for path in names:
+        if path.endswith(".py"):
+            src = re.sub(r"\btinytherm\b(?=[. ])", alias, show(path))
+            with open(os.path.join(base, alias, os.path.basename(path)), "w") as fh:
+                fh.write(src)
+    return base, alias
+
+
+def load_commit(rev):
+    """(forecast, planner) modules of commit ``rev``, loaded from git without touching the tree."""
+    base, alias = export_commit(rev)
+    sys.path.insert(0, base)
+    return (importlib.import_module(alias + ".forecast"),
+            importlib.import_module(alias + ".planner"))
 
 
 def _case_calls(fmod, pmod, name, n):

@@ -117,9 +117,9 @@ def part_a(seeds):
 
 def part_b(seeds):
     try:
-        from host_sim import scenarios
+        from host_sim.sim import scenarios
     except ImportError as exc:
-        print("Part B skipped: host_sim.scenarios not importable (%s)" % exc)
+        print("Part B skipped: host_sim.sim.scenarios not importable (%s)" % exc)
         return
     print("Part B: host_sim scenarios, sensor faults off (errors vs liquid arrival)")
     print()

@@ -2,7 +2,7 @@
 
     .venv/bin/python benchmarks/profile_gain.py [--train 10] [--test 30] [--vessels mug kettle bath]
 
-For each vessel of host_sim/vessels.py: calibrate a profile on ``--train``
+For each vessel of host_sim/sim/vessels.py: calibrate a profile on ``--train``
 uses (seeds 0..), then replay ``--test`` other uses (seeds 1000..) towards
 three targets each (30 %, 55 %, 80 % of the approach) and print, per vessel:
 
@@ -12,7 +12,7 @@ three targets each (30 %, 55 %, 80 % of the approach) and print, per vessel:
 - the calibrated interval table around that same estimate (the table is
   calibrated on the profile-less estimator's own errors);
 - the profile model alone (host-side forecast from the profile's typical
-  parameters and the recent readings; see host_sim.calibrate.profile_forecast);
+  parameters and the recent readings; see host_sim.calibrate.forecast.profile_forecast);
 - the device estimator *with* the profile (``ThermalEstimator(profile=...)``)
   and with another vessel's profile (the wrong-profile check), when the core
   accepts a profile; until then the script says so and leaves those rows out.
@@ -32,9 +32,13 @@ import numpy as np
 
 sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 
-from host_sim import calibrate as cb  # noqa: E402
-from host_sim import vessels  # noqa: E402
-from host_sim.replay import SHOWN_STATUSES, replay  # noqa: E402
+from host_sim.calibrate.conformal import Pair, coverage, replay_pairs  # noqa: E402
+from host_sim.calibrate.forecast import forecast_errors  # noqa: E402
+from host_sim.calibrate.pipeline import calibrate  # noqa: E402
+from host_sim.calibrate.prepare import prepare  # noqa: E402
+from host_sim.calibrate.report import report_lines  # noqa: E402
+from host_sim.sim import vessels  # noqa: E402
+from host_sim.replay.replay import SHOWN_STATUSES, replay  # noqa: E402
 from tinytherm.estimator import ThermalEstimator  # noqa: E402
 
 # another vessel of the same heater mode (a heater profile on a passive liquid is
@@ -81,7 +85,7 @@ def with_profile_pairs(pairs, prof, heater):
         col = {n: np.array([np.nan if v is None else float(v) for v in res.column(n)])[sel]
                for n in ("eta_s", "eta_low_s", "eta_high_s")}
         shown = np.array([r["status_code"] in SHOWN_STATUSES for r in res.rows])[sel]
-        out.append(cb.Pair(trace=p.trace, target=p.target, crossing=p.crossing, t=t[sel],
+        out.append(Pair(trace=p.trace, target=p.target, crossing=p.crossing, t=t[sel],
                            actual=p.crossing - t[sel], eta=col["eta_s"], low=col["eta_low_s"],
                            high=col["eta_high_s"], shown=shown, frac=p.frac, prep=p.prep))
     return out
@@ -111,18 +115,18 @@ def main(argv=None):
     def calibrated(name):
         if name not in profiles:
             uses = [vessels.generate_use(name, s) for s in range(args.train)]
-            profiles[name] = cb.calibrate([vessels.use_trace(u) for u in uses], folds=args.folds,
+            profiles[name] = calibrate([vessels.use_trace(u) for u in uses], folds=args.folds,
                                           fills=[u.truth["fill_kg"] for u in uses])
         return profiles[name]
     for name in args.vessels:
         cal = calibrated(name)
         if takes:
             calibrated(WRONG[name])   # the wrong-profile donor, trained on its own uses
-        preps = [cb.prepare(vessels.use_trace(vessels.generate_use(name, 1000 + s)))
+        preps = [prepare(vessels.use_trace(vessels.generate_use(name, 1000 + s)))
                  for s in range(args.test)]
         pairs = []
         for pr in tqdm(preps, desc="%s: replay test uses" % name, file=sys.stderr, leave=False):
-            pairs += cb.replay_pairs(pr, cal.fit.heater)
+            pairs += replay_pairs(pr, cal.fit.heater)
         tests[name] = pairs
     for name in args.vessels:
         cal = profiles[name]
@@ -131,24 +135,24 @@ def main(argv=None):
         print()
         print("%s: %s; calibrated on %d uses, tested on %d uses (%d trace-target pairs)"
               % (name, vessels.VESSEL_TITLES[name], args.train, args.test, len(pairs)))
-        print("  profile: " + ", ".join(cb.report_lines(cal)[1:4]).replace("  ", " ").strip())
+        print("  profile: " + ", ".join(report_lines(cal)[1:4]).replace("  ", " ").strip())
         print("  %-44s %8s %10s %10s" % ("", "med.err", "<=60s", "cov80"))
         base = pair_errors(pairs)
-        row("device, no profile", base, first_answer_within(pairs), cb.coverage(pairs))
+        row("device, no profile", base, first_answer_within(pairs), coverage(pairs))
         row("device ETA + calibrated interval table", base, first_answer_within(pairs),
-            cb.coverage(pairs, prof))
-        e_p, e_d, _ = cb.forecast_errors(prof, pairs, cal.fit.heater_lag_s)
+            coverage(pairs, prof))
+        e_p, e_d, _ = forecast_errors(prof, pairs, cal.fit.heater_lag_s)
         print("  %-44s %8.3f %10s %10s   (same rows: device %.3f)"
               % ("profile model alone (host forecast)", e_p, "-", "-", e_d))
         if takes:
             wp = with_profile_pairs(pairs, prof, cal.fit.heater)
             err = pair_errors(wp)
-            row("device WITH the profile", err, first_answer_within(wp), cb.coverage(wp))
+            row("device WITH the profile", err, first_answer_within(wp), coverage(wp))
             other = WRONG[name]
             wq = with_profile_pairs(pairs, profiles[other].profile, cal.fit.heater)
             err_w = pair_errors(wq)
             row("device with the %s's profile (wrong)" % other, err_w,
-                first_answer_within(wq), cb.coverage(wq))
+                first_answer_within(wq), coverage(wq))
             print("  ratios to no profile: with %.2f (target <= 0.5), wrong %.2f "
                   "(target <= 1.5)" % (np.nanmedian(err) / np.nanmedian(base),
                                        np.nanmedian(err_w) / np.nanmedian(base)))

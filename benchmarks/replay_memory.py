@@ -8,7 +8,7 @@ resident memory (ru_maxrss) and wall time:
   arrays of time, reading, ETA, interval and a shown flag for the metrics, 41 B
   per row);
 - ``peer``: the collecting path the CLI used before: ``read_trace`` (every row)
-  then ``host_sim.replay.replay`` (a dict per row) then ``write_predictions``;
+  then ``host_sim.replay.replay.replay`` (a dict per row) then ``write_predictions``;
 - ``baseline``: the interpreter with the same imports and no trace, the floor.
 
 Figures are printed, never asserted. Run with ``nice``: 1,000,000 rows take
@@ -27,10 +27,10 @@ ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 
 PEER = r"""
 import sys
-import host_sim.cli
-host_sim.cli.build_parser()     # the same imports as the CLI child
-from host_sim.trace_io import read_trace, write_predictions
-from host_sim.replay import replay
+import host_sim.cli.dispatch
+host_sim.cli.dispatch.build_parser()     # the same imports as the CLI child
+from host_sim.replay.trace_io import read_trace, write_predictions
+from host_sim.replay.replay import replay
 trace = read_trace(sys.argv[1])
 result = replay(trace, 30.0)
 write_predictions(sys.argv[2], result.rows)
@@ -38,8 +38,8 @@ write_predictions(sys.argv[2], result.rows)
 
 BASELINE = r"""
 import numpy, tqdm
-import host_sim.cli, host_sim.metrics, host_sim.replay, tinytherm.estimator
-host_sim.cli.build_parser()     # imports every subcommand's module, as a CLI run does
+import host_sim.cli.dispatch, host_sim.replay.metrics, host_sim.replay.replay, tinytherm.estimator
+host_sim.cli.dispatch.build_parser()     # imports every subcommand's module, as a CLI run does
 """
 
 

@@ -4,7 +4,7 @@ Put the logger on prototypes of your product, make a few dozen real uses
 (different fills, start temperatures, rooms), pull the files off the board
 (README, "Recording traces on a prototype") and give them to
 ``python -m host_sim calibrate``. Each file is a trace in the format
-``host_sim/trace_io.py`` reads::
+``host_sim/replay/trace_reader.py`` reads::
 
     # tinytherm trace_logger session 3 part 0
     time_s,temp_c[,ambient_c][,heater],seq

@@ -30,12 +30,12 @@ import atheris
 import numpy  # noqa: F401 - imported before instrumenting: only our modules are traced
 import tqdm  # noqa: F401
 
-import host_sim.scenarios  # noqa: F401
+import host_sim.sim.scenarios  # noqa: F401
 import tinytherm.estimator  # noqa: F401
 
 with atheris.instrument_imports():
     from host_sim import cli
-    from host_sim.trace_io import TraceError, iter_trace_rows
+    from host_sim.replay.trace_reader import TraceError, iter_trace_rows
 
 STATS = {"cases": 0, "findings": 0, "reader_rows": 0, "cli_ok": 0, "cli_error": 0}
 DISTINCT = {}

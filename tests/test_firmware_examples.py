@@ -6,9 +6,10 @@ world from the same model with the relay in the loop (water bath); the fake
 adds probe lag, ADC or 1-Wire quantisation, noise and faults. Each test
 checks the answers the example prints against the truth of its trace.
 
-The last test installs the core with ``mip`` from this repository's
-package.json (served on 127.0.0.1) and runs an example against the installed
-copy, so package.json must hold everything the examples import.
+The packaging tests install each part with ``mip`` from its package.json
+(served on 127.0.0.1), alone, and run it from the installed copy; the last one
+installs the core and the sensors part and runs the mug against them, so the
+parts must hold everything the examples import.
 """
 import ast
 import functools
@@ -316,6 +317,34 @@ def test_wort_monitor_time_to_pitching(tmp_path):
 
 # ---------------------------------------------------------------- packaging
 
+sys.path.insert(0, os.path.join(ROOT, "tools"))
+import build_mpy  # noqa: E402  (the parts table and the import closure)
+
+sys.path.remove(os.path.join(ROOT, "tools"))
+PARTS = {name: (path, entry) for name, path, entry in build_mpy.PARTS}
+
+# A short run of each part on the installed copy alone (prints one line "ok ...").
+PART_RUNS = {
+    "core": "from tinytherm.estimator import ThermalEstimator\n"
+            "e = ThermalEstimator()\n"
+            "for i in range(200):\n"
+            "    e.update(22.0 + 60.0 * 2.718281828 ** (-i * 10.0 / 1500.0), 10.0)\n"
+            "print('ok', e.status)\n",
+    "profile": "from tinytherm.profile import VesselProfile\n"
+               "p = VesselProfile()\n"
+               "print('ok', p.problem() is None and p.time_to_target_s(80.0, 60.0, 20.0) > 0.0)\n",
+    "forecast": "from tinytherm.forecast import Forecast, AmbientTracker\n"
+                "fc = Forecast(1.0 / 900.0, 0.0, 20.0)\n"
+                "fc.set_ambient_periodic(20.0, 2.0, 3600.0)\n"
+                "print('ok', fc.time_to_target_s(80.0, 40.0) > 0.0)\n",
+    "planner": "from tinytherm.planner import ReadyByPlanner\n"
+               "pl = ReadyByPlanner(1.0 / 1800.0, 20.0, 0.05)\n"
+               "print('ok', pl.latest_start(20.0, 60.0, 7200.0))\n",
+    "sensors": "from tinytherm import sensors\n"
+               "print('ok', sensors.digital_raw_to_c(0x0191))\n",
+}
+
+
 def _core_imports(source):
     """tinytherm module names imported by a Python source."""
     names = set()
@@ -332,29 +361,69 @@ def _core_imports(source):
     return names
 
 
+def _package_json(name):
+    with open(os.path.join(ROOT, PARTS[name][0])) as fh:
+        return json.load(fh)
+
+
+def _listed(name):
+    return {dest for dest, _ in _package_json(name)["urls"]}
+
+
+def _parts_for(modules):
+    """The parts a product installs for these tinytherm modules: the core, plus
+    every part whose entry module it imports."""
+    return ["core"] + sorted(n for n, (_, entry) in PARTS.items()
+                             if n != "core" and entry in modules)
+
+
+def test_every_part_package_json_is_complete_and_current():
+    for name, (path, entry) in PARTS.items():
+        pkg = _package_json(name)
+        # exactly the import closure of the part's entry module, as the tool writes it
+        assert pkg == build_mpy.package_json_data(path, entry), path
+        folder = os.path.dirname(os.path.join(ROOT, path))
+        for dest, src in pkg["urls"]:
+            assert os.path.normpath(os.path.join(folder, src)) == os.path.join(ROOT, dest), src
+            assert os.path.exists(os.path.join(ROOT, dest)), dest
+        with open(os.path.join(ROOT, "pyproject.toml")) as fh:
+            assert 'version = "%s"' % pkg["version"] in fh.read()
+    # the core is what the estimator loads; the forecast is not part of it
+    assert "tinytherm/estimator.py" in _listed("core")
+    assert "tinytherm/forecast.py" not in _listed("core")
+
+
+def test_every_core_module_belongs_to_exactly_one_part():
+    owners = build_mpy.part_owners()
+    modules = {f[:-3] for f in os.listdir(os.path.join(ROOT, "tinytherm")) if f.endswith(".py")}
+    assert set(owners) == modules
+    for mod in sorted(modules):
+        assert len(owners[mod]) == 1, (mod, owners[mod])
+    # the estimator's closure leaves the optional parts out
+    core = build_mpy.import_closure("estimator")
+    for part in ("forecast", "ambient", "heater_plan", "piecewise", "planner", "sensors"):
+        assert part not in core, part
+
+
 def test_package_json_lists_what_the_examples_import():
-    with open(os.path.join(ROOT, "package.json")) as fh:
-        pkg = json.load(fh)
-    listed = {dest for dest, _ in pkg["urls"]}
-    for dest, src in pkg["urls"]:
-        assert os.path.exists(os.path.join(ROOT, src)), src
-    with open(os.path.join(ROOT, "pyproject.toml")) as fh:
-        assert 'version = "%s"' % pkg["version"] in fh.read()
-    # transitive closure of the core modules the examples import
-    todo = set()
-    for f in os.listdir(EXAMPLES):
-        if f.endswith(".py"):
-            with open(os.path.join(EXAMPLES, f)) as fh:
-                todo |= _core_imports(fh.read())
-    assert {"estimator", "sensors", "status"} <= todo
-    seen = set()
-    while todo:
-        mod = todo.pop()
-        seen.add(mod)
-        with open(os.path.join(ROOT, "tinytherm", mod + ".py")) as fh:
-            todo |= _core_imports(fh.read()) - seen
-    for mod in seen | {"__init__"}:
-        assert "tinytherm/%s.py" % mod in listed, mod
+    for f in sorted(os.listdir(EXAMPLES)):
+        if not f.endswith(".py"):
+            continue
+        with open(os.path.join(EXAMPLES, f)) as fh:
+            todo = _core_imports(fh.read())
+        if not todo:
+            continue
+        seen = set()
+        while todo:
+            mod = todo.pop()
+            seen.add(mod)
+            with open(os.path.join(ROOT, "tinytherm", mod + ".py")) as fh:
+                todo |= _core_imports(fh.read()) - seen
+        installed = set()
+        for part in _parts_for(seen):
+            installed |= _listed(part)
+        for mod in seen | {"__init__"}:
+            assert "tinytherm/%s.py" % mod in installed, (f, mod)
 
 
 @pytest.fixture
@@ -374,13 +443,36 @@ def repo_server():
         server.server_close()
 
 
-def test_mip_install_from_package_json_runs_an_example(tmp_path, repo_server):
-    lib = tmp_path / "lib"
-    code = "import mip; mip.install(%r, target=%r)" % (repo_server + "/package.json", str(lib))
-    proc = subprocess.run([micropython(), "-c", code], cwd=str(tmp_path), capture_output=True,
+def _mip_install(server, name, lib, cwd):
+    url = server + "/" + PARTS[name][0]
+    code = "import mip; mip.install(%r, target=%r)" % (url, str(lib))
+    proc = subprocess.run([micropython(), "-c", code], cwd=str(cwd), capture_output=True,
                           text=True, timeout=120)
     assert proc.returncode == 0 and "Done" in proc.stdout, proc.stdout + proc.stderr
+
+
+@pytest.mark.parametrize("name", sorted(PARTS))
+def test_mip_installs_each_part_on_its_own(tmp_path, repo_server, name):
+    lib = tmp_path / "lib"
+    _mip_install(repo_server, name, lib, tmp_path)
+    got = {"tinytherm/" + f for f in os.listdir(str(lib / "tinytherm"))}
+    assert got == _listed(name)
+    # import and run it from the installed copy alone (cwd is not the repository)
+    code = "import sys\nsys.path[:] = [%r]\n" % str(lib) + PART_RUNS[name]
+    proc = subprocess.run([micropython(), "-c", code], cwd=str(tmp_path), capture_output=True,
+                          text=True, timeout=120)
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    assert proc.stdout.startswith("ok "), proc.stdout
+    assert "False" not in proc.stdout, proc.stdout
+
+
+def test_mip_install_from_package_json_runs_an_example(tmp_path, repo_server):
+    # the mug needs the core and the sensors part
+    lib = tmp_path / "lib"
+    for name in ("core", "sensors"):
+        _mip_install(repo_server, name, lib, tmp_path)
     assert (lib / "tinytherm" / "estimator.py").exists()
+    assert not (lib / "tinytherm" / "forecast.py").exists()
     # run the mug against the installed copy only (cwd is not the repository)
     cfg = mug_cfg(tmp_path, end_s=400, seed=9, **MUG)
     out = run_example("mug", cfg, tmp_path, lib=str(lib), cwd=str(tmp_path))

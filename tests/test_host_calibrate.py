@@ -1,8 +1,8 @@
-"""host_sim.calibrate: recovery of known parameters, the conformal table, the CLI, a real recording.
+"""host_sim.calibrate.pipeline: recovery of known parameters, the conformal table, the CLI, a real recording.
 
 Outside references: the profile's closed form is checked against scipy's
 ``solve_ivp`` + ``brentq``; the recovery checks use the reference pot of
-host_sim/vessels.py (its physics is exactly the profile's law, integrated by
+host_sim/sim/vessels.py (its physics is exactly the profile's law, integrated by
 solve_ivp DOP853, with known values) and the bath vessel (scenario physics:
 two nodes, convection, radiation), whose full-duty heating rate is
 ``P / (m c_water + C_element)`` (energy balance; c_water 4181 J/(kg K) near
@@ -18,10 +18,14 @@ import pytest
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
-from host_sim import calibrate as cb
-from host_sim import vessels
+from host_sim.calibrate.conformal import Pair, conformal_table, coverage
+from host_sim.calibrate.dynamics import fill_scaling, fit_dynamics, profile_from_fit
+from host_sim.calibrate.pipeline import calibrate, transfer_check
+from host_sim.calibrate.prepare import prepare
+from host_sim.calibrate.report import load_profile
+from host_sim.sim import vessels
 from host_sim.cli import main
-from host_sim.trace_io import Trace
+from host_sim.replay.trace_io import Trace
 from tinytherm import profile as tp
 from tinytherm.profile import VesselProfile
 
@@ -48,8 +52,8 @@ def test_recovers_the_reference_pot():
     # n 1.274 (true 1.25), lumped lag 9.9 s (true 10), offset -1.2 C (true -0.8),
     # k within 5 %, gain within 1 %, fill exponents -0.34 / -1.00 (true -1/3, -1).
     uses, traces = _uses("lab_pot", range(6))
-    preps = [cb.prepare(tr, fill_kg=u.truth["fill_kg"]) for tr, u in zip(traces, uses)]
-    fit = cb.fit_dynamics(preps, heater=True)
+    preps = [prepare(tr, fill_kg=u.truth["fill_kg"]) for tr, u in zip(traces, uses)]
+    fit = fit_dynamics(preps, heater=True)
     truth = vessels.LAB_POT
     assert fit.rate_exponent == pytest.approx(truth["rate_exponent"], abs=0.05)
     assert fit.probe_lag_s + fit.heater_lag_s == pytest.approx(truth["probe_lag_s"], rel=0.2)
@@ -57,11 +61,11 @@ def test_recovers_the_reference_pot():
     for u, k, g in zip(uses, fit.rate_per_s, fit.gain_k_per_s):
         assert k == pytest.approx(u.truth["rate_per_s"], rel=0.08)
         assert g == pytest.approx(u.truth["gain_k_per_s"], rel=0.03)
-    kb = cb.fill_scaling([u.truth["fill_kg"] for u in uses], fit.rate_per_s)
-    gb = cb.fill_scaling([u.truth["fill_kg"] for u in uses], fit.gain_k_per_s)
+    kb = fill_scaling([u.truth["fill_kg"] for u in uses], fit.rate_per_s)
+    gb = fill_scaling([u.truth["fill_kg"] for u in uses], fit.gain_k_per_s)
     assert kb[0] == pytest.approx(truth["fill_exponent"], abs=0.1)
     assert gb[0] == pytest.approx(-1.0, abs=0.05)
-    prof = cb.profile_from_fit(fit)
+    prof = profile_from_fit(fit)
     assert prof.heater and prof.probe_lag_s == pytest.approx(fit.probe_lag_s + fit.heater_lag_s)
     assert VesselProfile.from_blob(prof.to_blob())[1] == tp.REASON_OK
 
@@ -70,17 +74,17 @@ def test_recovers_the_bath_heating_rate_and_its_fill_scaling():
     # Two-node scenario physics with a constant duty per use: the heating rate at
     # full duty must come out as P / (m c + C_element) within 8 %, and g ~ 1/fill.
     uses, traces = _uses("bath", range(6))
-    preps = [cb.prepare(tr, fill_kg=u.truth["fill_kg"]) for tr, u in zip(traces, uses)]
-    fit = cb.fit_dynamics(preps, heater=True)
+    preps = [prepare(tr, fill_kg=u.truth["fill_kg"]) for tr, u in zip(traces, uses)]
+    fit = fit_dynamics(preps, heater=True)
     for u, g in zip(uses, fit.gain_k_per_s):
         assert g == pytest.approx(u.truth["gain_k_per_s"], rel=0.08)
-    gb = cb.fill_scaling([u.truth["fill_kg"] for u in uses], fit.gain_k_per_s)
+    gb = fill_scaling([u.truth["fill_kg"] for u in uses], fit.gain_k_per_s)
     assert gb[0] == pytest.approx(-1.0, abs=0.1)
 
 
 def _pair(actual, eta):
     n = len(actual)
-    return cb.Pair(trace=None, target=0.0, crossing=0.0, t=np.arange(n, dtype=float),
+    return Pair(trace=None, target=0.0, crossing=0.0, t=np.arange(n, dtype=float),
                    actual=np.asarray(actual, float), eta=np.asarray(eta, float),
                    low=np.full(n, np.nan), high=np.full(n, np.nan), shown=np.ones(n, bool),
                    frac=np.linspace(0, 1, n), prep=None)
@@ -98,13 +102,13 @@ def test_conformal_table_recovers_known_quantiles_and_covers_held_out_pairs():
             eta = np.repeat(etas, 25) * rng.uniform(0.8, 1.2, 100)
             out.append(_pair(eta * np.exp(rng.normal(0.1, 0.2, 100)), eta))
         return out
-    low, high, counts = cb.conformal_table(pairs(200))
+    low, high, counts = conformal_table(pairs(200))
     assert counts == [200, 200, 200, 200]
     for lo, hi in zip(low, high):
         assert lo == pytest.approx(0.1 - 1.2816 * 0.2, abs=0.03)
         assert hi == pytest.approx(0.1 + 1.2816 * 0.2, abs=0.03)
     prof = VesselProfile(log_q_low=low, log_q_high=high)
-    assert cb.coverage(pairs(100), prof) == pytest.approx(0.8, abs=0.03)
+    assert coverage(pairs(100), prof) == pytest.approx(0.8, abs=0.03)
 
 
 def test_cli_calibrate_writes_profile_blob_and_plots(tmp_path, capsys):
@@ -130,11 +134,11 @@ def test_cli_calibrate_writes_profile_blob_and_plots(tmp_path, capsys):
         assert needle in text, needle
     with open(out) as fh:
         doc = json.load(fh)
-    prof, reason = cb.load_profile(out)
+    prof, reason = load_profile(out)
     assert reason == tp.REASON_OK
     assert prof.to_blob().hex() == doc["blob_hex"]
-    assert cb.load_profile(str(tmp_path / "prof.bin"))[0].to_blob() == prof.to_blob()
-    assert cb.load_profile(str(tmp_path / "prof.hex"))[0].to_blob() == prof.to_blob()
+    assert load_profile(str(tmp_path / "prof.bin"))[0].to_blob() == prof.to_blob()
+    assert load_profile(str(tmp_path / "prof.hex"))[0].to_blob() == prof.to_blob()
     assert doc["profile"]["heater"] is False and len(doc["traces"]) == 4
     assert doc["traces"][-1]["skipped_rows"] == 1
     assert doc["cross_validation"]["folds"] == 4
@@ -143,7 +147,7 @@ def test_cli_calibrate_writes_profile_blob_and_plots(tmp_path, capsys):
             assert fh.read(8) == b"\x89PNG\r\n\x1a\n"
     # a damaged blob is refused with its reason
     (tmp_path / "bad.hex").write_text(doc["blob_hex"][:-2] + "00\n")
-    assert cb.load_profile(str(tmp_path / "bad.hex")) == (None, tp.REASON_CRC)
+    assert load_profile(str(tmp_path / "bad.hex")) == (None, tp.REASON_CRC)
 
 
 def test_cli_calibrate_reports_a_bad_file(tmp_path, capsys):
@@ -163,9 +167,9 @@ def test_cooling_water_first_half_on_second_half():
     h = len(t) // 2
     first = Trace(t[:h], y[:h], source="CoolingWater, first half")
     second = Trace(t[h:] - t[h], y[h:], source="CoolingWater, second half")
-    cal = cb.calibrate([first], progress=False)
+    cal = calibrate([first], progress=False)
     assert cal.cv["folds"] == 0 and "2 traces" in cal.cv["reason"]
-    check = cb.transfer_check(cal, [second])
+    check = transfer_check(cal, [second])
     assert check["pairs"] == 3
     e_p, e_d = check["median_rel_error_profile_model"], check["median_rel_error_device"]
     assert math.isfinite(e_p) and math.isfinite(e_d)

@@ -1,9 +1,9 @@
 """replay --approach: a product that cools to its target is not 'arrived' while its probe warms up.
 
-The trace is our own invented mug scenario (host_sim.scenarios, seed 5): the
+The trace is our own invented mug scenario (host_sim.sim.scenarios, seed 5): the
 probe starts at room temperature and rises through the drinking target after
 the pour. The check is the estimator's arrival promise against the scenario's
-exact noise-free crossing (solve_ivp + brentq in host_sim.scenarios).
+exact noise-free crossing (solve_ivp + brentq in host_sim.sim.scenarios).
 """
 import csv
 import json

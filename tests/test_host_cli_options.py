@@ -6,9 +6,10 @@ import numpy as np
 import pytest
 
 from host_sim import cli
-from host_sim.metrics import trace_metrics
-from host_sim.scenarios import generate, write_scenario
-from host_sim.trace_io import PREDICTION_COLUMNS, read_predictions
+from host_sim.cli.options import TRUST_FLOOR_S
+from host_sim.replay.metrics import trace_metrics
+from host_sim.sim.scenarios import generate, write_scenario
+from host_sim.replay.trace_io import PREDICTION_COLUMNS, read_predictions
 from tinytherm import __version__
 from tinytherm import status as st
 
@@ -248,12 +249,12 @@ def test_trust_floor_is_one_a_good_answer_can_meet():
     crossing = 1100.0
     eta = (crossing - t) + 5.0
     old = trace_metrics(t, eta, crossing, floor_s=30.0)["time_to_trust"]
-    new = trace_metrics(t, eta, crossing, floor_s=cli.TRUST_FLOOR_S)["time_to_trust"]
+    new = trace_metrics(t, eta, crossing, floor_s=TRUST_FLOOR_S)["time_to_trust"]
     assert old == 1.0
     assert new == pytest.approx(60.0 / crossing)        # trusted from the first evaluated row
     # and an answer 20 % off in the last minutes is still not trusted
     bad = np.where(crossing - t < 300.0, 1.2 * (crossing - t) + 30.0, crossing - t)
-    assert trace_metrics(t, bad, crossing, floor_s=cli.TRUST_FLOOR_S)["time_to_trust"] == 1.0
+    assert trace_metrics(t, bad, crossing, floor_s=TRUST_FLOOR_S)["time_to_trust"] == 1.0
 
 
 def test_skip_bad_prints_the_count_per_reason(tmp_path, capsys):

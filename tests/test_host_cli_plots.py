@@ -5,10 +5,11 @@ import math
 import numpy as np
 
 from host_sim import cli
-from host_sim.plots import ReplaySeries, plot_replay, plot_series
-from host_sim.replay import replay
-from host_sim.scenarios import generate
-from host_sim.trace_io import Trace
+from host_sim.cli.replay import PLOT_POINTS
+from host_sim.replay.plots import ReplaySeries, plot_replay, plot_series
+from host_sim.replay.replay import replay
+from host_sim.sim.scenarios import generate
+from host_sim.replay.trace_io import Trace
 from tinytherm import status as st
 
 PNG = b"\x89PNG\r\n\x1a\n"
@@ -94,14 +95,14 @@ def test_fahrenheit_axis(tmp_path):
 
 
 def test_cli_plot_of_a_long_trace_is_thinned(tmp_path, capsys, monkeypatch):
-    import host_sim.plots
+    import host_sim.replay.plots
     seen = {}
-    real = host_sim.plots.plot_series
+    real = host_sim.replay.plots.plot_series
 
     def spy(s, *a, **kw):
         seen["rows"] = len(s.time_s)
         return real(s, *a, **kw)
-    monkeypatch.setattr(host_sim.plots, "plot_series", spy)
+    monkeypatch.setattr(host_sim.replay.plots, "plot_series", spy)
     path = tmp_path / "long.csv"
     with open(path, "w") as handle:
         handle.write("time_s,temp_c\n")
@@ -112,7 +113,7 @@ def test_cli_plot_of_a_long_trace_is_thinned(tmp_path, capsys, monkeypatch):
     assert (tmp_path / "l.png").read_bytes()[:8] == PNG
     assert "plot written" in capsys.readouterr().out
     # every 3rd row of 60,000 (plus rejected readings): at most PLOT_POINTS points
-    assert 0.9 * cli.PLOT_POINTS <= seen["rows"] <= cli.PLOT_POINTS + 100
+    assert 0.9 * PLOT_POINTS <= seen["rows"] <= PLOT_POINTS + 100
 
 
 def test_text_from_the_file_cannot_break_the_figure(tmp_path):

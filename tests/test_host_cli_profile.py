@@ -1,6 +1,6 @@
 """replay --profile: the profile goes through its device blob, and a refused one is an error.
 
-Traces are our own invented scenarios (host_sim.scenarios); the profile is
+Traces are our own invented scenarios (host_sim.sim.scenarios); the profile is
 written by hand in the JSON form `calibrate` writes (only ``blob_hex`` is
 read, as the device would read only the blob).
 """

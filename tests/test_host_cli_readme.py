@@ -4,7 +4,7 @@ import os
 import re
 from contextlib import redirect_stdout
 
-from host_sim.trace_io import read_trace
+from host_sim.replay.trace_io import read_trace
 from tinytherm import status as st
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))

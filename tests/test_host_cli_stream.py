@@ -4,7 +4,8 @@ import tracemalloc
 
 import pytest
 
-from host_sim.trace_io import TraceError, TraceRow, iter_trace_rows, parse_trace, read_trace
+from host_sim.replay.trace_io import parse_trace, read_trace
+from host_sim.replay.trace_reader import TraceError, TraceRow, iter_trace_rows
 
 
 def test_rows_match_the_collecting_reader():

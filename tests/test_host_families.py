@@ -13,10 +13,12 @@ import numpy as np
 import pytest
 from scipy.integrate import solve_ivp
 
-from host_sim import families as F
-from host_sim import recordings
-from host_sim.baselines import ArrivalTracker, ExpRefitBaseline, SlopeBaseline, make_family_baselines
-from host_sim.metrics import early_arrivals, summarise, trace_metrics
+from host_sim.sim import families as F
+from host_sim.sim import family_tables
+from host_sim.sim.physics import crossing_by_brentq
+from host_sim.replay import recordings
+from host_sim.replay.baselines import ArrivalTracker, ExpRefitBaseline, SlopeBaseline, make_family_baselines
+from host_sim.replay.metrics import early_arrivals, summarise, trace_metrics
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 
@@ -48,7 +50,7 @@ def _spans(draws, key, lo, hi, cover=0.8):
 
 
 def test_mug_draws_cover_the_stated_ranges():
-    d = _draws(F.Mug)
+    d = _draws(family_tables.Mug)
     _spans(d, "volume_ml", 150.0, 500.0)
     _spans(d, "pour_c", 70.0, 95.0)
     assert {x["material"] for x in d} == {"ceramic", "glass", "paper"}
@@ -61,7 +63,7 @@ def test_mug_draws_cover_the_stated_ranges():
 
 
 def test_heated_draws_cover_the_stated_ranges():
-    pot, bath = _draws(F.Pot), _draws(F.Bath)
+    pot, bath = _draws(family_tables.Pot), _draws(family_tables.Bath)
     _spans(pot, "water_kg", 1.0, 6.0)
     _spans(bath, "water_kg", 5.0, 30.0)
     _spans(bath, "element_lag_s", 20.0, 60.0)
@@ -69,13 +71,13 @@ def test_heated_draws_cover_the_stated_ranges():
     # drawn loss time constants 10 min .. 1 h (pot), 20 min .. 3 h (bath)
     _spans(pot, "tau_s", 600.0, 3600.0)
     _spans(bath, "tau_s", 1200.0, 10800.0)
-    kettle = _draws(F.Kettle)
+    kettle = _draws(family_tables.Kettle)
     _spans(kettle, "water_kg", 0.3, 1.7)
     _spans(kettle, "power_w", 1200.0, 3000.0)
 
 
 def test_wort_and_fridge_draws_cover_the_stated_ranges():
-    wort, fridge = _draws(F.Wort), _draws(F.Fridge)
+    wort, fridge = _draws(family_tables.Wort), _draws(family_tables.Fridge)
     assert {x["coolant"] for x in wort} == {"tap", "recirculated"}
     _spans(wort, "wort_kg", 10.0, 40.0)
     _spans(fridge, "volume_l", 0.33, 1.5)
@@ -89,10 +91,10 @@ def test_generated_trace_is_consistent_with_its_truth(family, tmp_path):
     tr = ft.truth
     assert tr["sample_interval_s"] in F.INTERVALS_S
     assert tr["quantum_c"] in F.QUANTA_C
-    lo, hi = F._CLASSES[family].target_limits_c
+    lo, hi = family_tables.CLASSES[family].target_limits_c
     assert lo - 0.5 <= tr["target_c"] <= hi + 0.5
     assert tr["target_c"] * 2.0 == round(tr["target_c"] * 2.0)
-    c_lo, c_hi = F._CLASSES[family].crossing_range_s
+    c_lo, c_hi = family_tables.CLASSES[family].crossing_range_s
     assert 0.9 * c_lo <= tr["crossing_time_s"] <= 1.1 * c_hi
     # enough readings before the crossing at the drawn interval
     n_before = int(np.sum(ft.time_s < tr["crossing_time_s"]))
@@ -165,7 +167,7 @@ def test_truth_crossing_against_brentq_and_an_implicit_solver(family):
     tr = ft.truth
     c = tr["crossing_time_s"]
     # brentq on the dense solution, bracket of +-1 s around the crossing
-    assert F.crossing_by_brentq(ft.sensor_signal, tr["target_c"], c - 1.0, c + 1.0) == \
+    assert crossing_by_brentq(ft.sensor_signal, tr["target_c"], c - 1.0, c + 1.0) == \
         pytest.approx(c, abs=1e-6)
     # an implicit solver of its own, crossing by its event location
     assert _radau_crossing(ft) == pytest.approx(c, abs=0.05)

@@ -1,8 +1,8 @@
 """Fleet replay: streaming pieces, the same results in-process and on 1 or 2 dask
 workers, faults, the A/B against another core, and the command-line contract.
 
-References: the per-trace figures are checked against host_sim.replay.replay()
-plus host_sim.metrics.trace_metrics (the single-trace path, exact equality);
+References: the per-trace figures are checked against host_sim.replay.replay.replay()
+plus host_sim.replay.metrics.trace_metrics (the single-trace path, exact equality);
 quantiles against numpy.percentile / numpy.median (the linear method); the
 synthetic traces follow Newton's law of cooling, T = R + (T0 - R) exp(-t/tau)
 (closed form of dT/dt = -(T - R)/tau).
@@ -17,9 +17,14 @@ import sys
 import numpy as np
 import pytest
 
-from host_sim import fleet, fleet_core, fleet_metrics, metrics
-from host_sim.replay import CrossingFinder, RunningMedian, crossing_from_trace, replay, replay_rows
-from host_sim.trace_io import iter_trace_rows, read_trace
+from host_sim.cli import main
+from host_sim.fleet import run as fleet
+from host_sim.fleet import core as fleet_core
+from host_sim.fleet import metrics as fleet_metrics
+from host_sim.replay import metrics
+from host_sim.replay.replay import CrossingFinder, RunningMedian, crossing_from_trace, replay, replay_rows
+from host_sim.replay.trace_io import read_trace
+from host_sim.replay.trace_reader import iter_trace_rows
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 REQUIRED = ("path", "target", "rows", "median_rel_error", "p90_rel_error", "coverage",
@@ -161,7 +166,7 @@ def test_same_results_in_process_and_on_one_and_two_workers(fleet_dir, tmp_path)
     for name, results in runs.items():
         out = tmp_path / name / "res.csv"
         out.parent.mkdir()
-        from host_sim import fleet_report
+        from host_sim.fleet import report as fleet_report
         fleet_report.write_all(str(out), items, tags, variants, results, plots=False)
         outs[name] = (_csv(out), _csv(tmp_path / name / "res_by_tag.csv"))
     assert outs["inproc"] == outs["reversed"] == outs["w1"] == outs["w2"]
@@ -233,9 +238,9 @@ def test_ab_against_another_core_in_a_child_process(fleet_dir, tmp_path):
         handle.write('\n__version__ = "0.0.0-copy"\n')
     out = tmp_path / "ab.csv"
     # baseline: the copied core with a longer settle time; candidate: this checkout's
-    code = fleet.main([str(fleet_dir / "manifest.csv"), "--out", str(out), "--workers", "0",
-                           "--quiet", "--baseline-core", str(other), "--baseline-set",
-                           "settle_s=150", "--worse-by", "-1", "--plot-worse", "2"])
+    code = main(["fleet", str(fleet_dir / "manifest.csv"), "--out", str(out), "--workers", "0",
+                 "--quiet", "--baseline-core", str(other), "--baseline-set",
+                 "settle_s=150", "--worse-by", "-1", "--plot-worse", "2"])
     assert code == 0
     rows = [dict(zip(_csv(out)[0], r)) for r in _csv(out)[1:]]
     report = (tmp_path / "ab_report.md").read_text()

@@ -4,8 +4,8 @@ import math
 import numpy as np
 import pytest
 
-from host_sim.baselines import ExpRefitBaseline, SlopeBaseline
-from host_sim.metrics import relative_errors, summarise, trace_metrics
+from host_sim.replay.baselines import ExpRefitBaseline, SlopeBaseline
+from host_sim.replay.metrics import relative_errors, summarise, trace_metrics
 
 
 def test_perfect_answers():

@@ -8,10 +8,10 @@ import numpy as np
 import pytest
 
 from host_sim import cli
-from host_sim.benchmark import METHODS, format_table, run_suite
-from host_sim.replay import crossing_from_trace, replay
-from host_sim.scenarios import generate, write_scenario
-from host_sim.trace_io import PREDICTION_COLUMNS, Trace, read_trace
+from host_sim.cli.benchmark import METHODS, format_table, run_suite
+from host_sim.replay.replay import crossing_from_trace, replay
+from host_sim.sim.scenarios import generate, write_scenario
+from host_sim.replay.trace_io import PREDICTION_COLUMNS, Trace, read_trace
 from tinytherm import status as st
 from tinytherm.estimator import ThermalEstimator
 

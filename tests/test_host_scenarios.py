@@ -6,9 +6,11 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from host_sim import scenarios
-from host_sim.scenarios import (QUANTUM_C, find_crossing_s, generate, integrate_piecewise,
-                                latent_heat_j_per_kg, sat_vapour_density_kg_m3, write_scenario)
+from host_sim.sim import physics, scenarios
+from host_sim.sim.physics import (find_crossing_s, integrate_piecewise, latent_heat_j_per_kg,
+                                  sat_vapour_density_kg_m3)
+from host_sim.sim.scenarios import generate, write_scenario
+from host_sim.sim.sensor import QUANTUM_C
 
 
 def rk4_crossing(gen, step_s):
@@ -138,7 +140,7 @@ def test_vapour_and_latent_heat_against_steam_tables():
     # 47.41 kPa at 80 C; latent heat 2442 kJ/kg at 25 C, 2257 kJ/kg at 100 C
     # (IAPWS-IF97 steam tables, from memory). Magnus is an approximation: 2 %.
     for temp_c, kpa in ((20.0, 2.339), (50.0, 12.35), (80.0, 47.41)):
-        e = sat_vapour_density_kg_m3(temp_c) * scenarios.GAS_R * (temp_c + 273.15) / scenarios.M_WATER
+        e = sat_vapour_density_kg_m3(temp_c) * physics.GAS_R * (temp_c + 273.15) / physics.M_WATER
         assert e / 1000.0 == pytest.approx(kpa, rel=0.02)
     assert latent_heat_j_per_kg(25.0) == pytest.approx(2442e3, rel=0.01)
     assert latent_heat_j_per_kg(100.0) == pytest.approx(2257e3, rel=0.01)

@@ -5,9 +5,9 @@ import math
 import numpy as np
 import pytest
 
-from host_sim.trace_io import (PREDICTION_COLUMNS, TraceError, fahrenheit_to_celsius,
-                               parse_trace, read_predictions, read_trace, write_predictions,
-                               write_trace)
+from host_sim.replay.trace_io import (PREDICTION_COLUMNS, parse_trace, read_predictions,
+                                       read_trace, write_predictions, write_trace)
+from host_sim.replay.trace_reader import TraceError, fahrenheit_to_celsius
 
 
 def parse(text, **kw):

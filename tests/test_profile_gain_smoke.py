@@ -1,7 +1,7 @@
 """The profile benchmark runs in CI at a small size (the figures are for DEVELOPERS.md).
 
 benchmarks/profile_gain.py calibrates a profile on some simulated uses of a
-vessel (host_sim.vessels, our own inventions) and replays other uses with and
+vessel (host_sim.sim.vessels, our own inventions) and replays other uses with and
 without it, and with another vessel's profile. This checks that the whole
 chain runs and reports its figures; the target ratios are printed by the
 benchmark, not asserted here (a benchmark's figures are not pass/fail).

@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 from scipy.optimize import least_squares
 
-from host_sim.trace_io import fahrenheit_to_celsius
+from host_sim.replay.trace_reader import fahrenheit_to_celsius
 from tinytherm import model
 
 # Palm, "Introduction to MATLAB for Engineers", temperature dynamics example

@@ -1,4 +1,4 @@
-"""firmware_examples/trace_logger.py under the unix micropython, read back by host_sim.trace_io.
+"""firmware_examples/trace_logger.py under the unix micropython, read back by host_sim.replay.trace_io.
 
 The liquid follows the closed form ``T(t) = R + (T0 - R) exp(-k t)`` (Newton's
 law of cooling), read through the fake NTC with probe lag and ADC noise
@@ -17,7 +17,8 @@ import sys
 import numpy as np
 import pytest
 
-from host_sim.trace_io import TraceError, read_trace
+from host_sim.replay.trace_io import read_trace
+from host_sim.replay.trace_reader import TraceError
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 RUNNER = os.path.join(ROOT, "firmware_examples", "fake", "run.py")

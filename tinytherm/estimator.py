@@ -621,7 +621,8 @@ class ThermalEstimator(Answer):
         ans.eta_low_s = eta / f
         ans.eta_high_s = eta * f
         if self._profile_on:
-            # and the profile's own calibrated quantiles of ln(actual / predicted): the union
+            # and the profile's own calibrated quantiles of ln(actual / predicted),
+            # split-conformal (host_sim.calibrate.pipeline): the union
             lo, hi = self._profile.interval_log_bounds(eta)
             z = self._z / PROFILE_Z80
             low = eta * math.exp(z * lo)

@@ -1,28 +1,38 @@
 from typing import Final, Optional, Sequence, Tuple
 
-def const(x: int) -> int: ...
+from tinytherm.ambient import (
+    AMBIENT_CONSTANT as AMBIENT_CONSTANT,
+    AMBIENT_PERIODIC as AMBIENT_PERIODIC,
+    AMBIENT_PIECEWISE as AMBIENT_PIECEWISE,
+    AMBIENT_RAMP as AMBIENT_RAMP,
+    AmbientSchedule as AmbientSchedule,
+    AmbientTracker as AmbientTracker,
+)
+from tinytherm.heater_plan import (
+    MODE_HOLDING as MODE_HOLDING,
+    PLAN_BOOST_HOLD as PLAN_BOOST_HOLD,
+    PLAN_DUTY as PLAN_DUTY,
+    PLAN_SCHEDULE as PLAN_SCHEDULE,
+    PLAN_THERMOSTAT as PLAN_THERMOSTAT,
+    HeaterPlan as HeaterPlan,
+)
+from tinytherm.piecewise import (
+    MAX_PIECES as MAX_PIECES,
+    MAX_ROOT_ITERATIONS as MAX_ROOT_ITERATIONS,
+    PERIODIC_SUBSTEPS as PERIODIC_SUBSTEPS,
+    REASON_BAD_INPUT as REASON_BAD_INPUT,
+    REASON_BEYOND_EQUILIBRIUM as REASON_BEYOND_EQUILIBRIUM,
+    REASON_HELD as REASON_HELD,
+    REASON_HORIZON as REASON_HORIZON,
+    REASON_LATE as REASON_LATE,
+    REASON_NEVER as REASON_NEVER,
+    REASON_NO_DRIVE_NEEDED as REASON_NO_DRIVE_NEEDED,
+    REASON_NONE as REASON_NONE,
+    REASON_TOO_SLOW as REASON_TOO_SLOW,
+    REASON_WORK_CAP as REASON_WORK_CAP,
+    PieceSolver as PieceSolver,
+)
 
-MAX_PIECES: Final[int]
-MAX_ROOT_ITERATIONS: Final[int]
-PERIODIC_SUBSTEPS: Final[int]
-AMBIENT_CONSTANT: Final[int]
-AMBIENT_RAMP: Final[int]
-AMBIENT_PIECEWISE: Final[int]
-AMBIENT_PERIODIC: Final[int]
-PLAN_DUTY: Final[int]
-PLAN_SCHEDULE: Final[int]
-PLAN_BOOST_HOLD: Final[int]
-PLAN_THERMOSTAT: Final[int]
-REASON_NONE: Final[int]
-REASON_NEVER: Final[int]
-REASON_HORIZON: Final[int]
-REASON_WORK_CAP: Final[int]
-REASON_BAD_INPUT: Final[int]
-REASON_HELD: Final[int]
-REASON_TOO_SLOW: Final[int]
-REASON_NO_DRIVE_NEEDED: Final[int]
-REASON_LATE: Final[int]
-REASON_BEYOND_EQUILIBRIUM: Final[int]
 REASON_NAMES: Final[Tuple[str, ...]]
 
 def reason_name(code: int) -> str: ...
@@ -33,8 +43,15 @@ class Forecast:
     eta_s: Optional[float]
     searched_s: float
     work: int
+    ambient: AmbientSchedule
+    heater: HeaterPlan
+    solver: PieceSolver
     def __init__(self, rate_per_s: float = 0.0, gain_k_per_s: float = 0.0,
                  ambient_c: float = 20.0) -> None: ...
+    @property
+    def rate_per_s(self) -> float: ...
+    @property
+    def gain_k_per_s(self) -> float: ...
     def set_model(self, rate_per_s: float, gain_k_per_s: float = 0.0) -> None: ...
     def set_ambient_constant(self, ambient_c: float) -> None: ...
     def set_ambient_ramp(self, level_c: float, slope_c_per_s: float,
@@ -54,26 +71,3 @@ class Forecast:
     def temperature_at_c(self, t_s: float, start_c: float) -> float: ...
     def time_to_target_s(self, start_c: float, target_c: float,
                          horizon_s: float = ...) -> Optional[float]: ...
-
-class AmbientTracker:
-    memory_s: float
-    band_c: float
-    trend_s: float
-    trend_min_share: float
-    min_period_s: float
-    max_period_s: float
-    level_c: Optional[float]
-    slope_c_per_s: Optional[float]
-    mean_level_c: Optional[float]
-    trend_share: float
-    period_s: Optional[float]
-    mean_c: Optional[float]
-    amplitude_c: Optional[float]
-    readings: int
-    def __init__(self, memory_s: float = 1800.0, band_c: float = 0.3, trend_s: float = 600.0,
-                 trend_min_share: float = 0.8, min_period_s: float = 120.0,
-                 max_period_s: float = 14400.0) -> None: ...
-    def reset(self) -> None: ...
-    def update(self, ambient_c: float, dt_s: float) -> bool: ...
-    def cycling(self) -> bool: ...
-    def apply(self, fc: Forecast) -> int: ...

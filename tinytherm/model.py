@@ -14,13 +14,7 @@ floats it returns. Runs unchanged on CPython and MicroPython.
 """
 import math
 
-
-def _exp(x):
-    """``exp(x)`` that saturates instead of raising (MicroPython raises ValueError)."""
-    try:
-        return math.exp(x)
-    except (ValueError, OverflowError):
-        return 0.0 if x < 0.0 else math.inf
+from tinytherm.num import exp  # saturates instead of raising (MicroPython raises ValueError)
 
 
 def _phi1(x):
@@ -34,7 +28,7 @@ def _phi1(x):
             r = 1.0 - x * r / (n + 1)
             n -= 1
         return r
-    return (1.0 - _exp(-x)) / x
+    return (1.0 - exp(-x)) / x
 
 
 def equilibrium_c(ambient_c, rate_per_s, gain_k_per_s=0.0, duty=0.0):
@@ -68,7 +62,7 @@ def temperature_at(t_s, start_c, rate_per_s, ambient_c, gain_k_per_s=0.0, duty=0
     if rate_per_s == 0.0:
         return start_c + gain_k_per_s * duty * t_s
     eq = ambient_c + gain_k_per_s * duty / rate_per_s
-    e = _exp(-rate_per_s * t_s)
+    e = exp(-rate_per_s * t_s)
     temp = eq + (start_c - eq) * e
     if temp - temp == 0.0:
         return temp

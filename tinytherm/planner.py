@@ -29,6 +29,7 @@ thermal cut-out; an estimate is never a safety interlock.
 import math
 
 from tinytherm import status
+from tinytherm.ambient import _real
 from tinytherm.forecast import (
     Forecast,
     REASON_NONE,
@@ -39,12 +40,10 @@ from tinytherm.forecast import (
     REASON_LATE,
     REASON_BEYOND_EQUILIBRIUM,
     REASON_WORK_CAP,
-    _exp,
-    _phi1,
-    _log_ratio,
-    _finite,
-    _real,
 )
+from tinytherm.model import _phi1
+from tinytherm.num import exp, finite
+from tinytherm.piecewise import _log_ratio
 
 
 class ReadyByPlanner:
@@ -121,13 +120,13 @@ class ReadyByPlanner:
         gap = self._gap_at_deadline(start_c, target_c, deadline_s)
         if gap is None:
             self._answer(status.OUT_OF_REACH, self.forecast.reason)
-        elif not _finite(gap):
+        elif not finite(gap):
             self._answer(status.OUT_OF_REACH, REASON_BAD_INPUT)
             return None
         return gap
 
     def _inputs_ok(self, start_c, target_c, deadline_s):
-        return _finite(start_c) and _finite(target_c) and _finite(deadline_s) and deadline_s >= 0.0
+        return finite(start_c) and finite(target_c) and finite(deadline_s) and deadline_s >= 0.0
 
     def latest_start(self, start_c, target_c, deadline_s):
         """Latest moment to switch on full power so the liquid is at ``target_c`` at the deadline.
@@ -149,8 +148,8 @@ class ReadyByPlanner:
         if gap is None:
             return self.status
         fc = self.forecast
-        g = fc._g
-        k = fc._k
+        g = fc.gain_k_per_s
+        k = fc.rate_per_s
         if g == 0.0:
             if gap <= 0.0:
                 return self._answer(status.ARRIVED, REASON_NO_DRIVE_NEEDED)
@@ -162,7 +161,7 @@ class ReadyByPlanner:
             return self._answer(status.OUT_OF_REACH, REASON_BEYOND_EQUILIBRIUM)
         heat_s = (gap / g) * _log_ratio(z)  # -ln(1 - z)/k, exact also for k -> 0
         if not (heat_s <= deadline_s):  # also inf: longer than the largest float time
-            if _finite(heat_s):
+            if finite(heat_s):
                 self.heat_for_s = heat_s
             self._earliest(start_c, target_c)
             return self._answer(status.OUT_OF_REACH, REASON_TOO_SLOW)
@@ -196,8 +195,8 @@ class ReadyByPlanner:
         if gap is None:
             return self.status
         fc = self.forecast
-        g = fc._g
-        k = fc._k
+        g = fc.gain_k_per_s
+        k = fc.rate_per_s
         if gap == 0.0 or (g == 0.0 and gap < 0.0) or (g != 0.0 and (gap > 0.0) != (g > 0.0)):
             self.duty = 0.0
             return self._answer(status.ARRIVED, REASON_NO_DRIVE_NEEDED)
@@ -213,7 +212,7 @@ class ReadyByPlanner:
         if x < 0.5:
             duty = gap / g / deadline_s / _phi1(x)
         else:
-            duty = (k * gap / g) / (1.0 - _exp(-x))
+            duty = (k * gap / g) / (1.0 - exp(-x))
         if not (duty <= 1.0):
             self._earliest(start_c, target_c)
             return self._answer(status.OUT_OF_REACH, REASON_TOO_SLOW)

@@ -2,7 +2,7 @@
 
 A product ships one vessel (the same mug, kettle or bath, heater, probe and
 probe position in every unit); only the fill, the start temperature and the
-room change between uses. ``host_sim.calibrate`` fits a richer model than the
+room change between uses. ``host_sim.calibrate.pipeline`` fits a richer model than the
 device's to many recorded uses of prototypes and freezes the result here:
 
     dT/dt = -a |T - E|^n sign(T - E) + g q(t),    a = k / DIFF_REF_C^(n - 1)
@@ -40,6 +40,7 @@ import math
 import struct
 
 from tinytherm.crc import crc32
+from tinytherm.num import as_float, finite, number
 
 PROFILE_FORMAT = 1
 PROFILE_SIZE = 54
@@ -77,9 +78,21 @@ def reason_name(code):
     return "unknown"
 
 
-def _ok(x, lo, hi):
-    # NaN fails both comparisons
-    return lo <= x <= hi
+def _number_arg(value, name):
+    """``value`` as a float, or ValueError naming ``name`` when it is no finite number."""
+    v = as_float(value)
+    if v is None or not finite(v):
+        raise ValueError("bad profile value: " + name + " (a finite number)")
+    return v
+
+
+def _table_arg(values, name):
+    """A tuple or list of 4 finite numbers as a tuple of floats, or ValueError naming ``name``."""
+    t = type(values)
+    if (t is not tuple and t is not list) or len(values) != 4:
+        raise ValueError("bad profile value: " + name + " (4 numbers, one per horizon bin)")
+    return (_number_arg(values[0], name), _number_arg(values[1], name),
+            _number_arg(values[2], name), _number_arg(values[3], name))
 
 
 class VesselProfile:
@@ -102,34 +115,39 @@ class VesselProfile:
       ``ln(actual / predicted remaining time)`` for predicted remaining times
       below 60 s, 60-300 s, 300-1200 s and above 1200 s.
 
-    The constructor checks every value and raises ``ValueError`` naming the
-    first bad one. Without ``log_q_low``/``log_q_high`` the table is
-    ``-+1.2816 * rate_log_sd`` in every bin (ln T_remaining ~ -ln k).
+    The constructor checks every argument and raises ``ValueError`` naming
+    the first bad one (never TypeError or OverflowError): ``heater`` must be
+    a bool or the int 0 or 1; every number an int or float (not a bool, a
+    string or None; on CPython also anything ``float()`` takes, such as a
+    numpy scalar) that is finite and within the ranges of :meth:`problem`;
+    ``log_q_low``/``log_q_high`` a tuple or list of 4 such numbers. Without
+    them the table is ``-+1.2816 * rate_log_sd`` in every bin
+    (ln T_remaining ~ -ln k).
     """
 
     def __init__(self, heater=False, rate_per_s=1.0 / 1200.0, rate_log_sd=0.5,
                  eq_offset_c=0.0, eq_offset_sd_c=3.0, gain_k_per_s=0.0, gain_rel_sd=0.0,
                  probe_lag_s=0.0, rate_exponent=1.0, log_q_low=None, log_q_high=None):
-        self.heater = bool(heater)
-        self.rate_per_s = float(rate_per_s)
-        self.rate_log_sd = float(rate_log_sd)
-        self.eq_offset_c = float(eq_offset_c)
-        self.eq_offset_sd_c = float(eq_offset_sd_c)
-        self.gain_k_per_s = float(gain_k_per_s)
-        self.gain_rel_sd = float(gain_rel_sd)
-        self.probe_lag_s = float(probe_lag_s)
-        self.rate_exponent = float(rate_exponent)
+        # bool(x) would take "no" or [0] as True: only a bool or the ints 0 and 1 mean one
+        if heater is True or heater is False or (type(heater) is int and 0 <= heater <= 1):
+            self.heater = heater == 1
+        else:
+            raise ValueError("bad profile value: heater (True, False, 0 or 1)")
+        self.rate_per_s = _number_arg(rate_per_s, "rate_per_s")
+        self.rate_log_sd = _number_arg(rate_log_sd, "rate_log_sd")
+        self.eq_offset_c = _number_arg(eq_offset_c, "eq_offset_c")
+        self.eq_offset_sd_c = _number_arg(eq_offset_sd_c, "eq_offset_sd_c")
+        self.gain_k_per_s = _number_arg(gain_k_per_s, "gain_k_per_s")
+        self.gain_rel_sd = _number_arg(gain_rel_sd, "gain_rel_sd")
+        self.probe_lag_s = _number_arg(probe_lag_s, "probe_lag_s")
+        self.rate_exponent = _number_arg(rate_exponent, "rate_exponent")
         half = _Z90 * self.rate_log_sd
         if log_q_low is None:
             log_q_low = (-half, -half, -half, -half)
         if log_q_high is None:
             log_q_high = (half, half, half, half)
-        if len(log_q_low) != 4 or len(log_q_high) != 4:
-            raise ValueError("log_q_low and log_q_high need 4 values (one per horizon bin)")
-        self.log_q_low = (float(log_q_low[0]), float(log_q_low[1]), float(log_q_low[2]),
-                          float(log_q_low[3]))
-        self.log_q_high = (float(log_q_high[0]), float(log_q_high[1]), float(log_q_high[2]),
-                           float(log_q_high[3]))
+        self.log_q_low = _table_arg(log_q_low, "log_q_low")
+        self.log_q_high = _table_arg(log_q_high, "log_q_high")
         bad = self.problem()
         if bad is not None:
             raise ValueError("bad profile value: " + bad)
@@ -143,28 +161,28 @@ class VesselProfile:
         0 <= probe_lag_s <= 3600 s; 0.25 <= rate_exponent <= 4; every quantile
         within +-30 and low <= high in each bin.
         """
-        if not _ok(self.rate_per_s, 1e-7, 1.0):
+        if not number(self.rate_per_s, 1e-7, 1.0):
             return "rate_per_s"
-        if not _ok(self.rate_log_sd, 0.0, 5.0):
+        if not number(self.rate_log_sd, 0.0, 5.0):
             return "rate_log_sd"
-        if not _ok(self.eq_offset_c, -50.0, 50.0):
+        if not number(self.eq_offset_c, -50.0, 50.0):
             return "eq_offset_c"
-        if not _ok(self.eq_offset_sd_c, 0.0, 50.0):
+        if not number(self.eq_offset_sd_c, 0.0, 50.0):
             return "eq_offset_sd_c"
-        if not _ok(self.gain_k_per_s, -10.0, 10.0):
+        if not number(self.gain_k_per_s, -10.0, 10.0):
             return "gain_k_per_s"
         if not self.heater and self.gain_k_per_s != 0.0:
             return "gain_k_per_s (no heater)"
-        if not _ok(self.gain_rel_sd, 0.0, 10.0):
+        if not number(self.gain_rel_sd, 0.0, 10.0):
             return "gain_rel_sd"
-        if not _ok(self.probe_lag_s, 0.0, 3600.0):
+        if not number(self.probe_lag_s, 0.0, 3600.0):
             return "probe_lag_s"
-        if not _ok(self.rate_exponent, 0.25, 4.0):
+        if not number(self.rate_exponent, 0.25, 4.0):
             return "rate_exponent"
         for i in range(4):
             lo = self.log_q_low[i]
             hi = self.log_q_high[i]
-            if not (_ok(lo, -30.0, 30.0) and _ok(hi, -30.0, 30.0)) or lo > hi:
+            if not (number(lo, -30.0, 30.0) and number(hi, -30.0, 30.0)) or lo > hi:
                 return "log_q_low/log_q_high[%d]" % i
         return None
 
@@ -281,10 +299,25 @@ class VesselProfile:
 
         Never raises, whatever ``blob`` is: wrong type or length, another
         format version, a CRC mismatch, unknown flags or a value outside the
-        ranges of :meth:`problem` each give their reason code.
+        ranges of :meth:`problem` each give their reason code. ``blob`` is a
+        ``bytes``, ``bytearray`` or ``memoryview`` of exactly
+        :data:`PROFILE_SIZE` bytes; a view is read as the bytes it covers,
+        whatever its item format (54 doubles are 432 bytes: REASON_LENGTH);
+        anything else, a subclass included, is REASON_LENGTH.
         """
         t = type(blob)
-        if not (t is bytes or t is bytearray or t is memoryview):
+        if t is memoryview:
+            # Read a view as the bytes it covers, whatever its item format: a view of
+            # 54 doubles is 432 bytes (its len() says 54). A view of more than
+            # PROFILE_SIZE bytes (CPython) or items (MicroPython) is refused uncopied.
+            try:
+                size = getattr(blob, "nbytes", None)   # CPython; MicroPython views are 1-D
+                if (len(blob) if size is None else size) > PROFILE_SIZE:
+                    return None, REASON_LENGTH
+                blob = bytes(blob)
+            except (TypeError, ValueError):          # a released or a 0-D view
+                return None, REASON_LENGTH
+        elif not (t is bytes or t is bytearray):
             return None, REASON_LENGTH
         if len(blob) != PROFILE_SIZE:
             return None, REASON_LENGTH

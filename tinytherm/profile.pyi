@@ -1,4 +1,4 @@
-from typing import Optional, Sequence, Tuple, Union
+from typing import List, Optional, Tuple, Union
 
 PROFILE_FORMAT: int
 PROFILE_SIZE: int
@@ -30,12 +30,12 @@ class VesselProfile:
     rate_exponent: float
     log_q_low: Tuple[float, float, float, float]
     log_q_high: Tuple[float, float, float, float]
-    def __init__(self, heater: bool = False, rate_per_s: float = ..., rate_log_sd: float = 0.5,
-                 eq_offset_c: float = 0.0, eq_offset_sd_c: float = 3.0,
+    def __init__(self, heater: Union[bool, int] = False, rate_per_s: float = ...,
+                 rate_log_sd: float = 0.5, eq_offset_c: float = 0.0, eq_offset_sd_c: float = 3.0,
                  gain_k_per_s: float = 0.0, gain_rel_sd: float = 0.0,
                  probe_lag_s: float = 0.0, rate_exponent: float = 1.0,
-                 log_q_low: Optional[Sequence[float]] = None,
-                 log_q_high: Optional[Sequence[float]] = None) -> None: ...
+                 log_q_low: Optional[Union[Tuple[float, ...], List[float]]] = None,
+                 log_q_high: Optional[Union[Tuple[float, ...], List[float]]] = None) -> None: ...
     def problem(self) -> Optional[str]: ...
     def rate_at(self, diff_c: float) -> float: ...
     def local_first_order(self, temp_c: float, ambient_c: float) -> Tuple[float, float]: ...

@@ -17,6 +17,7 @@ Runs unchanged on CPython and MicroPython (``math`` only).
 import math
 
 from tinytherm import status
+from tinytherm.num import exp  # saturates instead of raising (MicroPython raises ValueError)
 
 try:
     from micropython import const
@@ -42,13 +43,6 @@ def _ln(x):
         return math.log(x)
     except (ValueError, OverflowError):
         return None
-
-
-def _exp(x):
-    try:
-        return math.exp(x)
-    except (ValueError, OverflowError):
-        return 0.0 if x < 0.0 else math.inf
 
 
 # --------------------------------------------------------------------------
@@ -106,7 +100,7 @@ def beta_resistance_ohm(temp_c, r_nominal_ohm, beta_k, t_nominal_c=25.0):
     t0_k = t_nominal_c + KELVIN_OFFSET
     if not t_k > 0.0:
         raise ValueError("temp_c must be above absolute zero")
-    return r_nominal_ohm * _exp(beta_k * (1.0 / t_k - 1.0 / t0_k))
+    return r_nominal_ohm * exp(beta_k * (1.0 / t_k - 1.0 / t0_k))
 
 
 def beta_temperature_c(resistance_ohm, r_nominal_ohm, beta_k, t_nominal_c=25.0):
@@ -164,7 +158,7 @@ def steinhart_hart_resistance_ohm(temp_c, a, b, c):
         ln_r -= step
         if abs(step) <= 1e-12 * (1.0 + abs(ln_r)):
             break
-    return _exp(ln_r)
+    return exp(ln_r)
 
 
 class SteinhartHart:
@@ -358,7 +352,7 @@ class LagCompensator:
             self._x = sensor_c
             self._started = True
         elif dt_s > 0.0:
-            self._x += (1.0 - _exp(-dt_s / self.smoothing_s)) * (sensor_c - self._x)
+            self._x += (1.0 - exp(-dt_s / self.smoothing_s)) * (sensor_c - self._x)
         out = self._x + self._lead * (sensor_c - self._x)
         self.temp_c = out
         return out

@@ -290,11 +290,12 @@ def _confirm(st, fc, eta, args):
     """
     start = float(args[0])
     target = float(args[1])
-    k = fc._k
-    g = abs(fc._g)
-    amb = abs(fc._amb_c) + abs(fc._amb_amp) + abs(fc._pw_lo) + abs(fc._pw_hi)
-    if fc._amb_kind == 1:
-        amb += abs(fc._amb_slope) * min(eta, fc._amb_ramp_s)
+    k = fc.rate_per_s
+    g = abs(fc.gain_k_per_s)
+    am = fc.ambient
+    amb = abs(am.level_c) + abs(am.amplitude_c) + abs(am.pw_lo_c) + abs(am.pw_hi_c)
+    if am.kind == 1:
+        amb += abs(am.slope_c_per_s) * min(eta, am.ramp_s)
     heat = g * eta
     if k > 0.0 and g / k < heat:
         heat = g / k
@@ -309,7 +310,7 @@ def _confirm(st, fc, eta, args):
         if len(st.unconfirmed_examples) < 5:
             st.unconfirmed_examples.append(
                 _describe("eta=%r T(eta)=%r k=%r g=%r ambient kind %d plan %d " % (
-                    eta, t, k, fc._g, fc._amb_kind, fc._plan), args))
+                    eta, t, k, fc.gain_k_per_s, am.kind, fc.heater.kind), args))
 
 
 def _call_forecast(rng, fc, st, seqs):

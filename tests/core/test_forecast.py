@@ -119,7 +119,7 @@ def test_solution_satisfies_the_ode_on_random_schedules():
                 # skip probes too close to a kink of the piecewise ambient
                 near = False
                 for i in range(5):
-                    if abs(times[i] - fc._amb_now - tq) < 1.0:
+                    if abs(times[i] - fc.ambient.now_s - tq) < 1.0:
                         near = True
                 if near:
                     continue

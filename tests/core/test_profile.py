@@ -8,11 +8,17 @@ under MicroPython is read by CPython in tests/test_profile_runtimes.py).
 The closed form is checked here against its defining equation by a
 fine-step RK4 integration, and against scipy's solve_ivp in
 tests/test_host_calibrate.py.
+Hostile input, on both runtimes: ``from_blob`` never raises on a seeded loop
+of odd objects (memoryviews of every item size, random bytes with and without
+a valid CRC), and the constructor refuses junk arguments with a ValueError
+naming the argument. The hypothesis properties and the fuzz target for the
+same promises are tests/test_profile_properties.py and tests/fuzz_profile.py.
 """
+import array
 import math
 import struct
 
-from support import close
+from support import XorShift, close
 from tinytherm import crc
 from tinytherm import profile as pr
 from tinytherm.profile import VesselProfile
@@ -214,3 +220,125 @@ def test_local_first_order_is_the_tangent_of_the_power_law():
     # first order: the profile's own rate and equilibrium
     q = VesselProfile(rate_per_s=0.002, eq_offset_c=1.5)
     assert q.local_first_order(80.0, 20.0) == (0.002, 21.5)
+
+
+# ------------------------------------------------------------ hostile input
+ARG_NAMES = ("heater", "rate_per_s", "rate_log_sd", "eq_offset_c", "eq_offset_sd_c",
+             "gain_k_per_s", "gain_rel_sd", "probe_lag_s", "rate_exponent", "log_q_low",
+             "log_q_high")
+
+
+def _odd_blobs():
+    """Inputs to from_blob that are not a valid profile: (description, value)."""
+    good = bytes.fromhex(GOLDEN_HEX)
+    out = [
+        ("54 doubles", memoryview(array.array("d", [1] * 54))),
+        ("54 int32", memoryview(array.array("i", [1] * 54))),
+        ("54 uint16", memoryview(array.array("H", [1] * 54))),
+        ("27 uint16 of zeros", memoryview(array.array("H", [0] * 27))),
+        ("27 float32 ones", memoryview(array.array("f", [1.0] * 27))),
+        ("the array itself", array.array("B", good)),
+        ("view of 53 bytes", memoryview(good)[:53]),
+        ("view of 55 bytes", memoryview(good + b"\x00")),
+        ("empty view", memoryview(b"")),
+        ("list of the bytes", list(good)),
+        ("tuple of the bytes", tuple(good)),
+        ("str of 54", "\x01" * 54),
+        ("int", 54), ("float", 1.0), ("bool", True), ("None", None),
+        ("dict", {0: 1}), ("type", bytes), ("huge int", 10 ** 400),
+    ]
+    rng = XorShift(7)
+    for i in range(40):
+        n = (0, 1, 53, 54, 54, 54, 55, 200)[i % 8]
+        buf = bytearray(n)
+        for j in range(n):
+            buf[j] = rng.next_u32() & 0xFF
+        if n:
+            buf[0] = pr.PROFILE_FORMAT if i % 3 else buf[0]
+        if n == 54 and i % 2:
+            # a valid CRC over random fields; with known flags (all but #3 and #19) only
+            # the range check is left
+            if i % 16 != 3:
+                buf[1] &= pr.FLAG_HEATER
+            struct.pack_into("<I", buf, 50, crc.crc32(buf, 0, 0, 50))
+        out.append(("random %d bytes #%d" % (n, i), buf if i % 4 else memoryview(buf)))
+    if hasattr(memoryview, "cast"):          # CPython only: multi-dimensional and released views
+        out.append(("2-D view", memoryview(bytearray(108)).cast("B", (2, 54))))
+        out.append(("0-D view", memoryview(array.array("d", [1.0])).cast("B").cast("d", ())))
+        gone = memoryview(bytearray(good))
+        gone.release()
+        out.append(("released view", gone))
+    return out
+
+
+def test_from_blob_never_raises_on_odd_inputs():
+    codes = (pr.REASON_LENGTH, pr.REASON_VERSION, pr.REASON_CRC, pr.REASON_FLAGS,
+             pr.REASON_RANGE)
+    seen = set()
+    for what, blob in _odd_blobs():
+        try:
+            prof, reason = VesselProfile.from_blob(blob)
+        except Exception as exc:  # the promise is: never
+            raise AssertionError("%s raised %s %s" % (what, type(exc).__name__, exc))
+        if prof is not None:      # random bytes may, rarely, be a valid profile
+            assert reason == pr.REASON_OK, what
+            continue
+        assert reason in codes, (what, reason)
+        seen.add(reason)
+    # the loop reached every stage of the reader, not only the length check
+    assert seen == set(codes), seen
+
+
+def test_from_blob_reads_the_bytes_of_a_view_of_any_item_size():
+    # a view is read as the bytes it covers: 27 uint16 items holding a good blob is that blob
+    good = bytes.fromhex(GOLDEN_HEX)
+    halves = array.array("H", good)          # raw bytes in, on both runtimes
+    assert len(halves) == 27
+    prof, reason = VesselProfile.from_blob(memoryview(halves))
+    assert reason == pr.REASON_OK and prof.to_blob() == good
+    # a view of 54 bytes out of a longer buffer is accepted too
+    prof, reason = VesselProfile.from_blob(memoryview(b"xx" + good)[2:])
+    assert reason == pr.REASON_OK and prof.to_blob() == good
+
+
+def _raises_naming(kw, name):
+    try:
+        VesselProfile(**kw)
+    except ValueError as exc:
+        assert name in str(exc), (kw, str(exc))
+        return
+    except Exception as exc:
+        raise AssertionError("%r raised %s %s, not ValueError" % (kw, type(exc).__name__, exc))
+    raise AssertionError("accepted %r" % (kw,))
+
+
+def test_constructor_rejects_non_numbers_with_a_value_error_naming_the_argument():
+    junk = (None, "0.001", b"1", float("nan"), float("inf"), -float("inf"), 10 ** 400,
+            -10 ** 400, True, False, [0.001], (0.001,), {}, object())
+    for name in ARG_NAMES[1:9]:
+        for bad in junk:
+            _raises_naming({name: bad}, name)
+
+
+def test_constructor_checks_the_quantile_tables_item_by_item():
+    tables = {"log_q_low": (-0.1, -0.1, -0.1, -0.1), "log_q_high": (0.5, 0.5, 0.5, 0.5)}
+    for name in tables:
+        for bad in ((0.0, 0.0, 0.0), (0.0,) * 5, (), 0.1, "abcd", {0: 0.0, 1: 0.0, 2: 0.0, 3: 0.0},
+                    b"\x00\x00\x00\x00", True, object()):
+            _raises_naming({name: bad}, name)
+        for item in (None, "0.1", float("nan"), float("inf"), 10 ** 400, True, [0.1], 31.0):
+            kw = dict(tables)
+            kw[name] = [0.0, 0.0, 0.0, item]
+            _raises_naming(kw, name)
+    # lists and tuples both work, ints included
+    p = VesselProfile(log_q_low=[-1, -0.5, 0, 0], log_q_high=(1, 0.5, 0, 0.25))
+    assert p.log_q_low == (-1.0, -0.5, 0.0, 0.0) and type(p.log_q_low[0]) is float
+    assert p.log_q_high == (1.0, 0.5, 0.0, 0.25)
+
+
+def test_heater_must_be_a_bool_or_zero_or_one():
+    for bad in ("no", "yes", "", None, 2, -1, 1.0, 0.0, 0.5, [], [1], b"\x01"):
+        _raises_naming({"heater": bad}, "heater")
+    assert VesselProfile(heater=1, gain_k_per_s=0.2).heater is True
+    assert VesselProfile(heater=0).heater is False
+    assert VesselProfile(heater=True, gain_k_per_s=0.2).heater is True

@@ -1,12 +1,12 @@
 """Per-trace accuracy figures for the fleet replay, in memory that does not grow.
 
 A :class:`TraceScorer` takes the prediction rows of one replay as they come
-and gives the figures of :func:`host_sim.metrics.trace_metrics` (same
+and gives the figures of :func:`host_sim.replay.metrics.trace_metrics` (same
 definitions, scored on the answers a device shows: status tracking or
 arrived) plus ``early_arrival`` and ``first_answer_s``:
 
 - up to ``exact_rows`` evaluated rows (default 250,000) are kept in compact
-  float arrays and scored by :func:`host_sim.metrics.trace_metrics` itself;
+  float arrays and scored by :func:`host_sim.replay.metrics.trace_metrics` itself;
 - past that, the kept rows are folded into running counts and a histogram of
   the relative error with 1,000 logarithmic bins per decade (1e-6 .. 1e4),
   and the median and p90 are read off the histogram (each bin spans 0.23 %,
@@ -16,9 +16,9 @@ arrived) plus ``early_arrival`` and ``first_answer_s``:
 
 Without the true noise-free signal of a field trace, ``early_arrival`` uses
 the trace's own 5-reading running median (the smoothing that
-:func:`host_sim.replay.crossing_from_trace` uses) as the signal: rows with
+:func:`host_sim.replay.replay.crossing_from_trace` uses) as the signal: rows with
 status ``arrived`` while that median is short of the target by more than
-``max(0.3 C, 3 x noise_sd_c)`` (:func:`host_sim.metrics.early_arrivals`,
+``max(0.3 C, 3 x noise_sd_c)`` (:func:`host_sim.replay.metrics.early_arrivals`,
 counted in blocks of rows). ``noise_sd_c`` defaults to 0 (margin 0.3 C).
 
 The elapsed-fraction profile (:attr:`TraceScorer.profile`) counts shown
@@ -32,8 +32,8 @@ from array import array
 
 import numpy as np
 
-from host_sim import metrics
-from host_sim.replay import RunningMedian
+from host_sim.replay import metrics
+from host_sim.replay.replay import RunningMedian
 
 EXACT_ROWS = 250000
 HIST_LOW = -6.0            # log10 of the smallest binned relative error
@@ -177,7 +177,7 @@ class TraceScorer:
         self.profile = {}            # (fraction bin, error bin) -> count
 
     def add(self, row):
-        """Feed one prediction dict (keys of :attr:`host_sim.replay.ReplayResult.rows`)."""
+        """Feed one prediction dict (keys of :attr:`host_sim.replay.replay.ReplayResult.rows`)."""
         t = row["time_s"]
         status = row["status"]
         if self.t0 is None:

@@ -73,7 +73,7 @@ class ReplaySeries:
 
     @classmethod
     def from_replay(cls, trace, result):
-        """From a :class:`host_sim.trace_io.Trace` and a :class:`host_sim.replay.ReplayResult`."""
+        """From a :class:`host_sim.replay.trace_io.Trace` and a :class:`host_sim.replay.replay.ReplayResult`."""
         rows = result.rows
         verdicts = [st.VERDICT_NAMES.index(r["verdict"]) if r.get("verdict") in
                     st.VERDICT_NAMES else 0 for r in rows]
@@ -295,8 +295,8 @@ def plot_replay(trace, result, out_path, crossing_s=None, title=None, clean_c=No
                 crossing_label="true crossing"):
     """Write the two-panel replay figure to ``out_path`` (PNG).
 
-    ``trace``: the :class:`host_sim.trace_io.Trace`; ``result``: the
-    :class:`host_sim.replay.ReplayResult`; ``crossing_s``: the true (or
+    ``trace``: the :class:`host_sim.replay.trace_io.Trace`; ``result``: the
+    :class:`host_sim.replay.replay.ReplayResult`; ``crossing_s``: the true (or
     trace-derived) crossing time in seconds, or None; ``clean_c``: optional
     noise-free sensor signal at the trace times (deg C), drawn if given;
     ``unit``: ``"C"`` or ``"F"`` for the temperature axis. Returns what

@@ -3,7 +3,7 @@
 :func:`evaluate_trace` reads a trace file twice, one row at a time (first
 pass: the trace's own crossing of the target and whether a heater duty is
 ever nonzero; second pass: the replay, scored by
-:class:`host_sim.fleet_metrics.TraceScorer`), so memory does not grow with
+:class:`host_sim.fleet.metrics.TraceScorer`), so memory does not grow with
 the trace. Any failure becomes the result's ``error`` text.
 
 A variant whose ``core`` names another checkout (or a folder where a
@@ -20,9 +20,10 @@ import subprocess
 import sys
 import threading
 
-from host_sim.fleet_metrics import TraceScorer
-from host_sim.replay import CrossingFinder, replay_rows, settings_for
-from host_sim.trace_io import TraceError, iter_trace_rows, write_predictions
+from host_sim.fleet.metrics import TraceScorer
+from host_sim.replay.replay import CrossingFinder, replay_rows, settings_for
+from host_sim.replay.trace_io import write_predictions
+from host_sim.replay.trace_reader import TraceError, iter_trace_rows
 
 RESULT_KEYS = ("rows", "skipped_rows", "crossing_s", "median_rel_error", "p90_rel_error",
                "coverage", "no_estimate_fraction", "early_arrival", "first_answer_s",
@@ -62,7 +63,7 @@ def evaluate_trace(spec, variant, predictions_out=None):
 
     ``spec``: dict with ``path`` (trace CSV), ``target_c`` (deg C), optional
     ``crossing_s`` (a known crossing, seconds; otherwise the trace's own,
-    :class:`host_sim.replay.CrossingFinder`), ``noise_sd_c`` (deg C) and
+    :class:`host_sim.replay.replay.CrossingFinder`), ``noise_sd_c`` (deg C) and
     ``skip_bad`` (skip malformed rows instead of failing). ``variant``: dict
     with ``settings`` (core keyword arguments), ``heater`` (auto/on/off),
     optional ``ambient_c`` (deg C) and ``use_ambient_column``.
@@ -146,7 +147,7 @@ spec = importlib.util.spec_from_file_location(
 mod = importlib.util.module_from_spec(spec)
 sys.modules["tinytherm"] = mod
 spec.loader.exec_module(mod)
-from host_sim import fleet_core
+from host_sim.fleet import core as fleet_core
 fleet_core.serve()
 """
 
@@ -164,7 +165,8 @@ class CoreProcess:
         self._proc = None
 
     def _start(self):
-        here = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+        # the folder holding the host_sim package (host_sim/fleet/core.py -> three levels up)
+        here = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
         env = dict(os.environ)
         env["PYTHONPATH"] = here + (os.pathsep + env["PYTHONPATH"] if env.get("PYTHONPATH") else "")
         self._proc = subprocess.Popen([sys.executable, "-c", _BOOT, self.root],

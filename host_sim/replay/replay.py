@@ -111,7 +111,7 @@ def replay_rows(rows, target_c, use_ambient_column=True, **settings):
 
     ``rows``: any iterable of ``(time_s, temp_c, ambient_c, heater, ...)``
     tuples (seconds, deg C, deg C or None, duty 0..1 or None; further items
-    are ignored), e.g. :func:`host_sim.trace_io.iter_trace_rows`. Each row
+    are ignored), e.g. :func:`host_sim.replay.trace_reader.iter_trace_rows`. Each row
     goes through ``update(temp_c, dt_s, ambient_c=..., duty=...)`` then
     ``predict(target_c)`` (deg C) of a fresh estimator built with
     ``settings`` (the core's keyword arguments, e.g. from

@@ -197,15 +197,3 @@ def summarise(per_trace):
         "early_arrival": int(sum(early)) if early else None,
         "early_traces": sum(1 for v in early if v > 0) if early else None,
     }
-
-
-def format_metrics(m):
-    """One-line human summary of a metrics dict."""
-    def f(key, fmt):
-        v = m.get(key)
-        return "n/a" if v is None else fmt % v
-    return ("median rel. error %s, p90 %s, time-to-trust %s of the approach, "
-            "interval coverage %s, no estimate on %s of the readings"
-            % (f("median_rel_error", "%.3f"), f("p90_rel_error", "%.3f"),
-               f("time_to_trust", "%.2f"), f("coverage", "%.2f"),
-               f("no_estimate_fraction", "%.2f")))

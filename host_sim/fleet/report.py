@@ -3,7 +3,7 @@
 Beside ``RESULTS.csv`` (one row per manifest row, manifest order):
 
 - ``RESULTS.parquet``: the same table (pyarrow), numbers as numbers;
-- ``RESULTS_by_tag.csv``: per tag column and value, :func:`host_sim.metrics.summarise`
+- ``RESULTS_by_tag.csv``: per tag column and value, :func:`host_sim.replay.metrics.summarise`
   of the replayed traces (median over traces of the per-trace median and p90
   relative error, mean coverage and no-estimate fraction, ...), and ``failed``;
 - ``RESULTS_error_vs_elapsed.png``: median and p90 relative error of the shown
@@ -25,8 +25,9 @@ import os
 
 import numpy as np
 
-from host_sim import fleet_core, fleet_metrics
-from host_sim.metrics import summarise
+from host_sim.fleet import core as fleet_core
+from host_sim.fleet import metrics as fleet_metrics
+from host_sim.replay.metrics import summarise
 
 FIGURES = ("rows", "median_rel_error", "p90_rel_error", "coverage", "no_estimate",
            "early_arrival", "first_answer_s", "error")

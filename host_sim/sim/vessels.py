@@ -2,9 +2,9 @@
 
 A product team ships one vessel; between uses only the fill, the start
 temperature and the room change. Each vessel here fixes the geometry, the
-heater and the probe of a :mod:`host_sim.scenarios` kind (whose physics it
-reuses unchanged: the kind's ``rhs`` and its piecewise solve_ivp integration)
-and draws per use
+heater and the probe of a :mod:`host_sim.sim.scenarios` kind (a table of fixed
+values and a few ranges over the same physical kind, :mod:`host_sim.sim.kinds`,
+integrated by :func:`host_sim.sim.physics.integrate_piecewise`) and draws per use
 
 - the fill (kg of liquid), the start temperature and the room temperature,
 - for the bath, the heater duty (constant during a use).
@@ -36,23 +36,23 @@ parameters a calibration can be checked against: ``probe_lag_s``;
 heat capacity, ``P / sum(m c)``); for ``lab_pot`` also ``rate_per_s`` (at the
 use's fill), ``rate_exponent`` and ``eq_offset_c``.
 """
-import math
+import json
 
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from host_sim import scenarios
+from host_sim.sim import kinds, scenarios
+from host_sim.sim.physics import C_STEEL, C_WATER, SOLVER, find_crossing_s, integrate_piecewise
+from host_sim.sim.sensor import QUANTUM_C, plain_params, quantised, sample_times
 
-VESSELS = ("mug", "flask", "kettle", "bath", "lab_pot")
-VESSEL_TITLES = {
-    "mug": "stoneware mug, open top (cooling)",
-    "flask": "lidded travel mug (cooling)",
-    "kettle": "2.2 kW kettle (heating)",
-    "bath": "1.2 kW covered bath (heating)",
-    "lab_pot": "reference pot with the profile's own physics (heat, then cool)",
-}
+_NAMED = (("mug", "stoneware mug, open top (cooling)"),
+          ("flask", "lidded travel mug (cooling)"),
+          ("kettle", "2.2 kW kettle (heating)"),
+          ("bath", "1.2 kW covered bath (heating)"),
+          ("lab_pot", "reference pot with the profile's own physics (heat, then cool)"))
+VESSELS = tuple(name for name, _ in _NAMED)
+VESSEL_TITLES = dict(_NAMED)
 _CODE = {"mug": 101, "kettle": 102, "bath": 103, "lab_pot": 104, "flask": 105}
-QUANTUM_C = scenarios.QUANTUM_C
 
 # lab_pot: the profile's model with these known values
 LAB_POT = {
@@ -68,16 +68,15 @@ LAB_POT = {
 
 
 class _Fixed:
-    """Mixin: a scenario kind with the vessel's fixed parts and per-use draws."""
+    """Mixin: a scenario kind whose table is the vessel's fixed parts, then its per-use ranges."""
 
     fixed = {}
     varied = {}
 
-    def draw(self):
-        p = self.p
-        p.update(self.fixed)
-        for key, (lo, hi) in self.varied.items():
-            p[key] = self.u(lo, hi)
+    @property
+    def RANGES(self):
+        return (tuple(self.fixed.items())
+                + tuple((key, lo, hi) for key, (lo, hi) in self.varied.items()))
 
 
 class _Mug(_Fixed, scenarios.Mug):
@@ -97,7 +96,7 @@ class _Flask(_Fixed, scenarios.Mug):
 
 
 class _Kettle(_Fixed, scenarios.Kettle):
-    fixed = {"power_w": 2200.0, "element_j_per_k": 0.35 * scenarios.C_STEEL,
+    fixed = {"power_w": 2200.0, "element_j_per_k": 0.35 * C_STEEL,
              "element_w_per_k": 70.0, "body_j_per_k": 220.0, "body_w_per_k": 14.0,
              "body_area_m2": 0.065, "eps_body": 0.85, "height_m": 0.2,
              "sensor_plate_weight": 0.03, "sensor_lag_s": 6.0}
@@ -133,19 +132,12 @@ class Use:
         self.__dict__.update(kw)
 
 
-def _sensor(rng, clean, noise_c):
-    return np.round((clean + rng.normal(0.0, noise_c, len(clean))) / QUANTUM_C) * QUANTUM_C
-
-
-def _times(rng, interval_s, horizon_s):
-    n = int(horizon_s / interval_s) + 1
-    t = np.arange(n) * interval_s
-    t[1:] += rng.uniform(-0.1, 0.1, n - 1) * interval_s
-    return t
+JITTER = 0.1                      # sampling jitter, fraction of the interval
+ROOM_NOISE_C = 0.05               # the room sensor's noise, deg C
 
 
 def _first_above(sol, index, level, horizon_s, step_s):
-    return scenarios.find_crossing_s(lambda t: sol(t)[index], level, 1, 0.0, horizon_s, step_s)
+    return find_crossing_s(lambda t: sol(t)[index], level, 1, 0.0, horizon_s, step_s)
 
 
 def _scenario_use(name, seed):
@@ -156,7 +148,7 @@ def _scenario_use(name, seed):
     p = k.p
     duty = float(p.get("duty", 1.0))
     mode = {"lid": bool(getattr(k, "lid", False)), "duty": duty, "stir": 1.0}
-    sol = scenarios.integrate_piecewise(k.rhs, k.y0(), horizon_s, [], mode)
+    sol = integrate_piecewise(k.rhs, k.y0(), horizon_s, [], mode)
     end = horizon_s
     if name == "kettle":
         hot = _first_above(sol, 0, 96.0, horizon_s, 1.0)
@@ -164,24 +156,23 @@ def _scenario_use(name, seed):
     elif name == "bath":
         hot = _first_above(sol, 0, 70.0, horizon_s, 5.0)
         end = hot if hot is not None else horizon_s
-    times = _times(rng, interval_s, end)
+    times = sample_times(rng, interval_s, end, JITTER)
     times = times[times <= end]
     clean = sol(times)[k.sensor_index]
-    readings = _sensor(rng, clean, noise_c)
-    room = _sensor(rng, np.full(len(times), p["room_c"]), 0.05)
+    readings = quantised(rng, clean, noise_c, QUANTUM_C)
+    room = quantised(rng, np.full(len(times), p["room_c"]), ROOM_NOISE_C, QUANTUM_C)
     heater = np.full(len(times), duty) if k.has_heater else None
     truth = {"vessel": name, "seed": int(seed), "title": VESSEL_TITLES[name],
              "probe_lag_s": float(p["sensor_lag_s"]), "noise_c": noise_c,
              "room_c": float(p["room_c"]), "has_heater": bool(k.has_heater),
-             "params": {key: (float(v) if isinstance(v, (int, float)) and not isinstance(v, bool)
-                              else v) for key, v in p.items()}}
+             "params": plain_params(p)}
     if name in ("mug", "flask"):
         truth["fill_kg"] = float(p["liquid_kg"])
         truth["start_c"] = float(p["pour_c"])
     else:
         truth["fill_kg"] = float(p["water_kg"])
         truth["start_c"] = float(p["start_c"])
-        heat_cap = p["water_kg"] * scenarios.C_WATER + p["element_j_per_k"]
+        heat_cap = p["water_kg"] * C_WATER + p["element_j_per_k"]
         if name == "kettle":
             heat_cap += p["body_j_per_k"]
         truth["gain_k_per_s"] = float(p["power_w"] / heat_cap)
@@ -207,15 +198,10 @@ def _lab_pot_use(seed):
     n = lp["rate_exponent"]
     a = k / 10.0 ** (n - 1.0)
     eq = room + lp["eq_offset_c"]
-    g = lp["power_w"] / (fill * scenarios.C_WATER)
+    g = lp["power_w"] / (fill * C_WATER)
     lag = lp["probe_lag_s"]
-
-    def rhs(t, y, duty):
-        d = y[0] - eq
-        loss = a * math.sqrt(d * d + 1e-6) ** n * (1.0 if d >= 0.0 else -1.0)
-        return [-loss + g * duty, (y[0] - y[1]) / lag]
-
-    opts = dict(method="DOP853", rtol=1e-10, atol=1e-10, dense_output=True)
+    rhs = kinds.PowerLawPot(a=a, n=n, eq_c=eq, gain_k_per_s=g, lag_s=lag).rhs
+    opts = dict(SOLVER, dense_output=True)
 
     def at_cut(t, y, duty):
         return y[0] - cut
@@ -224,17 +210,17 @@ def _lab_pot_use(seed):
     t_cut = float(first.t_events[0][0]) if len(first.t_events[0]) else float(first.t[-1])
     cool_s = 2400.0
     second = solve_ivp(rhs, (t_cut, t_cut + cool_s), first.sol(t_cut), args=(0.0,), **opts)
-    times = _times(rng, 5.0, t_cut + cool_s)
+    times = sample_times(rng, 5.0, t_cut + cool_s, JITTER)
     times = times[times <= t_cut + cool_s]
     clean = np.where(times <= t_cut, first.sol(np.minimum(times, t_cut))[1],
                      second.sol(np.maximum(times, t_cut))[1])
-    readings = _sensor(rng, clean, lp["noise_c"])
+    readings = quantised(rng, clean, lp["noise_c"], QUANTUM_C)
     # duty per row: mean duty over (t_prev, t_now]
     prev = np.concatenate([[times[0]], times[:-1]])
     span = np.maximum(times - prev, 1e-12)
     duty = np.clip((np.minimum(times, t_cut) - np.minimum(prev, t_cut)) / span, 0.0, 1.0)
     duty[0] = 1.0
-    roomcol = _sensor(rng, np.full(len(times), room), 0.05)
+    roomcol = quantised(rng, np.full(len(times), room), ROOM_NOISE_C, QUANTUM_C)
     truth = {"vessel": "lab_pot", "seed": int(seed), "title": VESSEL_TITLES["lab_pot"],
              "probe_lag_s": lag, "noise_c": lp["noise_c"], "room_c": room, "has_heater": True,
              "fill_kg": fill, "start_c": start, "cut_c": cut, "cut_time_s": t_cut,
@@ -255,16 +241,15 @@ def generate_use(vessel, seed):
 
 
 def use_trace(use):
-    """The use as a :class:`host_sim.trace_io.Trace` (what a logger would have recorded)."""
-    from host_sim.trace_io import Trace
+    """The use as a :class:`host_sim.replay.trace_io.Trace` (what a logger would have recorded)."""
+    from host_sim.replay.trace_io import Trace
     return Trace(use.time_s, use.temp_c, ambient_c=use.ambient_c, heater=use.heater,
                  source="%s seed %d" % (use.vessel, use.seed))
 
 
 def write_use(use, trace_path, truth_path=None):
     """Write a use as a trace CSV (and its truth as JSON when ``truth_path`` is given)."""
-    import json
-    from host_sim.trace_io import write_trace
+    from host_sim.replay.trace_io import write_trace
     write_trace(trace_path, use.time_s, use.temp_c, ambient_c=use.ambient_c, heater=use.heater)
     if truth_path is not None:
         with open(truth_path, "w") as handle:

@@ -1,12 +1,12 @@
-"""Accuracy benchmark: the on-device estimator against batch baselines.
+"""``benchmark``: the accuracy benchmark, the on-device estimator against batch baselines.
 
 ``python -m host_sim benchmark --seeds tune|holdout|both [--per-kind N]``
 
 A seeded suite of ``N`` traces per scenario kind (default 14, so 70 traces per
-seed set) is generated with :mod:`host_sim.scenarios` (sensor faults on). Each
-trace is replayed through the core (:mod:`host_sim.replay`) and through the
-three baselines of :mod:`host_sim.baselines`, and scored with
-:mod:`host_sim.metrics` against the exact truth crossing. Two disjoint seed
+seed set) is generated with :mod:`host_sim.sim.scenarios` (sensor faults on). Each
+trace is replayed through the core (:mod:`host_sim.replay.replay`) and through the
+three baselines of :mod:`host_sim.replay.baselines`, and scored with
+:mod:`host_sim.replay.metrics` against the exact truth crossing. Two disjoint seed
 sets: ``tune`` (seeds 1000 + i) may be used to choose estimator settings;
 ``holdout`` (seeds 5000 + i) must not be, and is reported beside it.
 
@@ -27,11 +27,12 @@ import multiprocessing
 import sys
 import time
 
-from host_sim import scenarios
-from host_sim.baselines import make_baselines
-from host_sim.metrics import summarise, trace_metrics
-from host_sim.replay import replay
-from host_sim.trace_io import Trace
+from host_sim.cli.options import CliError, add_estimator_options, check_output, estimator_kwargs
+from host_sim.sim import scenarios
+from host_sim.replay.baselines import make_baselines
+from host_sim.replay.metrics import summarise, trace_metrics
+from host_sim.replay.replay import replay
+from host_sim.replay.trace_io import Trace
 
 SEED_BASE = {"tune": 1000, "holdout": 5000}
 METHODS = ("core", "core_raw", "slope", "exp_all", "exp_window600")
@@ -176,15 +177,31 @@ def write_csv(path, all_results):
                     w.writerow([seed_set, r["kind"], r["seed"], m] +
                                ["" if r[m][k] is None else r[m][k] for k in keys])
 
+def add_parser(sub):
+    """Add the ``benchmark`` subcommand to the CLI's subparsers."""
+    b = sub.add_parser("benchmark", help="accuracy benchmark against batch baselines",
+                       description="Seeded suite of scenarios: the estimator against naive "
+                                   "slope extrapolation and scipy exponential refits.")
+    b.add_argument("--seeds", choices=("tune", "holdout", "both"), default="both")
+    b.add_argument("--per-kind", type=int, default=14, metavar="N",
+                   help="traces per scenario kind and seed set (default 14: 70 traces)")
+    b.add_argument("--jobs", type=int, default=2, help="worker processes (default 2)")
+    b.add_argument("--csv", metavar="PER_TRACE.csv", help="write per-trace figures")
+    b.add_argument("--no-faults", action="store_true",
+                   help="diagnosis: scenarios without dropouts, spikes or stuck stretches")
+    add_estimator_options(b)
+    b.set_defaults(func=cmd_benchmark)
+    return b
 
-def run_cli(args):
-    """``benchmark`` subcommand (arguments from :mod:`host_sim.cli`)."""
-    from host_sim.cli import _estimator_kwargs
+
+def cmd_benchmark(args):
+    """Run the seeded suite for the chosen seed sets; returns the exit code."""
+    if args.csv:
+        check_output(args.csv, "--csv")
     try:
-        settings = _estimator_kwargs(args)
+        settings = estimator_kwargs(args)
     except ValueError as exc:
-        print("error: %s" % exc, file=sys.stderr)
-        return 2
+        raise CliError(str(exc)) from None
     settings["heater"] = args.heater
     settings["use_ambient_column"] = not args.ignore_ambient_column
     settings["sensor_faults"] = not args.no_faults

@@ -1,0 +1,84 @@
+"""``fleet MANIFEST.csv --out RESULTS.csv``: replay many traces on a dask cluster (see :mod:`host_sim.fleet.run`)."""
+import os
+
+from host_sim.cli.options import CliError
+
+
+def add_parser(sub):
+    """Add the ``fleet`` subcommand to the CLI's subparsers."""
+    f = sub.add_parser(
+        "fleet", help="replay many traces on a dask cluster, with an A/B of two cores",
+        description="Replay every trace of MANIFEST.csv (columns path,target and tag "
+                    "columns; paths relative to the manifest) or of a folder/glob through "
+                    "the estimator on a dask.distributed cluster (a LocalCluster here by "
+                    "default) and write one result row per trace.",
+        epilog="Workers need tinytherm with the sim extra, dask[distributed], and the trace "
+               "files at the same paths. An estimate is never a safety interlock.")
+    f.add_argument("manifest", metavar="MANIFEST.csv",
+                   help="manifest CSV, a folder of trace CSVs, or a quoted glob pattern")
+    f.add_argument("--out", required=True, metavar="RESULTS.csv",
+                   help="per-trace results; beside it RESULTS.parquet, RESULTS_by_tag.csv, "
+                        "RESULTS_report.md and PNG plots")
+    f.add_argument("--workers", type=int, default=None, metavar="N",
+                   help="LocalCluster workers (default: CPU count; 0: in this process, no dask)")
+    f.add_argument("--scheduler", metavar="ADDR",
+                   help="use an existing dask cluster, e.g. tcp://10.0.0.5:8786")
+    f.add_argument("--threads", action="store_true",
+                   help="LocalCluster workers as threads, not processes")
+    f.add_argument("--target", type=float, metavar="C",
+                   help="target, deg C, for traces without one in the manifest")
+    f.add_argument("--skip-bad", action="store_true",
+                   help="skip malformed rows (counted) instead of failing the trace")
+    f.add_argument("--chunk", type=int, metavar="K", help="traces per task (default: auto)")
+    f.add_argument("--core", metavar="PATH", help="candidate core: another checkout's folder "
+                   "(default: the installed tinytherm)")
+    f.add_argument("--set", action="append", metavar="NAME=VALUE", default=[],
+                   help="candidate estimator setting (repeatable), e.g. memory_s=900, "
+                        "heater=off, ambient_c=21")
+    f.add_argument("--baseline-core", metavar="PATH",
+                   help="A/B: the baseline (e.g. released) core's checkout or install folder")
+    f.add_argument("--baseline-set", action="append", metavar="NAME=VALUE", default=[],
+                   help="A/B: baseline estimator setting (repeatable)")
+    f.add_argument("--worse-by", type=float, default=0.02, metavar="X",
+                   help="A/B: a trace got worse when its median relative error rose by more "
+                        "than X (default 0.02)")
+    f.add_argument("--plot-worse", type=int, default=10, metavar="N",
+                   help="A/B: replay plots of the N worst traces (default 10)")
+    f.add_argument("--no-plots", action="store_true", help="no PNG plots")
+    f.add_argument("--quiet", action="store_true", help="no progress bar")
+    f.set_defaults(func=cmd_fleet)
+    return f
+
+
+def cmd_fleet(args):
+    """The ``fleet`` subcommand; returns the exit code."""
+    from host_sim.fleet import report as fleet_report
+    from host_sim.fleet.run import load_items, make_variant, run_fleet
+    try:
+        items, tag_names = load_items(args.manifest, args.target, args.skip_bad)
+        variants = {"cand": make_variant(args.core, args.set)}
+        if args.baseline_core or args.baseline_set:
+            variants["base"] = make_variant(args.baseline_core, args.baseline_set)
+    except (OSError, ValueError, RuntimeError) as exc:
+        raise CliError(str(exc)) from None
+    if not items:
+        raise CliError("no traces in %s" % args.manifest)
+    where = args.scheduler or ("this process" if args.workers == 0 else
+                               "a LocalCluster of %d worker(s)"
+                               % (args.workers or os.cpu_count() or 1))
+    print("fleet: %d trace(s) on %s" % (len(items), where))
+    try:
+        results = run_fleet(items, variants, workers=args.workers, scheduler=args.scheduler,
+                            processes=not args.threads, progress=not args.quiet,
+                            chunk_size=args.chunk)
+    except ImportError as exc:
+        raise CliError("%s (the fleet command needs the fleet extra: pip install "
+                       "\"tinytherm[fleet]\", or --workers 0 without dask)" % exc) from None
+    except OSError as exc:          # e.g. no scheduler at --scheduler ADDR
+        raise CliError(str(exc)) from None
+    report = fleet_report.write_all(args.out, items, tag_names, variants, results,
+                                    worse_by=args.worse_by, plot_worse=args.plot_worse,
+                                    plots=not args.no_plots)
+    for line in report:
+        print(line)
+    return 0
