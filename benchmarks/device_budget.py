@@ -1,21 +1,26 @@
 #!/usr/bin/env python3
-"""Measure the flash/RAM budget of the core on MicroPython and print the README table.
+"""The estimator's RAM and flash budget on MicroPython, now and at another commit.
 
-    .venv/bin/python benchmarks/device_budget.py [--updates 2000] [--heap 256K]
+    .venv/bin/python benchmarks/device_budget.py [--compare-commit 8c38707]
+        [--updates 3000] [--heap-run 20000]
 
-1. Compiles tinytherm/*.py with mpy-cross (tools/build_mpy.py) -> flash sizes.
-2. Runs the unix ``micropython`` binary on the .mpy files (and, for
-   comparison, on the .py sources) and measures with ``gc.mem_alloc()``:
-   heap held after importing each module, the size of one instance of each
-   public class, and the bytes allocated per ``update()`` (gc disabled while
-   counting, so every transient float box is counted) and retained after a
-   collection; also ``save()`` (the 128-byte state blob, after the first call
-   has made its buffer) and ``restore()``.
+For the working tree's core and (optionally) a commit's core, each compiled
+with ``mpy-cross -O3`` and loaded from ``.mpy`` files by the unix
+``micropython`` binary (64-bit: a float box takes one 32-byte GC block; a
+32-bit board uses 16), prints one markdown table:
 
-The unix port is 64-bit and boxes every float (16 bytes each); a 32-bit board
-with boxed float32 (e.g. ESP32) uses about half for pointer-sized objects, a
-port with 30-bit immediate floats allocates no boxes at all. The figures are
-what this script measured on the unix port, nothing else.
+- the smallest heap (``-X heapsize``, 1K steps) that imports the estimator
+  and runs ``--heap-run`` updates of 2 s readings, each followed by
+  ``predict`` of the same target, with a jump every 3,000 readings, no
+  profile;
+- the ``.mpy`` bytes of the estimator's import closure;
+- heap allocated per ``update`` and per ``predict`` (mean, and the largest
+  single call) with the ambient estimated, known, measured per reading, and
+  with a heater; and per ``update`` with sparse readings (one every 120 s);
+- the size of one estimator and of its saved state.
+
+Figures only; nothing passes or fails. The goals of the micro-core issue are
+printed beside them.
 """
 import argparse
 import ast
@@ -25,207 +30,208 @@ import sys
 import tempfile
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
-sys.path.insert(0, os.path.join(ROOT, "tools"))
-import build_mpy  # noqa: E402
+sys.path.insert(0, os.path.join(ROOT, "tests"))
+from test_on_micropython import find_tool  # noqa: E402
 
-# Runs under micropython; prints "key value" lines.
-PROBE = r'''
+# Runs under micropython: allocation per call in each mode.
+ALLOC = r'''
 import gc, sys, math
 sys.path[:] = [LIBDIR]
-gc.collect()
-base = gc.mem_alloc()
-for name in MODULES:
-    gc.collect()
-    a0 = gc.mem_alloc()
-    __import__("tinytherm." + name)
-    gc.collect()
-    print("import", name, gc.mem_alloc() - a0)
-gc.collect()
-print("import_all", gc.mem_alloc() - base)
-print("heap_free", gc.mem_free())
-
 from tinytherm.estimator import ThermalEstimator
-from tinytherm import sensors
-
-def size_of(make):
-    gc.collect()
-    a0 = gc.mem_alloc()
-    obj = make()
-    gc.collect()
-    return gc.mem_alloc() - a0, obj
-
-def per_call(fn, n):
-    gc.collect()
-    gc.disable()
-    a0 = gc.mem_alloc()
-    for i in range(n):
-        fn(i)
-    a1 = gc.mem_alloc()
-    gc.enable()
-    gc.collect()
-    a2 = gc.mem_alloc()
-    return (a1 - a0) / n, a2 - a0
-
 N = UPDATES
-def report(name, per, kept):
-    print("alloc " + name, per)
-    print("kept " + name, kept)
-def temp(i):
-    return 22.0 + 60.0 * math.exp(-i * 2.0 / 1500.0) + 0.05 * math.sin(i * 1.7)
 
-sz, est = size_of(lambda: ThermalEstimator())
-print("instance ThermalEstimator", sz)
-est.update(temp(0), 0.0)
-per, kept = per_call(lambda i: est.update(temp(i), 2.0), N)
-# the temp() call itself allocates; measure it alone and subtract
-per0, kept0 = per_call(lambda i: temp(i), N)
-report("ThermalEstimator.update", per - per0, kept)
-per, kept = per_call(lambda i: est.predict(60.0), 200)
-report("ThermalEstimator.predict", per, kept)
-sz, first = size_of(lambda: est.save())
-print("instance state blob buffer (kept by the first save())", sz)
-saved = bytes(first)
-per, kept = per_call(lambda i: est.save(), 200)
-report("ThermalEstimator.save", per, kept)
-woken = ThermalEstimator()
-per, kept = per_call(lambda i: woken.restore(saved), 200)
-report("ThermalEstimator.restore", per, kept)
-print("blob_bytes", len(saved))
+def run(label, kw, dt, ambient, heater):
+    est = ThermalEstimator(**kw)
+    su = sp = n = 0
+    big_u = big_p = 0
+    for i in range(N):
+        t = i * dt
+        y = 21.0 + 60.0 * math.exp(-t / 1500.0) + 0.03 * math.sin(i * 1.7)
+        y = math.floor(y * 16.0 + 0.5) / 16.0
+        a = 21.0 + 0.2 * math.sin(i / 50.0) if ambient else None
+        duty = 0.4 if heater else 0.0
+        step = 0.0 if i == 0 else dt
+        gc.collect()
+        a0 = gc.mem_alloc()
+        est.update(y, step, a, duty)
+        a1 = gc.mem_alloc()
+        est.predict(40.0)
+        a2 = gc.mem_alloc()
+        if i >= N // 10:
+            su += a1 - a0
+            sp += a2 - a1
+            n += 1
+            if a1 - a0 > big_u:
+                big_u = a1 - a0
+            if a2 - a1 > big_p:
+                big_p = a2 - a1
+    print(label, su // n, sp // n, big_u, big_p)
 
-sz, est2 = size_of(lambda: ThermalEstimator(heater=True))
-print("instance ThermalEstimator(heater=True)", sz)
-est2.update(20.0, 0.0, None, 1.0)
-per, kept = per_call(lambda i: est2.update(temp(i), 5.0, None, 1.0), N)
-report("ThermalEstimator(heater=True).update", per - per0, kept)
+run("estimated", {}, 2.0, False, False)
+run("known", {"ambient_c": 21.0}, 2.0, False, False)
+run("measured", {}, 2.0, True, False)
+run("heater", {"heater": True}, 2.0, False, True)
+run("sparse", {}, 120.0, False, False)
+gc.collect()
+a0 = gc.mem_alloc()
+est = ThermalEstimator()
+gc.collect()
+print("instance", gc.mem_alloc() - a0, 0, 0, 0)
+print("blob", len(est.save()), 0, 0, 0)
+'''
 
-sz, comp = size_of(lambda: sensors.LagCompensator(30.0))
-print("instance LagCompensator", sz)
-per, kept = per_call(lambda i: comp.update(temp(i), 2.0), N)
-report("LagCompensator.update", per - per0, kept)
-
-def ntc(i):
-    r = sensors.divider_resistance_ohm(30000 + (i & 1023), 65535, 10000.0)
-    return sensors.beta_temperature_c(r, 10000.0, 3950.0)
-per, kept = per_call(ntc, N)
-report("NTC counts->C (Beta)", per, kept)
-per, kept = per_call(lambda i: sensors.digital_raw_verdict(0x0191 + (i & 15)), N)
-report("digital_raw_verdict", per, kept)
+# Runs under micropython with a small heap: exits 0 only if everything ran.
+HEAP_RUN = r'''
+import sys, math
+sys.path[:] = [LIBDIR]
+from tinytherm.estimator import ThermalEstimator
+est = ThermalEstimator()
+temp = 80.0
+for i in range(RUN):
+    if i % 3000 == 2999:
+        temp += 6.0
+    temp = 21.0 + (temp - 21.0) * 0.998
+    est.update(math.floor((temp + 0.03 * math.sin(i * 1.7)) * 16.0 + 0.5) / 16.0,
+               0.0 if i == 0 else 2.0)
+    est.predict(40.0)
+print("ok", est.readings)
 '''
 
 
-def run_probe(libdir, modules, updates, heap):
-    script = PROBE.replace("LIBDIR", repr(libdir)).replace("MODULES", repr(modules)) \
-        .replace("UPDATES", str(updates))
+def build(src_root, out):
+    """Compile src_root/tinytherm/*.py to out/tinytherm/*.mpy; {module: .mpy bytes}."""
+    cross = find_tool("mpy-cross")
+    os.makedirs(os.path.join(out, "tinytherm"))
+    sizes = {}
+    for name in sorted(os.listdir(os.path.join(src_root, "tinytherm"))):
+        if name.endswith(".py"):
+            dst = os.path.join(out, "tinytherm", name[:-3] + ".mpy")
+            subprocess.run([cross, "-O3", "-o", dst, os.path.join(src_root, "tinytherm", name)],
+                           check=True)
+            sizes[name[:-3]] = os.path.getsize(dst)
+    return sizes
+
+
+def closure(src_root, name, seen=None):
+    """Core modules imported at module level by tinytherm/<name>.py, recursively (and itself)."""
+    seen = set() if seen is None else seen
+    if name in seen:
+        return seen
+    seen.add(name)
+    with open(os.path.join(src_root, "tinytherm", name + ".py")) as fh:
+        tree = ast.parse(fh.read())
+    for node in tree.body:  # module level only: lazy imports (the profile) are not paid
+        if isinstance(node, ast.ImportFrom) and node.module == "tinytherm":
+            for a in node.names:
+                closure(src_root, a.name, seen)
+        elif isinstance(node, ast.ImportFrom) and (node.module or "").startswith("tinytherm."):
+            closure(src_root, node.module.split(".")[1], seen)
+    seen.add("__init__")
+    return seen
+
+
+def micropython(script, heap, timeout=900):
     with tempfile.NamedTemporaryFile("w", suffix=".py", delete=False) as fh:
         fh.write(script)
         path = fh.name
     try:
-        mp = os.path.join(os.path.dirname(sys.executable), "micropython")
-        proc = subprocess.run([mp, "-X", "heapsize=" + heap, path], capture_output=True,
-                              text=True, timeout=600)
+        return subprocess.run([find_tool("micropython"), "-X", "heapsize=" + heap, path],
+                              capture_output=True, text=True, timeout=timeout)
     finally:
         os.unlink(path)
-    if proc.returncode != 0:
-        raise SystemExit("micropython failed:\n" + proc.stdout + proc.stderr)
-    out = {}
-    for line in proc.stdout.splitlines():
-        key, _, value = line.rpartition(" ")
-        out[key] = float(value)
-    return out
 
 
-def core_imports(name):
-    """Core modules that tinytherm/<name>.py imports (from its source)."""
-    with open(os.path.join(ROOT, "tinytherm", name + ".py")) as fh:
-        tree = ast.parse(fh.read())
-    found = []
-    for node in ast.walk(tree):
-        if isinstance(node, ast.ImportFrom) and node.module == "tinytherm":
-            found.extend(a.name for a in node.names)
-        elif isinstance(node, ast.ImportFrom) and node.module and \
-                node.module.startswith("tinytherm."):
-            found.append(node.module.split(".")[1])
-        elif isinstance(node, ast.Import):
-            found.extend(a.name.split(".")[1] for a in node.names
-                         if a.name.startswith("tinytherm."))
-    return sorted(set(found))
+def smallest_heap_k(lib, run, lo=16, hi=256):
+    """Smallest heap in KiB (1K steps) where HEAP_RUN succeeds, by bisection."""
+    script = HEAP_RUN.replace("LIBDIR", repr(lib)).replace("RUN", str(run))
+
+    def ok(k):
+        proc = micropython(script, "%dK" % k)
+        return proc.returncode == 0 and proc.stdout.startswith("ok")
+    if not ok(hi):
+        return None
+    while hi - lo > 1:
+        mid = (lo + hi) // 2
+        if ok(mid):
+            hi = mid
+        else:
+            lo = mid
+    return hi
 
 
-def import_order(names):
-    """Modules in an order where each one's core imports come first, so each
-    module's heap figure is its own (dependencies already counted)."""
-    order = []
+def measure(src_root, updates, run, label):
+    with tempfile.TemporaryDirectory() as tmp:
+        lib = os.path.join(tmp, "lib")
+        sizes = build(src_root, lib)
+        mods = closure(src_root, "estimator")
+        print("%s: allocation per call ..." % label, file=sys.stderr)
+        proc = micropython(ALLOC.replace("LIBDIR", repr(lib)).replace("UPDATES", str(updates)),
+                           "16M")
+        if proc.returncode != 0:
+            raise SystemExit(proc.stdout + proc.stderr)
+        alloc = {}
+        for line in proc.stdout.splitlines():
+            parts = line.split()
+            alloc[parts[0]] = [int(p) for p in parts[1:]]
+        print("%s: smallest heap ..." % label, file=sys.stderr)
+        heap = smallest_heap_k(lib, run)
+    return {"mpy": sum(sizes[m] for m in mods), "modules": len(mods), "alloc": alloc,
+            "heap_k": heap}
 
-    def visit(n, path):
-        if n in order or n not in names:
-            return
-        if n in path:
-            raise SystemExit("import cycle: %s" % " -> ".join(path + [n]))
-        for dep in core_imports(n):
-            visit(dep, path + [n])
-        order.append(n)
-    for n in ["__init__"] + sorted(names):
-        visit(n, [])
-    return order
+
+def export(rev):
+    """The core of commit ``rev`` in a temporary folder (git archive)."""
+    base = tempfile.mkdtemp(prefix="tinytherm_at_")
+    data = subprocess.run(["git", "archive", rev, "tinytherm"], cwd=ROOT, check=True,
+                          capture_output=True).stdout
+    subprocess.run(["tar", "-x", "-C", base], input=data, check=True)
+    return base
 
 
 def main(argv=None):
-    ap = argparse.ArgumentParser(description="Measure the core's flash/RAM budget on MicroPython")
-    ap.add_argument("--updates", type=int, default=2000, help="updates to average over")
-    ap.add_argument("--heap", default="8M", help="micropython heap size (-X heapsize)")
-    ap.add_argument("--commit", default=None,
-                    help="commit to print when the tree is not a git checkout (a git archive export)")
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--compare-commit", default=None,
+                    help="also measure this commit's core (e.g. 8c38707) and print it beside")
+    ap.add_argument("--updates", type=int, default=3000,
+                    help="readings per mode for the allocation figures (default 3000)")
+    ap.add_argument("--heap-run", type=int, default=20000,
+                    help="readings of the smallest-heap run (default 20000)")
     args = ap.parse_args(argv)
+    cols = [("now", measure(ROOT, args.updates, args.heap_run, "working tree"))]
+    if args.compare_commit:
+        cols.insert(0, (args.compare_commit,
+                        measure(export(args.compare_commit), args.updates, args.heap_run,
+                                args.compare_commit)))
+    head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=ROOT,
+                          capture_output=True, text=True).stdout.strip()
+    print("Unix micropython, .mpy -O3 from files; working tree at %s; %d readings per mode"
+          % (head, args.updates))
+    print()
+    print("| what | " + " | ".join(c[0] for c in cols) + " | goal |")
+    print("|---|" + "---:|" * len(cols) + "---|")
 
-    with tempfile.TemporaryDirectory() as tmp:
-        print("compiling with mpy-cross ...", file=sys.stderr)
-        rows = build_mpy.build(tmp)
-        names = [r[0][:-3] for r in rows]
-        mods = [n for n in import_order(names) if n != "__init__"]
-        print("measuring .mpy imports and updates ...", file=sys.stderr)
-        mpy = run_probe(tmp, mods, args.updates, args.heap)
-        print("measuring .py imports ...", file=sys.stderr)
-        src = run_probe(ROOT, mods, args.updates, args.heap)
-
-    print("Measured at commit %s%s" % ((args.commit, "") if args.commit else commit_id()))
-    print()
-    print("Flash and import heap (unix port, 64-bit; heap %s)" % args.heap)
-    print()
-    print("| module | .py bytes | .mpy bytes | heap after import, .mpy (B) | from .py (B) |")
-    print("| --- | ---: | ---: | ---: | ---: |")
-    size = {r[0][:-3]: r for r in rows}
-    for n in mods:
-        print("| %s | %d | %d | %d | %d |" % (n, size[n][1], size[n][2], mpy["import " + n],
-                                              src["import " + n]))
-    print("| **all** | %d | %d | %d | %d |" % (sum(r[1] for r in rows), sum(r[2] for r in rows),
-                                               mpy["import_all"], src["import_all"]))
-    print()
-    print("Instances and per-call allocation (.mpy, %d calls)" % args.updates)
-    print()
-    print("| what | bytes |")
-    print("| --- | ---: |")
-    for key in sorted(mpy):
-        if key.startswith("instance "):
-            print("| one %s | %d |" % (key[len("instance "):], mpy[key]))
-    for key in sorted(mpy):
-        if key.startswith("alloc "):
-            name = key[len("alloc "):]
-            print("| allocated per call: %s (retained after gc: %d B) | %.0f |" % (
-                name, mpy["kept " + name], mpy[key]))
-    print("| saved state blob (save() length) | %d |" % mpy["blob_bytes"])
+    def row(what, fn, goal):
+        print("| %s | %s | %s |" % (what, " | ".join(fn(c[1]) for c in cols), goal))
+    row("smallest heap, import + %d update/predict (KiB)" % args.heap_run,
+        lambda m: "-" if m["heap_k"] is None else "%dK" % m["heap_k"], "<= 40K")
+    row("estimator and its imports, .mpy bytes (modules)",
+        lambda m: "%d (%d)" % (m["mpy"], m["modules"]), "<= 12,000")
+    for mode in ("estimated", "known", "measured", "heater"):
+        row("update, mean B, ambient %s" % mode if mode != "heater" else "update, mean B, heater",
+            lambda m, mode=mode: "%d" % m["alloc"][mode][0], "<= 400")
+    for mode in ("estimated", "known", "measured", "heater"):
+        row("predict, mean B (%s)" % mode, lambda m, mode=mode: "%d" % m["alloc"][mode][1],
+            "<= 512")
+    row("largest single call, B (update / predict, any mode above)",
+        lambda m: "%d / %d" % (max(m["alloc"][k][2] for k in ("estimated", "known", "measured",
+                                                                   "heater")),
+                               max(m["alloc"][k][3] for k in ("estimated", "known", "measured",
+                                                                   "heater"))), "<= 3,072")
+    row("update, mean B, sparse readings (120 s apart)",
+        lambda m: "%d" % m["alloc"]["sparse"][0], "(reported)")
+    row("one ThermalEstimator, B", lambda m: "%d" % m["alloc"]["instance"][0], "")
+    row("saved state, B", lambda m: "%d" % m["alloc"]["blob"][0], "<= 512 (RTC memory)")
     return 0
-
-
-def commit_id():
-    """(short commit, " + uncommitted changes in tinytherm/" or "") of the measured tree."""
-    try:
-        head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=ROOT,
-                              capture_output=True, text=True, timeout=30).stdout.strip()
-        dirty = subprocess.run(["git", "status", "--porcelain", "--", "tinytherm"], cwd=ROOT,
-                               capture_output=True, text=True, timeout=30).stdout.strip()
-    except OSError:
-        return "unknown", ""
-    return head or "unknown", " + uncommitted changes in tinytherm/" if dirty else ""
 
 
 if __name__ == "__main__":

@@ -26,7 +26,7 @@ the saved state:
    (no heater), and the :class:`~tinytherm.audit.Audits` check old forecasts.
 4. ``predict`` (:mod:`tinytherm.answer`) works the answer out once per block
    and target, and counts it down between blocks. A rising liquid with no
-   direction given is not ``ARRIVED`` before the fit is
+   direction given and no heater on is not ``ARRIVED`` before the fit is
    :data:`RISE_ARRIVE_MIN_S` old: a probe warming after a pour or a top-up
    passes a drinking target on its way up while the drink is hotter.
 
@@ -236,8 +236,9 @@ class ThermalEstimator(Answer):
         t = as_float(temp_c)
         dt = as_float(dt_s)
         ok = self._inputs_ok(ambient_c, duty)
-        verdict = self.guard.check(temp_c if t is None else t, _NAN if dt is None else dt,
-                                   self._slope, ok)
+        # (anything float() refuses, or an int beyond the float range: BAD_INPUT,
+        # the same verdict on both runtimes)
+        verdict = self.guard.check(t, _NAN if dt is None else dt, self._slope, ok)
         return self._after_guard(verdict, t, ambient_c, duty)
 
     def update_ticks(self, temp_c, ticks_ms, ambient_c=None, duty=0.0, slept_s=None):
@@ -250,8 +251,7 @@ class ThermalEstimator(Answer):
         """
         t = as_float(temp_c)
         ok = self._inputs_ok(ambient_c, duty)
-        verdict = self.guard.check_ticks(temp_c if t is None else t, ticks_ms, self._slope, ok,
-                                         slept_s)
+        verdict = self.guard.check_ticks(t, ticks_ms, self._slope, ok, slept_s)
         return self._after_guard(verdict, t, ambient_c, duty)
 
     def _inputs_ok(self, ambient_c, duty):
@@ -306,9 +306,10 @@ class ThermalEstimator(Answer):
     def _close_block(self):
         """Close the block, first half: the change check and the regression's update.
 
-        The second half (:meth:`_finish_block`: solve, anchor, audits, turn)
-        runs with the next reading, so that no call carries the whole cost of
-        a block; until then ``predict`` counts the previous answer down.
+        The second half (:meth:`_finish_block`: solve, anchor, turn) runs in
+        the next ``predict`` (or before the next reading, or in ``save``), so
+        that no call carries the whole cost of a block; its result does not
+        depend on when it runs. The audits follow with the next reading.
         """
         b = self.blocks
         reg = self.reg
@@ -510,8 +511,11 @@ class ThermalEstimator(Answer):
         after the latest reading; ``None`` without an estimate), ``eta_rel_sd``,
         ``rate_per_s`` (1/s), ``equilibrium_c``, ``ambient_est_c``,
         ``temp_est_c`` (deg C) and ``gain_k_per_s`` (K/s). Reading the
-        answer changes nothing in the fit. Never raises.
+        answer changes no result of the fit (it may do the second half of a
+        block close that would otherwise wait for the next reading). Never raises.
         """
+        if self._pending == 1:
+            self._finish_block()  # a block closed with the latest reading: solve it now
         ans = self
         target = as_float(target_c)
         if approach != 1 and approach != -1:
@@ -641,11 +645,13 @@ class ThermalEstimator(Answer):
     def _arrived(self, target, m, approach, age_ms):
         """Arrival, the reading being on the line: the block means or the fitted
         level now have passed the target in the direction ``m``, in a fit old
-        enough (and, rising with no direction given, old enough to be no probe
-        warming up)."""
-        if age_ms < _ARRIVE_MIN_MS or (m > 0 and approach == 0
-                                       and age_ms < _RISE_ARRIVE_MIN_MS):
+        enough (and, rising with no direction given and no heater on, old
+        enough to be no probe warming up)."""
+        if age_ms < _ARRIVE_MIN_MS:
             return False
+        if m > 0 and approach == 0 and age_ms < _RISE_ARRIVE_MIN_MS and not (
+                self.heater and self.blocks.uc > 0):
+            return False  # (a rise the heater drives is a real one)
         if (self._ext >= target) if m > 0 else (self._ext <= target):
             return True
         reg = self.reg
