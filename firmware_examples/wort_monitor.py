@@ -66,10 +66,11 @@ def main():
     if rom is None:
         print("no 1-Wire sensor found on pin %d" % board.ONEWIRE_PIN)
         return
-    # The cellar or brew room is the usual ambient; the probe is a 1-Wire one
-    # (its -127.0 and 85.0 codes are rejected). The estimator's memory follows
-    # the fit's age, so the hours a fermenter takes need no setting.
-    est = ThermalEstimator(ambient_prior_c=CELLAR_C, probe_codes=True)
+    # The cellar or brew room is the usual ambient, known to within a few
+    # degrees; the probe is a 1-Wire one (its -127.0 and 85.0 codes are
+    # rejected). The estimator's memory follows the fit's age, so the hours a
+    # fermenter takes need no setting.
+    est = ThermalEstimator(ambient_prior_c=CELLAR_C, ambient_prior_sd_c=4.0, probe_codes=True)
     comp = sensors.LagCompensator(PROBE_LAG_S) if PROBE_LAG_S > 0.0 else None
     crc_errors = [0]
     skipped = 0

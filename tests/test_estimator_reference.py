@@ -82,7 +82,7 @@ def test_rate_spread_near_cramer_rao_bound(known_ambient):
         if known_ambient:
             est = run_estimator(y, (("KNOWN_AMBIENT_SD_C", 1e-3),), ambient_c=AMBIENT)
         else:
-            est = run_estimator(y, (("AMBIENT_PRIOR_SD_C", 50.0),))
+            est = run_estimator(y, ambient_prior_sd_c=50.0)
         ks.append(est.rate_per_s)
     t, _ = synthetic(0)
     if known_ambient:
@@ -115,7 +115,7 @@ def test_rate_spread_near_cramer_rao_bound(known_ambient):
 def test_agrees_with_scipy_least_squares():
     for seed in (3, 11, 29):
         t, y = synthetic(seed)
-        est = run_estimator(y, (("AMBIENT_PRIOR_SD_C", 50.0),))
+        est = run_estimator(y, ambient_prior_sd_c=50.0)
 
         def resid(p):
             return p[2] + (p[0] - p[2]) * np.exp(-p[1] * t) - y

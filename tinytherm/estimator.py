@@ -56,7 +56,6 @@ MIN_MEMORY_S = 30.0       # s: shortest forgetting time constant
 MAX_MEMORY_S = 7200.0     # s: longest
 SPAN_BLOCKS = 4.0         # the memory spans at least this many blocks (sparse readings)
 RATE_PRIOR_PER_S = 1.0 / 1800.0  # 1/s: sd of the loose prior on k (a line until the data bend)
-AMBIENT_PRIOR_SD_C = 8.0  # deg C: sd of the equilibrium hint with no ambient known
 KNOWN_AMBIENT_SD_C = 2.0  # deg C: sd with a known or measured ambient (evaporation, a bent rate)
 TURN_C = 1.0              # deg C: a retreat from the extreme that restarts the fit
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
@@ -108,8 +107,9 @@ class ThermalEstimator(Answer):
 
     - ``ambient_c``: known, constant ambient, deg C (``None``: pass a measured
       one with each reading, ``update(..., ambient_c=)``, or none is known).
-    - ``ambient_prior_c``: where the room usually is, deg C (a weak hint when
-      no ambient is known: 21 for a kitchen, 4 for a fridge).
+    - ``ambient_prior_c``, ``ambient_prior_sd_c``: where the room usually
+      is and how well the product knows it, deg C (a weak hint when no
+      ambient is known: 21 +- 8 for a kitchen, 4 +- 2 for a fridge).
     - ``heater``: ``True`` when a heater duty is passed with each reading.
     - ``interval``: two-sided probability of the reported time interval.
     - ``quantum_c``: the probe's resolution, deg C (0.0625 for a 12-bit
@@ -123,7 +123,8 @@ class ThermalEstimator(Answer):
       blob (see ``profile_reason`` when it is not used).
     """
 
-    def __init__(self, ambient_c=None, ambient_prior_c=21.0, heater=False, interval=0.8,
+    def __init__(self, ambient_c=None, ambient_prior_c=21.0, ambient_prior_sd_c=8.0,
+                 heater=False, interval=0.8,
                  quantum_c=0.0625, min_temp_c=-55.0, max_temp_c=150.0, spike_window=3,
                  restart_gap_s=3600.0, probe_codes=False, profile=None):
         if not number(min_temp_c, -1e4, 1e4) or not number(max_temp_c, -1e4, 1e4) \
@@ -133,6 +134,8 @@ class ThermalEstimator(Answer):
             raise ValueError("ambient_c must be None or a temperature in [min_temp_c, max_temp_c]")
         if not number(ambient_prior_c, -1e4, 1e4):
             raise ValueError("ambient_prior_c must be a finite temperature (deg C)")
+        if not number(ambient_prior_sd_c, 0.1, 1e4):
+            raise ValueError("ambient_prior_sd_c must be in [0.1, 1e4] deg C")
         if heater is not True and heater is not False:
             raise ValueError("heater must be True or False")
         if not number(interval, 0.01, 0.999):
@@ -160,11 +163,12 @@ class ThermalEstimator(Answer):
         self.reg = Regression(heater)
         self.audits = Audits()
         self._prior_r = float(ambient_prior_c)
+        self._prior_sd = float(ambient_prior_sd_c)
         self.interval = float(interval)
         self._z = normal_quantile(0.5 + 0.5 * self.interval)
         # every setting that changes the state's meaning, for restore's check
-        self._settings = crc32(("%r %r %r %r %r %r %r %r %r" % (
-            ambient_c, self._prior_r, heater, self.interval, self.guard.quantum_c,
+        self._settings = crc32(("%r %r %r %r %r %r %r %r %r %r" % (
+            ambient_c, self._prior_r, self._prior_sd, heater, self.interval, self.guard.quantum_c,
             self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
             self._profile is not None)).encode())
         # save() writes into this one buffer, made while the heap is fresh
@@ -438,7 +442,7 @@ class ThermalEstimator(Answer):
             sd = KNOWN_AMBIENT_SD_C
         else:
             dist = self._prior_r - self.blocks.g0 * _INV
-            sd = AMBIENT_PRIOR_SD_C
+            sd = self._prior_sd
         kp = 0.0
         lk = s2 / (RATE_PRIOR_PER_S * RATE_PRIOR_PER_S)
         gp = 0.0

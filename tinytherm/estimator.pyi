@@ -15,7 +15,6 @@ MIN_MEMORY_S: float
 MAX_MEMORY_S: float
 SPAN_BLOCKS: float
 RATE_PRIOR_PER_S: float
-AMBIENT_PRIOR_SD_C: float
 KNOWN_AMBIENT_SD_C: float
 TURN_C: float
 ARRIVE_TOL_C: float
@@ -62,7 +61,7 @@ class ThermalEstimator(Answer):
     temp_est_c: Optional[float]
     gain_k_per_s: float
     def __init__(self, ambient_c: Optional[float] = None, ambient_prior_c: float = 21.0,
-                 heater: bool = False, interval: float = 0.8, quantum_c: float = 0.0625,
+                 ambient_prior_sd_c: float = 8.0, heater: bool = False, interval: float = 0.8, quantum_c: float = 0.0625,
                  min_temp_c: float = -55.0, max_temp_c: float = 150.0, spike_window: int = 3,
                  restart_gap_s: float = 3600.0, probe_codes: bool = False,
                  profile: Union[VesselProfile, bytes, bytearray, memoryview, None] = None

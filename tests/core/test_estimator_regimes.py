@@ -172,6 +172,7 @@ def test_update_never_raises_on_hostile_arguments():
 def test_constructor_names_every_bad_argument():
     cases = (("interval", 1e-9), ("interval", 1.0), ("interval", None), ("ambient_c", "20"),
              ("ambient_c", 1e16), ("ambient_prior_c", INF), ("ambient_prior_c", None),
+             ("ambient_prior_sd_c", 0.0), ("ambient_prior_sd_c", 1e200),
              ("quantum_c", 1e155), ("heater", "no"), ("heater", 1), ("probe_codes", "yes"),
              ("spike_window", 4), ("restart_gap_s", NAN), ("restart_gap_s", 10 ** 400),
              ("min_temp_c", NAN), ("max_temp_c", None), ("profile", "not a profile"))
