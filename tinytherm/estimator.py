@@ -23,7 +23,7 @@ the saved state:
    only as a hint on ``k`` given the slope, used only when the liquid moves
    towards it: it may bend the curve, never turn it), the level is anchored
    on the block's residual, a reversal beyond :data:`TURN_C` restarts the fit
-   (no heater), and the :class:`~tinytherm.audit.Audits` check old forecasts.
+   (no heater), and the :class:`~tinytherm.answer.Audits` check old forecasts.
 4. ``predict`` (:mod:`tinytherm.answer`) works the answer out once per block
    and target, and counts it down between blocks. A rising liquid with no
    direction given and no heater on is not ``ARRIVED`` before the fit is
@@ -39,13 +39,11 @@ import struct
 
 from tinytherm import blob as bl
 from tinytherm import status as st
-from tinytherm.answer import Answer, eta_rel_var, spread
-from tinytherm.audit import Audits
+from tinytherm.answer import Answer, Audits, eta_rel_var, spread, time_to_target_from_slope_s
 from tinytherm.change import ChangeDetector
 from tinytherm.crc import crc32
 from tinytherm.fit import SCALE, BlockSums, Inputs, Noise, Regression, to_counts
 from tinytherm.guard import GAP_RESTART, ReadingGuard
-from tinytherm.model import time_to_target_from_slope_s
 from tinytherm.num import as_float, number
 
 # Fixed choices (module constants, not arguments: no product needs another value).
@@ -443,25 +441,12 @@ class ThermalEstimator(Answer):
         else:
             dist = self._prior_r - self.blocks.g0 * _INV
             sd = self._prior_sd
-        kp = 0.0
-        lk = s2 / (RATE_PRIOR_PER_S * RATE_PRIOR_PER_S)
-        gp = 0.0
-        lg = s2  # heater gain ~ N(0, 1 K/s) without a profile
-        if prof is not None:
-            # the first-order law tangent to the profile's power law at this distance
-            n = prof.rate_exponent
-            d = -(dist + prof.eq_offset_c)
-            dist = -d / n
-            sd = prof.eq_offset_sd_c / n
-            if sd < 0.05:
-                sd = 0.05
-            kp = n * prof.rate_at(d)
-            rel = prof.rate_log_sd if prof.rate_log_sd > 0.02 else 0.02
-            lk = s2 / (kp * kp * rel * rel)
-            gp = prof.gain_k_per_s
-            rel = prof.gain_rel_sd if prof.gain_rel_sd > 0.02 else 0.02
-            if gp != 0.0:
-                lg = s2 / (gp * gp * rel * rel)
+        if prof is None:
+            kp = gp = 0.0
+            lk = s2 / (RATE_PRIOR_PER_S * RATE_PRIOR_PER_S)
+            lg = s2  # heater gain ~ N(0, 1 K/s) without a profile
+        else:
+            dist, sd, kp, lk, gp, lg = prof.priors(dist, s2)
         # the slope without heat input, from the fit with the loose prior alone
         solved = False
         if self.heater:
@@ -490,10 +475,7 @@ class ThermalEstimator(Answer):
         for a in self.audits.a:
             a.check(self, age, self._level, self._slope, self.reg.k, need)
             if self._profile_on and a.n >= PROFILE_MISMATCH_N:
-                lo, hi = self._profile.interval_log_bounds(a.horizon_s(age))
-                own = (hi - lo) / (2.0 * PROFILE_Z80)
-                if own < 0.05:
-                    own = 0.05
+                own = self._profile.log_sd(a.horizon_s(age))
                 if a.var > PROFILE_MISMATCH_VAR * own * own:
                     # its forecasts fail on this liquid: another vessel's profile
                     self._profile_on = False
@@ -530,7 +512,8 @@ class ThermalEstimator(Answer):
             return ans.status
         b = self.blocks
         age = b.age_ms
-        if ans._for_gen == self._blocks_done and ans._for_target == target and ans._for_approach == approach:
+        if (ans._for_gen == self._blocks_done and ans._for_target == target
+                and ans._for_approach == approach):
             # the same block and question: count the answer down, unless the
             # latest reading has reached the arrival line
             m = ans._arrive_dir
@@ -543,6 +526,7 @@ class ThermalEstimator(Answer):
                 return ans.status
             elif ans.count_down(age):
                 return ans.status
+        ans._for_gen = -1
         try:
             self._work_out(target, approach)
         except (ValueError, OverflowError, ZeroDivisionError, TypeError):
@@ -550,7 +534,8 @@ class ThermalEstimator(Answer):
             ans._arrive_dir = 0
         if self._disturbed and (ans.status == st.SETTLING or ans.status == st.GATHERING):
             ans.status = st.DISTURBED  # re-learning after a jump
-        ans._for_gen = self._blocks_done
+        if ans._for_gen != -2:
+            ans._for_gen = self._blocks_done
         ans._for_target = target
         ans._for_approach = approach
         ans.count_down(age, True)
@@ -587,7 +572,7 @@ class ThermalEstimator(Answer):
             if -1e300 < r < 1e300:
                 ans.ambient_est_c = r
         y = b.c * _INV
-        gk = -(level - y)    # d slope / d k at the level
+        gk = -(level - b.cb * _INV)  # d slope / d k at the level (reference: the closing reading)
         var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
         # direction of travel: the slope when it stands out of its noise, else the block means
         if slope * slope > 4.0 * var_slope:
@@ -611,6 +596,7 @@ class ThermalEstimator(Answer):
                 return
         if gap * d <= 0.0:
             gap = target - y  # the level crossed, the readings not yet
+            ans._for_gen = -2  # (an answer from the latest reading: not counted down)
         if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
             return  # not moving, or turning: no honest time
         eta = time_to_target_from_slope_s(gap, slope, k)
@@ -639,7 +625,7 @@ class ThermalEstimator(Answer):
                 ans.eta_low_s = low
             if high > ans.eta_high_s:
                 ans.eta_high_s = high
-            own = (hi - lo) / (2.0 * PROFILE_Z80)
+            own = self._profile.log_sd(eta)
             if own < rel:
                 rel = own
         ans.eta_rel_sd = rel
@@ -675,24 +661,11 @@ class ThermalEstimator(Answer):
         return time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
 
     def _profile_law_s(self, gap_c, level_c, slope_c_per_s):
-        """Seconds to move ``gap_c`` under the profile's power law, or None.
-
-        ``dT/dt = -a |T - E|^n sign(T - E)`` with the profile's ``n`` and ``E``
-        (the ambient in use, or the hint, plus its offset) and ``a`` such that
-        the slope at ``level_c`` is the fitted one. Passive liquids only.
-        """
+        """Seconds under the profile's power law (passive liquids), or None."""
         if not self._profile_on or self.heater:
             return None
-        prof = self._profile
         r = self.blocks.rc * _INV if self.inputs.known() else self._prior_r
-        e = r + prof.eq_offset_c
-        d0 = level_c - e
-        if d0 == 0.0 or slope_c_per_s * d0 >= 0.0 or (d0 + gap_c) * d0 <= 0.0:
-            return None
-        t = prof.time_to_target_s(level_c, level_c + gap_c, e)
-        if t is None:
-            return None
-        return t * prof.rate_at(d0) * d0 / -slope_c_per_s
+        return self._profile.law_s(gap_c, level_c, slope_c_per_s, r)
 
     # ------------------------------------------------------------ save/restore
     def save(self):

@@ -1,7 +1,6 @@
 from typing import Optional, Union
 
-from tinytherm.answer import Answer
-from tinytherm.audit import Audits
+from tinytherm.answer import Answer, Audits
 from tinytherm.change import ChangeDetector
 from tinytherm.fit import BlockSums, Inputs, Noise, Regression
 from tinytherm.guard import ReadingGuard

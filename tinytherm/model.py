@@ -14,6 +14,7 @@ floats it returns. Runs unchanged on CPython and MicroPython.
 """
 import math
 
+from tinytherm.answer import time_to_target_from_slope_s  # noqa: F401 (the closed form, kept once)
 from tinytherm.num import exp  # saturates instead of raising (MicroPython raises ValueError)
 
 
@@ -169,40 +170,3 @@ def heating_time_s(mass_kg, specific_heat_j_per_kgk, start_c, target_c, power_w,
         raise ValueError("loss_w_per_k must be >= 0")
     return time_to_target_s(start_c, target_c, loss_w_per_k / heat_capacity, ambient_c,
                             power_w / heat_capacity, 1.0)
-
-
-def time_to_target_from_slope_s(gap_c, slope_c_per_s, rate_per_s):
-    """Seconds until the liquid has moved ``gap_c`` deg C (target minus now).
-
-    The liquid starts with slope ``slope_c_per_s`` (deg C/s) and follows
-    ``dT/dt = slope - k (T - T_now)`` with ``k = rate_per_s`` (1/s), so that
-    its equilibrium is ``T_now + slope / k``. One closed form serves every
-    regime::
-
-        eta = -log1p(-k D / s) / k      (D = gap_c, s = slope)
-
-    which is ``D / s`` for ``k = 0`` (a straight line), the familiar
-    exponential approach for ``k > 0`` and an accelerating curve for
-    ``k < 0``. Returns ``0.0`` for a zero gap and ``None`` when the target is
-    never reached: behind the direction of travel, no movement, or at or past
-    the equilibrium (``k D / s >= 1``), or for non-finite input.
-    """
-    if gap_c == 0.0:
-        return 0.0
-    if not (slope_c_per_s == slope_c_per_s and gap_c == gap_c and rate_per_s == rate_per_s):
-        return None
-    if slope_c_per_s == 0.0 or (gap_c > 0.0) != (slope_c_per_s > 0.0):
-        return None
-    ratio = gap_c / slope_c_per_s          # seconds at the starting slope, > 0
-    if ratio == math.inf:
-        return None
-    q = rate_per_s * ratio
-    if not q < 1.0:
-        return None  # (also NaN and inf)
-    if -1e-4 < q < 1e-4:
-        # series of -log(1 - q) / q: exact to ~1e-16 here, no cancellation
-        return ratio * (1.0 + q * (0.5 + q / 3.0))
-    try:
-        return -math.log(1.0 - q) / rate_per_s
-    except (ValueError, OverflowError, ZeroDivisionError):
-        return None

@@ -249,6 +249,50 @@ class VesselProfile:
         except (ValueError, OverflowError, ZeroDivisionError):
             return None
 
+    def priors(self, dist_c, s2):
+        """The estimator's priors from this profile: the first-order law tangent
+        to its power law at the distance ``dist_c`` (deg C) from the latest
+        reading's gap to the ambient hint.
+
+        Returns ``(dist_c, sd_c, rate, rate_weight, gain, gain_weight)``: the
+        hint's distance and sd (deg C), the rate prior's centre (1/s) and the
+        gain prior's centre (K/s), each weight being ``s2`` (the reading noise
+        variance, deg C^2) over the prior's variance.
+        """
+        n = self.rate_exponent
+        d = -(dist_c + self.eq_offset_c)
+        sd = self.eq_offset_sd_c / n
+        kp = n * self.rate_at(d)
+        rel = self.rate_log_sd if self.rate_log_sd > 0.02 else 0.02
+        gp = self.gain_k_per_s
+        rel_g = self.gain_rel_sd if self.gain_rel_sd > 0.02 else 0.02
+        return (-d / n, sd if sd > 0.05 else 0.05, kp, s2 / (kp * kp * rel * rel), gp,
+                s2 / (gp * gp * rel_g * rel_g) if gp != 0.0 else s2)
+
+    def law_s(self, gap_c, level_c, slope_c_per_s, ambient_c):
+        """Seconds to move ``gap_c`` (deg C) from ``level_c`` under this power law, or None.
+
+        ``dT/dt = -a |T - E|^n sign(T - E)`` with ``E = ambient_c +
+        eq_offset_c`` and ``a`` such that the slope at ``level_c`` is the
+        fitted ``slope_c_per_s``: the profile gives the shape, the data the
+        scale. None when the liquid moves away from E or the target is not
+        between the level and E.
+        """
+        e = ambient_c + self.eq_offset_c
+        d0 = level_c - e
+        if d0 == 0.0 or slope_c_per_s * d0 >= 0.0 or (d0 + gap_c) * d0 <= 0.0:
+            return None
+        t = self.time_to_target_s(level_c, level_c + gap_c, e)
+        if t is None:
+            return None
+        return t * self.rate_at(d0) * d0 / -slope_c_per_s
+
+    def log_sd(self, eta_s):
+        """The sd of ln(actual / predicted) its table gives at ``eta_s`` seconds (>= 0.05)."""
+        lo, hi = self.interval_log_bounds(eta_s)
+        sd = (hi - lo) / (2.0 * _Z90)
+        return sd if sd > 0.05 else 0.05
+
     def interval_log_bounds(self, eta_s):
         """``(low, high)``: 10 % and 90 % points of ln(actual / predicted) for ``eta_s`` (s).
 
