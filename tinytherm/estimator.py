@@ -636,11 +636,12 @@ class ThermalEstimator(Answer):
         """Arrival, the reading being on the line: the block means or the fitted
         level now have passed the target in the direction ``m``, in a fit old
         enough (and, rising with no direction given and no heater on, old
-        enough to be no probe warming up)."""
+        enough to be no probe warming up, and still rising: a probe that has
+        warmed to the drink and turned is no arrival)."""
         if age_ms < _ARRIVE_MIN_MS:
             return False
-        if m > 0 and approach == 0 and age_ms < _RISE_ARRIVE_MIN_MS and not (
-                self.heater and self.blocks.uc > 0):
+        if m > 0 and approach == 0 and not (self.heater and self.blocks.uc > 0) and (
+                age_ms < _RISE_ARRIVE_MIN_MS or not self._slope > 0.0):
             return False  # (a rise the heater drives is a real one)
         if (self._ext >= target) if m > 0 else (self._ext <= target):
             return True
