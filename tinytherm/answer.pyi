@@ -3,6 +3,14 @@ from typing import Any, Optional, Union
 from tinytherm.fit import Regression
 
 INF: float
+ARRIVE_TOL_C: float
+ARRIVE_MIN_S: float
+RISE_ARRIVE_MIN_S: float
+MAX_REL_SD: float
+FAULT_AFTER: int
+PROFILE_Z80: float
+SCALE: int
+DUTY_SCALE: int
 
 class Answer:
     status: int
@@ -19,6 +27,7 @@ class Answer:
     def clear(self, code: int) -> None: ...
     def arrive(self) -> None: ...
     def count_down(self, age_ms: int, force: bool = False) -> bool: ...
+    def predict(self, target_c: float, approach: int = 0) -> int: ...
 
 def eta_rel_var(gap: float, slope: float, k: float, eta: float, reg: Regression,
                 gk: float) -> float: ...

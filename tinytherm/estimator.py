@@ -39,7 +39,7 @@ import struct
 
 from tinytherm import blob as bl
 from tinytherm import status as st
-from tinytherm.answer import Answer, Audits, eta_rel_var, spread, time_to_target_from_slope_s
+from tinytherm.answer import Answer, Audits, time_to_target_from_slope_s
 from tinytherm.change import ChangeDetector
 from tinytherm.crc import crc32
 from tinytherm.fit import SCALE, BlockSums, Inputs, Noise, Regression, to_counts
@@ -56,25 +56,15 @@ SPAN_BLOCKS = 4.0         # the memory spans at least this many blocks (sparse r
 RATE_PRIOR_PER_S = 1.0 / 1800.0  # 1/s: sd of the loose prior on k (a line until the data bend)
 KNOWN_AMBIENT_SD_C = 2.0  # deg C: sd with a known or measured ambient (evaporation, a bent rate)
 TURN_C = 1.0              # deg C: a retreat from the extreme that restarts the fit
-ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
-ARRIVE_MIN_S = 30.0       # s: no arrival in a fit younger than this
-RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival without a direction before this (probe lag)
 DETECT_MIN_BLOCKS = 5     # blocks before the change detector listens
 ANCHOR_GAIN = 0.5         # weight of the newest block residual in the anchor
 MISMATCH_C = 0.03         # deg C: model-mismatch allowance of a block innovation
-MAX_REL_SD = 5.0          # an answer whose ln-time sd exceeds this stays SETTLING
 MAX_GAP_S = 900.0         # s: a longer gap is counted as a long gap (the guard's counts)
-FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
 PROFILE_HEATER_MISMATCH = 100  # profile_reason: a profile for the other heater mode
 PROFILE_REJECTED = 101    # profile_reason: dropped, its forecasts failed on this liquid
-PROFILE_Z80 = 1.2815515655446004  # the profile's table holds 10 % / 90 % points
 PROFILE_MISMATCH_VAR = 4.0  # dropped when the audits' error variance exceeds this many
 PROFILE_MISMATCH_N = 3      # times its own, over at least this many checks
 _INV = 1.0 / SCALE
-_IX_TO_CS = 1.0 / (2000 * SCALE)  # doubled count ms -> deg C s
-_IV_TO_S = 1.0 / (1000 * 1024)    # duty-count ms -> s at full duty
-_ARRIVE_MIN_MS = int(ARRIVE_MIN_S * 1000)
-_RISE_ARRIVE_MIN_MS = int(RISE_ARRIVE_MIN_S * 1000)
 _NAN = math.nan
 _HEAD = "<IHHBBdd"         # readings, changes, turns, flags, profile reason, anchor, extreme
 _HEAD_SIZE = 26
@@ -162,11 +152,10 @@ class ThermalEstimator(Answer):
         self.audits = Audits()
         self._prior_r = float(ambient_prior_c)
         self._prior_sd = float(ambient_prior_sd_c)
-        self.interval = float(interval)
-        self._z = normal_quantile(0.5 + 0.5 * self.interval)
+        self._z = normal_quantile(0.5 + 0.5 * interval)  # the interval's half-width in sd
         # every setting that changes the state's meaning, for restore's check
         self._settings = crc32(("%r %r %r %r %r %r %r %r %r %r" % (
-            ambient_c, self._prior_r, self._prior_sd, heater, self.interval, self.guard.quantum_c,
+            ambient_c, self._prior_r, self._prior_sd, heater, float(interval), self.guard.quantum_c,
             self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
             self._profile is not None)).encode())
         # save() writes into this one buffer, made while the heap is fresh
@@ -217,8 +206,6 @@ class ThermalEstimator(Answer):
         self._slope = 0.0
         self._blocks_done = 0               # blocks finished: the answer's cache key
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
-        self._yb = 0.0              # that block's mean reading, deg C
-        self._var_mismatch = 0.0    # 4 var(level) + MISMATCH_C^2 of the latest solve, deg C^2
         self._known = False         # an ambient was known at the latest solve
         self.forget()
         self.clear(st.GATHERING)
@@ -327,7 +314,7 @@ class ThermalEstimator(Answer):
             pred = reg.my + reg.s * tb - reg.k * xb + self._anchor
             if heater:
                 pred += reg.g * vb
-            sd = math.sqrt(self.noise.var / n + self._var_mismatch)
+            sd = math.sqrt(self.noise.var / n + 4.0 * reg.var_my + MISMATCH_C * MISMATCH_C)
             if self.detector.update(yb - pred, sd):
                 self.changes += 1
                 self._begin_again(True)
@@ -353,7 +340,6 @@ class ThermalEstimator(Answer):
                       reg.v + b.iv / (1000 * 1024) if heater else 0.0,
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
         b.next_block()
-        self._yb = yb
         self._known = self.inputs.known()
         self._pending = 1
 
@@ -371,7 +357,7 @@ class ThermalEstimator(Answer):
         b = self.blocks
         self._blocks_done += 1
         self._solve(self._known)
-        yb = self._yb
+        yb = reg.yb
         if reg.ok:
             # anchor: the block's residual against the new fit, smoothed over about two blocks
             res = yb - (reg.my + reg.s * reg.rt - reg.k * reg.rx)
@@ -381,7 +367,6 @@ class ThermalEstimator(Answer):
             self._level = reg.level() + self._anchor
             # slope at the level (the reference gap and duty are the closing reading's)
             self._slope = reg.s - reg.k * (self._level - b.cb * _INV)
-            self._var_mismatch = 4.0 * reg.var_my + MISMATCH_C * MISMATCH_C
             if reg.nb >= DETECT_MIN_BLOCKS:
                 self._disturbed = False  # established again after a jump
                 if self.audits.any_due((b.age_ms - b.it) * 0.001):
@@ -483,177 +468,6 @@ class ThermalEstimator(Answer):
                     self._solve(self._known)
                     return
 
-    # ------------------------------------------------------------------ answer
-    def predict(self, target_c, approach=0):
-        """Work out the time until ``target_c`` (deg C); return the status code.
-
-        ``approach``: -1 the product cools to its target (a drink), +1 heats
-        to it (a kettle, a bath), 0 not given (the direction of travel
-        decides, and a rise is an arrival only in a fit older than
-        ``RISE_ARRIVE_MIN_S``). With -1 or +1 a liquid moving the other way
-        is never ``ARRIVED`` and gets no time (``SETTLING``).
-
-        Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds
-        after the latest reading; ``None`` without an estimate), ``eta_rel_sd``,
-        ``rate_per_s`` (1/s), ``equilibrium_c``, ``ambient_est_c``,
-        ``temp_est_c`` (deg C) and ``gain_k_per_s`` (K/s). Reading the
-        answer changes no result of the fit (it may do the second half of a
-        block close that would otherwise wait for the next reading). Never raises.
-        """
-        if self._pending == 1:
-            self._finish_block()  # a block closed with the latest reading: solve it now
-        ans = self
-        target = as_float(target_c)
-        if approach != 1 and approach != -1:
-            approach = 0  # (a bad value: as if not given, never an exception)
-        if self.guard.consecutive_rejections >= FAULT_AFTER:
-            ans.forget()
-            ans.clear(st.SENSOR_FAULT)
-            return ans.status
-        b = self.blocks
-        age = b.age_ms
-        if (ans._for_gen == self._blocks_done and ans._for_target == target
-                and ans._for_approach == approach):
-            # the same block and question: count the answer down, unless the
-            # latest reading has reached the arrival line
-            m = ans._arrive_dir
-            reached = m != 0 and (b.c >= ans._arrive_c if m > 0 else b.c <= ans._arrive_c)
-            if ans.status == st.ARRIVED:
-                if reached:
-                    return ans.status
-            elif reached and self._arrived(target, m, approach, age):
-                ans.arrive()
-                return ans.status
-            elif ans.count_down(age):
-                return ans.status
-        ans._for_gen = -1
-        try:
-            self._work_out(target, approach)
-        except (ValueError, OverflowError, ZeroDivisionError, TypeError):
-            ans.clear(st.SETTLING)
-            ans._arrive_dir = 0
-        if self._disturbed and (ans.status == st.SETTLING or ans.status == st.GATHERING):
-            ans.status = st.DISTURBED  # re-learning after a jump
-        if ans._for_gen != -2:
-            ans._for_gen = self._blocks_done
-        ans._for_target = target
-        ans._for_approach = approach
-        ans.count_down(age, True)
-        return ans.status
-
-    def _work_out(self, target, approach):
-        """The full answer for the latest block close (cached by ``predict``)."""
-        ans = self
-        reg = self.reg
-        b = self.blocks
-        ans._for_age_ms = b.age_ms - b.it  # the answer is for the block close
-        ans._arrive_dir = 0
-        if b.readings < 3 or not reg.ok or target is None or not -1e4 <= target <= 1e4:
-            ans.clear(st.GATHERING)
-            if self.readings and not self._fresh:
-                ans.temp_est_c = b.c * _INV
-            return
-        ans.clear(st.SETTLING)
-        level = self._level
-        slope = self._slope
-        k = reg.k
-        ans.temp_est_c = level
-        ans.rate_per_s = k
-        ans.gain_k_per_s = reg.g
-        if k > 0.0:
-            e = level + slope / k
-            if -1e300 < e < 1e300:  # (a vanishing k levels off nowhere in range)
-                ans.equilibrium_c = e
-        if self.inputs.known():
-            ans.ambient_est_c = b.rc * _INV
-        elif ans.equilibrium_c is not None:
-            # unknown ambient: where the liquid would level off without heat input
-            r = ans.equilibrium_c - reg.g * (b.uc / 1024) / k
-            if -1e300 < r < 1e300:
-                ans.ambient_est_c = r
-        y = b.c * _INV
-        gk = -(level - b.cb * _INV)  # d slope / d k at the level (reference: the closing reading)
-        var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
-        # direction of travel: the slope when it stands out of its noise, else the block means
-        if slope * slope > 4.0 * var_slope:
-            d = 1 if slope > 0.0 else -1
-        else:
-            d = self._dir
-        m = self._dir
-        if approach != 0 and ((m if m != 0 else d) != approach or d == -approach):
-            return  # moving away from how this product reaches its target
-        gap = target - level
-        age_s = b.age_ms * 0.001
-        if m != 0:
-            # the arrival line: at most min(0.3 C, 3 noise sd) short of the target
-            tol = 3.0 * self.noise.sd
-            if tol > ARRIVE_TOL_C:
-                tol = ARRIVE_TOL_C
-            ans._arrive_dir = m
-            ans._arrive_c = to_counts(target - m * tol)
-            if (b.c - ans._arrive_c) * m >= 0 and self._arrived(target, m, approach, b.age_ms):
-                ans.arrive()
-                return
-        if gap * d <= 0.0:
-            gap = target - y  # the level crossed, the readings not yet
-            ans._for_gen = -2  # (an answer from the latest reading: not counted down)
-        if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
-            return  # not moving, or turning: no honest time
-        eta = time_to_target_from_slope_s(gap, slope, k)
-        eta_shape = self._profile_law_s(gap, level, slope)
-        if eta is None and eta_shape is None:
-            # beyond the equilibrium: say so only when even a slow bend reaches it
-            if (k - 2.0 * math.sqrt(reg.pkk)) * gap / slope >= 1.0:
-                ans.status = st.OUT_OF_REACH
-            return
-        rel2 = 0.0 if eta is None else eta_rel_var(gap, slope, k, eta, reg, gk)
-        if eta_shape is not None:
-            eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
-        rel = math.sqrt(rel2 + self.audits.var_at(eta, age_s))
-        f = spread(self._z * rel)
-        ans.eta_s = eta
-        ans.eta_low_s = eta / f
-        ans.eta_high_s = eta * f
-        if self._profile_on:
-            # and the profile's own calibrated quantiles of ln(actual / predicted),
-            # split-conformal (host_sim.calibrate.pipeline): the union
-            lo, hi = self._profile.interval_log_bounds(eta)
-            z = self._z / PROFILE_Z80
-            low = eta * math.exp(z * lo)
-            high = eta * spread(z * hi)
-            if low < ans.eta_low_s:
-                ans.eta_low_s = low
-            if high > ans.eta_high_s:
-                ans.eta_high_s = high
-            own = self._profile.log_sd(eta)
-            if own < rel:
-                rel = own
-        ans.eta_rel_sd = rel
-        if rel <= MAX_REL_SD:
-            ans.status = st.TRACKING
-
-    def _arrived(self, target, m, approach, age_ms):
-        """Arrival, the reading being on the line: the block means or the fitted
-        level now have passed the target in the direction ``m``, in a fit old
-        enough (and, rising with no direction given and no heater on, old
-        enough to be no probe warming up, and still rising: a probe that has
-        warmed to the drink and turned is no arrival)."""
-        if age_ms < _ARRIVE_MIN_MS:
-            return False
-        if m > 0 and approach == 0 and not (self.heater and self.blocks.uc > 0) and (
-                age_ms < _RISE_ARRIVE_MIN_MS or not self._slope > 0.0):
-            return False  # (a rise the heater drives is a real one)
-        if (self._ext >= target) if m > 0 else (self._ext <= target):
-            return True
-        reg = self.reg
-        b = self.blocks
-        # the fitted level at the latest reading (the fit's coordinates moved on)
-        level = (reg.my + reg.s * (reg.t + b.it * 0.001) - reg.k * (reg.x + b.ix * _IX_TO_CS)
-                 + self._anchor)
-        if self.heater:
-            level += reg.g * (reg.v + b.iv * _IV_TO_S)
-        return (level >= target) if m > 0 else (level <= target)
-
     def forecast_s(self, moved_c, level_c, slope_c_per_s, rate_per_s):
         """Seconds the answer's law takes to move ``moved_c`` from ``level_c`` (the audits)."""
         t = self._profile_law_s(moved_c, level_c, slope_c_per_s)
@@ -753,7 +567,6 @@ class ThermalEstimator(Answer):
         if reg.ok:
             self._level = reg.level() + anchor
             self._slope = reg.s - reg.k * (self._level - b.cb * _INV)
-            self._var_mismatch = 4.0 * reg.var_my + MISMATCH_C * MISMATCH_C
         elif reg.nb >= 1.5:
             return bl.BLOB_VALUES
         return bl.RESTORED

@@ -16,18 +16,12 @@ SPAN_BLOCKS: float
 RATE_PRIOR_PER_S: float
 KNOWN_AMBIENT_SD_C: float
 TURN_C: float
-ARRIVE_TOL_C: float
-ARRIVE_MIN_S: float
-RISE_ARRIVE_MIN_S: float
-DETECT_MIN_BLOCKS: int
+RISE_DETECT_MIN_BLOCKS: int
 ANCHOR_GAIN: float
 MISMATCH_C: float
-MAX_REL_SD: float
 MAX_GAP_S: float
-FAULT_AFTER: int
 PROFILE_HEATER_MISMATCH: int
 PROFILE_REJECTED: int
-PROFILE_Z80: float
 PROFILE_MISMATCH_VAR: float
 PROFILE_MISMATCH_N: int
 
@@ -36,7 +30,6 @@ def normal_quantile(p: float) -> float: ...
 class ThermalEstimator(Answer):
     heater: bool
     profile_reason: int
-    interval: float
     guard: ReadingGuard
     detector: ChangeDetector
     inputs: Inputs
@@ -70,7 +63,6 @@ class ThermalEstimator(Answer):
                duty: float = 0.0) -> int: ...
     def update_ticks(self, temp_c: float, ticks_ms: int, ambient_c: Optional[float] = None,
                      duty: float = 0.0, slept_s: Optional[float] = None) -> int: ...
-    def predict(self, target_c: float, approach: int = 0) -> int: ...
     def forecast_s(self, moved_c: float, level_c: float, slope_c_per_s: float,
                    rate_per_s: float) -> Optional[float]: ...
     def save(self) -> bytearray: ...

@@ -313,6 +313,7 @@ class Regression:
         self.ctt = self.ctx = self.cty = self.cxx = self.cxy = self.cyy = 0.0
         self.ctu = self.cxu = self.cuu = self.cuy = 0.0
         self.t = self.x = self.v = 0.0
+        self.rt = self.rx = self.rv = self.yb = 0.0  # the latest block, for its residual
         self.clear()
 
     def clear(self):
@@ -328,10 +329,11 @@ class Regression:
         ``lam``: the weight the old blocks keep; ``t_end, x_end, v_end``: the
         latest reading's coordinates (same origin as ``tb``...); ``dg, du``:
         the change of the reference gap (deg C) and duty the new origin takes.
-        Returns the block's coordinates about the new means and reference,
-        for the residual: it is stored in ``self.rt, self.rx, self.rv``.
+        The block's coordinates about the new means and reference and its
+        mean reading are kept for its residual: ``rt, rx, rv, yb``.
         """
         # West's weighted update with the new point at (tb, xb, vb); the old means are 0
+        self.yb = yb
         w = lam * self.w + n
         f = n / w
         h = n * (1.0 - f)

@@ -99,6 +99,7 @@ class Regression:
     rt: float
     rx: float
     rv: float
+    yb: float
     s: float
     k: float
     g: float
