@@ -141,17 +141,15 @@ def _exp_neg(x):
         return 0.0
 
 
-# Saved state (after the blob header): ints, then float64 fields by name.
-_INT_FMT = "<IHHBBBBBBBB"  # readings, changes, turns, block n, guard window n, guard
-#   consecutive rejections, fit readings (capped), flags | direction, audits 0 | 1, audits 2,
-#   noise samples
+# Saved state (after the blob header): ints, then float64 fields by name, then
+# the guard's and the change detector's own bytes (their pack_into)
+_INT_FMT = "<IHHBBBBBB"  # readings, changes, turns, block n, fit readings (capped),
+#   flags | direction, audits 0 | 1, audits 2, noise samples
 _FLOATS = ("_w", "_w2", "_nb", "_my", "_ctt", "_ctx", "_ctu", "_cty", "_cxx", "_cxu",
            "_cxy", "_cuu", "_cuy", "_cyy", "_t", "_x", "_v", "_age", "_b_dur", "_g0", "_u0",
            "_bt", "_bx", "_bv", "_by", "_y_prev", "_r_prev", "_u_prev", "_noise2", "_s2_fit",
            "_ext", "_anchor")
 _AUDIT_FLOATS = ("age", "level", "slope", "rate", "var")
-_GUARD_FLOATS = ("_w1", "_w2", "_w3", "_w4", "_run_s", "_run_rate")
-_DETECT_FLOATS = ("up", "down", "mean_abs_z")
 
 
 class _Audit:
@@ -319,7 +317,7 @@ class ThermalEstimator:
         self.guard = ReadingGuard(min_c=min_temp_c, max_c=max_temp_c, quantum_c=quantum_c,
                                   spike_window=spike_window, max_gap_s=max_gap_s,
                                   restart_gap_s=restart_gap_s, stuck_change_c=stuck_change_c,
-                                  stuck_min_s=stuck_min_s)
+                                  stuck_min_s=stuck_min_s, probe_codes=True)
         self.detector = ChangeDetector(jump_z=12.0) if detect_changes else None
         self._ambient_fixed = None if ambient_c is None else float(ambient_c)
         self._prior_r = float(ambient_prior_c)
@@ -1080,9 +1078,9 @@ class ThermalEstimator:
     # ------------------------------------------------------------ save/restore
     def _settings_byte(self):
         return ((1 if self.heater else 0) | (2 if self._ambient_fixed is not None else 0)
-                | (4 if self.guard.spike_window == 5 else 0)
                 | (8 if self.detector is not None else 0)
-                | (16 if self._profile is not None else 0))
+                | (16 if self._profile is not None else 0)
+                | (self.guard.settings_key() << 5))
 
     def save(self):
         """The whole state as a blob of ``tinytherm.blob.BLOB_SIZE`` (480) bytes.
@@ -1095,10 +1093,9 @@ class ThermalEstimator:
         g = self.guard
         buf = self._blob_buf
         flags = ((1 if self._fresh else 0) | (2 if self._disturbed else 0)
-                 | (4 if self._measured else 0) | (8 if g._has_accepted else 0))
+                 | (4 if self._measured else 0))
         struct.pack_into(_INT_FMT, buf, bl.PAYLOAD_OFFSET, self.readings & 0xFFFFFFFF,
-                         self.changes & 0xFFFF, self.turns & 0xFFFF, self._bn, g._win_n,
-                         g.consecutive_rejections if g.consecutive_rejections < 255 else 255,
+                         self.changes & 0xFFFF, self.turns & 0xFFFF, self._bn,
                          self._fit_readings if self._fit_readings < 255 else 255,
                          flags | ((self._dir + 1) << 4) | (64 if self._profile_on else 0),
                          self._audits[0].n | (self._audits[1].n << 4), self._audits[2].n,
@@ -1111,15 +1108,10 @@ class ThermalEstimator:
             for name in _AUDIT_FLOATS:
                 struct.pack_into("<d", buf, offset, getattr(a, name))
                 offset += 8
-        for name in _GUARD_FLOATS:
-            struct.pack_into("<d", buf, offset, getattr(g, name))
-            offset += 8
-        struct.pack_into("<d", buf, offset, g._pending_s + g._pending_ms * 0.001)
-        offset += 8
-        d = self.detector
-        for name in _DETECT_FLOATS:
-            struct.pack_into("<d", buf, offset, getattr(d, name) if d is not None else 0.0)
-            offset += 8
+        g.pack_into(buf, offset)
+        offset += g.STATE_SIZE
+        if self.detector is not None:
+            self.detector.pack_into(buf, offset)
         return bl.seal(buf)
 
     def restore(self, blob):
@@ -1142,7 +1134,7 @@ class ThermalEstimator:
 
     def _unpack(self, blob):
         g = self.guard
-        (readings, changes, turns, bn, win_n, rej, fit_readings, flags, n01, n2,
+        (readings, changes, turns, bn, fit_readings, flags, n01, n2,
          noise_n) = struct.unpack_from(_INT_FMT, blob, bl.PAYLOAD_OFFSET)
         offset = bl.PAYLOAD_OFFSET + struct.calcsize(_INT_FMT)
         direction = ((flags >> 4) & 3) - 1
@@ -1152,14 +1144,13 @@ class ThermalEstimator:
         flags &= 15
         n0 = n01 & 15
         n1 = n01 >> 4
-        if not (bn <= MAX_BLOCK_READINGS and win_n <= 4 and -1 <= direction <= 1 and n0 <= AUDIT_MEMORY
+        if not (bn <= MAX_BLOCK_READINGS and -1 <= direction <= 1 and n0 <= AUDIT_MEMORY
                 and n1 <= AUDIT_MEMORY and n2 <= AUDIT_MEMORY and noise_n <= 100
                 and fit_readings <= readings):
             return bl.BLOB_VALUES
         # every float must be finite and of a plausible size before any is used
         big = 1e12
-        for i in range(len(_FLOATS) + 3 * len(_AUDIT_FLOATS) + len(_GUARD_FLOATS) + 1
-                       + len(_DETECT_FLOATS)):
+        for i in range(len(_FLOATS) + 3 * len(_AUDIT_FLOATS)):
             if not _number(struct.unpack_from("<d", blob, offset + 8 * i)[0], -big, big):
                 return bl.BLOB_VALUES
         self.reset()
@@ -1172,16 +1163,13 @@ class ThermalEstimator:
                 offset += 8
             if not (a.var >= 0.0 and a.age <= self._age):
                 return bl.BLOB_VALUES
-        for name in _GUARD_FLOATS:
-            setattr(g, name, struct.unpack_from("<d", blob, offset)[0])
-            offset += 8
-        pending = struct.unpack_from("<d", blob, offset)[0]
-        offset += 8
+        # the guard and the detector check their own bytes
+        if not g.unpack_from(blob, offset):
+            return bl.BLOB_VALUES
+        offset += g.STATE_SIZE
         d = self.detector
-        for name in _DETECT_FLOATS:
-            if d is not None:
-                setattr(d, name, struct.unpack_from("<d", blob, offset)[0])
-            offset += 8
+        if d is not None and not d.unpack_from(blob, offset):
+            return bl.BLOB_VALUES
         lo = self.min_temp_c
         hi = self.max_temp_c
         if not (self._w >= 0.0 and self._w2 >= 0.0 and self._nb >= 0.0
@@ -1189,13 +1177,7 @@ class ThermalEstimator:
                 and self._cyy >= 0.0 and self._age >= 0.0 and 0.0 <= self._b_dur <= self._age
                 and 0.0 <= self._u0 <= 1.0 and 0.0 <= self._u_prev <= 1.0
                 and self._noise2 > 0.0
-                and self._s2_fit > 0.0 and lo <= self._y_prev <= hi
-                and 0.0 <= pending <= g._pending_cap_s + g._pending_cap_ms * 0.001
-                and 0.0 <= g._run_s <= g._pending_cap_s and g._run_rate >= 0.0
-                and (win_n < 1 or lo <= g._w1 <= hi) and (win_n < 2 or lo <= g._w2 <= hi)
-                and (win_n < 3 or lo <= g._w3 <= hi) and (win_n < 4 or lo <= g._w4 <= hi)):
-            return bl.BLOB_VALUES
-        if d is not None and not (d.up >= 0.0 and d.down >= 0.0 and d.mean_abs_z >= 0.0):
+                and self._s2_fit > 0.0 and lo <= self._y_prev <= hi):
             return bl.BLOB_VALUES
         self.readings = readings
         self.changes = changes
@@ -1211,14 +1193,6 @@ class ThermalEstimator:
         self._fresh = bool(flags & 1)
         self._disturbed = bool(flags & 2)
         self._measured = bool(flags & 4)
-        g._has_accepted = bool(flags & 8)
-        g._win_n = win_n
-        g.consecutive_rejections = rej
-        g._last_c = self._y_prev
-        g._run_expected_c = g._run_rate * g._run_s
-        g._pending_s = pending
-        g._pending_ms = 0
-        g._has_time = False
         self._solve()
         if self._nb >= 1.5 and not self._ok:
             return bl.BLOB_VALUES

@@ -12,7 +12,9 @@ from support import XorShift, round_instance_floats, to_float32
 
 from tinytherm import blob as bl
 from tinytherm import status as st
+from tinytherm.change import ChangeDetector
 from tinytherm.estimator import ThermalEstimator
+from tinytherm.guard import ReadingGuard
 
 try:
     import micropython
@@ -309,9 +311,16 @@ def test_corrupted_blobs_are_rejected_with_a_fresh_start():
     assert est.restore(bl.seal(other)) == bl.BLOB_VERSION
     # written by a differently configured estimator
     assert ThermalEstimator(heater=True).restore(blob) == bl.BLOB_SETTINGS
-    # a NaN, an infinity or a huge value in any float field of a sealed payload
-    first = bl.PAYLOAD_OFFSET + 16
-    for offset in range(first, first + 8 * 56, 8):
+    # a NaN, an infinity or a huge value in any float field of a sealed payload:
+    # 14 bytes of ints, 47 estimator floats, then the guard's 6 floats (and its
+    # ints), then the change detector's 3 floats
+    first = bl.PAYLOAD_OFFSET + 14
+    guard_at = first + 8 * 47
+    detector_at = guard_at + ReadingGuard.STATE_SIZE
+    offsets = ([first + 8 * i for i in range(47)] + [guard_at + 8 * i for i in range(6)]
+               + [detector_at + 8 * i for i in range(3)])
+    assert detector_at + ChangeDetector.STATE_SIZE == bl.PAYLOAD_OFFSET + bl.PAYLOAD_SIZE
+    for offset in offsets:
         for bad_value in (NAN, INF, -1e300):
             poisoned = bytearray(blob)
             struct.pack_into("<d", poisoned, offset, bad_value)
