@@ -164,8 +164,10 @@ class ReadingGuard:
         self._win = [0.0] * 10
         # per-verdict counts, then accepted readings per gap code (fixed size)
         self._counts = [0] * (_N_VERDICTS + 3)
-        self._dt_s = -1.0  # the last dt_s converted and its whole ms (a consistent pair:
-        self._dt_ms = -1   # -1 means backwards, and -1.0 s is)
+        # conversions kept so a steady interval costs none (int <-> float allocates):
+        # the last dt_s converted and its whole ms (-1.0 s is backwards, -1);
+        # the last elapsed_ms read as seconds, and those seconds
+        self._time_cache = [-1.0, -1, 0, 0.0]
         self.reset()
 
     # ------------------------------------------------------------------ state
@@ -209,7 +211,12 @@ class ReadingGuard:
     @property
     def elapsed_s(self):
         """Seconds between the last two accepted readings (``elapsed_ms`` / 1000). Read-only."""
-        return self.elapsed_ms / 1000.0
+        c = self._time_cache
+        ms = self.elapsed_ms
+        if ms != c[2]:
+            c[2] = ms
+            c[3] = ms / 1000.0
+        return c[3]
 
     def settings_key(self):
         """A small int (0..6) that differs for every spike window and probe-code setting.
@@ -286,13 +293,14 @@ class ReadingGuard:
         ``inputs_ok=False`` when the caller found another argument unusable:
         the reading is then ``BAD_INPUT`` but its time still counts. Never raises.
         """
-        if type(dt_s) is float and dt_s == self._dt_s:
-            step = self._dt_ms  # the same interval as last time: no conversion
+        c = self._time_cache
+        if type(dt_s) is float and dt_s == c[0]:
+            step = c[1]  # the same interval as last time: no conversion
         else:
             step = _step_ms(dt_s)
             if step >= 0:
-                self._dt_s = dt_s
-                self._dt_ms = step
+                c[0] = dt_s
+                c[1] = step
         return self._advance(temp_c, step, expected_rate_c_per_s, inputs_ok)
 
     def check_ticks(self, temp_c, ticks_ms, expected_rate_c_per_s=0.0, inputs_ok=True,
