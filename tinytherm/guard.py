@@ -106,23 +106,17 @@ class ReadingGuard:
     """Verdict on each reading; counts per reason; gap tracking.
 
     Arguments (temperatures in deg C, times in seconds, kept in whole ms):
-
-    ``min_c``, ``max_c``   physical range of the liquid (``OUT_OF_RANGE`` outside).
-    ``quantum_c``          sensor resolution (0.0625 C for a 12-bit 1-Wire probe).
-    ``spike_window``       3 or 5 readings, or 0 to switch the spike gate off.
-    ``spike_k``            gate width in robust standard deviations.
-    ``spike_floor_c``      floor of the spike scale, >= ``quantum_c`` (``None``:
-                           ``quantum_c``); raise it to about the noise sd.
-    ``probe_codes``        the probe is a 12-bit 1-Wire digital one: reject its
-                           codes -127.0 and 85.0 (see the module doc).
-    ``error_margin_c``     85.0 is accepted when the previous accepted reading
-                           was this close to it.
-    ``max_gap_s``          a longer time since the last accepted reading is
-                           ``GAP_WIDEN`` (at least 0.001 s).
-    ``restart_gap_s``      a longer one is ``GAP_RESTART`` (>= ``max_gap_s``).
-    ``stuck_change_c``     expected movement an unchanged value must contradict
-                           before it is ``STUCK``; ``None`` switches it off.
-    ``stuck_min_s``        and the value must have repeated for this long.
+    ``min_c``, ``max_c``: range of the liquid. ``quantum_c``: sensor step
+    (0.0625 C for a 12-bit 1-Wire probe). ``spike_window``: 3 or 5 readings,
+    0 switches the spike gate off. ``spike_k``: gate width, robust standard
+    deviations. ``spike_floor_c``: floor of the spike scale, >= ``quantum_c``
+    (``None``: ``quantum_c``; raise it to about the noise sd). ``probe_codes``:
+    a 12-bit 1-Wire digital probe, whose codes -127.0 and 85.0 are rejected;
+    ``error_margin_c``: 85.0 is accepted this close to the previous accepted
+    reading. ``max_gap_s`` (>= 0.001 s): a longer time since the last accepted
+    reading is ``GAP_WIDEN``; beyond ``restart_gap_s`` ``GAP_RESTART``.
+    ``stuck_change_c``: expected movement an unchanged value must contradict
+    before it is ``STUCK`` (``None``: off); ``stuck_min_s``: and for how long.
 
     After ``ACCEPTED``: :attr:`elapsed_ms` (int) is the time since the previous
     accepted reading (0 on the first) and :attr:`gap` a ``GAP_*`` code.
@@ -240,15 +234,11 @@ class ReadingGuard:
                          n | (0 if last is None else _HAS_ACCEPTED), rej if rej < 255 else 255)
 
     def unpack_from(self, buf, offset):
-        """Load a state written by :meth:`pack_into`; True when every value is valid.
-
-        Valid: window values and the last value within ``[min_c, max_c]``, the
-        window fill within the spike window, unused slots 0, a finite rate
-        >= 0, pending and repeat-run time within their cap. On False the guard
-        is left as it was (the caller resets). On True the counts start again
-        from 0 and there is no tick reference (see ``slept_s`` of
-        :meth:`check_ticks`). Never raises for bytes of the right length.
-        """
+        """Load a state written by :meth:`pack_into`; True when every value is valid
+        (temperatures within ``[min_c, max_c]``, the window fill within the window,
+        unused slots 0, a finite rate >= 0, times within their cap); on False the
+        guard is unchanged (the caller resets). On True the counts restart from 0
+        and there is no tick reference (see ``slept_s`` of :meth:`check_ticks`)."""
         vals = struct.unpack_from(_STATE_FMT, buf, offset)
         last, rate, pending, run, flags, rej = vals[4:]
         n = flags & 7
@@ -308,13 +298,11 @@ class ReadingGuard:
         """Like :meth:`check` with time as integer millisecond ticks wrapping at 2**30.
 
         The difference is wrap-safe; a step of more than half the tick period
-        (about 6.2 days) reads as time going backwards, and the new ticks
-        become the reference, so a clock that was set back does not block
-        readings for ever. With no tick reference after a restore, the step is
-        ``slept_s`` seconds (the time since the reading before the save, as
-        the caller knows it); without ``slept_s`` that reading is ``BAD_INPUT``
-        and only sets the reference. ``slept_s`` is ignored when a tick
-        reference exists.
+        (about 6.2 days) is backwards and the new ticks become the reference
+        (a clock set back does not block readings for ever). With no tick
+        reference after a restore the step is ``slept_s`` seconds (the time since
+        the reading before the save); without it that reading is ``BAD_INPUT``
+        and only sets the reference. ``slept_s`` is ignored otherwise.
         """
         if type(ticks_ms) is not int:
             return self._reject(status.BAD_INPUT)
