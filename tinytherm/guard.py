@@ -32,8 +32,9 @@ Checks, in order:
    one value for hours, so without a model rate nothing is stuck.
 
 On MicroPython the rejections before the spike gate only compare (nothing is
-allocated for a float reading); an accepted one costs a few float operations
-(16 bytes each on the unix port); a repeated ``dt_s`` is not converted again.
+allocated for a float reading); an accepted one costs at most a few float
+operations (32 bytes each on the 64-bit unix port, measured); a repeated ``dt_s``
+or ``elapsed_ms`` is not converted again (benchmarks/guard_alloc.py).
 :meth:`ReadingGuard.pack_into` / :meth:`ReadingGuard.unpack_from` save and
 check the dynamic state (``STATE_SIZE`` bytes); the counts are not saved.
 """
