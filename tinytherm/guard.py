@@ -301,9 +301,10 @@ class ReadingGuard:
         The difference is wrap-safe; a step of more than half the tick period
         (about 6.2 days) is backwards and the new ticks become the reference
         (a clock set back does not block readings for ever). With no tick
-        reference after a restore the step is ``slept_s`` seconds (the time since
-        the reading before the save); without it that reading is ``BAD_INPUT``
-        and only sets the reference. ``slept_s`` is ignored otherwise.
+        reference (after a restore) the step is ``slept_s`` seconds, the time
+        since the previous reading; without it that reading is ``BAD_INPUT`` once
+        a reading was accepted, and only sets the reference. ``slept_s`` is
+        ignored when a reference exists.
         """
         if type(ticks_ms) is not int:
             return self._reject(status.BAD_INPUT)
@@ -314,10 +315,10 @@ class ReadingGuard:
             step = (ticks - ref) & _TICKS_MASK
             if step >= _TICKS_HALF:
                 step = -1  # backwards (the new ticks are the reference from now on)
-        elif self._last_c is None:
-            step = 0  # the first reading: no time to carry
+        elif slept_s is not None:
+            step = _step_ms(slept_s)
         else:
-            step = -2 if slept_s is None else _step_ms(slept_s)
+            step = 0 if self._last_c is None else -2  # (-2: unknown after an accepted one)
         return self._advance(temp_c, step, expected_rate_c_per_s, inputs_ok)
 
     def _advance(self, temp_c, step, rate, inputs_ok):

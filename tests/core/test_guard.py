@@ -555,3 +555,17 @@ def test_dt_path_rejections_allocate_nothing():
         if micropython is not None:
             micropython.heap_unlock()
     assert r == expected
+
+
+def test_restored_before_any_accepted_reading_still_sees_time_go_back():
+    # (hypothesis find) nothing accepted yet, no tick reference after the
+    # restore: the slept time says the clock stepped back, as the ticks did
+    steady = ReadingGuard()
+    assert steady.check_ticks(None, 44061) == status.BAD_INPUT
+    buf = bytearray(ReadingGuard.STATE_SIZE)
+    steady.pack_into(buf, 0)
+    woken = ReadingGuard()
+    assert woken.unpack_from(buf, 0)
+    assert steady.check_ticks(20.0, 44060) == status.TIME_BACKWARDS
+    assert woken.check_ticks(20.0, 44060, 0.0, True, -0.001) == status.TIME_BACKWARDS
+    assert woken.check_ticks(20.0, 46060) == status.ACCEPTED and woken.elapsed_ms == 0
