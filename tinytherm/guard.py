@@ -285,7 +285,8 @@ class ReadingGuard:
         the reading is then ``BAD_INPUT`` but its time still counts. Never raises.
         """
         c = self._time_cache
-        if type(dt_s) is float and dt_s == c[0]:
+        t = type(dt_s)
+        if (t is float or t is int) and dt_s == c[0]:
             step = c[1]  # the same interval as last time: no conversion
         else:
             step = _step_ms(dt_s)
