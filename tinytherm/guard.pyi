@@ -14,6 +14,7 @@ class ReadingGuard:
     last_verdict: int
     gap: int
     elapsed_ms: int
+    elapsed_s: float
     min_c: float
     max_c: float
     quantum_c: float
@@ -32,8 +33,6 @@ class ReadingGuard:
                  error_margin_c: float = 2.0, max_gap_s: float = 300.0,
                  restart_gap_s: float = 3600.0, stuck_change_c: Optional[float] = 1.0,
                  stuck_min_s: float = 30.0) -> None: ...
-    @property
-    def elapsed_s(self) -> float: ...
     def reset(self, counts: bool = True) -> None: ...
     def clear_counts(self) -> None: ...
     def count(self, verdict: int) -> int: ...
