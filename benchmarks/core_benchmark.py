@@ -124,7 +124,7 @@ def run_micropython():
     return rows, ""
 
 
-ESTIMATOR_PATH = ("__init__.py", "estimator.py", "status.py", "guard.py", "change.py",
+ESTIMATOR_PATH = ("__init__.py", "estimator.py", "status.py", "guard.py", "change.py", "num.py",
                   "blob.py", "crc.py")
 
 

@@ -142,10 +142,14 @@ def test_stub_instance_attributes_exist_at_runtime():
     from tinytherm.planner import ReadyByPlanner
     from tinytherm.forecast import Forecast
     from tinytherm.sensors import LagCompensator
+    from tinytherm.guard import ReadingGuard
+    from tinytherm.change import ChangeDetector
     for mod, obj in (("estimator", ThermalEstimator()), ("planner", ReadyByPlanner()),
-                     ("forecast", Forecast()), ("sensors", LagCompensator(10.0))):
+                     ("forecast", Forecast()), ("sensors", LagCompensator(10.0)),
+                     ("guard", ReadingGuard()), ("change", ChangeDetector())):
         _, classes, _ = _stub_tree(mod)
-        attrs = classes[type(obj).__name__]["__attrs__"]
+        # (class-level names such as STATE_SIZE and properties are not instance attributes)
+        attrs = classes[type(obj).__name__]["__attrs__"] - set(vars(type(obj)))
         public = {k for k in vars(obj) if not k.startswith("_")}
         assert attrs == public, (mod, attrs ^ public)
 

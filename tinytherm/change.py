@@ -25,7 +25,9 @@ deflates ``z``, never amplifies it.
 
 State is fixed: a few floats and ints. An update costs about ten float
 operations. Never raises for bad input: a non-finite innovation or a sigma that
-is not a finite positive number is ignored (returns 0).
+is not a finite positive number is ignored (returns 0). :meth:`ChangeDetector.pack_into`
+and :meth:`ChangeDetector.unpack_from` save and check the two sums and the
+scale (``STATE_SIZE`` bytes, float64); the counts are not saved.
 
 For Gaussian white innovations, Siegmund's approximation of the one-sided
 average run length between false alarms is
@@ -34,10 +36,11 @@ average run length between false alarms is
 3e8 readings for the defaults. Real innovations are not that clean; the
 benchmark ``benchmarks/change_detection.py`` measures the rate on traces.
 """
-import math
+import struct
 
-_INF = math.inf
-_NEG_INF = -math.inf
+from tinytherm.num import finite
+
+_STATE_FMT = "<ddd"  # up, down, mean_abs_z
 _MEAN_ABS_GAUSS = 0.7978845608028654  # E|z| for a standard normal z: sqrt(2/pi)
 
 
@@ -51,16 +54,18 @@ class ChangeDetector:
     ``jump_z``     one-reading gate, standard deviations (> z_clip), or None (off).
     """
 
+    STATE_SIZE = struct.calcsize(_STATE_FMT)  # bytes written by pack_into (24)
+
     def __init__(self, drift=0.75, threshold=12.0, z_clip=7.0, scale_n=200, jump_z=None):
-        if not _finite(drift) or drift <= 0.0:
+        if not finite(drift) or drift <= 0.0:
             raise ValueError("drift must be > 0 (standard deviations), got %r" % (drift,))
-        if not _finite(threshold) or threshold <= 0.0:
+        if not finite(threshold) or threshold <= 0.0:
             raise ValueError("threshold must be > 0 (standard deviations), got %r" % (threshold,))
-        if not _finite(z_clip) or z_clip <= drift:
+        if not finite(z_clip) or z_clip <= drift:
             raise ValueError("z_clip must be > drift (%r), got %r" % (drift, z_clip))
         if type(scale_n) is not int or scale_n < 0:
             raise ValueError("scale_n must be an int >= 0 (readings), got %r" % (scale_n,))
-        if jump_z is not None and (not _finite(jump_z) or jump_z <= z_clip):
+        if jump_z is not None and (not finite(jump_z) or jump_z <= z_clip):
             raise ValueError("jump_z must be > z_clip (%r) or None, got %r" % (z_clip, jump_z))
         self.jump_z = None if jump_z is None else float(jump_z)
         self._neg_jump_z = None if jump_z is None else -float(jump_z)
@@ -89,7 +94,7 @@ class ChangeDetector:
         predicted), -1 for a downward one, else 0. After an alarm both sums
         restart from zero.
         """
-        if not (_finite(innovation_c) and _finite(sigma_c)) or sigma_c <= 0.0:
+        if not (finite(innovation_c) and finite(sigma_c)) or sigma_c <= 0.0:
             return 0
         raw = innovation_c / sigma_c
         if raw != raw:
@@ -122,18 +127,26 @@ class ChangeDetector:
             return self._alarm(-1)
         return 0
 
-    STATE_SIZE = 24
-
     def pack_into(self, buf, offset):
-        import struct
-        struct.pack_into("<3d", buf, offset, self.up, self.down, self.mean_abs_z)
+        """Write both sums and the scale into ``buf[offset:offset + STATE_SIZE]``."""
+        struct.pack_into(_STATE_FMT, buf, offset, self.up, self.down, self.mean_abs_z)
 
     def unpack_from(self, buf, offset):
-        import struct
-        up, down, m = struct.unpack_from("<3d", buf, offset)
-        if not (0.0 <= up < 1e6 and 0.0 <= down < 1e6 and 0.0 <= m < 1e6):
+        """Load a state written by :meth:`pack_into`; True when every value is valid.
+
+        Valid: both sums finite in ``[0, threshold]`` (an alarm empties them),
+        the scale finite and >= 0. On False nothing changes (the caller
+        resets). The counts (``readings``, ``alarms``) are not saved and
+        ``last_direction`` starts at 0.
+        """
+        up, down, scale = struct.unpack_from(_STATE_FMT, buf, offset)
+        if not (0.0 <= up <= self.threshold and 0.0 <= down <= self.threshold
+                and finite(scale) and scale >= 0.0):
             return False
-        self.up, self.down, self.mean_abs_z = up, down, m
+        self.reset()
+        self.up = up
+        self.down = down
+        self.mean_abs_z = scale
         return True
 
     def _alarm(self, direction):
@@ -148,7 +161,3 @@ class ChangeDetector:
                 "alarms=%d)" % (self.drift, self.threshold, self.z_clip, self.scale_n,
                                 self.jump_z, self.alarms))
 
-
-def _finite(x):
-    t = type(x)
-    return (t is float or t is int) and x == x and x != _INF and x != _NEG_INF

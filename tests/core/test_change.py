@@ -3,6 +3,7 @@
 Runs on CPython and MicroPython alike.
 """
 import math
+import struct
 
 from support import XorShift
 
@@ -123,3 +124,45 @@ def test_jump_gate_fires_on_one_large_innovation():
     assert det.update(0.9, 0.1) == 0      # 9 sd: below the gate, only fills the sum
     assert det.up > 0.0
     assert _raises_value_error(jump_z=5.0, z_clip=7.0)
+
+
+def _restored(det, kwargs):
+    buf = bytearray(ChangeDetector.STATE_SIZE + 5)
+    det.pack_into(buf, 5)
+    woken = ChangeDetector(**kwargs)
+    assert woken.unpack_from(buf, 5)
+    return woken
+
+
+def test_restored_detector_gives_the_same_alarms():
+    # save -> restore before every innovation against an uninterrupted detector:
+    # noise with a shift every 400 readings, so both sums and the scale move
+    for kwargs in ({}, {"jump_z": 10.0}, {"scale_n": 0, "drift": 0.5, "threshold": 5.0}):
+        rng = XorShift(5)
+        steady = ChangeDetector(**kwargs)
+        woken = ChangeDetector(**kwargs)
+        for i in range(3000):
+            shift = 2.0 if (i // 400) % 2 else 0.0
+            e = shift * 0.2 + rng.gauss(0.3)
+            woken = _restored(woken, kwargs)
+            assert steady.update(e, 0.2) == woken.update(e, 0.2), (kwargs, i)
+            assert steady.up == woken.up and steady.mean_abs_z == woken.mean_abs_z
+        assert steady.alarms > 0
+
+
+def test_unpack_refuses_impossible_sums_and_changes_nothing():
+    det = ChangeDetector(threshold=12.0)
+    rng = XorShift(6)
+    for _ in range(50):
+        det.update(rng.gauss(0.5), 0.2)
+    good = bytearray(ChangeDetector.STATE_SIZE)
+    det.pack_into(good, 0)
+    fresh = ChangeDetector(threshold=12.0)
+    for slot, value in ((0, NAN), (0, -0.5), (0, 12.5), (1, float("inf")), (1, -1e-300),
+                        (2, NAN), (2, float("inf")), (2, -1.0)):
+        buf = bytearray(good)
+        struct.pack_into("<d", buf, 8 * slot, value)
+        assert not fresh.unpack_from(buf, 0), (slot, value)
+    assert fresh.up == 0.0 and fresh.mean_abs_z == 0.7978845608028654
+    assert fresh.unpack_from(good, 0)
+    assert fresh.up == det.up and fresh.down == det.down and fresh.mean_abs_z == det.mean_abs_z
