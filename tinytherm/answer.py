@@ -52,12 +52,8 @@ _RISE_ARRIVE_MIN_MS = int(RISE_ARRIVE_MIN_S * 1000)
 
 
 class Answer:
-    """The answer part: ``predict`` and what it tells the product.
-
-    A base class of the estimator: it works on the estimator's fit (``reg``,
-    ``blocks``, ``noise``, ``audits``, ``guard``, the level and slope at the
-    latest block close) and keeps its answer in these fields (all ``None``
-    when unknown):
+    """What ``predict`` tells the product: a base class of the estimator, which
+    carries these fields itself (all ``None`` when unknown):
 
     ``status`` (a :mod:`tinytherm.status` code), ``eta_s``, ``eta_low_s``,
     ``eta_high_s`` (seconds after the latest reading; ``eta_high_s`` may be
@@ -120,174 +116,166 @@ class Answer:
         self._for_age_ms = age_ms
         return True
 
-    # ---------------------------------------------------- the answer part
-    def predict(self, target_c, approach=0):
-        """Work out the time until ``target_c`` (deg C); return the status code.
 
-        ``approach``: -1 the product cools to its target (a drink), +1 heats
-        to it (a kettle, a bath), 0 not given (the direction of travel
-        decides, and a rise is an arrival only in a fit older than
-        ``RISE_ARRIVE_MIN_S``). With -1 or +1 a liquid moving the other way
-        is never ``ARRIVED`` and gets no time (``SETTLING``).
 
-        Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds
-        after the latest reading; ``None`` without an estimate), ``eta_rel_sd``,
-        ``rate_per_s`` (1/s), ``equilibrium_c``, ``ambient_est_c``,
-        ``temp_est_c`` (deg C) and ``gain_k_per_s`` (K/s). Reading the
-        answer changes no result of the fit (it may do the second half of a
-        block close that would otherwise wait for the next reading). Never raises.
-        """
-        if self._pending == 1:
-            self._finish_block()  # a block closed with the latest reading: solve it now
-        target = as_float(target_c)
-        if approach != 1 and approach != -1:
-            approach = 0  # (a bad value: as if not given, never an exception)
-        if self.guard.consecutive_rejections >= FAULT_AFTER:
-            self.forget()
-            self.clear(st.SENSOR_FAULT)
-            return self.status
-        b = self.blocks
-        age = b.age_ms
-        if (self._for_gen == self._blocks_done and self._for_target == target
-                and self._for_approach == approach):
-            # the same block and question: count the answer down, unless the
-            # latest reading has reached the arrival line
-            m = self._arrive_dir
-            reached = m != 0 and (b.c >= self._arrive_c if m > 0 else b.c <= self._arrive_c)
-            if self.status == st.ARRIVED:
-                if reached:
-                    return self.status
-            elif reached and self._arrived(target, m, approach, age):
-                self.arrive()
-                return self.status
-            elif self.count_down(age):
-                return self.status
-        self._for_gen = -1
-        try:
-            self._work_out(target, approach)
-        except (ValueError, OverflowError, ZeroDivisionError, TypeError):
-            self.clear(st.SETTLING)
-            self._arrive_dir = 0
-        if self._disturbed and (self.status == st.SETTLING or self.status == st.GATHERING):
-            self.status = st.DISTURBED  # re-learning after a jump
-        if self._for_gen != -2:
-            self._for_gen = self._blocks_done
-        self._for_target = target
-        self._for_approach = approach
-        self.count_down(age, True)
-        return self.status
+def predict(est, target_c, approach=0):
+    """:meth:`ThermalEstimator.predict <tinytherm.estimator.ThermalEstimator.predict>`.
 
-    def _work_out(self, target, approach):
-        """The full answer for the latest block close (cached by ``predict``)."""
-        reg = self.reg
-        b = self.blocks
-        self._for_age_ms = b.age_ms - b.it  # the answer is for the block close
-        self._arrive_dir = 0
-        if b.readings < 3 or not reg.ok or target is None or not -1e4 <= target <= 1e4:
-            self.clear(st.GATHERING)
-            if self.readings and not self._fresh:
-                self.temp_est_c = b.c * _INV
+    The answer is worked out once per finished block and question (target,
+    approach) and counted down between blocks; the latest reading is still
+    checked against the arrival line at every call.
+    """
+    if est._pending == 1:
+        est._finish_block()  # a block closed with the latest reading: solve it now
+    target = as_float(target_c)
+    if approach != 1 and approach != -1:
+        approach = 0  # (a bad value: as if not given, never an exception)
+    if est.guard.consecutive_rejections >= FAULT_AFTER:
+        est.forget()
+        est.clear(st.SENSOR_FAULT)
+        return est.status
+    b = est.blocks
+    age = b.age_ms
+    if (est._for_gen == est._blocks_done and est._for_target == target
+            and est._for_approach == approach):
+        # the same block and question: count the answer down, unless the
+        # latest reading has reached the arrival line
+        m = est._arrive_dir
+        reached = m != 0 and (b.c >= est._arrive_c if m > 0 else b.c <= est._arrive_c)
+        if est.status == st.ARRIVED:
+            if reached:
+                return est.status
+        elif reached and _arrived(est, target, m, approach, age):
+            est.arrive()
+            return est.status
+        elif est.count_down(age):
+            return est.status
+    est._for_gen = -1
+    try:
+        _work_out(est, target, approach)
+    except (ValueError, OverflowError, ZeroDivisionError, TypeError):
+        est.clear(st.SETTLING)
+        est._arrive_dir = 0
+    if est._disturbed and (est.status == st.SETTLING or est.status == st.GATHERING):
+        est.status = st.DISTURBED  # re-learning after a jump
+    if est._for_gen != -2:
+        est._for_gen = est._blocks_done
+    est._for_target = target
+    est._for_approach = approach
+    est.count_down(age, True)
+    return est.status
+
+def _work_out(est, target, approach):
+    """The full answer for the latest block close (cached by ``predict``)."""
+    reg = est.reg
+    b = est.blocks
+    est._for_age_ms = b.age_ms - b.it  # the answer is for the block close
+    est._arrive_dir = 0
+    if b.readings < 3 or not reg.ok or target is None or not -1e4 <= target <= 1e4:
+        est.clear(st.GATHERING)
+        if est.readings and not est._fresh:
+            est.temp_est_c = b.c * _INV
+        return
+    est.clear(st.SETTLING)
+    level = est._level
+    slope = est._slope
+    k = reg.k
+    est.temp_est_c = level
+    est.rate_per_s = k
+    est.gain_k_per_s = reg.g
+    if k > 0.0:
+        e = level + slope / k
+        if -1e300 < e < 1e300:  # (a vanishing k levels off nowhere in range)
+            est.equilibrium_c = e
+    if est.inputs.known():
+        est.ambient_est_c = b.rc * _INV
+    elif est.equilibrium_c is not None:
+        # unknown ambient: where the liquid would level off without heat input
+        r = est.equilibrium_c - reg.g * (b.uc / 1024) / k
+        if -1e300 < r < 1e300:
+            est.ambient_est_c = r
+    y = b.c * _INV
+    gk = -(level - b.cb * _INV)  # d slope / d k at the level (reference: the closing reading)
+    var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
+    # direction of travel: the slope when it stands out of its noise, else the block means
+    if slope * slope > 4.0 * var_slope:
+        d = 1 if slope > 0.0 else -1
+    else:
+        d = est._dir
+    m = est._dir
+    if approach != 0 and ((m if m != 0 else d) != approach or d == -approach):
+        return  # moving away from how this product reaches its target
+    gap = target - level
+    age_s = b.age_ms * 0.001
+    if m != 0:
+        # the arrival line: at most min(0.3 C, 3 noise sd) short of the target
+        tol = 3.0 * est.noise.sd
+        if tol > ARRIVE_TOL_C:
+            tol = ARRIVE_TOL_C
+        est._arrive_dir = m
+        est._arrive_c = to_counts(target - m * tol)
+        if (b.c - est._arrive_c) * m >= 0 and _arrived(est, target, m, approach, b.age_ms):
+            est.arrive()
             return
-        self.clear(st.SETTLING)
-        level = self._level
-        slope = self._slope
-        k = reg.k
-        self.temp_est_c = level
-        self.rate_per_s = k
-        self.gain_k_per_s = reg.g
-        if k > 0.0:
-            e = level + slope / k
-            if -1e300 < e < 1e300:  # (a vanishing k levels off nowhere in range)
-                self.equilibrium_c = e
-        if self.inputs.known():
-            self.ambient_est_c = b.rc * _INV
-        elif self.equilibrium_c is not None:
-            # unknown ambient: where the liquid would level off without heat input
-            r = self.equilibrium_c - reg.g * (b.uc / 1024) / k
-            if -1e300 < r < 1e300:
-                self.ambient_est_c = r
-        y = b.c * _INV
-        gk = -(level - b.cb * _INV)  # d slope / d k at the level (reference: the closing reading)
-        var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
-        # direction of travel: the slope when it stands out of its noise, else the block means
-        if slope * slope > 4.0 * var_slope:
-            d = 1 if slope > 0.0 else -1
-        else:
-            d = self._dir
-        m = self._dir
-        if approach != 0 and ((m if m != 0 else d) != approach or d == -approach):
-            return  # moving away from how this product reaches its target
-        gap = target - level
-        age_s = b.age_ms * 0.001
-        if m != 0:
-            # the arrival line: at most min(0.3 C, 3 noise sd) short of the target
-            tol = 3.0 * self.noise.sd
-            if tol > ARRIVE_TOL_C:
-                tol = ARRIVE_TOL_C
-            self._arrive_dir = m
-            self._arrive_c = to_counts(target - m * tol)
-            if (b.c - self._arrive_c) * m >= 0 and self._arrived(target, m, approach, b.age_ms):
-                self.arrive()
-                return
-        if gap * d <= 0.0:
-            gap = target - y  # the level crossed, the readings not yet
-            self._for_gen = -2  # (an answer from the latest reading: not counted down)
-        if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
-            return  # not moving, or turning: no honest time
-        eta = time_to_target_from_slope_s(gap, slope, k)
-        eta_shape = self._profile_law_s(gap, level, slope)
-        if eta is None and eta_shape is None:
-            # beyond the equilibrium: say so only when even a slow bend reaches it
-            if (k - 2.0 * math.sqrt(reg.pkk)) * gap / slope >= 1.0:
-                self.status = st.OUT_OF_REACH
-            return
-        rel2 = 0.0 if eta is None else eta_rel_var(gap, slope, k, eta, reg, gk)
-        if eta_shape is not None:
-            eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
-        rel = math.sqrt(rel2 + self.audits.var_at(eta, age_s))
-        f = spread(self._z * rel)
-        self.eta_s = eta
-        self.eta_low_s = eta / f
-        self.eta_high_s = eta * f
-        if self._profile_on:
-            # and the profile's own calibrated quantiles of ln(actual / predicted),
-            # split-conformal (host_sim.calibrate.pipeline): the union
-            lo, hi = self._profile.interval_log_bounds(eta)
-            z = self._z / PROFILE_Z80
-            low = eta * math.exp(z * lo)
-            high = eta * spread(z * hi)
-            if low < self.eta_low_s:
-                self.eta_low_s = low
-            if high > self.eta_high_s:
-                self.eta_high_s = high
-            own = self._profile.log_sd(eta)
-            if own < rel:
-                rel = own
-        self.eta_rel_sd = rel
-        if rel <= MAX_REL_SD:
-            self.status = st.TRACKING
+    if gap * d <= 0.0:
+        gap = target - y  # the level crossed, the readings not yet
+        est._for_gen = -2  # (an answer from the latest reading: not counted down)
+    if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
+        return  # not moving, or turning: no honest time
+    eta = time_to_target_from_slope_s(gap, slope, k)
+    eta_shape = est._profile_law_s(gap, level, slope)
+    if eta is None and eta_shape is None:
+        # beyond the equilibrium: say so only when even a slow bend reaches it
+        if (k - 2.0 * math.sqrt(reg.pkk)) * gap / slope >= 1.0:
+            est.status = st.OUT_OF_REACH
+        return
+    rel2 = 0.0 if eta is None else eta_rel_var(gap, slope, k, eta, reg, gk)
+    if eta_shape is not None:
+        eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
+    rel = math.sqrt(rel2 + est.audits.var_at(eta, age_s))
+    f = spread(est._z * rel)
+    est.eta_s = eta
+    est.eta_low_s = eta / f
+    est.eta_high_s = eta * f
+    if est._profile_on:
+        # and the profile's own calibrated quantiles of ln(actual / predicted),
+        # split-conformal (host_sim.calibrate.pipeline): the union
+        lo, hi = est._profile.interval_log_bounds(eta)
+        z = est._z / PROFILE_Z80
+        low = eta * math.exp(z * lo)
+        high = eta * spread(z * hi)
+        if low < est.eta_low_s:
+            est.eta_low_s = low
+        if high > est.eta_high_s:
+            est.eta_high_s = high
+        own = est._profile.log_sd(eta)
+        if own < rel:
+            rel = own
+    est.eta_rel_sd = rel
+    if rel <= MAX_REL_SD:
+        est.status = st.TRACKING
 
-    def _arrived(self, target, m, approach, age_ms):
-        """Arrival, the reading being on the line: the block means or the fitted
-        level now have passed the target in the direction ``m``, in a fit old
-        enough (and, rising with no direction given and no heater on, old
-        enough to be no probe warming up, and still rising: a probe that has
-        warmed to the drink and turned is no arrival)."""
-        if age_ms < _ARRIVE_MIN_MS:
-            return False
-        if m > 0 and approach == 0 and not (self.heater and self.blocks.uc > 0) and (
-                age_ms < _RISE_ARRIVE_MIN_MS or not self._slope > 0.0):
-            return False  # (a rise the heater drives is a real one)
-        if (self._ext >= target) if m > 0 else (self._ext <= target):
-            return True
-        reg = self.reg
-        b = self.blocks
-        # the fitted level at the latest reading (the fit's coordinates moved on)
-        level = (reg.my + reg.s * (reg.t + b.it * 0.001) - reg.k * (reg.x + b.ix * _IX_TO_CS)
-                 + self._anchor)
-        if self.heater:
-            level += reg.g * (reg.v + b.iv * _IV_TO_S)
-        return (level >= target) if m > 0 else (level <= target)
+def _arrived(est, target, m, approach, age_ms):
+    """Arrival, the reading being on the line: the block means or the fitted
+    level now have passed the target in the direction ``m``, in a fit old
+    enough (and, rising with no direction given and no heater on, old
+    enough to be no probe warming up, and still rising: a probe that has
+    warmed to the drink and turned is no arrival)."""
+    if age_ms < _ARRIVE_MIN_MS:
+        return False
+    if m > 0 and approach == 0 and not (est.heater and est.blocks.uc > 0) and (
+            age_ms < _RISE_ARRIVE_MIN_MS or not est._slope > 0.0):
+        return False  # (a rise the heater drives is a real one)
+    if (est._ext >= target) if m > 0 else (est._ext <= target):
+        return True
+    reg = est.reg
+    b = est.blocks
+    # the fitted level at the latest reading (the fit's coordinates moved on)
+    level = (reg.my + reg.s * (reg.t + b.it * 0.001) - reg.k * (reg.x + b.ix * _IX_TO_CS)
+             + est._anchor)
+    if est.heater:
+        level += reg.g * (reg.v + b.iv * _IV_TO_S)
+    return (level >= target) if m > 0 else (level <= target)
 
 
 def eta_rel_var(gap, slope, k, eta, reg, gk):

@@ -39,6 +39,7 @@ import struct
 
 from tinytherm import blob as bl
 from tinytherm import status as st
+from tinytherm import answer
 from tinytherm.answer import Answer, Audits, time_to_target_from_slope_s
 from tinytherm.change import ChangeDetector
 from tinytherm.crc import crc32
@@ -467,6 +468,25 @@ class ThermalEstimator(Answer):
                     self.profile_reason = PROFILE_REJECTED
                     self._solve(self._known)
                     return
+
+    def predict(self, target_c, approach=0):
+        """Work out the time until ``target_c`` (deg C); return the status code.
+
+        ``approach``: -1 the product cools to its target (a drink), +1 heats
+        to it (a kettle, a bath), 0 not given (the direction of travel
+        decides; a rise with no heater on is an arrival only in a fit older
+        than ``answer.RISE_ARRIVE_MIN_S`` that still rises). With -1 or +1 a
+        liquid moving the other way is never ``ARRIVED`` and gets no time.
+
+        Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds
+        after the latest reading; ``None`` without an estimate), ``eta_rel_sd``,
+        ``rate_per_s`` (1/s), ``equilibrium_c``, ``ambient_est_c``,
+        ``temp_est_c`` (deg C) and ``gain_k_per_s`` (K/s). Asking changes no
+        later answer (it may do the second half of a block close early: its
+        result does not depend on when it runs). Never raises. The rules:
+        :func:`tinytherm.answer.predict`.
+        """
+        return answer.predict(self, target_c, approach)
 
     def forecast_s(self, moved_c, level_c, slope_c_per_s, rate_per_s):
         """Seconds the answer's law takes to move ``moved_c`` from ``level_c`` (the audits)."""
