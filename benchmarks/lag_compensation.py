@@ -80,8 +80,7 @@ CASES_A = (
     ("mug 82->22 C, to 60 C", 22.0, 82.0, 1.0 / 1500.0, 60.0, 5.0, 1200.0,
      dict(ambient_prior_c=21.0)),
     ("fermenter 26->14 C, to 20 C", 14.0, 26.0, 1.0 / 18000.0, 20.0, 60.0, 14000.0,
-     dict(ambient_prior_c=15.0, ambient_prior_sd_c=4.0, memory_s=10800.0, block_s=300.0,
-          settle_s=600.0, rate_prior_per_s=1.0 / 14400.0)),
+     dict(ambient_prior_c=15.0, ambient_prior_sd_c=4.0)),
 )
 
 
@@ -146,7 +145,7 @@ def part_b(seeds):
             arrival = brentq(liquid, grid[idx[0]], grid[idx[0] + 1], xtol=1e-6)
             kw = dict(ambient_prior_c=21.0)
             if kind == "wort":
-                kw = dict(ambient_prior_c=15.0, memory_s=3600.0)
+                kw = dict(ambient_prior_c=15.0)
             min_rem = max(60.0, 0.05 * arrival)
             a = score(run_estimator(gen.time_s, gen.temp_c, target, tau, False, kw), arrival,
                       min_rem)

@@ -33,7 +33,7 @@ def add_parser(sub):
     f.add_argument("--core", metavar="PATH", help="candidate core: another checkout's folder "
                    "(default: the installed tinytherm)")
     f.add_argument("--set", action="append", metavar="NAME=VALUE", default=[],
-                   help="candidate estimator setting (repeatable), e.g. memory_s=900, "
+                   help="candidate estimator setting (repeatable), e.g. interval=0.9, "
                         "heater=off, ambient_c=21")
     f.add_argument("--baseline-core", metavar="PATH",
                    help="A/B: the baseline (e.g. released) core's checkout or install folder")

@@ -56,14 +56,6 @@ def add_estimator_options(p):
                    help="prior centre for an estimated ambient, deg C")
     g.add_argument("--interval", type=finite_float, metavar="P", default=None,
                    help="two-sided probability of the ETA interval, e.g. 0.8")
-    g.add_argument("--memory-s", type=finite_float, metavar="S", default=None,
-                   help="forgetting time constant of the fit, seconds")
-    g.add_argument("--block-s", type=finite_float, metavar="S", default=None,
-                   help="averaging block length of the fit, seconds")
-    g.add_argument("--settle-s", type=finite_float, metavar="S", default=None,
-                   help="seconds of data before an answer may be trusted")
-    g.add_argument("--max-relative-sd", type=finite_float, metavar="X", default=None,
-                   help="largest relative ETA spread still shown as tracking")
     g.add_argument("--profile", metavar="PROFILE.json", default=None,
                    help="a vessel profile from `calibrate` (.json, .hex or .bin), used "
                         "exactly as the device would: through its device blob")
@@ -81,9 +73,7 @@ def estimator_kwargs(args):
     """Settings the user gave (None = the core's default), checked against the core."""
     import inspect
     from tinytherm.estimator import ThermalEstimator
-    kw = {"memory_s": args.memory_s, "block_s": args.block_s, "interval": args.interval,
-          "settle_s": args.settle_s, "max_relative_sd": args.max_relative_sd,
-          "ambient_prior_c": args.ambient_prior}
+    kw = {"interval": args.interval, "ambient_prior_c": args.ambient_prior}
     kw = {k: v for k, v in kw.items() if v is not None}
     known = inspect.signature(ThermalEstimator.__init__).parameters
     for name in kw:

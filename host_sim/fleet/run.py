@@ -234,7 +234,7 @@ def _run_dask(chunks, variants, workers, scheduler, processes, task, retries, re
 
 
 def parse_settings(pairs):
-    """``["memory_s=600", "heater=off", ...]`` -> (core settings dict, variant options).
+    """``["interval=0.9", "heater=off", ...]`` -> (core settings dict, variant options).
 
     Values are floats where they parse, ``true``/``false``/``none`` as
     booleans/None, otherwise text. ``heater`` (auto/on/off), ``ambient_c``

@@ -153,7 +153,7 @@ def replay(trace, target_c, ambient_c=None, heater="auto", use_ambient_column=Tr
     ``target_c`` deg C. ``ambient_c``: known constant ambient (deg C) given to
     the constructor. ``use_ambient_column``: pass the trace's ``ambient_c``
     cells (when present) with each reading. ``settings``: further estimator
-    keyword arguments (``memory_s``, ``block_s``, ``interval``, ...).
+    keyword arguments (``interval``, ``ambient_prior_c``, ...).
     ``progress``: print a progress line to stderr every 10 % of long traces.
     Holds every row in memory; :func:`replay_rows` streams.
     """
