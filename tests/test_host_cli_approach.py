@@ -16,7 +16,9 @@ def _rows(path):
         return list(csv.DictReader(f))
 
 
-def test_cool_approach_removes_the_early_arrival(tmp_path):
+def test_no_early_arrival_by_default_nor_with_cool_approach(tmp_path):
+    # the probe's rise after the pour crosses 55 C on its way up; the default
+    # (no direction given) and --approach cool both wait for the drink itself
     trace = str(tmp_path / "mug.csv")
     truth = str(tmp_path / "mug.json")
     subprocess.run([sys.executable, "-m", "host_sim", "scenario", "mug", "--seed", "5",
@@ -24,11 +26,14 @@ def test_cool_approach_removes_the_early_arrival(tmp_path):
     with open(truth) as f:
         crossing = json.load(f)["crossing_time_s"]
     early = {}
+    arrived = {}
     for approach in ("either", "cool"):
         out = str(tmp_path / ("pred_%s.csv" % approach))
         subprocess.run([sys.executable, "-m", "host_sim", "replay", trace, "--target", "55",
                         "--approach", approach, "--out", out], check=True, capture_output=True)
-        early[approach] = sum(1 for r in _rows(out)
+        rows = _rows(out)
+        early[approach] = sum(1 for r in rows
                               if r["status"] == "arrived" and float(r["time_s"]) < crossing - 30.0)
-    assert early["either"] > 0          # the probe's rise crossed 55 C on its way up
-    assert early["cool"] == 0
+        arrived[approach] = any(r["status"] == "arrived" for r in rows)
+    assert early["either"] == 0 and early["cool"] == 0
+    assert arrived["either"] and arrived["cool"]
