@@ -137,6 +137,58 @@ def test_stub_matches_runtime_signatures(name):
         assert n in public, "stub names %s.%s, runtime lacks it" % (name, n)
 
 
+
+def _stub_defaults(fn):
+    """{parameter: stub default node} for the parameters that have one."""
+    a = fn.args
+    positional = a.posonlyargs + a.args
+    pairs = list(zip(positional[len(positional) - len(a.defaults):], a.defaults))
+    pairs += [(x, d) for x, d in zip(a.kwonlyargs, a.kw_defaults) if d is not None]
+    return {x.arg: d for x, d in pairs}
+
+
+def _default_differs(node, actual):
+    """True when a stub default is a literal other than the runtime's (``...`` never differs)."""
+    if isinstance(node, ast.Constant) and node.value is Ellipsis:
+        return False
+    try:
+        written = ast.literal_eval(node)
+    except ValueError:
+        return False        # a name or an expression: the stub says "some default"
+    if type(written) is not type(actual):
+        return True
+    return written != actual and not (isinstance(actual, float) and written == actual)
+
+
+@pytest.mark.parametrize("name", stub_modules())
+def test_stub_defaults_match_runtime_defaults(name):
+    # The stubs show defaults to the user's editor: a literal there must be the real one
+    # (python-control's habit: docs that cannot drift from the signatures).
+    mod = importlib.import_module("tinytherm." + name)
+    funcs, classes, _ = _stub_tree(name)
+    pairs = [(n, funcs[n], getattr(mod, n)) for n in funcs if hasattr(mod, n)]
+    for cls, methods in classes.items():
+        for m, node in methods.items():
+            if m != "__attrs__" and hasattr(mod, cls) and m in vars(getattr(mod, cls)):
+                pairs.append(("%s.%s" % (cls, m), node, vars(getattr(mod, cls))[m]))
+    for label, node, obj in pairs:
+        if not inspect.isfunction(obj):
+            continue
+        params = inspect.signature(obj).parameters
+        for arg, default in _stub_defaults(node).items():
+            assert arg in params, "%s.%s: stub parameter %s" % (name, label, arg)
+            assert not _default_differs(default, params[arg].default), \
+                "%s.%s(%s): stub default %s, runtime %r" % (
+                    name, label, arg, ast.unparse(default), params[arg].default)
+
+
+def test_stub_default_check_can_fail():
+    tree = ast.parse("def f(a: float = 0.35, b: int = ..., c: bool = True) -> None: ...")
+    d = _stub_defaults(tree.body[0])
+    assert _default_differs(d["a"], 0.36) and not _default_differs(d["a"], 0.35)
+    assert not _default_differs(d["b"], 3)
+    assert _default_differs(d["c"], 1) and not _default_differs(d["c"], True)
+
 def test_stub_instance_attributes_exist_at_runtime():
     from tinytherm.estimator import ThermalEstimator
     from tinytherm.planner import ReadyByPlanner
