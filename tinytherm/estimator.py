@@ -389,7 +389,11 @@ class ThermalEstimator(Answer):
         self._first(c, rc, uc)
 
     def _turned(self, yb):
-        """Track the extreme of the block means; True on a retreat beyond TURN_C."""
+        """Track the extreme of the block means; True on a retreat beyond TURN_C.
+
+        With a heater the retreat is a new direction of the same fit (the duty
+        explains it), never a restart.
+        """
         cut = 4.0 * self.noise.sd
         if cut < TURN_C:
             cut = TURN_C
@@ -404,7 +408,14 @@ class ThermalEstimator(Answer):
         if (yb > self._ext) if self._dir > 0 else (yb < self._ext):
             self._ext = yb
             return False
-        return not self.heater and (self._ext - yb) * self._dir > cut
+        if (self._ext - yb) * self._dir <= cut:
+            return False
+        if self.heater:
+            # the heater turned it: a new direction, the same fit (it explains the turn)
+            self._dir = -self._dir
+            self._ext = yb
+            return False
+        return True
 
     def _solve(self, known=None):
         """Priors for this block, then the regression's solve (see the module docstring).
