@@ -112,7 +112,8 @@ class Answer:
         self.eta_s = eta
         low = self.eta_low_s - el
         self.eta_low_s = low if low > 0.0 else 0.0
-        self.eta_high_s -= el
+        high = self.eta_high_s - el
+        self.eta_high_s = high if high > eta else eta
         self._for_age_ms = age_ms
         return True
 
@@ -125,8 +126,8 @@ def predict(est, target_c, approach=0):
     approach) and counted down between blocks; the latest reading is still
     checked against the arrival line at every call.
     """
-    if est._pending == 1:
-        est._finish_block()  # a block closed with the latest reading: solve it now
+    while est._pending:
+        est._next_step()  # a closed block's work not done yet: the answer needs all of it
     target = as_float(target_c)
     if approach != 1 and approach != -1:
         approach = 0  # (a bad value: as if not given, never an exception)

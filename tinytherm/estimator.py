@@ -224,6 +224,11 @@ class ThermalEstimator(Answer):
         code from :mod:`tinytherm.status`, counted, and leaves the fit
         untouched (its time still counts).
         """
+        if self._pending:
+            # a closed block's work is spread over the readings after it, one step
+            # each, before the guard sees the reading (it uses the fitted slope);
+            # a step's result depends on no reading after the block
+            self._next_step()
         t = as_float(temp_c)
         dt = as_float(dt_s)
         ok = self._inputs_ok(ambient_c, duty)
@@ -240,6 +245,8 @@ class ThermalEstimator(Answer):
         the seconds since the last reading before the save (the tick counter
         restarted meanwhile), so nothing is lost. Returns the verdict code.
         """
+        if self._pending:
+            self._next_step()  # (as in update)
         t = as_float(temp_c)
         ok = self._inputs_ok(ambient_c, duty)
         verdict = self.guard.check_ticks(t, ticks_ms, self._slope, ok, slept_s)
@@ -260,10 +267,6 @@ class ThermalEstimator(Answer):
         uc = self.inputs.duty_counts(duty) if self.heater else 0
         b = self.blocks
         try:
-            # a closed block's work is spread over the readings after it, one
-            # step each, done before the reading is added (it does not depend on it)
-            if self._pending:
-                self._next_step()
             if self._fresh or self.guard.gap == GAP_RESTART:
                 self._restart_fit()
                 self._first(c, self.inputs.reference(ambient_c, 0, True), uc)
@@ -524,7 +527,7 @@ class ThermalEstimator(Answer):
         counts and ``rejected`` count since the last restore.
         """
         while self._pending:
-            self._next_step()  # (as the next reading would: the blob holds no half-done block)
+            self._next_step()  # (as the next readings would: the blob holds no half-done block)
         buf = self._blob_buf
         o = bl.PAYLOAD_OFFSET
         flags = ((1 if self._fresh else 0) | (2 if self._disturbed else 0)
