@@ -1,4 +1,4 @@
-"""24 hours at 1 Hz under ``micropython -X heapsize=76K``.
+"""24 hours at 1 Hz under ``micropython -X heapsize=80K``.
 
 The core and the trace generator are precompiled with ``mpy-cross -O3``, as
 they would be for a device with a small heap: compiling sources needs more
@@ -7,8 +7,10 @@ bytecode (tracebacks show no lines; the core validates with exceptions, never
 with ``assert``, so nothing else changes). Measured with the estimator in
 parts: the smallest heap in 1K steps that runs this test is 74K (73K fails in
 the first hour: the import closure takes about 50K of bytecode and tables on
-this 64-bit port; benchmarks/device_budget.py prints the figures), so 76K
-leaves a margin for the few hundred bytes a fresh clone has been seen to differ by.
+this 64-bit port; benchmarks/device_budget.py prints the figures), and 76K
+ran out during a restore when the library sat in a longer folder path, so
+80K leaves a margin for such differences. A MemoryError in restore() is
+raised, never taken for a damaged blob.
 The trace is generated inside MicroPython (tests/long_run_mp.py). Figures are
 printed; the assertions check: no MemoryError, every reading processed, every
 save/restore cycle accepted, and no retained heap growth beyond the scatter of
@@ -40,7 +42,7 @@ def _build(lib):
         subprocess.run([cross, "-O3", "-o", os.path.join(lib, name + ".mpy"), src], check=True)
 
 
-@pytest.mark.parametrize("heap", ["76K"])
+@pytest.mark.parametrize("heap", ["80K"])
 def test_day_at_one_hertz_in_small_heap(tmp_path, heap):
     lib = str(tmp_path / "lib")
     _build(lib)

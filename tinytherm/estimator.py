@@ -558,6 +558,8 @@ class ThermalEstimator(Answer):
             code = bl.check(blob, self._settings)
             if code == bl.RESTORED:
                 code = self._unpack(blob)
+        except MemoryError:
+            raise  # not the blob's fault: a wrongly "damaged" blob would wipe the state
         except Exception:  # noqa: BLE001 - a blob must never crash the device
             code = bl.BLOB_VALUES
         if code != bl.RESTORED:
