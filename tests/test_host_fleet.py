@@ -86,10 +86,13 @@ def test_replay_rows_streams_the_file_as_replay_does(tmp_path):
     path = tmp_path / "h.csv"
     cooling_trace(path, seed=5, heater=True)
     whole = replay(read_trace(path), 50.0)
+    estimator = whole.settings.estimator(has_heater=True, any_duty=True)
     with iter_trace_rows(path) as rows:
-        streamed = list(replay_rows(rows, 50.0, **whole.settings))
-    assert whole.settings["heater"] is True
-    assert streamed == whole.rows
+        pairs = list(replay_rows(rows, 50.0, estimator, whole.settings))
+    assert whole.estimator_kwargs["heater"] is True and estimator.heater is True
+    assert [pred for _, pred in pairs] == whole.rows
+    with iter_trace_rows(path) as rows:             # each pair holds the row it answers
+        assert [row for row, _ in pairs] == list(rows)
 
 
 def test_evaluate_trace_equals_replay_plus_trace_metrics(fleet_dir):
@@ -237,10 +240,10 @@ def test_ab_against_another_core_in_a_child_process(fleet_dir, tmp_path):
     with open(other / "tinytherm" / "__init__.py", "a") as handle:
         handle.write('\n__version__ = "0.0.0-copy"\n')
     out = tmp_path / "ab.csv"
-    # baseline: the copied core with a longer settle time; candidate: this checkout's
+    # baseline: the copied core with a narrower interval; candidate: this checkout's
     code = main(["fleet", str(fleet_dir / "manifest.csv"), "--out", str(out), "--workers", "0",
                  "--quiet", "--baseline-core", str(other), "--baseline-set",
-                 "settle_s=150", "--worse-by", "-1", "--plot-worse", "2"])
+                 "interval=0.5", "--worse-by", "-1", "--plot-worse", "2"])
     assert code == 0
     rows = [dict(zip(_csv(out)[0], r)) for r in _csv(out)[1:]]
     report = (tmp_path / "ab_report.md").read_text()

@@ -81,7 +81,7 @@ class ReplaySeries:
                    [r["eta_s"] for r in rows], [r["eta_low_s"] for r in rows],
                    [r["eta_high_s"] for r in rows], [r["status_code"] for r in rows],
                    [r["rate_per_s"] for r in rows], [r["equilibrium_c"] for r in rows],
-                   result.target_c, interval=result.settings.get("interval", 0.8),
+                   result.target_c, interval=result.settings.value("interval"),
                    ambient_c=trace.ambient_c if trace.has_ambient else None,
                    verdict=verdicts, events=list(zip(trace.time_s, trace.events)))
 
