@@ -19,19 +19,9 @@ from host_sim.replay.settings import ReplaySettings, estimator_arguments, settin
 from host_sim.replay.trace_io import read_predictions, read_trace
 from host_sim.replay.trace_reader import iter_trace_rows
 from host_sim.sim.scenarios import generate, write_scenario
+from test_host_cli_options import one_error, run
 from tinytherm.estimator import ThermalEstimator
-
-
-def run(argv, capsys):
-    code = cli.main([str(a) for a in argv])
-    cap = capsys.readouterr()
-    return code, cap.out, cap.err
-
-
-def one_error(err):
-    lines = [ln for ln in err.splitlines() if ln.strip()]
-    assert len(lines) == 1 and lines[0].startswith("error: "), err
-    return lines[0]
+from tinytherm.profile import VesselProfile
 
 
 @pytest.fixture(scope="module")
@@ -192,9 +182,9 @@ def test_option_tables_follow_the_signature():
     names = [n for n in estimator_arguments() if n != "heater"]
     for command in ("replay", "benchmark"):
         parser = _subparser(command)
-        dests = {a.dest[len("setting_"):] for a in parser._actions
-                 if a.dest.startswith("setting_")}
-        assert dests == set(names), command
+        group = [g for g in parser._action_groups if g.title.startswith("estimator settings")]
+        dests = {a.dest for a in group[0]._group_actions}
+        assert dests == set(names) | {"ignore_ambient_column", "approach", "heater", "set"}
         flags = _flags(parser)
         assert all("--" + n.replace("_", "-") in flags for n in names)
         assert {"--set", "--approach", "--heater", "--ignore-ambient-column"} <= flags
@@ -243,3 +233,37 @@ def test_calibrate_decides_heater_and_profile_itself(mug, tmp_path, capsys):
         code, _, err = run(["calibrate", trace, "--out", tmp_path / "p.json", "--set", pair],
                            capsys)
         assert code == 2 and "decides it itself" in one_error(err)
+
+
+def test_a_profile_file_needs_the_command_lines_reader(tmp_path):
+    prof = VesselProfile(rate_per_s=1.0 / 1500.0, rate_log_sd=0.3)
+    with pytest.raises(ValueError, match="needs a profile reader"):
+        ReplaySettings({"profile": str(tmp_path / "p.json")})
+    given = ReplaySettings({"profile": prof, "interval": 0.6})
+    assert given.constructor_kwargs(False, False)["profile"] is prof
+    with pytest.raises(ValueError, match="no text form"):
+        given.to_pairs()
+    read = ReplaySettings(["profile=p.json"], read_profile=lambda path: prof)
+    assert read.given["profile"] is prof and read.to_pairs() == ["profile=p.json"]
+    merged = settings_of(read, approach="cool")       # keeps the profile and its file name
+    assert merged.given["profile"] is prof and merged.profile_path == "p.json"
+
+
+def test_calibrate_replays_with_the_settings_given():
+    from host_sim.calibrate.conformal import replay_pairs
+    from host_sim.calibrate.prepare import prepare
+    import numpy as np
+    from host_sim.sim import vessels
+    prep = prepare(vessels.use_trace(vessels.generate_use("mug", 1)))
+    wide = replay_pairs(prep, False)
+    narrow = replay_pairs(prep, False, ReplaySettings({"interval": 0.5}))
+    assert len(wide) == len(narrow) > 0
+    for w, n in zip(wide, narrow):
+        both = np.isfinite(w.low) & np.isfinite(n.low) & np.isfinite(w.high) & np.isfinite(n.high)
+        assert both.any()
+        # the same answers, a narrower interval around them
+        assert np.array_equal(w.eta, n.eta, equal_nan=True)
+        assert np.all(n.high[both] - n.low[both] <= w.high[both] - w.low[both])
+        assert np.any(n.high[both] - n.low[both] < w.high[both] - w.low[both])
+    with pytest.raises(ValueError, match="given twice"):
+        replay_pairs(prep, False, ReplaySettings({"heater": "on"}))

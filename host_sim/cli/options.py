@@ -117,7 +117,7 @@ def add_estimator_options(p):
         else:
             text += " (core default: %s)" % ("%.6g" % default if isinstance(default, float)
                                               else default)
-        g.add_argument(*flags, dest="setting_" + name, metavar=metavars[kind], default=None,
+        g.add_argument(*flags, dest=name, metavar=metavars[kind], default=None,
                        type=_option_type(name, kind), help=text.replace("%", "%%"))
     g.add_argument("--ignore-ambient-column", action="store_true",
                    help="do not pass the trace's ambient_c column to the estimator")
@@ -163,11 +163,11 @@ def settings_from_args(args, refuse=()):
     the device would refuse is a :class:`CliError`. ``refuse``: names this
     command decides itself (an error if given).
     """
-    from host_sim.replay.settings import ReplaySettings, split_pairs
+    from host_sim.replay.settings import ReplaySettings, estimator_arguments, split_pairs
     given = []
-    for key, value in sorted(vars(args).items()):
-        if key.startswith("setting_") and value is not None:
-            given.append((key[len("setting_"):], value))
+    for name in estimator_arguments():
+        if name != "heater" and getattr(args, name, None) is not None:
+            given.append((name, getattr(args, name)))
     if getattr(args, "approach", None) is not None:
         given.append(("approach", args.approach))
     if getattr(args, "heater", None) is not None:
@@ -183,9 +183,24 @@ def settings_from_args(args, refuse=()):
                                  % name)
             if name in refuse:
                 raise ValueError("setting %s: this command decides it itself" % name)
-        return ReplaySettings(dict(given))
+        return ReplaySettings(dict(given), read_profile=read_profile)
     except ValueError as exc:
         raise CliError(str(exc)) from None
+
+
+def read_profile(path):
+    """The VesselProfile in a ``calibrate`` output file, read as the device would read it
+    (through its blob); ValueError when it cannot be read or the device would refuse it."""
+    from host_sim.calibrate.report import load_profile
+    from tinytherm.profile import reason_name
+    try:
+        prof, reason = load_profile(path)
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        raise ValueError("--profile %s: cannot read it (%s)" % (path, exc)) from None
+    if prof is None:
+        raise ValueError("--profile %s: the device would refuse it (%s)"
+                         % (path, reason_name(reason)))
+    return prof
 
 
 class CliError(ValueError):

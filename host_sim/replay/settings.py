@@ -122,22 +122,8 @@ def parse_value(name, kind, value):
                 raise ValueError("%s must be a number, got %r" % (name, text)) from None
         return _finite(name, value)
     if kind == "profile":
-        return value          # a path (read by ReplaySettings), a VesselProfile or its blob
+        return value          # a file name (read by ReplaySettings), a VesselProfile or its blob
     return value if low is None else text
-
-
-def _load_profile(path):
-    """The VesselProfile in a calibrate output file, as the device would read it."""
-    from host_sim.calibrate.report import load_profile
-    from tinytherm.profile import reason_name
-    try:
-        prof, reason = load_profile(path)
-    except (OSError, ValueError, KeyError, TypeError) as exc:
-        raise ValueError("profile %s: cannot read it (%s)" % (path, exc)) from None
-    if prof is None:
-        raise ValueError("profile %s: the device would refuse it (%s)"
-                         % (path, reason_name(reason)))
-    return prof
 
 
 class ReplaySettings:
@@ -148,19 +134,24 @@ class ReplaySettings:
     given twice is an error. ``arguments``: ``{name: default}`` of the
     estimator these settings are for (default: the installed core's,
     :func:`estimator_arguments`); a fleet's other core passes its own.
-    Raises ValueError naming the setting for an unknown name, a value of the
-    wrong kind, a NaN or infinity, or a profile file the device would refuse.
+    ``read_profile``: ``path -> VesselProfile`` for a ``profile`` given as a
+    file name (the command line passes the reader of ``calibrate``'s files,
+    which ValueErrors a file the device would refuse); without it only a
+    VesselProfile or its blob is taken. Raises ValueError naming the setting
+    for an unknown name, a value of the wrong kind, a NaN or infinity.
 
     Attributes: ``approach`` (-1 cool, +1 heat, 0 either: for ``predict``),
     ``heater`` ("auto", "on" or "off"), ``use_ambient_column`` (bool),
-    ``given`` (dict of every setting given, checked; ``profile`` as given),
+    ``given`` (dict of every setting given, checked; ``profile`` as the
+    profile read), ``profile_path`` (the profile's file name, or None),
     ``arguments`` (the estimator's ``{name: default}``).
     """
 
-    def __init__(self, values=None, arguments=None):
+    def __init__(self, values=None, arguments=None, read_profile=None):
         self.arguments = dict(estimator_arguments() if arguments is None else arguments)
         self.given = {}
-        self._profile = None
+        self.profile_path = None
+        self._read_profile = read_profile
         for name, value in split_pairs(values):
             if name in self.given:
                 raise ValueError("setting %s given twice" % name)
@@ -179,8 +170,13 @@ class ReplaySettings:
                                 ", ".join(REPLAY_SETTINGS)))
         kind = kind_of(name, self.arguments[name])
         value = parse_value(name, kind, value)
-        if kind == "profile" and value is not None:
-            self._profile = _load_profile(value) if isinstance(value, str) else value
+        if kind == "profile" and isinstance(value, str):
+            if self._read_profile is None:
+                raise ValueError("profile %s: a file name needs a profile reader (replay and "
+                                 "benchmark have one, fleet not yet); in Python give a "
+                                 "VesselProfile or its blob" % value)
+            self.profile_path = value
+            value = self._read_profile(value)
         return value
 
     def value(self, name):
@@ -195,10 +191,7 @@ class ReplaySettings:
 
     def estimator_values(self):
         """The estimator arguments given (``heater`` and the replay's own settings left out)."""
-        kw = {k: v for k, v in self.given.items() if k not in REPLAY_SETTINGS and k != "profile"}
-        if self._profile is not None:
-            kw["profile"] = self._profile       # the loaded profile, not its file name
-        return kw
+        return {k: v for k, v in self.given.items() if k not in REPLAY_SETTINGS}
 
     def constructor_kwargs(self, has_heater, any_duty):
         """The estimator's keyword arguments for a trace.
@@ -241,7 +234,11 @@ class ReplaySettings:
         """
         out = []
         for name, value in self.given.items():
-            if name == "approach":
+            if name == "profile" and value is not None:
+                if self.profile_path is None:
+                    raise ValueError("setting profile has no text form (give a profile file)")
+                text = self.profile_path
+            elif name == "approach":
                 text = {-1: "cool", 0: "either", 1: "heat"}[value]
             elif isinstance(value, bool):
                 text = "true" if value else "false"
@@ -260,9 +257,12 @@ class ReplaySettings:
         """One line for reports: the settings given, or ``core defaults``."""
         if not self.given:
             return "core defaults"
-        return ", ".join("%s=%s" % (k, v if k != "approach" else
-                                    {-1: "cool", 0: "either", 1: "heat"}[v])
-                         for k, v in self.given.items())
+        shown = dict(self.given)
+        if "approach" in shown:
+            shown["approach"] = {-1: "cool", 0: "either", 1: "heat"}[shown["approach"]]
+        if self.profile_path is not None:
+            shown["profile"] = self.profile_path
+        return ", ".join("%s=%s" % kv for kv in shown.items())
 
     def __eq__(self, other):
         return isinstance(other, ReplaySettings) and self.given == other.given \
@@ -308,4 +308,7 @@ def settings_of(settings=None, **values):
         if name in merged:
             raise ValueError("setting %s given twice" % name)
         merged[name] = value
-    return ReplaySettings(merged, settings.arguments)
+    out = ReplaySettings(merged, settings.arguments, settings._read_profile)
+    if "profile" not in values:
+        out.profile_path = settings.profile_path
+    return out
