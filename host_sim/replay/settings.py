@@ -8,8 +8,9 @@
   (:func:`estimator_arguments`): an argument the core drops is gone here too,
   and one it adds can be set without a change here. The kind follows the
   default: a bool takes a yes/no word, an int an integer, a float (or None) a
-  finite number (or ``none``); ``profile`` takes a profile file (``.json``,
-  ``.hex`` or ``.bin`` from ``calibrate``), read through its device blob.
+  finite number (or ``none``); ``profile`` takes a VesselProfile, its blob,
+  or a file from ``calibrate`` when a reader is given (the command line's
+  reads it through its device blob).
 - the replay's own settings (:data:`REPLAY_SETTINGS`): ``approach`` for
   ``predict()`` (cool, heat or either), ``heater`` (auto, on or off; the
   estimator's ``heater`` argument follows from it and the trace) and
