@@ -240,10 +240,10 @@ def test_ab_against_another_core_in_a_child_process(fleet_dir, tmp_path):
     with open(other / "tinytherm" / "__init__.py", "a") as handle:
         handle.write('\n__version__ = "0.0.0-copy"\n')
     out = tmp_path / "ab.csv"
-    # baseline: the copied core with a narrower interval; candidate: this checkout's
+    # baseline: the copied core with a longer settle time; candidate: this checkout's
     code = main(["fleet", str(fleet_dir / "manifest.csv"), "--out", str(out), "--workers", "0",
                  "--quiet", "--baseline-core", str(other), "--baseline-set",
-                 "interval=0.5", "--worse-by", "-1", "--plot-worse", "2"])
+                 "interval=0.9", "--worse-by", "-1", "--plot-worse", "2"])
     assert code == 0
     rows = [dict(zip(_csv(out)[0], r)) for r in _csv(out)[1:]]
     report = (tmp_path / "ab_report.md").read_text()
