@@ -59,7 +59,7 @@ def test_version(capsys):
     (["replay", "t.csv", "--out", "p.csv", "--target", "inf"],
      "argument --target: expected a finite number"),
     (["replay", "t.csv", "--out", "p.csv", "--target", "60", "--ambient=-inf"],
-     "argument --ambient: expected a finite number"),
+     "argument --ambient-c/--ambient: expected a finite number"),
     (["demo", "--every", "0"], "argument --every: expected a number above 0"),
 ])
 def test_bad_option_values_name_the_option(argv, text, capsys):

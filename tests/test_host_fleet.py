@@ -86,10 +86,13 @@ def test_replay_rows_streams_the_file_as_replay_does(tmp_path):
     path = tmp_path / "h.csv"
     cooling_trace(path, seed=5, heater=True)
     whole = replay(read_trace(path), 50.0)
+    estimator = whole.settings.estimator(has_heater=True, any_duty=True)
     with iter_trace_rows(path) as rows:
-        streamed = list(replay_rows(rows, 50.0, **whole.settings))
-    assert whole.settings["heater"] is True
-    assert streamed == whole.rows
+        pairs = list(replay_rows(rows, 50.0, estimator, whole.settings))
+    assert whole.estimator_kwargs["heater"] is True and estimator.heater is True
+    assert [pred for _, pred in pairs] == whole.rows
+    with iter_trace_rows(path) as rows:             # each pair holds the row it answers
+        assert [row for row, _ in pairs] == list(rows)
 
 
 def test_evaluate_trace_equals_replay_plus_trace_metrics(fleet_dir):

@@ -16,7 +16,11 @@ class Pair:
 
 
 def replay_pairs(prep, use_heater, settings=None, fractions=TARGET_FRACTIONS):
-    """Replay ``prep.trace`` through the estimator without a profile, one run per target."""
+    """Replay ``prep.trace`` through the estimator without a profile, one run per target.
+
+    ``settings``: a :class:`host_sim.replay.settings.ReplaySettings` (or None:
+    the core's defaults) without ``heater`` (``use_heater`` decides it).
+    """
     from host_sim.replay.replay import SHOWN_STATUSES, replay
     i0, _, _ = approach(prep)
     t_start = float(prep.t[i0])
@@ -25,8 +29,7 @@ def replay_pairs(prep, use_heater, settings=None, fractions=TARGET_FRACTIONS):
         cross = crossing_s(prep, target)
         if cross is None or cross - t_start < 30.0:
             continue
-        result = replay(prep.trace, target, heater="on" if use_heater else "off",
-                        **(settings or {}))
+        result = replay(prep.trace, target, settings, heater="on" if use_heater else "off")
         t = np.asarray(prep.trace.time_s, dtype=float)
         col = {name: np.array([np.nan if v is None else float(v) for v in result.column(name)])
                for name in ("eta_s", "eta_low_s", "eta_high_s")}

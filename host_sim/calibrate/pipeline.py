@@ -145,8 +145,9 @@ def calibrate(traces, fills=None, ambient_c=None, folds=5, smooth_s=60.0, settin
 
     ``traces``: list of :class:`host_sim.replay.trace_io.Trace` of one vessel;
     ``fills``: list of fills (kg) or None; ``ambient_c``: room (deg C) for
-    traces without an ambient column; ``settings``: estimator keyword
-    arguments for the replay. Returns :class:`Calibration`.
+    traces without an ambient column; ``settings``: the
+    :class:`host_sim.replay.settings.ReplaySettings` of the device's replays
+    (no ``heater``: the traces decide it; no ``profile``). Returns :class:`Calibration`.
     """
     if len(traces) < 1:
         raise ValueError("calibrate needs at least one trace")

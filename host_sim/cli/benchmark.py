@@ -27,11 +27,13 @@ import multiprocessing
 import sys
 import time
 
-from host_sim.cli.options import CliError, add_estimator_options, check_output, estimator_kwargs
+from host_sim.cli.options import (CliError, add_estimator_options, check_output, count_int,
+                                  settings_from_args)
 from host_sim.sim import scenarios
 from host_sim.replay.baselines import make_baselines
 from host_sim.replay.metrics import summarise, trace_metrics
 from host_sim.replay.replay import replay
+from host_sim.replay.settings import settings_of
 from host_sim.replay.trace_io import Trace
 
 SEED_BASE = {"tune": 1000, "holdout": 5000}
@@ -47,22 +49,20 @@ def seeds_for(seed_set, per_kind):
 
 
 def run_one(job):
-    """Score one (kind, seed, settings) job; returns a dict per method."""
-    kind, seed, settings = job
-    settings = dict(settings)
-    gen = scenarios.generate(kind, seed, sensor_faults=settings.pop("sensor_faults", True))
+    """Score one (kind, seed, settings, sensor_faults) job; returns a dict per method.
+
+    ``settings``: a :class:`host_sim.replay.settings.ReplaySettings`;
+    ``sensor_faults``: scenarios with dropouts, spikes and stuck stretches.
+    """
+    kind, seed, settings, sensor_faults = job
+    gen = scenarios.generate(kind, seed, sensor_faults=sensor_faults)
     truth = gen.truth
     trace = Trace(gen.time_s, gen.temp_c, ambient_c=gen.ambient_c, heater=gen.heater,
                   events=gen.events)
     target = truth["target_c"]
     crossing = truth["crossing_time_s"]
-    settings = dict(settings)
-    ambient = settings.pop("ambient_c", None)
-    use_col = settings.pop("use_ambient_column", True)
-    heater = settings.pop("heater", "auto")
     t0 = time.perf_counter()
-    res = replay(trace, target, ambient_c=ambient, heater=heater, use_ambient_column=use_col,
-                 **settings)
+    res = replay(trace, target, settings)
     core_s = time.perf_counter() - t0
     out = {"kind": kind, "seed": seed, "rows": len(trace), "crossing_s": crossing}
     out["core"] = trace_metrics(trace.time_s, res.shown_eta(), crossing,
@@ -81,10 +81,15 @@ def run_one(job):
     return out
 
 
-def run_suite(seed_set, per_kind=14, jobs=2, settings=None, progress=True):
-    """Run one seed set; returns the list of per-trace result dicts."""
-    settings = settings or {}
-    work = [(k, s, settings) for k in scenarios.KINDS for s in seeds_for(seed_set, per_kind)]
+def run_suite(seed_set, per_kind=14, jobs=2, settings=None, progress=True, sensor_faults=True):
+    """Run one seed set; returns the list of per-trace result dicts.
+
+    ``settings``: a :class:`host_sim.replay.settings.ReplaySettings` (default:
+    the core's defaults, heater auto, the ambient column used).
+    """
+    settings = settings_of(settings)
+    work = [(k, s, settings, sensor_faults) for k in scenarios.KINDS
+            for s in seeds_for(seed_set, per_kind)]
     results = []
     start = time.perf_counter()
     if jobs > 1:
@@ -183,9 +188,9 @@ def add_parser(sub):
                        description="Seeded suite of scenarios: the estimator against naive "
                                    "slope extrapolation and scipy exponential refits.")
     b.add_argument("--seeds", choices=("tune", "holdout", "both"), default="both")
-    b.add_argument("--per-kind", type=int, default=14, metavar="N",
+    b.add_argument("--per-kind", type=count_int(1), default=14, metavar="N",
                    help="traces per scenario kind and seed set (default 14: 70 traces)")
-    b.add_argument("--jobs", type=int, default=2, help="worker processes (default 2)")
+    b.add_argument("--jobs", type=count_int(1), default=2, help="worker processes (default 2)")
     b.add_argument("--csv", metavar="PER_TRACE.csv", help="write per-trace figures")
     b.add_argument("--no-faults", action="store_true",
                    help="diagnosis: scenarios without dropouts, spikes or stuck stretches")
@@ -198,19 +203,15 @@ def cmd_benchmark(args):
     """Run the seeded suite for the chosen seed sets; returns the exit code."""
     if args.csv:
         check_output(args.csv, "--csv")
-    try:
-        settings = estimator_kwargs(args)
-    except ValueError as exc:
-        raise CliError(str(exc)) from None
-    settings["heater"] = args.heater
-    settings["use_ambient_column"] = not args.ignore_ambient_column
-    settings["sensor_faults"] = not args.no_faults
-    if args.ambient is not None:
-        settings["ambient_c"] = args.ambient
+    settings = settings_from_args(args)
     sets = ("tune", "holdout") if args.seeds == "both" else (args.seeds,)
     all_results = []
     for seed_set in sets:
-        results = run_suite(seed_set, per_kind=args.per_kind, jobs=args.jobs, settings=settings)
+        try:        # a value the estimator refuses fails the first trace
+            results = run_suite(seed_set, per_kind=args.per_kind, jobs=args.jobs,
+                                settings=settings, sensor_faults=not args.no_faults)
+        except ValueError as exc:
+            raise CliError(str(exc)) from None
         all_results.append((seed_set, results))
         if args.no_faults:
             print("(diagnosis run: sensor faults off)")

@@ -1,7 +1,8 @@
 """``fleet MANIFEST.csv --out RESULTS.csv``: replay many traces on a dask cluster (see :mod:`host_sim.fleet.run`)."""
 import os
 
-from host_sim.cli.options import CliError
+from host_sim.cli.options import (SET_HELP, CliError, add_set_option, add_skip_bad_option,
+                                  count_int, finite_float)
 
 
 def add_parser(sub):
@@ -19,30 +20,27 @@ def add_parser(sub):
     f.add_argument("--out", required=True, metavar="RESULTS.csv",
                    help="per-trace results; beside it RESULTS.parquet, RESULTS_by_tag.csv, "
                         "RESULTS_report.md and PNG plots")
-    f.add_argument("--workers", type=int, default=None, metavar="N",
+    f.add_argument("--workers", type=count_int(0), default=None, metavar="N",
                    help="LocalCluster workers (default: CPU count; 0: in this process, no dask)")
     f.add_argument("--scheduler", metavar="ADDR",
                    help="use an existing dask cluster, e.g. tcp://10.0.0.5:8786")
     f.add_argument("--threads", action="store_true",
                    help="LocalCluster workers as threads, not processes")
-    f.add_argument("--target", type=float, metavar="C",
+    f.add_argument("--target", type=finite_float, metavar="C",
                    help="target, deg C, for traces without one in the manifest")
-    f.add_argument("--skip-bad", action="store_true",
-                   help="skip malformed rows (counted) instead of failing the trace")
-    f.add_argument("--chunk", type=int, metavar="K", help="traces per task (default: auto)")
+    add_skip_bad_option(f, default=False)
+    f.add_argument("--chunk", type=count_int(1), metavar="K",
+                   help="traces per task (default: auto)")
     f.add_argument("--core", metavar="PATH", help="candidate core: another checkout's folder "
                    "(default: the installed tinytherm)")
-    f.add_argument("--set", action="append", metavar="NAME=VALUE", default=[],
-                   help="candidate estimator setting (repeatable), e.g. interval=0.9, "
-                        "heater=off, ambient_c=21")
+    add_set_option(f, help_text="candidate: " + SET_HELP)
     f.add_argument("--baseline-core", metavar="PATH",
                    help="A/B: the baseline (e.g. released) core's checkout or install folder")
-    f.add_argument("--baseline-set", action="append", metavar="NAME=VALUE", default=[],
-                   help="A/B: baseline estimator setting (repeatable)")
-    f.add_argument("--worse-by", type=float, default=0.02, metavar="X",
+    add_set_option(f, "--baseline-set", "A/B: a baseline setting, as --set (repeatable)")
+    f.add_argument("--worse-by", type=finite_float, default=0.02, metavar="X",
                    help="A/B: a trace got worse when its median relative error rose by more "
                         "than X (default 0.02)")
-    f.add_argument("--plot-worse", type=int, default=10, metavar="N",
+    f.add_argument("--plot-worse", type=count_int(0), default=10, metavar="N",
                    help="A/B: replay plots of the N worst traces (default 10)")
     f.add_argument("--no-plots", action="store_true", help="no PNG plots")
     f.add_argument("--quiet", action="store_true", help="no progress bar")

@@ -44,56 +44,163 @@ def seed_int(text):
     return value
 
 
+def count_int(minimum):
+    """argparse type: an integer >= ``minimum``."""
+    def parse(text):
+        try:
+            value = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError("expected an integer, got %r" % text) from None
+        if value < minimum:
+            raise argparse.ArgumentTypeError("expected an integer of at least %d, got %r"
+                                             % (minimum, text))
+        return value
+    parse.__name__ = "integer"
+    return parse
+
+
+def add_skip_bad_option(p, default):
+    """``--skip-bad`` / ``--no-skip-bad``, the same spelling in every command that reads traces."""
+    p.add_argument("--skip-bad", action=argparse.BooleanOptionalAction, default=default,
+                   help="skip malformed rows (counted and reported) instead of stopping at "
+                        "the first (default: %s; a torn last row after a power loss is one)"
+                        % ("skip" if default else "stop"))
+
+
+# older spellings kept beside the generated ones (README and scripts use them)
+OPTION_ALIASES = {"ambient_c": ("--ambient",), "ambient_prior_c": ("--ambient-prior",)}
+SET_HELP = ("an estimator or replay setting by name, repeatable: NAME=VALUE with NAME an "
+            "argument of the core's ThermalEstimator (finite numbers; true/false; none) or "
+            "approach (cool/heat/either), heater (auto/on/off), use_ambient_column "
+            "(true/false); e.g. --set interval=0.9 --set heater=off")
+
+
+def argument_help(estimator_class=None):
+    """``{name: first sentence}`` from the estimator's docstring bullets ``- ``name``: ...``."""
+    import re
+    if estimator_class is None:
+        from tinytherm.estimator import ThermalEstimator as estimator_class
+    out = {}
+    bullets = re.split(r"\n\s*- ", "\n" + (estimator_class.__doc__ or ""))[1:]
+    for bullet in bullets:
+        head, _, text = bullet.partition(": ")
+        text = " ".join(text.split("\n\n")[0].split())
+        text = re.sub(r":\w+:`~?([\w.]+)`", lambda m: m.group(1).split(".")[-1], text)
+        text = text.replace("``", "")
+        sentence = text.split(". ")[0].rstrip(".")
+        for name in re.findall(r"``(\w+)``", head):
+            out[name] = sentence
+    return out
+
+
 def add_estimator_options(p):
+    """The replay settings as options: ``--NAME-WITH-DASHES VALUE`` per estimator argument
+    (from its signature), ``--approach``, ``--heater``, ``--ignore-ambient-column`` and
+    ``--set NAME=VALUE``; read back with :func:`settings_from_args`."""
+    from host_sim.replay.settings import HEATER_MODES, estimator_arguments, kind_of
     g = p.add_argument_group("estimator settings (defaults: the core's own)")
-    g.add_argument("--ambient", type=finite_float, metavar="C", default=None,
-                   help="known constant ambient, deg C (default: use the trace's ambient_c "
-                        "column if any, else estimate it); with an ambient_c column it "
-                        "needs --ignore-ambient-column")
+    helps = argument_help()
+    metavars = {"bool": "true|false", "int": "N", "float": "X", "float or none": "X",
+                "profile": "PROFILE.json", "text": "TEXT"}
+    for name, default in estimator_arguments().items():
+        if name == "heater":
+            continue                       # the replay's --heater auto|on|off below
+        kind = kind_of(name, default)
+        flags = ("--" + name.replace("_", "-"),) + OPTION_ALIASES.get(name, ())
+        text = helps.get(name, "the estimator's %s" % name)
+        if name == "ambient_c":
+            text += ("; with an ambient_c column in the trace it needs "
+                     "--ignore-ambient-column")
+        if name == "profile":
+            text = ("a vessel profile from `calibrate` (.json, .hex or .bin), used as the "
+                    "device would: through its device blob")
+        else:
+            text += " (core default: %s)" % ("%.6g" % default if isinstance(default, float)
+                                              else default)
+        g.add_argument(*flags, dest=name, metavar=metavars[kind], default=None,
+                       type=_option_type(name, kind), help=text.replace("%", "%%"))
     g.add_argument("--ignore-ambient-column", action="store_true",
                    help="do not pass the trace's ambient_c column to the estimator")
-    g.add_argument("--ambient-prior", type=finite_float, metavar="C", default=None,
-                   help="prior centre for an estimated ambient, deg C")
-    g.add_argument("--interval", type=finite_float, metavar="P", default=None,
-                   help="two-sided probability of the ETA interval, e.g. 0.8")
-    g.add_argument("--profile", metavar="PROFILE.json", default=None,
-                   help="a vessel profile from `calibrate` (.json, .hex or .bin), used "
-                        "exactly as the device would: through its device blob")
-    g.add_argument("--approach", choices=("either", "cool", "heat"), default="either",
+    g.add_argument("--approach", choices=("either", "cool", "heat"), default=None,
                    help="how the product reaches its target: cool (a drink cooling to "
                         "drinkable), heat (a kettle, a bath) or either (default: the "
                         "direction of travel decides; a probe warming up after a pour "
                         "can then read as arrived)")
-    g.add_argument("--heater", choices=("auto", "on", "off"), default="auto",
-                   help="fit a heater gain from the trace's heater column (auto: when the "
-                        "column exists and has a nonzero duty)")
+    g.add_argument("--heater", choices=HEATER_MODES, default=None,
+                   help="fit a heater gain from the trace's heater column (default auto: when "
+                        "the column exists and has a nonzero duty)")
+    add_set_option(g)
 
 
-def estimator_kwargs(args):
-    """Settings the user gave (None = the core's default), checked against the core."""
-    import inspect
-    from tinytherm.estimator import ThermalEstimator
-    kw = {"interval": args.interval, "ambient_prior_c": args.ambient_prior}
-    kw = {k: v for k, v in kw.items() if v is not None}
-    known = inspect.signature(ThermalEstimator.__init__).parameters
-    for name in kw:
-        if name not in known:
-            raise ValueError("this version of the estimator has no setting %s" % name)
-    if getattr(args, "profile", None):
-        from host_sim.calibrate.report import load_profile
-        from tinytherm.profile import reason_name
+def add_set_option(p, flag="--set", help_text=SET_HELP):
+    """``--set NAME=VALUE`` (repeatable), the spelling every command that replays shares."""
+    p.add_argument(flag, action="append", metavar="NAME=VALUE", default=[],
+                   dest=flag.lstrip("-").replace("-", "_"), help=help_text)
+
+
+def _option_type(name, kind):
+    """argparse type for one setting: its value checked now, so the error names the option."""
+    from host_sim.replay.settings import parse_value
+
+    def parse(text):
+        if kind == "profile":
+            return text                    # read once, by ReplaySettings
         try:
-            prof, reason = load_profile(args.profile)
-        except (OSError, ValueError, KeyError) as exc:
-            raise ValueError("--profile %s: cannot read it (%s)" % (args.profile, exc))
-        if prof is None:
-            raise ValueError("--profile %s: the device would refuse it (%s)"
-                             % (args.profile, reason_name(reason)))
-        kw["profile"] = prof
-    approach = {"cool": -1, "heat": 1}.get(getattr(args, "approach", "either"), 0)
-    if approach:
-        kw["approach"] = approach  # for predict(), see host_sim.replay.replay.replay_rows
-    return kw
+            return parse_value(name, kind, text)
+        except ValueError as exc:
+            raise argparse.ArgumentTypeError(str(exc).replace(name + " must be", "expected")
+                                             ) from None
+    parse.__name__ = kind
+    return parse
+
+
+def settings_from_args(args, refuse=()):
+    """The :class:`host_sim.replay.settings.ReplaySettings` of the options given.
+
+    From the per-argument options, ``--approach``, ``--heater``,
+    ``--ignore-ambient-column`` (those that exist on ``args``) and ``--set``
+    pairs; a setting given twice, an unknown name, a bad value or a profile
+    the device would refuse is a :class:`CliError`. ``refuse``: names this
+    command decides itself (an error if given).
+    """
+    from host_sim.replay.settings import ReplaySettings, estimator_arguments, split_pairs
+    given = []
+    for name in estimator_arguments():
+        if name != "heater" and getattr(args, name, None) is not None:
+            given.append((name, getattr(args, name)))
+    if getattr(args, "approach", None) is not None:
+        given.append(("approach", args.approach))
+    if getattr(args, "heater", None) is not None:
+        given.append(("heater", args.heater))
+    if getattr(args, "ignore_ambient_column", False):
+        given.append(("use_ambient_column", False))
+    try:
+        given += split_pairs(getattr(args, "set", None) or [])
+        names = [n for n, _ in given]
+        for name in names:
+            if names.count(name) > 1:
+                raise ValueError("setting %s given twice (an option and --set, or --set twice)"
+                                 % name)
+            if name in refuse:
+                raise ValueError("setting %s: this command decides it itself" % name)
+        return ReplaySettings(dict(given), read_profile=read_profile)
+    except ValueError as exc:
+        raise CliError(str(exc)) from None
+
+
+def read_profile(path):
+    """The VesselProfile in a ``calibrate`` output file, read as the device would read it
+    (through its blob); ValueError when it cannot be read or the device would refuse it."""
+    from host_sim.calibrate.report import load_profile
+    from tinytherm.profile import reason_name
+    try:
+        prof, reason = load_profile(path)
+    except (OSError, ValueError, KeyError, TypeError) as exc:
+        raise ValueError("--profile %s: cannot read it (%s)" % (path, exc)) from None
+    if prof is None:
+        raise ValueError("--profile %s: the device would refuse it (%s)"
+                         % (path, reason_name(reason)))
+    return prof
 
 
 class CliError(ValueError):

@@ -12,8 +12,8 @@ from array import array
 import numpy as np
 
 from host_sim.cli.options import (TRUST_FLOOR_S, TRUST_HELP, CliError, add_estimator_options,
-                                  check_finite, check_output, estimator_kwargs, finite_float,
-                                  format_accuracy, load_truth, show_temp)
+                                  add_skip_bad_option, check_finite, check_output, finite_float,
+                                  format_accuracy, load_truth, settings_from_args, show_temp)
 from host_sim.replay.trace_reader import TraceError
 
 SCAN_SAMPLE = 20000          # rows whose steps and readings feed the sanity medians
@@ -113,29 +113,6 @@ def _sanity_problems(scan, unit, time_unit="s"):
     return problems
 
 
-def _estimator_for(args, scan):
-    """The estimator and its keyword arguments for this trace and the CLI options."""
-    from tinytherm.estimator import ThermalEstimator
-    try:
-        kw = estimator_kwargs(args)
-    except ValueError as exc:
-        raise CliError(str(exc)) from None
-    if args.heater == "auto":
-        use_heater = scan.heater_on
-    else:
-        use_heater = args.heater == "on"
-    if use_heater and not scan.has_heater:
-        raise CliError("--heater on needs a heater column in the trace")
-    kw["heater"] = use_heater
-    if args.ambient is not None:
-        kw["ambient_c"] = args.ambient
-    try:
-        from host_sim.replay.replay import split_settings
-        return ThermalEstimator(**split_settings(kw)[0]), kw
-    except (TypeError, ValueError, OverflowError) as exc:
-        raise CliError("estimator settings: %s" % exc) from None
-
-
 def add_parser(sub):
     """Add the ``replay`` subcommand to the CLI's subparsers."""
     r = sub.add_parser("replay", help="feed a trace CSV through the estimator",
@@ -155,8 +132,7 @@ def add_parser(sub):
                    help="the trace's temp_c/ambient_c columns hold deg F")
     r.add_argument("--target-in-f", action="store_true",
                    help="with --fahrenheit: --target is in deg F too")
-    r.add_argument("--skip-bad", action="store_true",
-                   help="skip malformed rows (their count is reported) instead of stopping")
+    add_skip_bad_option(r, default=False)
     r.add_argument("--time-unit", choices=("s", "ms", "min"), default="s",
                    help="unit of the time_s column (default s); converted to seconds")
     r.add_argument("--verdict", action="store_true",
@@ -188,7 +164,8 @@ def _replay(args):
 
     unit = "F" if args.fahrenheit else "C"
     check_finite(args.target, "--target")
-    check_finite(args.ambient, "--ambient")
+    settings = settings_from_args(args)
+    ambient = settings.value("ambient_c")
     if args.target_in_f and not args.fahrenheit:
         raise CliError("--target-in-f needs --fahrenheit (the target is in deg C otherwise)")
     target = args.target
@@ -216,10 +193,10 @@ def _replay(args):
             print("  " + reason, file=sys.stderr)
         if scan.skipped_rows > 5:
             print("  ... and %d more" % (scan.skipped_rows - 5), file=sys.stderr)
-    if args.ambient is not None and scan.has_ambient and not args.ignore_ambient_column:
+    if ambient is not None and scan.has_ambient and settings.use_ambient_column:
         raise CliError("--ambient %g and the trace's ambient_c column both give the ambient: "
                        "drop --ambient to use the column, or add --ignore-ambient-column to "
-                       "use %g C" % (args.ambient, args.ambient))
+                       "use %g C" % (ambient, ambient))
     if not args.no_checks:
         problems = _sanity_problems(scan, unit, args.time_unit)
         lo, hi = LIQUID_RANGE_C
@@ -231,8 +208,11 @@ def _replay(args):
         if problems:
             raise CliError("%s: %s (--no-checks replays it anyway)"
                            % (args.trace, "; ".join(problems)))
-    _, settings = _estimator_for(args, scan)      # builds one to check the settings
-    use_amb = scan.has_ambient and not args.ignore_ambient_column
+    try:
+        estimator = settings.estimator(scan.has_heater, scan.heater_on)
+    except ValueError as exc:
+        raise CliError(str(exc).replace("heater on needs", "--heater on needs")) from None
+    use_amb = scan.has_ambient and settings.use_ambient_column
 
     n = scan.rows
     stride = max(1, -(-n // PLOT_POINTS)) if args.plot else 0
@@ -255,18 +235,10 @@ def _replay(args):
     try:
         bar = tqdm(total=n, unit="row", desc="replay", disable=None if n >= 20000 else True,
                    file=sys.stderr, mininterval=0.5)
-        current = [None]
         crossing_finder = None if args.truth else CrossingFinder(target)
-
-        def source():
-            for row in open_rows():
-                current[0] = row
-                yield row
-
         verdict_codes = {name: code for code, name in enumerate(st.VERDICT_NAMES)}
-        for i, pred in enumerate(replay_rows(source(), target, use_ambient_column=use_amb,
-                                             **settings)):
-            t, temp, amb, _, event = current[0]
+        for i, (row, pred) in enumerate(replay_rows(open_rows(), target, estimator, settings)):
+            t, temp, amb, _, event = row
             code = pred["status_code"]
             verdict = verdict_codes.get(pred["verdict"], -1)
             if 0 <= verdict < len(verdicts):
@@ -305,7 +277,10 @@ def _replay(args):
                 os.remove(args.out)
 
     rows_done = len(t_arr)
-    settings_shown = ", ".join("%s=%s" % kv for kv in sorted(settings.items()))
+    used = dict(settings.constructor_kwargs(scan.has_heater, scan.heater_on))
+    if settings.approach:
+        used["approach"] = settings.approach
+    settings_shown = ", ".join("%s=%s" % kv for kv in sorted(used.items()))
     print("replayed %d rows through the estimator (%s); predictions in %s%s"
           % (rows_done, settings_shown, args.out,
              " (with a verdict column)" if args.verdict else ""))
@@ -348,7 +323,7 @@ def _replay(args):
         print("the trace does not cross the target %s: no accuracy metrics" % target_shown)
     if args.plot:
         from host_sim.replay.plots import ReplaySeries, plot_series
-        series = ReplaySeries.from_tuples(plot_rows, target, settings.get("interval", 0.8),
+        series = ReplaySeries.from_tuples(plot_rows, target, settings.value("interval"),
                                           events=events, has_ambient=use_amb)
         try:
             plot_series(series, args.plot, crossing_s=crossing,

@@ -21,7 +21,8 @@ import sys
 import threading
 
 from host_sim.fleet.metrics import TraceScorer
-from host_sim.replay.replay import CrossingFinder, replay_rows, settings_for
+from host_sim.replay.replay import CrossingFinder, replay_rows
+from host_sim.replay.settings import ReplaySettings, estimator_arguments
 from host_sim.replay.trace_io import write_predictions
 from host_sim.replay.trace_reader import TraceError, iter_trace_rows
 
@@ -65,8 +66,9 @@ def evaluate_trace(spec, variant, predictions_out=None):
     ``crossing_s`` (a known crossing, seconds; otherwise the trace's own,
     :class:`host_sim.replay.replay.CrossingFinder`), ``noise_sd_c`` (deg C) and
     ``skip_bad`` (skip malformed rows instead of failing). ``variant``: dict
-    with ``settings`` (core keyword arguments), ``heater`` (auto/on/off),
-    optional ``ambient_c`` (deg C) and ``use_ambient_column``.
+    with ``settings``, ``NAME=VALUE`` texts (or a dict) for
+    :class:`host_sim.replay.settings.ReplaySettings`, read against this
+    process's core.
     ``predictions_out``: also write the prediction CSV there. Errors of any
     kind are returned as ``error`` text (empty when the trace replayed).
     """
@@ -80,17 +82,16 @@ def evaluate_trace(spec, variant, predictions_out=None):
         crossing, has_heater, any_duty = _scan(spec["path"], target, skip_bad, known is None)
         if known is not None:
             crossing = float(known)
-        kw = settings_for(has_heater, any_duty, variant.get("ambient_c"),
-                          variant.get("heater", "auto"), **(variant.get("settings") or {}))
+        settings = ReplaySettings(variant.get("settings"))
+        estimator = settings.estimator(has_heater, any_duty)
         scorer = TraceScorer(target, crossing, spec.get("noise_sd_c"))
         with iter_trace_rows(spec["path"], skip_bad=skip_bad) as rows:
-            stream = replay_rows(rows, target,
-                                 use_ambient_column=variant.get("use_ambient_column", True), **kw)
+            stream = replay_rows(rows, target, estimator, settings)
 
             def scored():
-                for row in stream:
-                    scorer.add(row)
-                    yield row
+                for _, pred in stream:
+                    scorer.add(pred)
+                    yield pred
 
             if predictions_out:
                 write_predictions(predictions_out, scored())
@@ -111,14 +112,18 @@ def evaluate_trace(spec, variant, predictions_out=None):
 
 
 def core_info():
-    """Where the loaded core lives and what it accepts: dict for the A/B header."""
-    import inspect
+    """Where the loaded core lives and what its estimator takes, for the A/B header.
+
+    ``file``: the package folder; ``version``; ``arguments``: the estimator's
+    ``{name: default}`` (:func:`host_sim.replay.settings.estimator_arguments`;
+    a default JSON cannot carry is given as its repr).
+    """
     import tinytherm
-    from tinytherm.estimator import ThermalEstimator
+    plain = (type(None), bool, int, float, str)
     return {"file": os.path.dirname(os.path.abspath(tinytherm.__file__)),
             "version": getattr(tinytherm, "__version__", None),
-            "settings": sorted(p for p in inspect.signature(ThermalEstimator.__init__).parameters
-                               if p != "self")}
+            "arguments": {k: v if isinstance(v, plain) else repr(v)
+                          for k, v in estimator_arguments().items()}}
 
 
 def serve(stdin=None, stdout=None):

@@ -377,9 +377,9 @@ def report_lines(rows, tag_rows, variants, worse, worse_by, folder):
     for name, label in (("cand", "candidate"), ("base", "baseline")):
         if name in variants:
             v = variants[name]
-            lines.append("- %s core: %s (version %s), settings %s, heater %s"
+            lines.append("- %s core: %s (version %s), settings: %s"
                          % (label, v.get("core_file"), v.get("core_version"),
-                            v.get("settings") or "defaults", v.get("heater")))
+                            ", ".join(v.get("settings") or ()) or "core defaults"))
     lines += ["- traces: %d, failed: %d" % (len(rows), sum(1 for r in rows if r["error"])),
               "- figures: answers a device shows (status tracking or arrived); "
               "median/p90 are medians over traces of the per-trace figures", ""]

@@ -24,6 +24,9 @@ A/B: ``--baseline-core PATH`` (another checkout, or a folder where a
 ``tinytherm`` package is installed) and/or ``--baseline-set NAME=VALUE``
 replay every trace a second time as the baseline; ``--core`` and ``--set``
 choose the candidate (default: the installed core with its defaults). The
+settings are those of every command that replays
+(:class:`host_sim.replay.settings.ReplaySettings`), checked against the
+estimator of the core they are for. The
 outputs then list the traces that got worse (:mod:`host_sim.fleet.report`).
 """
 import csv
@@ -33,6 +36,7 @@ import os
 import sys
 
 from host_sim.fleet import core as fleet_core
+from host_sim.replay.settings import ReplaySettings
 
 KNOWN_COLUMNS = ("path", "target", "crossing_s", "noise_sd_c")
 
@@ -233,58 +237,32 @@ def _run_dask(chunks, variants, workers, scheduler, processes, task, retries, re
             cluster.close()
 
 
-def parse_settings(pairs):
-    """``["interval=0.9", "heater=off", ...]`` -> (core settings dict, variant options).
-
-    Values are floats where they parse, ``true``/``false``/``none`` as
-    booleans/None, otherwise text. ``heater`` (auto/on/off), ``ambient_c``
-    (deg C) and ``use_ambient_column`` are replay options, the rest go to
-    the core's constructor.
-    """
-    settings, options = {}, {}
-    for pair in pairs or ():
-        if "=" not in pair:
-            raise ValueError("setting %r is not NAME=VALUE" % pair)
-        name, text = (s.strip() for s in pair.split("=", 1))
-        low = text.lower()
-        if low in ("true", "false"):
-            value = low == "true"
-        elif low == "none":
-            value = None
-        else:
-            try:
-                value = float(text)
-            except ValueError:
-                value = text
-        if name in ("heater", "ambient_c", "use_ambient_column"):
-            options[name] = value
-        else:
-            settings[name] = value
-    return settings, options
-
-
 def make_variant(core, pairs):
-    """A variant dict from ``--core``/``--set`` style options."""
-    settings, options = parse_settings(pairs)
-    variant = {"core": fleet_core.core_root(core) if core else None, "settings": settings,
-               "heater": options.get("heater", "auto"),
-               "ambient_c": options.get("ambient_c"),
-               "use_ambient_column": options.get("use_ambient_column", True)}
-    if variant["heater"] not in ("auto", "on", "off"):
-        raise ValueError("heater must be auto, on or off")
-    check_variant(variant)
+    """A variant dict from ``--core``/``--set`` style options.
+
+    ``core``: another checkout's folder or None (the installed core);
+    ``pairs``: ``NAME=VALUE`` texts, read by
+    :class:`host_sim.replay.settings.ReplaySettings` against that core's
+    estimator (ValueError for an unknown name or a bad value). The variant
+    holds them as canonical texts (``settings``), so it travels as JSON to
+    another core's process, plus ``core``, ``core_file`` and ``core_version``.
+    """
+    variant = {"core": fleet_core.core_root(core) if core else None}
+    info = check_variant(variant)
+    settings = ReplaySettings(pairs or [], arguments=info["arguments"])
+    variant["settings"] = settings.to_pairs()
     return variant
 
 
 def check_variant(variant):
-    """Fail early when a variant's core does not take one of its settings."""
+    """Where a variant's core lives and what its estimator takes (:func:`host_sim.fleet.core.core_info`).
+
+    Sets ``core_file`` and ``core_version`` of ``variant``; returns the info.
+    """
     if variant["core"]:
         info = fleet_core.core_process(variant["core"]).info()
     else:
         info = fleet_core.core_info()
-    unknown = sorted(set(variant["settings"]) - set(info["settings"]))
-    if unknown:
-        raise ValueError("the core at %s has no setting %s" % (info["file"], ", ".join(unknown)))
     variant["core_file"] = info["file"]
     variant["core_version"] = info["version"]
     return info

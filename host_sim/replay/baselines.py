@@ -40,15 +40,20 @@ import math
 import numpy as np
 from scipy.optimize import least_squares
 
+from tinytherm import model
+
 
 def _crossing_from_curve(e_c, a_c, k, t_anchor, target_c):
-    """Absolute time at which E + A exp(-k (t - t_anchor)) equals target, or None."""
+    """Absolute time at which E + A exp(-k (t - t_anchor)) equals target, or None.
+
+    The core's closed form (:func:`tinytherm.model.time_to_target_s`) from
+    the curve's value E + A at ``t_anchor``; None ahead of no crossing
+    (target behind the anchor, at or beyond E, or no decay).
+    """
     if not k > 0.0 or a_c == 0.0:
         return None
-    ratio = (target_c - e_c) / a_c
-    if not 0.0 < ratio < 1e300:
-        return None
-    return t_anchor - math.log(ratio) / k
+    wait = model.time_to_target_s(e_c + a_c, target_c, k, e_c)
+    return None if wait is None else t_anchor + wait
 
 
 class ArrivalTracker:
@@ -211,7 +216,7 @@ class ExpRefitBaseline:
         guesses = []
         if self.params is not None:
             e, a, k, anchor = self.params
-            y1 = e + a * math.exp(-k * (t1 - anchor))
+            y1 = model.temperature_at(t1 - anchor, e + a, k, e)
             guesses.append((y1, -k * (y1 - e), k))
         n3 = max(len(x) // 3, 2)
         slope = np.polyfit(x[-n3:], y[-n3:], 1)[0]
@@ -249,7 +254,7 @@ class ExpRefitBaseline:
             return None
         e, a, k, anchor = self.params
         now = self.t[-1]
-        fitted_now = e + a * math.exp(-k * (now - anchor))
+        fitted_now = model.temperature_at(now - anchor, e + a, k, e)
         if (target_c - fitted_now) * (e - fitted_now) <= 0.0:
             return None         # the target lies behind the direction of travel
         t_cross = _crossing_from_curve(e, a, k, anchor, target_c)

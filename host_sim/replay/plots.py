@@ -16,6 +16,7 @@ import math
 
 import numpy as np
 
+from tinytherm import model
 from tinytherm import status as st
 
 # status -> (label, colour) for the ETA line and the shaded stretches
@@ -81,7 +82,7 @@ class ReplaySeries:
                    [r["eta_s"] for r in rows], [r["eta_low_s"] for r in rows],
                    [r["eta_high_s"] for r in rows], [r["status_code"] for r in rows],
                    [r["rate_per_s"] for r in rows], [r["equilibrium_c"] for r in rows],
-                   result.target_c, interval=result.settings.get("interval", 0.8),
+                   result.target_c, interval=result.settings.value("interval"),
                    ambient_c=trace.ambient_c if trace.has_ambient else None,
                    verdict=verdicts, events=list(zip(trace.time_s, trace.events)))
 
@@ -184,7 +185,7 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
         low, high = s.eta_low_s[i], s.eta_high_s[i]
         span = min(1.25 * eta, 3.0 * (t[-1] - t[0]) + 60.0)
         tau = np.linspace(0.0, span, 200)
-        curve = eq + (start - eq) * np.exp(-k * tau)
+        curve = np.array([model.temperature_at(x, start, k, eq) for x in tau])
         x = (t[i] + tau) / 60.0
         ax1.plot(x, temp(curve), "-", lw=1.6, color="tab:orange",
                  label="model fitted at %.1f min, drawn forward (ETA %s then)"

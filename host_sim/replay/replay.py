@@ -11,8 +11,8 @@ import sys
 
 import numpy as np
 
+from host_sim.replay.settings import settings_of
 from tinytherm import status as st
-from tinytherm.estimator import ThermalEstimator
 
 # statuses whose ETA a device would show to the user
 SHOWN_STATUSES = (st.TRACKING, st.ARRIVED)
@@ -23,14 +23,17 @@ class ReplayResult:
 
     ``rows``: list of dicts with the prediction CSV columns (``status`` as its
     name) plus ``verdict`` (name), ``status_code`` (int), ``temp_est_c``,
-    ``ambient_est_c``, ``gain_k_per_s``. ``settings``: the keyword arguments
-    given to the estimator. ``heater``: whether a heater duty was fed.
+    ``ambient_est_c``, ``gain_k_per_s``. ``settings``: the
+    :class:`host_sim.replay.settings.ReplaySettings` of the replay;
+    ``estimator_kwargs``: the keyword arguments the estimator was built with.
+    ``heater``: whether a heater duty was fed.
     """
 
-    def __init__(self, rows, settings, heater, target_c):
+    def __init__(self, rows, settings, estimator_kwargs, target_c):
         self.rows = rows
         self.settings = settings
-        self.heater = heater
+        self.estimator_kwargs = estimator_kwargs
+        self.heater = bool(estimator_kwargs.get("heater", False))
         self.target_c = target_c
 
     def column(self, name):
@@ -40,41 +43,6 @@ class ReplayResult:
     def shown_eta(self, name="eta_s"):
         """An ETA column with None wherever the status is not one a device shows."""
         return [r[name] if r["status_code"] in SHOWN_STATUSES else None for r in self.rows]
-
-
-def estimator_settings(trace, ambient_c=None, heater="auto", **settings):
-    """Keyword arguments for the estimator from CLI-style options.
-
-    ``heater``: ``"auto"`` (on when the trace has a heater column with a
-    nonzero duty), ``"on"``/``True`` or ``"off"``/``False``. ``ambient_c``: a
-    constant ambient (deg C) or None. Other ``settings`` that are None are left
-    to the core's defaults.
-    """
-    any_duty = bool(trace.has_heater and np.any(trace.heater > 0.0))
-    return settings_for(trace.has_heater, any_duty, ambient_c, heater, **settings)
-
-
-def settings_for(has_heater, any_duty, ambient_c=None, heater="auto", **settings):
-    """:func:`estimator_settings` from what a trace holds, for streamed traces.
-
-    ``has_heater``: the trace has a heater column; ``any_duty``: some duty in
-    it is nonzero; the other arguments as in :func:`estimator_settings`.
-    """
-    if heater in ("auto", None):
-        use_heater = bool(has_heater and any_duty)
-    elif heater in ("on", True):
-        use_heater = True
-    elif heater in ("off", False):
-        use_heater = False
-    else:
-        raise ValueError("heater must be auto, on or off")
-    if use_heater and not has_heater:
-        raise ValueError("heater=on needs a heater column in the trace")
-    kw = {k: v for k, v in settings.items() if v is not None}
-    kw["heater"] = use_heater
-    if ambient_c is not None:
-        kw["ambient_c"] = float(ambient_c)
-    return kw
 
 
 def _prediction_row(est, t, temp_c, verdict):
@@ -96,34 +64,26 @@ def _prediction_row(est, t, temp_c, verdict):
     }
 
 
-def split_settings(settings):
-    """``(constructor keyword arguments, approach)`` from replay settings.
-
-    ``approach`` (-1 the product cools to its target, +1 heats to it, 0
-    either) goes to ``predict()``, not to the constructor.
-    """
-    ctor = dict(settings)
-    return ctor, int(ctor.pop("approach", 0) or 0)
-
-
-def replay_rows(rows, target_c, use_ambient_column=True, **settings):
-    """Streaming replay: a generator of prediction dicts, one per input row.
+def replay_rows(rows, target_c, estimator, settings=None):
+    """Streaming replay: a generator of ``(row, prediction)`` pairs, one per input row.
 
     ``rows``: any iterable of ``(time_s, temp_c, ambient_c, heater, ...)``
     tuples (seconds, deg C, deg C or None, duty 0..1 or None; further items
-    are ignored), e.g. :func:`host_sim.replay.trace_reader.iter_trace_rows`. Each row
-    goes through ``update(temp_c, dt_s, ambient_c=..., duty=...)`` then
-    ``predict(target_c)`` (deg C) of a fresh estimator built with
-    ``settings`` (the core's keyword arguments, e.g. from
-    :func:`estimator_settings`, plus ``approach``: -1 the product cools to its
-    target, +1 heats to it, 0 either, passed to ``predict``; ``heater=True`` feeds the duty, otherwise
-    0.0). ``dt_s`` is the difference of consecutive ``time_s`` (0.0 first).
-    Yields dicts with the keys of :attr:`ReplayResult.rows`; holds one row
-    at a time, so memory does not grow with the trace.
+    are ignored), e.g. :func:`host_sim.replay.trace_reader.iter_trace_rows`.
+    ``estimator``: a fresh estimator, built once by
+    :meth:`host_sim.replay.settings.ReplaySettings.estimator`. ``settings``: the
+    :class:`~host_sim.replay.settings.ReplaySettings` it was built from (for
+    ``approach``, given to ``predict``, and ``use_ambient_column``; default:
+    the defaults). Each row goes through ``update(temp_c, dt_s,
+    ambient_c=..., duty=...)`` then ``predict(target_c, approach)`` (deg C);
+    the duty is fed when the estimator fits a heater, otherwise 0.0. ``dt_s``
+    is the difference of consecutive ``time_s`` (0.0 first). Yields the input
+    row as given and a dict with the keys of :attr:`ReplayResult.rows`; holds
+    one row at a time, so memory does not grow with the trace.
     """
-    settings, approach = split_settings(settings)
-    est = ThermalEstimator(**settings)
-    use_heater = bool(settings.get("heater", False))
+    approach = settings.approach if settings is not None else 0
+    use_ambient_column = settings.use_ambient_column if settings is not None else True
+    use_heater = bool(getattr(estimator, "heater", False))
     prev_t = None
     for row in rows:
         t = float(row[0])
@@ -138,28 +98,31 @@ def replay_rows(rows, target_c, use_ambient_column=True, **settings):
         duty = 0.0
         if use_heater and row[3] is not None:
             duty = float(row[3])
-        verdict = est.update(temp, dt, ambient_c=amb, duty=duty)
+        verdict = estimator.update(temp, dt, ambient_c=amb, duty=duty)
         if approach:
-            est.predict(target_c, approach)
+            estimator.predict(target_c, approach)
         else:
-            est.predict(target_c)
-        yield _prediction_row(est, t, temp, verdict)
+            estimator.predict(target_c)
+        yield row, _prediction_row(estimator, t, temp, verdict)
 
 
-def replay(trace, target_c, ambient_c=None, heater="auto", use_ambient_column=True,
-           progress=False, **settings):
+def replay(trace, target_c, settings=None, progress=False, **values):
     """Feed ``trace`` through a fresh estimator; returns a :class:`ReplayResult`.
 
-    ``target_c`` deg C. ``ambient_c``: known constant ambient (deg C) given to
-    the constructor. ``use_ambient_column``: pass the trace's ``ambient_c``
-    cells (when present) with each reading. ``settings``: further estimator
-    keyword arguments (``interval``, ``ambient_prior_c``, ...).
+    ``target_c`` deg C. ``settings``: a
+    :class:`~host_sim.replay.settings.ReplaySettings` (or what it takes: a dict
+    or ``NAME=VALUE`` texts); ``values``: further settings by name, e.g.
+    ``heater="on"``, ``approach=-1``, ``interval=0.5``, ``ambient_c=21.0``
+    (a setting in both is an error). Bad settings raise ValueError.
     ``progress``: print a progress line to stderr every 10 % of long traces.
     Holds every row in memory; :func:`replay_rows` streams.
     """
-    kw = estimator_settings(trace, ambient_c=ambient_c, heater=heater, **settings)
-    use_heater = kw["heater"]
-    amb_col = trace.ambient_c if (use_ambient_column and trace.has_ambient) else None
+    settings = settings_of(settings, **values)
+    any_duty = bool(trace.has_heater and np.any(trace.heater > 0.0))
+    kw = settings.constructor_kwargs(trace.has_heater, any_duty)
+    estimator = settings.estimator(trace.has_heater, any_duty)
+    use_heater = estimator.heater
+    amb_col = trace.ambient_c if trace.has_ambient else None
     n = len(trace)
 
     def source():
@@ -170,11 +133,11 @@ def replay(trace, target_c, ambient_c=None, heater="auto", use_ambient_column=Tr
 
     step = max(n // 10, 1)
     rows = []
-    for i, row in enumerate(replay_rows(source(), target_c, **kw)):
-        rows.append(row)
+    for i, (_, pred) in enumerate(replay_rows(source(), target_c, estimator, settings)):
+        rows.append(pred)
         if progress and n >= 20000 and (i + 1) % step == 0:
             print("replay: %d/%d rows" % (i + 1, n), file=sys.stderr)
-    return ReplayResult(rows, kw, use_heater, target_c)
+    return ReplayResult(rows, settings, kw, target_c)
 
 
 class RunningMedian:
