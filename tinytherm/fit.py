@@ -42,8 +42,8 @@ class BlockSums:
     """Integer sums of the open block and the latest reading (see the module docstring)."""
 
     # saved: block and noise counts, the 64-bit sums, the 32-bit ones
-    _FMT = "<HHB6q10i"
-    STATE_SIZE = 93
+    _FMT = "<HHB6q9i"
+    STATE_SIZE = 89
 
     def __init__(self):
         self.reset()
@@ -67,7 +67,6 @@ class BlockSums:
         self.age_ms = 0     # time since the fit's first reading, ms
         self.readings = 0   # readings in this fit (counted to 255)
         # noise: successive differences less the fitted slope, clipped
-        self.e1 = 0         # sum of the differences, counts
         self.e2 = 0         # sum of their squares, counts^2
         self.en = 0         # how many
 
@@ -109,7 +108,6 @@ class BlockSums:
                 e = clip
             elif e < -clip:
                 e = -clip
-            self.e1 += e
             self.e2 += e * e
             self.en += 1
         self.c = c
@@ -121,19 +119,20 @@ class BlockSums:
         return self.it >= block_ms or self.it * 16 >= self.age_ms or self.n >= MAX_BLOCK_READINGS
 
     def noise_var(self):
-        """Variance of one reading from the block's differences, deg C^2, or -1.0 if too few."""
+        """Variance of one reading from the block's differences, deg C^2, or -1.0 if none."""
         n = self.en
-        if n < 2:
+        if n < 1:
             return -1.0
-        # var(difference) = 2 sigma^2, about the differences' own mean
-        return (self.e2 - self.e1 * self.e1 / n) / (2 * (n - 1)) * (_INV_SCALE * _INV_SCALE)
+        # var(difference less the fitted change) = 2 sigma^2: one difference is
+        # enough (sparse readings give a block per reading)
+        return self.e2 / (2 * n) * (_INV_SCALE * _INV_SCALE)
 
     def next_block(self):
         """Zero the block sums; the latest reading becomes the new reference (exact)."""
         self.n = 0
         self.it = self.ix = self.iv = 0
         self.st = self.sx = self.sv = self.sy = 0
-        self.e1 = self.e2 = self.en = 0
+        self.e2 = self.en = 0
         self.g0 = self.c - self.rc
         self.u0 = self.uc
         self.cb = self.c
@@ -141,19 +140,19 @@ class BlockSums:
     def pack_into(self, buf, offset):
         struct.pack_into(self._FMT, buf, offset, self.n, self.en, self.readings, self.ix,
                          self.iv, self.sx, self.sv, self.e2, self.age_ms, self.it, self.st,
-                         self.sy, self.c, self.rc, self.uc, self.g0, self.u0, self.e1, self.cb)
+                         self.sy, self.c, self.rc, self.uc, self.g0, self.u0, self.cb)
 
     def unpack_from(self, buf, offset):
         """Load the state; False when a value is impossible (the caller resets)."""
         (n, en, readings, ix, iv, sx, sv, e2, age, it, st, sy, c, rc, uc, g0, u0,
-         e1, cb) = struct.unpack_from(self._FMT, buf, offset)
+         cb) = struct.unpack_from(self._FMT, buf, offset)
         if not (0 <= n <= MAX_BLOCK_READINGS and 0 <= it <= age and 0 <= uc <= DUTY_SCALE
                 and 0 <= u0 <= DUTY_SCALE and 0 <= en <= n and e2 >= 0 and st >= 0
                 and n <= readings):
             return False
         self.n, self.en, self.readings, self.it, self.ix, self.iv = n, en, readings, it, ix, iv
         self.st, self.sx, self.sv, self.sy, self.e2, self.age_ms = st, sx, sv, sy, e2, age
-        self.c, self.rc, self.uc, self.g0, self.u0, self.e1 = c, rc, uc, g0, u0, e1
+        self.c, self.rc, self.uc, self.g0, self.u0 = c, rc, uc, g0, u0
         self.cb = cb
         return True
 

@@ -28,7 +28,6 @@ class BlockSums:
     cb: int
     age_ms: int
     readings: int
-    e1: int
     e2: int
     en: int
     def __init__(self) -> None: ...
