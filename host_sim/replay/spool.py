@@ -24,10 +24,13 @@ class ColumnSpool:
     """Append-only float64 columns, spilled to a temporary file a block at a time.
 
     ``columns``: the number of columns (each row is that many floats; NaN
-    for a missing value). ``block_rows``: rows per block in memory.
+    for a missing value). ``block_rows``: rows per block in memory (default
+    :data:`BLOCK_ROWS`).
     """
 
-    def __init__(self, columns, block_rows=BLOCK_ROWS):
+    def __init__(self, columns, block_rows=None):
+        if block_rows is None:
+            block_rows = BLOCK_ROWS
         if columns < 1 or block_rows < 1:
             raise ValueError("columns and block_rows must be positive")
         self.columns = columns
