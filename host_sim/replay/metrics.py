@@ -32,6 +32,12 @@ Figures are per row (readings), not per second. Per kind and aggregate,
 time-to-trust and first answer (a trace never answered counts as infinitely
 late), the mean over traces of coverage and no-estimate fraction, and the sum
 of early arrivals with the number of traces that had any.
+
+The error figures are computed once, by :func:`error_figures`, over the rows
+given a block at a time: :func:`trace_metrics` hands it the whole trace as one
+block, the replay CLI and the fleet hand it blocks read back from a
+:class:`host_sim.replay.spool.ColumnSpool`, so a trace of millions of rows is
+scored exactly in memory that does not grow with it.
 """
 import math
 
@@ -157,7 +163,7 @@ def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
 
     Counts and time-to-trust come from one pass; the median and p90 are the
     exact order statistics (:func:`_order_statistics`, a few more passes) with
-    numpy's interpolation (:func:`_quantile`), so the figures equal those of
+    numpy's interpolation (:func:`_quantiles`), so the figures equal those of
     ``np.median``/``np.percentile`` over all rows at once while memory does
     not grow with the rows.
     """
