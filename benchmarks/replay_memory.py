@@ -3,10 +3,10 @@
 For each ``--rows`` (default 100,000, 1,000,000 and 2,000,000) writes an invented
 cooling trace (one reading a second, seeded sensor noise of 0.05 C on a 0.01 C
 quantum), then runs child processes and prints each one's peak resident memory
-(ru_maxrss) and wall time:
+(VmHWM of /proc/self/status, read as the child exits; Linux) and wall time:
 
 - ``baseline``: the interpreter with the CLI's imports and no trace, the floor;
-- ``cli``: ``python -m host_sim replay TRACE --target 30 --out PRED`` of this tree
+- ``replay``: ``python -m host_sim replay TRACE --target 30 --out PRED`` of this tree
   (it streams the trace twice and spools what the metrics need to a temporary
   file, :mod:`host_sim.replay.spool`);
 - with ``--against COMMIT``: the same baseline and command from ``git archive
@@ -19,6 +19,7 @@ Figures are printed, never asserted. Run with ``nice``: on a shared machine
 1,000,000 rows take a few minutes per child.
 """
 import argparse
+import filecmp
 import math
 import os
 import random
@@ -30,10 +31,29 @@ import time
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 
-BASELINE = r"""
+# Peak RSS is read from /proc/self/status (VmHWM) inside each child as it exits:
+# ru_maxrss from wait4 is at least the parent's own high-water mark (the child
+# is vforked, and exec keeps the old memory's peak).
+PEAK = r"""
+import atexit, sys
+def _peak():
+    with open("/proc/self/status") as status:
+        for line in status:
+            if line.startswith("VmHWM:"):
+                sys.stderr.write("\nPEAK_KB %s\n" % line.split()[1])
+atexit.register(_peak)
+"""
+
+BASELINE = PEAK + r"""
 import numpy, tqdm
 import host_sim.cli.dispatch, host_sim.replay.metrics, host_sim.replay.replay, tinytherm.estimator
 host_sim.cli.dispatch.build_parser()     # imports every subcommand's module, as a CLI run does
+"""
+
+CLI = PEAK + r"""
+import runpy
+sys.argv = ["host_sim"] + sys.argv[1:]
+runpy.run_module("host_sim", run_name="__main__", alter_sys=True)
 """
 
 
@@ -50,17 +70,22 @@ def write_trace(path, rows, seed=7):
 
 
 def child(argv, cwd):
-    """(peak RSS in KiB of that child alone, wall seconds, stdout text)."""
+    """(peak RSS in KiB of that child, VmHWM; wall seconds; stdout text)."""
     start = time.perf_counter()
     with tempfile.TemporaryFile() as err, tempfile.TemporaryFile() as out:
         proc = subprocess.Popen(argv, cwd=cwd, stdout=out, stderr=err)
-        _, status, usage = os.wait4(proc.pid, 0)
+        proc.wait()
         wall = time.perf_counter() - start
-        if os.waitstatus_to_exitcode(status) != 0:
-            err.seek(0)
-            raise SystemExit("child failed: %s\n%s" % (" ".join(argv), err.read()[-2000:]))
+        err.seek(0)
+        text = err.read().decode(errors="replace")
+        if proc.returncode != 0:
+            raise SystemExit("child failed: %s\n%s" % (" ".join(argv), text[-2000:]))
+        peaks = [int(line.split()[1]) for line in text.splitlines()
+                 if line.startswith("PEAK_KB ")]
+        if not peaks:
+            raise SystemExit("child printed no peak (Linux /proc needed): %s" % " ".join(argv))
         out.seek(0)
-        return usage.ru_maxrss, wall, out.read().decode()
+        return peaks[-1], wall, out.read().decode()
 
 
 def export_commit(commit, folder):
@@ -81,7 +106,7 @@ def measure(trees, rows, folder):
     for name, cwd in trees:
         base_kb, _, _ = child([sys.executable, "-c", BASELINE], cwd)
         pred = os.path.join(folder, "pred_%s.csv" % name.replace(" ", "_"))
-        peak_kb, wall, out = child([sys.executable, "-m", "host_sim", "replay", trace,
+        peak_kb, wall, out = child([sys.executable, "-c", CLI, "replay", trace,
                                     "--target", "30", "--out", pred], cwd)
         above = (peak_kb - base_kb) / 1024.0
         results[name] = (above, out.replace(pred, "PRED.csv"), pred)
@@ -93,8 +118,7 @@ def measure(trees, rows, folder):
         (mine, cwd_mine), (peer, _) = trees
         a_mine, out_mine, pred_mine = results[mine]
         a_peer, out_peer, pred_peer = results[peer]
-        with open(pred_mine, "rb") as f1, open(pred_peer, "rb") as f2:
-            same_pred = f1.read() == f2.read()
+        same_pred = filecmp.cmp(pred_mine, pred_peer, shallow=False)   # block by block
         lines.append("  %s / %s, memory above baseline: %s; printed lines identical: %s; "
                      "prediction files identical: %s" % (
                          peer, mine, "%.1fx" % (a_peer / a_mine) if a_mine > 0 else "inf",
@@ -119,7 +143,7 @@ def main():
             os.mkdir(peer)
             export_commit(args.against, peer)
             trees.append((args.against[:12], peer))
-        print("replay memory: one child process per run; peak RSS is ru_maxrss")
+        print("replay memory: one child process per run; peak RSS is the child's VmHWM")
         for rows in args.rows:
             for line in measure(trees, rows, folder):
                 print(line, flush=True)
