@@ -7,7 +7,6 @@ checks, then the replay), so memory does not grow with the trace length.
 import math
 import os
 import sys
-from array import array
 
 import numpy as np
 
@@ -156,8 +155,9 @@ def cmd_replay(args):
 
 
 def _replay(args):
-    from host_sim.replay.metrics import trace_metrics
+    from host_sim.replay.metrics import error_figures
     from host_sim.replay.replay import CrossingFinder, replay_rows
+    from host_sim.replay.spool import ColumnSpool
     from host_sim.replay.trace_io import PredictionWriter
     from host_sim.replay.trace_reader import iter_trace_rows
     from tinytherm import status as st
@@ -216,9 +216,8 @@ def _replay(args):
 
     n = scan.rows
     stride = max(1, -(-n // PLOT_POINTS)) if args.plot else 0
-    t_arr = array("d")
-    eta_arr, low_arr, high_arr = array("d"), array("d"), array("d")
-    shown_arr = array("b")
+    # what the metrics need of each row, on disk: time, ETA, interval, shown (1.0/0.0)
+    scored = ColumnSpool(5)
     plot_rows, events = [], []
     verdicts = [0] * len(st.VERDICT_NAMES)
     nan = math.nan
@@ -246,14 +245,11 @@ def _replay(args):
             eta, low, high = pred["eta_s"], pred["eta_low_s"], pred["eta_high_s"]
             writer.write(t, temp, eta, low, high, pred["status"], pred["rate_per_s"],
                          pred["equilibrium_c"], pred["verdict"])
-            t_arr.append(t)
-            eta_arr.append(nan if eta is None else eta)
-            low_arr.append(nan if low is None else low)
-            high_arr.append(nan if high is None else high)
-            shown_arr.append(code in shown_codes)
+            scored.append(t, nan if eta is None else eta, nan if low is None else low,
+                          nan if high is None else high, 1.0 if code in shown_codes else 0.0)
             if crossing_finder is not None:
                 crossing_finder.add(t, temp)
-            last = (t, temp, code)
+            last = (t, temp, code, eta)
             if event and len(events) < MAX_EVENTS:
                 events.append((t, event))
             if stride and (i % stride == 0 or (len(plot_rows) < 2 * PLOT_POINTS and (
@@ -276,7 +272,7 @@ def _replay(args):
             if created and os.path.isfile(args.out) and not os.path.islink(args.out):
                 os.remove(args.out)
 
-    rows_done = len(t_arr)
+    rows_done = len(scored)
     used = dict(settings.constructor_kwargs(scan.has_heater, scan.heater_on))
     if settings.approach:
         used["approach"] = settings.approach
@@ -289,12 +285,10 @@ def _replay(args):
     print("reading verdicts: accepted %d of %d%s" % (
         verdicts[st.ACCEPTED], rows_done,
         "; rejected: " + counted if counted else "; none rejected"))
-    last_eta = eta_arr[-1]
     print("last row: t=%.1f s, %s, status %s, eta %s" % (
         last[0], show_temp(last[1], unit), st.status_name(last[2]),
-        "-" if math.isnan(last_eta) else "%.0f s" % last_eta))
+        "-" if last[3] is None or math.isnan(last[3]) else "%.0f s" % last[3]))
 
-    t_np = np.frombuffer(t_arr, dtype=float)
     if args.truth:
         source = "truth file %s" % args.truth
     else:
@@ -304,23 +298,17 @@ def _replay(args):
     if unit == "F":
         target_shown += " (%.2f C)" % target
     if crossing is not None:
-        eta_np = np.frombuffer(eta_arr, dtype=float)
-        low_np = np.frombuffer(low_arr, dtype=float)
-        high_np = np.frombuffer(high_arr, dtype=float)
-        shown = np.frombuffer(shown_arr, dtype=np.int8).astype(bool)
-        nan_arr = np.full(len(eta_np), math.nan)
-        s_eta, s_low, s_high = (np.where(shown, a, nan_arr) for a in (eta_np, low_np, high_np))
         print("target %s crossed at t=%.1f s (from %s)" % (target_shown, crossing, source))
-        for label, e, lo_, hi_ in (("answers a device shows (tracking/arrived)",
-                                    s_eta, s_low, s_high),
-                                   ("every estimate, including settling", eta_np, low_np,
-                                    high_np)):
-            m = trace_metrics(t_np, e, crossing, lo_, hi_)
-            m_trust = trace_metrics(t_np, e, crossing, floor_s=TRUST_FLOOR_S)
+        for label, only_shown in (("answers a device shows (tracking/arrived)", True),
+                                  ("every estimate, including settling", False)):
+            m = error_figures(_scored_chunks(scored, only_shown), crossing)
+            m_trust = error_figures(_scored_chunks(scored, only_shown, intervals=False),
+                                    crossing, floor_s=TRUST_FLOOR_S)
             print("accuracy, %s: %s" % (label, format_accuracy(m, m_trust["time_to_trust"])))
         print("  (" + TRUST_HELP + ")")
     else:
         print("the trace does not cross the target %s: no accuracy metrics" % target_shown)
+    scored.close()
     if args.plot:
         from host_sim.replay.plots import ReplaySeries, plot_series
         series = ReplaySeries.from_tuples(plot_rows, target, settings.value("interval"),
@@ -336,3 +324,16 @@ def _replay(args):
                                                              exc.strerror or exc)) from None
         print("plot written to %s" % args.plot)
     return 0
+
+
+def _scored_chunks(scored, only_shown, intervals=True):
+    """The ``chunks`` function of :func:`host_sim.replay.metrics.error_figures` over the
+    spooled rows (time, ETA, low, high, shown); ``only_shown``: NaN where the status is
+    not one a device shows; ``intervals``: give the interval columns."""
+    def chunks():
+        for t, eta, low, high, shown in scored.chunks():
+            if only_shown:
+                hidden = shown == 0.0
+                eta, low, high = (np.where(hidden, math.nan, a) for a in (eta, low, high))
+            yield t, eta, (low if intervals else None), (high if intervals else None)
+    return chunks

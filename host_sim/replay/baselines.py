@@ -38,7 +38,6 @@ already past the target while the readings are not).
 import math
 
 import numpy as np
-from scipy.optimize import least_squares
 
 from tinytherm import model
 
@@ -204,6 +203,7 @@ class ExpRefitBaseline:
         if self.max_points is not None and len(t) > self.max_points:
             idx = np.unique(np.round(np.linspace(0, len(t) - 1, self.max_points)).astype(int))
             t, y = t[idx], y[idx]
+        from scipy.optimize import least_squares   # here: importing the CLI needs no scipy
         self.since_fit = 0
         self.last_fit_t = float(t[-1])
         # Parameterised by the level y1 and slope s at the last reading and k:

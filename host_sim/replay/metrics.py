@@ -32,6 +32,12 @@ Figures are per row (readings), not per second. Per kind and aggregate,
 time-to-trust and first answer (a trace never answered counts as infinitely
 late), the mean over traces of coverage and no-estimate fraction, and the sum
 of early arrivals with the number of traces that had any.
+
+The error figures are computed once, by :func:`error_figures`, over the rows
+given a block at a time: :func:`trace_metrics` hands it the whole trace as one
+block, the replay CLI and the fleet hand it blocks read back from a
+:class:`host_sim.replay.spool.ColumnSpool`, so a trace of millions of rows is
+scored exactly in memory that does not grow with it.
 """
 import math
 
@@ -45,20 +51,27 @@ EARLY_SD_FACTOR = 3.0
 
 
 def _as_array(values):
-    """List with None -> NaN as a float numpy array."""
+    """Values with None -> NaN as a float numpy array (a float array passes through)."""
+    if isinstance(values, np.ndarray) and values.dtype.kind == "f":
+        return np.asarray(values, dtype=float)
     return np.array([math.nan if v is None else float(v) for v in values], dtype=float)
 
 
-def relative_errors(time_s, eta_s, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S):
+def relative_errors(time_s, eta_s, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
+                    start_s=None):
     """Evaluated-row mask and relative errors (NaN where no estimate).
 
     Returns ``(mask, rel_err, remaining_s)``; arrays over all rows, the error
-    and remaining time meaningful only where ``mask``.
+    and remaining time meaningful only where ``mask``. ``start_s``: the
+    trace's first time (s), by default ``time_s[0]``; give it when
+    ``time_s`` is a later part of the trace.
     """
     t = np.asarray(time_s, dtype=float)
     eta = _as_array(eta_s)
     remaining = crossing_s - t
-    mask = (t >= t[0] + warmup_s) & (t < crossing_s)
+    start = t[0] if start_s is None else start_s
+    mask = (t >= start + warmup_s) & (t < crossing_s)
+    # |eta - rem| / max(rem, floor)
     rel = np.abs(eta - remaining) / np.maximum(remaining, floor_s)
     return mask, rel, remaining
 
@@ -129,37 +142,182 @@ def trace_metrics(time_s, eta_s, crossing_s, eta_low_s=None, eta_high_s=None,
                                                   noise_sd_c, direction)
     if crossing_s is None:
         return out
-    t = np.asarray(time_s, dtype=float)
-    mask, rel, remaining = relative_errors(t, eta_s, crossing_s, warmup_s, floor_s)
-    n_eval = int(mask.sum())
+    intervals = eta_low_s is not None and eta_high_s is not None
+    rows = (np.asarray(time_s, dtype=float), _as_array(eta_s),
+            _as_array(eta_low_s) if intervals else None,
+            _as_array(eta_high_s) if intervals else None)
+    out.update(error_figures(lambda: iter((rows,)), crossing_s, warmup_s, floor_s, tolerance))
+    return out
+
+
+def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
+                  tolerance=TRUST_TOLERANCE):
+    """The error figures of :func:`trace_metrics` from rows given a part at a time.
+
+    ``chunks``: a function returning a fresh iterator, in row order, of
+    ``(time_s, eta_s, eta_low_s, eta_high_s)`` float arrays (seconds, NaN
+    where none; ``eta_low_s``/``eta_high_s`` None when no interval was
+    given); ``crossing_s``: the true crossing, seconds. Returns a dict with
+    ``median_rel_error``, ``p90_rel_error``, ``time_to_trust``, ``coverage``,
+    ``no_estimate_fraction`` (None where undefined) and ``evaluated_rows``.
+
+    Counts and time-to-trust come from one pass; the median and p90 are the
+    exact order statistics (:func:`_order_statistics`, a few more passes) with
+    numpy's interpolation (:func:`_quantiles`), so the figures equal those of
+    ``np.median``/``np.percentile`` over all rows at once while memory does
+    not grow with the rows.
+    """
+    out = dict.fromkeys(("median_rel_error", "p90_rel_error", "time_to_trust", "coverage",
+                         "no_estimate_fraction"))
+    n_eval = n_has = n_interval = n_inside = 0
+    start = None
+    trust_from = None     # time of the first evaluated row after the last bad one
+    intervals = False
+    for start, t_e, rel_e, rem_e, low_e, high_e in _evaluated(chunks, crossing_s, warmup_s,
+                                                              floor_s):
+        n_eval += len(t_e)
+        has = np.isfinite(rel_e)
+        n_has += int(np.count_nonzero(has))
+        good = has & (rel_e <= tolerance)
+        bad = np.nonzero(~good)[0]
+        if len(bad):
+            trust_from = None if bad[-1] == len(good) - 1 else t_e[bad[-1] + 1]
+        elif trust_from is None:
+            trust_from = t_e[0]
+        if low_e is not None:
+            intervals = True
+            with_interval = has & np.isfinite(low_e)
+            hi = np.where(np.isfinite(high_e), high_e, math.inf)
+            # inside: eta_low <= rem <= eta_high (no upper bound counts as unbounded)
+            inside = (low_e <= rem_e) & (rem_e <= hi)
+            n_interval += int(np.count_nonzero(with_interval))
+            n_inside += int(np.count_nonzero(inside & with_interval))
     out["evaluated_rows"] = n_eval
     if n_eval == 0:
         return out
-    rel_e = rel[mask]
-    has = np.isfinite(rel_e)
-    out["no_estimate_fraction"] = float(1.0 - has.mean())
-    if has.any():
-        out["median_rel_error"] = float(np.median(rel_e[has]))
-        out["p90_rel_error"] = float(np.percentile(rel_e[has], 90))
-    good = has & (rel_e <= tolerance)
-    t_e = t[mask]
-    approach = crossing_s - t[0]
-    if good[-1]:
-        bad = np.nonzero(~good)[0]
-        first = 0 if len(bad) == 0 else bad[-1] + 1
-        out["time_to_trust"] = float((t_e[first] - t[0]) / approach)
+    out["no_estimate_fraction"] = float(1.0 - n_has / n_eval)
+    if n_has:
+        def values():
+            for _, _, rel_e, _, _, _ in _evaluated(chunks, crossing_s, warmup_s, floor_s):
+                yield rel_e[np.isfinite(rel_e)]
+        out["median_rel_error"], out["p90_rel_error"] = _quantiles(values, n_has)
+    approach = crossing_s - start
+    if trust_from is not None:    # the last evaluated row is within the tolerance
+        out["time_to_trust"] = float((trust_from - start) / approach)
     else:
         out["time_to_trust"] = 1.0
-    if eta_low_s is not None and eta_high_s is not None:
-        low = _as_array(eta_low_s)[mask]
-        high = _as_array(eta_high_s)[mask]
-        rem = remaining[mask]
-        with_interval = has & np.isfinite(low)
-        if with_interval.any():
-            hi = np.where(np.isfinite(high), high, math.inf)
-            inside = (low <= rem) & (rem <= hi)
-            out["coverage"] = float(inside[with_interval].mean())
+    if intervals and n_interval:
+        out["coverage"] = float(n_inside / n_interval)
     return out
+
+
+def _evaluated(chunks, crossing_s, warmup_s, floor_s):
+    """Per chunk: ``(first time of the trace, t, rel, remaining, low, high)`` of evaluated rows."""
+    start = None
+    for t, eta, low, high in chunks():
+        t = np.asarray(t, dtype=float)
+        if not len(t):
+            continue
+        if start is None:
+            start = t[0]
+        mask, rel, remaining = relative_errors(t, eta, crossing_s, warmup_s, floor_s,
+                                               start_s=start)
+        if not mask.any():
+            continue
+        yield (start, t[mask], rel[mask], remaining[mask],
+               None if low is None else np.asarray(low, dtype=float)[mask],
+               None if high is None else np.asarray(high, dtype=float)[mask])
+
+
+P90 = 0.9
+_RADIX_BITS = 16
+_COLLECT = 1 << 16    # values sorted at once once a rank's bin holds no more
+
+
+def _quantiles(values, n):
+    """``(median, p90)`` of ``n`` values as ``np.median`` and ``np.percentile(.., 90)`` give.
+
+    ``values``: a function returning a fresh iterator of float arrays. The
+    median of an even count is the mean of the two middle values; p90 is
+    numpy's default ("linear") method: the virtual index ``(n - 1) * 0.9``
+    between the sorted values ``a`` and ``b`` around it, interpolated as
+    numpy's ``_lerp`` does (from ``b`` when the fraction is 0.5 or more).
+    """
+    half = n // 2
+    mid = [half] if n % 2 else [half - 1, half]
+    virtual = (n - 1) * P90
+    if virtual >= n - 1:
+        around = [n - 1]
+    else:
+        below = int(math.floor(virtual))
+        around = [below, below + 1]
+    got = _order_statistics(values, n, mid + around)
+    median = got[mid[0]] if n % 2 else (got[mid[0]] + got[mid[1]]) / 2.0
+    if len(around) == 1:
+        return float(median), float(got[around[0]])
+    a, b = got[around[0]], got[around[1]]
+    frac = virtual - around[0]
+    diff = b - a
+    p90 = b - diff * (1.0 - frac) if frac >= 0.5 else a + diff * frac
+    return float(median), float(p90)
+
+
+def _order_statistics(values, n, ranks):
+    """The sorted values at 0-based ``ranks`` (dict rank -> value), exactly.
+
+    ``values``: a function returning a fresh iterator of float64 arrays of
+    ``n`` non-negative finite values in all. Such floats sort like their
+    IEEE-754 bit patterns read as unsigned integers, so a radix select finds
+    each rank: a histogram of the top 16 bits picks the bin holding it, then
+    one of the next 16 bits within that bin, until the bin holds at most
+    ``_COLLECT`` values, which are sorted. Each round reads the values once;
+    memory holds the histograms and one bin, never all values.
+    """
+    # per rank: the bin's leading bits, how many, the values below the bin, and
+    # whether the bin is small enough to sort in the next round
+    todo = {k: {"prefix": 0, "used": 0, "below": 0, "ready": n <= _COLLECT}
+            for k in set(ranks)}
+    found = {}
+    mask = np.uint64((1 << _RADIX_BITS) - 1)
+    while todo:
+        hists = {k: np.zeros(1 << _RADIX_BITS, dtype=np.int64)
+                 for k, s in todo.items() if not s["ready"]}
+        # ranks in the same bin share its values
+        kept = {(s["prefix"], s["used"]): [] for s in todo.values() if s["ready"]}
+        for chunk in values():
+            bits = np.ascontiguousarray(chunk, dtype=np.float64).view(np.uint64)
+            for prefix, used in kept:
+                kept[prefix, used].append(_in_bin(bits, prefix, used).view(np.float64))
+            for k in hists:
+                s = todo[k]
+                digit = (_in_bin(bits, s["prefix"], s["used"])
+                         >> np.uint64(64 - s["used"] - _RADIX_BITS)) & mask
+                hists[k] += np.bincount(digit.astype(np.intp), minlength=1 << _RADIX_BITS)
+        kept = {key: np.sort(np.concatenate(parts)) for key, parts in kept.items()}
+        for k in list(todo):
+            s = todo.pop(k)
+            if s["ready"]:
+                found[k] = float(kept[s["prefix"], s["used"]][k - s["below"]])
+                continue
+            cum = np.cumsum(hists[k])
+            # the first digit whose cumulative count passes the rank within the bin
+            digit = int(np.searchsorted(cum, k - s["below"], side="right"))
+            s["below"] += int(cum[digit - 1]) if digit else 0
+            s["prefix"] = (s["prefix"] << _RADIX_BITS) | digit
+            s["used"] += _RADIX_BITS
+            if s["used"] == 64:       # every value in the bin has these very bits
+                found[k] = float(np.array([s["prefix"]], dtype=np.uint64).view(np.float64)[0])
+                continue
+            s["ready"] = bool(hists[k][digit] <= _COLLECT)
+            todo[k] = s
+    return found
+
+
+def _in_bin(bits, prefix, used):
+    """The bit patterns whose leading ``used`` bits equal ``prefix``."""
+    if used == 0:
+        return bits
+    return bits[(bits >> np.uint64(64 - used)) == np.uint64(prefix)]
 
 
 def _median(values):

@@ -12,8 +12,6 @@ written down from general handbook knowledge and not looked up for this file.
 import math
 
 import numpy as np
-from scipy.integrate import solve_ivp
-from scipy.optimize import brentq
 
 # --- physical constants ---
 KELVIN = 273.15                  # 0 C in K (definition of the Celsius scale)
@@ -204,6 +202,7 @@ def integrate_piecewise(rhs, y0, t_end, breaks, mode):
     returns the new state (a copy) and may change ``mode`` (a dict) in place.
     Returns a :class:`PiecewiseSolution`.
     """
+    from scipy.integrate import solve_ivp   # here: replaying a trace needs no scipy
     sol = PiecewiseSolution()
     t = 0.0
     y = np.array(y0, dtype=float)
@@ -245,12 +244,14 @@ def find_crossing_s(signal, target_c, direction, t_start, t_end, step_s):
     a, b = grid[i], grid[i + 1]
     if vals[i + 1] == 0.0:
         return float(b)
+    from scipy.optimize import brentq
     return float(brentq(lambda t: float(signal(np.array([t]))[0]) - target_c, a, b,
                         xtol=1e-9, rtol=1e-14, maxiter=200))
 
 
 def crossing_by_brentq(sensor_signal, target_c, t_lo, t_hi):
     """brentq root of ``sensor_signal(t) - target_c`` on [t_lo, t_hi] (s); for tests."""
+    from scipy.optimize import brentq
     return float(brentq(lambda t: float(sensor_signal(np.array([t]))[0]) - target_c,
                         t_lo, t_hi, xtol=1e-9))
 
