@@ -12,6 +12,8 @@ PROFILE_Z80: float
 SCALE: int
 DUTY_SCALE: int
 
+def normal_quantile(p: float) -> float: ...
+
 class Answer:
     status: int
     eta_s: Optional[float]

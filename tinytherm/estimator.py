@@ -35,12 +35,11 @@ the priors and the answer's law. Fixed state, no per-reading containers;
 runs unchanged on CPython and MicroPython.
 """
 import math
-import struct
 
 from tinytherm import blob as bl
 from tinytherm import status as st
-from tinytherm import answer
-from tinytherm.answer import Answer, Audits, time_to_target_from_slope_s
+from tinytherm import answer, state
+from tinytherm.answer import Answer, Audits, normal_quantile, time_to_target_from_slope_s
 from tinytherm.change import ChangeDetector
 from tinytherm.crc import crc32
 from tinytherm.fit import SCALE, BlockSums, Inputs, Noise, Regression, to_counts
@@ -68,26 +67,6 @@ PROFILE_MISMATCH_VAR = 4.0  # dropped when the audits' error variance exceeds th
 PROFILE_MISMATCH_N = 3      # times its own, over at least this many checks
 _INV = 1.0 / SCALE
 _NAN = math.nan
-_HEAD = "<IHHBBdd"         # readings, changes, turns, flags, profile reason, anchor, extreme
-_HEAD_SIZE = 26
-
-
-def normal_quantile(p):
-    """Standard normal quantile ``z`` with ``P(Z <= z) = p``, for 0 < p < 1.
-
-    Rational approximation of Abramowitz & Stegun, Handbook of Mathematical
-    Functions, formula 26.2.23 (absolute error < 4.5e-4); exactly 0 at 0.5.
-    Raises ValueError outside (0, 1).
-    """
-    if not 0.0 < p < 1.0:
-        raise ValueError("p must be in (0, 1)")
-    if p == 0.5:
-        return 0.0
-    q = p if p < 0.5 else 1.0 - p
-    t = math.sqrt(-2.0 * math.log(q))
-    z = t - (2.515517 + 0.802853 * t + 0.010328 * t * t) / (
-        1.0 + 1.432788 * t + 0.189269 * t * t + 0.001308 * t * t * t)
-    return -z if p < 0.5 else z
 
 
 class ThermalEstimator(Answer):
@@ -519,94 +498,25 @@ class ThermalEstimator(Answer):
 
     # ------------------------------------------------------------ save/restore
     def save(self):
-        """The whole state as a blob of ``tinytherm.blob.BLOB_SIZE`` bytes.
+        """The whole state as a blob of ``tinytherm.blob.BLOB_SIZE`` (512) bytes.
 
         Returns the estimator's own ``bytearray``, rewritten by the next
         ``save()``: write it to RTC memory or flash, or copy it with
         ``bytes(...)``. Every value is stored exactly; the guard's per-reason
-        counts and ``rejected`` count since the last restore.
+        counts and ``rejected`` count since the last restore. Layout:
+        :mod:`tinytherm.state`.
         """
-        while self._pending:
-            self._next_step()  # (as the next readings would: the blob holds no half-done block)
-        buf = self._blob_buf
-        o = bl.PAYLOAD_OFFSET
-        flags = ((1 if self._fresh else 0) | (2 if self._disturbed else 0)
-                 | (4 if self._profile_on else 0) | ((self._dir + 1) << 3)
-                 | (32 if self._known else 0))
-        struct.pack_into(_HEAD, buf, o, self.readings & 0xFFFFFFFF, self.changes & 0xFFFF,
-                         self.turns & 0xFFFF, flags, self.profile_reason, self._anchor,
-                         self._ext)
-        o += _HEAD_SIZE
-        for part in self._parts():
-            part.pack_into(buf, o)
-            o += part.STATE_SIZE
-        return bl.seal(buf)
-
-    def _parts(self):
-        return (self.guard, self.detector, self.inputs, self.noise, self.blocks, self.reg,
-                self.audits)
+        return state.save(self)
 
     def restore(self, blob):
         """Load a blob written by :meth:`save`; returns a ``tinytherm.blob`` code.
 
         ``blob.RESTORED`` (0) when the state is back and every value is valid.
         Anything else leaves a fresh estimator, as after :meth:`reset`. Never
-        raises. Then feed the next reading with :meth:`update` and the time
-        slept, or :meth:`update_ticks` with ``slept_s``.
+        raises (but a MemoryError). Then feed the next reading with
+        :meth:`update` and the time slept, or :meth:`update_ticks` with ``slept_s``.
         """
-        try:
-            code = bl.check(blob, self._settings)
-            if code == bl.RESTORED:
-                code = self._unpack(blob)
-        except MemoryError:
-            raise  # not the blob's fault: a wrongly "damaged" blob would wipe the state
-        except Exception:  # noqa: BLE001 - a blob must never crash the device
-            code = bl.BLOB_VALUES
-        if code != bl.RESTORED:
-            self.reset()
-        return code
-
-    def _unpack(self, blob):
-        o = bl.PAYLOAD_OFFSET
-        readings, changes, turns, flags, reason, anchor, ext = struct.unpack_from(_HEAD, blob, o)
-        o += _HEAD_SIZE
-        direction = ((flags >> 3) & 3) - 1
-        if flags & 0xC0 or direction > 1 or (flags & 4 and self._profile is None) \
-                or not (-1e6 < anchor < 1e6 and -1e6 < ext < 1e6):
-            return bl.BLOB_VALUES
-        self.reset()
-        for part in self._parts():
-            if part is self.audits:
-                ok = part.unpack_from(blob, o, self.blocks.age_ms * 0.001)
-            else:
-                ok = part.unpack_from(blob, o)
-            if not ok:
-                return bl.BLOB_VALUES
-            o += part.STATE_SIZE
-        b = self.blocks
-        if not (b.readings <= readings and self.guard.min_c <= b.c * _INV <= self.guard.max_c):
-            return bl.BLOB_VALUES
-        self.readings = readings
-        self.changes = changes
-        self.turns = turns
-        self.profile_reason = reason
-        self._fresh = bool(flags & 1)
-        self._disturbed = bool(flags & 2)
-        self._profile_on = bool(flags & 4)
-        self._dir = direction
-        self._anchor = anchor
-        self._ext = ext
-        self._known = bool(flags & 32)
-        self._blocks_done = 1
-        # the solution and what follows from it are derived: as at the last block close
-        self._solve(self._known)
-        reg = self.reg
-        if reg.ok:
-            self._level = reg.level() + anchor
-            self._slope = reg.s - reg.k * (self._level - b.cb * _INV)
-        elif reg.nb >= 1.5:
-            return bl.BLOB_VALUES
-        return bl.RESTORED
+        return state.restore(self, blob)
 
     def __repr__(self):
         return "ThermalEstimator(readings=%d, status=%s, k=%s, equilibrium_c=%s, eta_s=%s)" % (

@@ -25,7 +25,6 @@ PROFILE_REJECTED: int
 PROFILE_MISMATCH_VAR: float
 PROFILE_MISMATCH_N: int
 
-def normal_quantile(p: float) -> float: ...
 
 class ThermalEstimator(Answer):
     heater: bool

@@ -11,6 +11,7 @@ from fault_trace import FaultTrace
 from support import XorShift, round_instance_floats, to_float32
 
 from tinytherm import blob as bl
+from tinytherm import state
 from tinytherm import status as st
 from tinytherm.answer import FAULT_AFTER
 from tinytherm.estimator import ThermalEstimator
@@ -317,7 +318,7 @@ def test_corrupted_blobs_are_rejected_with_a_fresh_start():
     # the header's two, then the regression's and the audits' (each part packs its own)
     offsets = [bl.PAYLOAD_OFFSET + 10, bl.PAYLOAD_OFFSET + 18]
     at = bl.PAYLOAD_OFFSET + 26
-    for part in est._parts():
+    for part in state.parts(est):
         if part is est.reg:
             offsets += [at + 8 * i for i in range(part.STATE_SIZE // 8)]
         elif part is est.audits:

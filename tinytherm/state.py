@@ -1,0 +1,119 @@
+"""The estimator's saved state: one frame (:mod:`tinytherm.blob`), each part packing its own bytes.
+
+Payload (little-endian), after the frame's 8-byte header::
+
+    offset  size  field
+    0       4     accepted readings (uint32)
+    4       2     sudden changes (uint16)
+    6       2     turns (uint16)
+    8       1     flags: fresh (1), disturbed (2), profile on (4), direction + 1
+                  (bits 3-4), an ambient known at the last solve (32)
+    9       1     profile_reason
+    10      8     anchor, deg C (float64)
+    18      8     extreme of the block means, deg C (float64)
+    26      ...   the parts in turn, each ``STATE_SIZE`` bytes: guard,
+                  change detector, inputs, noise, block sums, regression, audits
+
+The fit's solution is derived: ``restore`` solves again as at the last block
+close, so an uninterrupted run and one saved and restored on every reading
+give the same answers to the last bit. Runs unchanged on CPython and MicroPython.
+"""
+import struct
+
+from tinytherm import blob as bl
+from tinytherm.fit import SCALE
+
+_HEAD = "<IHHBBdd"  # readings, changes, turns, flags, profile reason, anchor, extreme
+_HEAD_SIZE = 26
+_INV = 1.0 / SCALE
+
+
+def save(est):
+    """The whole state as a blob of ``tinytherm.blob.BLOB_SIZE`` bytes.
+
+    Returns the estimator's own ``bytearray``, rewritten by the next
+    ``save()``: write it to RTC memory or flash, or copy it with
+    ``bytes(...)``. Every value is stored exactly; the guard's per-reason
+    counts and ``rejected`` count since the last restore.
+    """
+    while est._pending:
+        est._next_step()  # (as the next readings would: the blob holds no half-done block)
+    buf = est._blob_buf
+    o = bl.PAYLOAD_OFFSET
+    flags = ((1 if est._fresh else 0) | (2 if est._disturbed else 0)
+             | (4 if est._profile_on else 0) | ((est._dir + 1) << 3)
+             | (32 if est._known else 0))
+    struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
+                     est.turns & 0xFFFF, flags, est.profile_reason, est._anchor,
+                     est._ext)
+    o += _HEAD_SIZE
+    for part in parts(est):
+        part.pack_into(buf, o)
+        o += part.STATE_SIZE
+    return bl.seal(buf)
+
+def parts(est):
+    return (est.guard, est.detector, est.inputs, est.noise, est.blocks, est.reg,
+            est.audits)
+
+def restore(est, blob):
+    """Load a blob written by :meth:`save`; returns a ``tinytherm.blob`` code.
+
+    ``blob.RESTORED`` (0) when the state is back and every value is valid.
+    Anything else leaves a fresh estimator, as after :meth:`reset`. Never
+    raises. Then feed the next reading with :meth:`update` and the time
+    slept, or :meth:`update_ticks` with ``slept_s``.
+    """
+    try:
+        code = bl.check(blob, est._settings)
+        if code == bl.RESTORED:
+            code = _unpack(est, blob)
+    except MemoryError:
+        raise  # not the blob's fault: a wrongly "damaged" blob would wipe the state
+    except Exception:  # noqa: BLE001 - a blob must never crash the device
+        code = bl.BLOB_VALUES
+    if code != bl.RESTORED:
+        est.reset()
+    return code
+
+def _unpack(est, blob):
+    o = bl.PAYLOAD_OFFSET
+    readings, changes, turns, flags, reason, anchor, ext = struct.unpack_from(_HEAD, blob, o)
+    o += _HEAD_SIZE
+    direction = ((flags >> 3) & 3) - 1
+    if flags & 0xC0 or direction > 1 or (flags & 4 and est._profile is None) \
+            or not (-1e6 < anchor < 1e6 and -1e6 < ext < 1e6):
+        return bl.BLOB_VALUES
+    est.reset()
+    for part in parts(est):
+        if part is est.audits:
+            ok = part.unpack_from(blob, o, est.blocks.age_ms * 0.001)
+        else:
+            ok = part.unpack_from(blob, o)
+        if not ok:
+            return bl.BLOB_VALUES
+        o += part.STATE_SIZE
+    b = est.blocks
+    if not (b.readings <= readings and est.guard.min_c <= b.c * _INV <= est.guard.max_c):
+        return bl.BLOB_VALUES
+    est.readings = readings
+    est.changes = changes
+    est.turns = turns
+    est.profile_reason = reason
+    est._fresh = bool(flags & 1)
+    est._disturbed = bool(flags & 2)
+    est._profile_on = bool(flags & 4)
+    est._dir = direction
+    est._anchor = anchor
+    est._ext = ext
+    est._known = bool(flags & 32)
+    est._blocks_done = 1
+    # the solution and what follows from it are derived: as at the last block close
+    est._solve(est._known)
+    reg = est.reg
+    if reg.ok:
+        est._level = reg.level() + anchor
+        est._slope = reg.s - reg.k * (est._level - b.cb * _INV)
+    elif reg.nb >= 1.5:
+        return bl.BLOB_VALUES
+    return bl.RESTORED
