@@ -138,52 +138,64 @@ class Answer:
 
 
 
-def predict(est, target_c, approach=0):
-    """:meth:`ThermalEstimator.predict <tinytherm.estimator.ThermalEstimator.predict>`.
+def predict(self, target_c, approach=0):
+    """Work out the time until ``target_c`` (deg C); return the status code.
 
-    The answer is worked out once per finished block and question (target,
-    approach) and counted down between blocks; the latest reading is still
-    checked against the arrival line at every call.
+    ``ThermalEstimator.predict`` (this function is that method). ``approach``:
+    -1 the product cools to its target (a drink), +1 heats to it (a kettle, a
+    bath), 0 not given (the direction of travel decides; a rise with no heater
+    on is an arrival only in a fit older than ``RISE_ARRIVE_MIN_S`` that still
+    rises). With -1 or +1 a liquid moving the other way is never ``ARRIVED``
+    and gets no time.
+
+    Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds after
+    the latest reading; ``None`` without an estimate), ``eta_rel_sd``,
+    ``rate_per_s`` (1/s), ``equilibrium_c``, ``ambient_est_c``, ``temp_est_c``
+    (deg C) and ``gain_k_per_s`` (K/s). The answer is worked out once per
+    finished block and question (target, approach) and counted down between
+    blocks; the latest reading is checked against the arrival line at every
+    call. Asking changes no later answer (it may finish a closed block's work
+    early: its result does not depend on when it runs). Never raises.
     """
-    while est._pending:
-        est._next_step()  # a closed block's work not done yet: the answer needs all of it
-    target = as_float(target_c)
+    while self._pending:
+        self._next_step()  # a closed block's work not done yet: the answer needs all of it
+    target = target_c if type(target_c) is float else as_float(target_c)
     if approach != 1 and approach != -1:
         approach = 0  # (a bad value: as if not given, never an exception)
-    if est.guard.consecutive_rejections >= FAULT_AFTER:
-        est.forget()
-        est.clear(st.SENSOR_FAULT)
-        return est.status
-    b = est.blocks
+    if self.guard.consecutive_rejections >= FAULT_AFTER:
+        self.forget()
+        self.clear(st.SENSOR_FAULT)
+        return self.status
+    b = self.blocks
     age = b.age_ms
-    if (est._for_gen == est._blocks_done and est._for_target == target
-            and est._for_approach == approach):
+    if (self._for_gen == self._blocks_done and self._for_target == target
+            and self._for_approach == approach):
         # the same block and question: count the answer down, unless the
         # latest reading has reached the arrival line
-        m = est._arrive_dir
-        reached = m != 0 and (b.c >= est._arrive_c if m > 0 else b.c <= est._arrive_c)
-        if est.status == st.ARRIVED:
+        m = self._arrive_dir
+        reached = m != 0 and (b.c >= self._arrive_c if m > 0 else b.c <= self._arrive_c)
+        if self.status == st.ARRIVED:
             if reached:
-                return est.status
-        elif reached and _arrived(est, target, m, approach, age):
-            est.arrive()
-            return est.status
-        elif est.count_down(age):
-            return est.status
-    est._for_gen = -1
+                return self.status
+        elif reached and _arrived(self, target, m, approach, age):
+            self.arrive()
+            return self.status
+        elif self.count_down(age):
+            return self.status
+    self._for_gen = -1
     try:
-        _work_out(est, target, approach)
+        _work_out(self, target, approach)
     except (ValueError, OverflowError, ZeroDivisionError, TypeError):
-        est.clear(st.SETTLING)
-        est._arrive_dir = 0
-    if est._disturbed and (est.status == st.SETTLING or est.status == st.GATHERING):
-        est.status = st.DISTURBED  # re-learning after a jump
-    if est._for_gen != -2:
-        est._for_gen = est._blocks_done
-    est._for_target = target
-    est._for_approach = approach
-    est.count_down(age, True)
-    return est.status
+        self.clear(st.SETTLING)
+        self._arrive_dir = 0
+    if self._disturbed and (self.status == st.SETTLING or self.status == st.GATHERING):
+        self.status = st.DISTURBED  # re-learning after a jump
+    if self._for_gen != -2:
+        self._for_gen = self._blocks_done
+    self._for_target = target
+    self._for_approach = approach
+    self.count_down(age, True)
+    return self.status
 
 def _work_out(est, target, approach):
     """The full answer for the latest block close (cached by ``predict``)."""

@@ -42,7 +42,7 @@ from tinytherm import answer, state
 from tinytherm.answer import Answer, Audits, normal_quantile, time_to_target_from_slope_s
 from tinytherm.change import ChangeDetector
 from tinytherm.crc import crc32
-from tinytherm.fit import SCALE, BlockSums, Inputs, Noise, Regression, to_counts
+from tinytherm.fit import MAX_BLOCK_READINGS, SCALE, BlockSums, Inputs, Noise, Regression
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.num import as_float, number
 
@@ -66,6 +66,7 @@ PROFILE_REJECTED = 101    # profile_reason: dropped, its forecasts failed on thi
 PROFILE_MISMATCH_VAR = 4.0  # dropped when the audits' error variance exceeds this many
 PROFILE_MISMATCH_N = 3      # times its own, over at least this many checks
 _INV = 1.0 / SCALE
+_SCALE_F = float(SCALE)
 _NAN = math.nan
 
 
@@ -208,11 +209,14 @@ class ThermalEstimator(Answer):
             # each, before the guard sees the reading (it uses the fitted slope);
             # a step's result depends on no reading after the block
             self._next_step()
-        t = as_float(temp_c)
-        dt = as_float(dt_s)
-        ok = self._inputs_ok(ambient_c, duty)
         # (anything float() refuses, or an int beyond the float range: BAD_INPUT,
-        # the same verdict on both runtimes)
+        # the same verdict on both runtimes; plain floats take no call)
+        t = temp_c if type(temp_c) is float else as_float(temp_c)
+        dt = dt_s if type(dt_s) is float else as_float(dt_s)
+        if type(duty) is float and 0.0 <= duty <= 1.0 and ambient_c is None:
+            ok = True  # (the everyday call: no checks beyond these comparisons)
+        else:
+            ok = self._inputs_ok(ambient_c, duty)
         verdict = self.guard.check(t, _NAN if dt is None else dt, self._slope, ok)
         return self._after_guard(verdict, t, ambient_c, duty)
 
@@ -242,7 +246,7 @@ class ThermalEstimator(Answer):
         if verdict:
             self.rejected += 1
             return verdict
-        c = to_counts(temp_c)
+        c = math.floor(temp_c * _SCALE_F + 0.5)  # counts of 1/SCALE deg C (fit.to_counts)
         uc = self.inputs.duty_counts(duty) if self.heater else 0
         b = self.blocks
         try:
@@ -251,12 +255,19 @@ class ThermalEstimator(Answer):
                 self._first(c, self.inputs.reference(ambient_c, 0, True), uc)
             else:
                 dt_ms = self.guard.elapsed_ms
-                rc = self.inputs.reference(ambient_c, dt_ms, False)
+                if ambient_c is None and not self.inputs.measured:
+                    rc = b.rc  # (fixed or none: the reference never moves)
+                else:
+                    rc = self.inputs.reference(ambient_c, dt_ms, False)
                 if uc != b.uc:
                     self.audits.clear()  # the forecasts assumed the old duty
-                b.add(c, rc, uc, dt_ms, self.noise.expectation(self._slope, dt_ms),
-                      self.noise.clip)
-                if b.due(_BLOCK_MS):
+                nz = self.noise
+                b.add(c, rc, uc, dt_ms,
+                      nz.expect if dt_ms == nz.expect_ms else nz.expectation(self._slope, dt_ms),
+                      nz.clip)
+                # the block closes when long enough, or long for the fit's age
+                # (every reading counts early on), or full
+                if b.it >= _BLOCK_MS or b.it * 16 >= b.age_ms or b.n >= MAX_BLOCK_READINGS:
                     while self._pending:
                         self._next_step()  # (sparse readings: a block per reading)
                     self._close_block()
@@ -463,24 +474,8 @@ class ThermalEstimator(Answer):
                     self._solve(self._known)
                     return
 
-    def predict(self, target_c, approach=0):
-        """Work out the time until ``target_c`` (deg C); return the status code.
-
-        ``approach``: -1 the product cools to its target (a drink), +1 heats
-        to it (a kettle, a bath), 0 not given (the direction of travel
-        decides; a rise with no heater on is an arrival only in a fit older
-        than ``answer.RISE_ARRIVE_MIN_S`` that still rises). With -1 or +1 a
-        liquid moving the other way is never ``ARRIVED`` and gets no time.
-
-        Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds
-        after the latest reading; ``None`` without an estimate), ``eta_rel_sd``,
-        ``rate_per_s`` (1/s), ``equilibrium_c``, ``ambient_est_c``,
-        ``temp_est_c`` (deg C) and ``gain_k_per_s`` (K/s). Asking changes no
-        later answer (it may do the second half of a block close early: its
-        result does not depend on when it runs). Never raises. The rules:
-        :func:`tinytherm.answer.predict`.
-        """
-        return answer.predict(self, target_c, approach)
+    # ``predict(target_c, approach=0)``: the answer part's rules, as a method
+    predict = answer.predict
 
     def forecast_s(self, moved_c, level_c, slope_c_per_s, rate_per_s):
         """Seconds the answer's law takes to move ``moved_c`` from ``level_c`` (the audits)."""

@@ -7,6 +7,7 @@ from tinytherm.guard import ReadingGuard
 from tinytherm.profile import VesselProfile
 
 SCALE: int
+MAX_BLOCK_READINGS: int
 GAP_RESTART: int
 BLOCK_S: float
 MEMORY_FRACTION: float

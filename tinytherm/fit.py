@@ -114,10 +114,6 @@ class BlockSums:
         self.rc = rc
         self.uc = uc
 
-    def due(self, block_ms):
-        """True when the block should close: long enough, or long for the fit's age."""
-        return self.it >= block_ms or self.it * 16 >= self.age_ms or self.n >= MAX_BLOCK_READINGS
-
     def noise_var(self):
         """Variance of one reading from the block's differences, deg C^2, or -1.0 if none."""
         n = self.en

@@ -67,6 +67,15 @@ _STATE_FMT = "<ddddddIIBB"
 _HAS_ACCEPTED = 8  # flag bit beside the window fill (0..4) in the flags byte
 
 
+def _median3(a, b, c):
+    """Median of three values, by comparisons only (the default window's fast path)."""
+    if a > b:
+        a, b = b, a
+    if b > c:
+        b = c
+    return a if a > b else b
+
+
 def _median(v, start, n):
     """Median of ``v[start:start + n]`` (``n`` odd), by comparisons only (no allocation)."""
     half = n >> 1
@@ -408,7 +417,7 @@ class ReadingGuard:
         if n < size - 1:
             self._win_n = n + 1  # still filling: nothing to judge against yet
             return False
-        m = _median(w, 0, size)
+        m = _median3(w[0], w[1], w[2]) if size == 3 else _median(w, 0, size)
         if x == m:
             return False
         dev = x - m if x > m else m - x
