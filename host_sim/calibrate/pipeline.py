@@ -49,6 +49,7 @@ import sys
 
 import numpy as np
 
+from host_sim.calibrate.checks import check_arguments, data_warnings
 from host_sim.calibrate.conformal import conformal_table, coverage, replay_pairs
 from host_sim.calibrate.dynamics import fill_scaling, fit_dynamics, profile_from_fit
 from host_sim.calibrate.forecast import forecast_errors
@@ -131,6 +132,7 @@ class Calibration:
             "fill_scaling": self.fill_scaling,
             "table_pairs_per_bin": self.table_counts,
             "cross_validation": self.cv,
+            "warnings": list(getattr(self, "warnings", [])),
             "units": {"rate_per_s": "1/s at |T-E| = diff_ref_c K", "eq_offset_c": "deg C",
                       "gain_k_per_s": "K/s at full duty", "probe_lag_s": "s",
                       "heater_lag_s": "s", "log_q_*": "ln(actual/predicted remaining time)",
@@ -148,12 +150,8 @@ def calibrate(traces, fills=None, ambient_c=None, folds=5, smooth_s=60.0, settin
     traces without an ambient column; ``settings``: estimator keyword
     arguments for the replay. Returns :class:`Calibration`.
     """
-    if len(traces) < 1:
-        raise ValueError("calibrate needs at least one trace")
+    check_arguments(len(traces), fills, ambient_c, folds, smooth_s)
     fills = list(fills) if fills is not None else [None] * len(traces)
-    if len(fills) != len(traces):
-        raise ValueError("--fill-kg needs one value per trace (%d traces, %d fills)"
-                         % (len(traces), len(fills)))
     preps = [prepare(tr, smooth_s=smooth_s, fill_kg=f, ambient_c=ambient_c)
              for tr, f in zip(traces, fills)]
     heater = any(tr.heater is not None and np.any(np.asarray(tr.heater) > 0.0) for tr in traces)
@@ -177,10 +175,12 @@ def calibrate(traces, fills=None, ambient_c=None, folds=5, smooth_s=60.0, settin
                    "gain_k_per_s_at_median_fill": None if gs is None else gs[1],
                    "median_fill_kg": None if ks is None else ks[2]}
     cv = cross_validate(preps, pairs_by_trace, heater, folds, ambient_c, progress)
-    return Calibration(profile=prof, fit=fit, preps=preps, pairs=all_pairs,
-                       pairs_by_trace=pairs_by_trace, fill_scaling=scaling,
-                       table_counts=None if table is None else table[2], cv=cv,
-                       ambient_c=ambient_c)
+    cal = Calibration(profile=prof, fit=fit, preps=preps, pairs=all_pairs,
+                      pairs_by_trace=pairs_by_trace, fill_scaling=scaling,
+                      table_counts=None if table is None else table[2], cv=cv,
+                      ambient_c=ambient_c)
+    cal.warnings = data_warnings(cal)
+    return cal
 
 
 def cross_validate(preps, pairs_by_trace, heater, folds, ambient_c=None, progress=True):

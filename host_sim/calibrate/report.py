@@ -62,7 +62,7 @@ def report_lines(cal):
                  % (cal.table_counts,))
     lines.append("    10 %%: %s" % "  ".join("%+.3f" % v for v in p.log_q_low))
     lines.append("    90 %%: %s" % "  ".join("%+.3f" % v for v in p.log_q_high))
-    for warning in fit_warnings(fit):
+    for warning in fit_warnings(fit) + list(getattr(cal, "warnings", [])):
         lines.append("  warning: " + warning)
     cv = cal.cv
     if cv.get("folds"):
@@ -76,6 +76,15 @@ def report_lines(cal):
     else:
         lines.append("  no cross-validation: %s" % cv.get("reason"))
     return lines
+
+
+def output_paths(out_path, plots=True):
+    """Every file :func:`write_outputs` writes for ``out_path``, in order."""
+    base = out_path[:-5] if out_path.endswith(".json") else out_path
+    paths = [out_path, base + ".bin", base + ".hex"]
+    if plots:
+        paths += [base + "_fit.png", base + "_error.png"]
+    return paths
 
 
 def write_outputs(cal, out_path, plots=True):
