@@ -193,6 +193,11 @@ def _split(line, sep, where):
         raise TraceError("%s: malformed CSV (%s)" % (where, exc)) from None
 
 
+# for other readers of the same CSV dialect (the fleet manifest)
+decoded_lines = _decoded_lines
+split_fields = _split
+
+
 def _is_comment(fields):
     return not "".join(fields).strip() or fields[0].lstrip().startswith("#")
 
