@@ -57,17 +57,26 @@ def check_arguments(n_traces, fills=None, ambient_c=None, folds=5, smooth_s=60.0
 
 
 class _GapScan(TraceScan):
-    """A :class:`TraceScan` that also finds the longest gap between rows (and its line)."""
+    """A :class:`TraceScan` that also finds the longest gap between rows (and its line)
+    and the first reading outside a liquid's range (replay's guard drops such a
+    spike; calibrate fits every reading, so one 1e308 would make the fit infinite)."""
 
     def __init__(self, reader):
         TraceScan.__init__(self, reader)
         self.max_gap_s = 0.0
         self.gap_line = None
+        self.wild = None           # (line, column, value) of the first impossible reading
 
     def add(self, row):
         if self.t_last is not None and row[0] - self.t_last > self.max_gap_s:
             self.max_gap_s = row[0] - self.t_last
             self.gap_line = self._reader.line
+        if self.wild is None:
+            lo, hi = LIQUID_RANGE_C
+            for column, value in (("temp_c", row[1]), ("ambient_c", row[2])):
+                if value is not None and not lo <= value <= hi:
+                    self.wild = (self._reader.line, column, value)
+                    break
         TraceScan.add(self, row)
 
 
@@ -83,6 +92,12 @@ def bound_problems(scan):
     if points > MAX_GRID_POINTS:
         problems.append("%.3g s at a median step of %.3g s is %.3g grid points (at most %d): "
                         "split the recording into uses" % (span, step, points, MAX_GRID_POINTS))
+    elif scan.wild is not None:
+        line, column, value = scan.wild
+        lo, hi = LIQUID_RANGE_C
+        problems.append("line %d: %s %.6g C is outside a liquid's %g..%g C (a spike?): "
+                        "calibrate fits every reading; remove the row" % (line, column, value,
+                                                                          lo, hi))
     elif scan.max_gap_s > MAX_GAP_S:
         problems.append("line %d: a gap of %.0f s after the previous row (at most %.0f s): "
                         "calibrate would invent readings across it; split the trace there"

@@ -171,10 +171,85 @@ def cases():
     return out
 
 
+def profile_cases():
+    """Files given to ``replay --profile``: (name, bytes, piece of the one error line)."""
+    out = [
+        ("profile_list.json", b"[1]\n", "not an object"),
+        ("profile_string.json", b'"abc"\n', "not an object"),
+        ("profile_blob_number.json", b'{"blob_hex": 12}\n', "blob_hex is a number"),
+        ("profile_null.json", b"null\n", "the JSON is null"),
+        ("profile_nan.json", b"NaN\n", "NaN"),
+        ("profile_nested.json", b"[" * 100000 + b"]" * 100000, "nested too deeply"),
+        ("profile_truth.json", b'{"crossing_time_s": 812.5, "target_c": 60}\n', "truth file"),
+        ("profile_not_json.json", b"blob_hex = 01ff\n", "not JSON"),
+        ("profile_latin1.json", '{"blob_hex": "caf\xe9"}\n'.encode("latin-1"), "not UTF-8"),
+        ("profile_not_hex.hex", b"zz" * 54 + b"\n", "not hexadecimal"),
+        ("profile_short.bin", b"\x01\x00" * 5, "profile_length"),
+    ]
+    return out
+
+
+def calibrate_cases():
+    """Traces for ``calibrate`` beyond the replay corpus: (name, bytes, extra arguments,
+    expected exit status, piece of the one error line or of a warning for exit 0)."""
+    base = cooling(n=300)
+    out = [
+        ("cal_row_at_1e9.csv", csv_text(base + [(1e9, 21.0)]), [], 2, "spans"),
+        ("cal_row_at_1e9_no_checks.csv", csv_text(base + [(1e9, 21.0)]), ["--no-checks"], 2,
+         "grid points"),
+        ("cal_row_at_3e7.csv", csv_text(base + [(3e7, 21.0)]), ["--no-checks"], 2,
+         "grid points"),
+        ("cal_gap_8h.csv", csv_text(base + [(3e4, 21.0)]), [], 2, "a gap of"),
+        ("cal_eight_rows.csv", csv_text(cooling(n=8, step=30.0)), [], 0, "only 8 rows"),
+        ("cal_step.csv", csv_text([(5.0 * i, 80.0 if i < 100 else 20.0) for i in range(200)]),
+         [], 0, "a step"),
+    ]
+    return [(n, d.encode(), a, c, t) for n, d, a, c, t in out]
+
+
+def manifest_cases():
+    """Manifests for ``fleet`` (traces named are files of this corpus): (name, bytes, extra
+    arguments, expected exit status, piece of the one error line or of RESULTS.csv)."""
+    good = "utf8_bom.csv"
+    formulas = ["=HYPERLINK(\"http://x.invalid\",\"x\")", "+SUM(1+1)", "-2+3", "@SUM(1)",
+                "\tTAB", "plain"]
+    out = [
+        ("manifest_bom.csv", b"\xef\xbb\xbf" + ("path,target\n%s,60\n" % good).encode(),
+         [], 0, ""),
+        ("manifest_latin1.csv", ("path,target,note\n%s,60,caf\xe9\n" % good).encode("latin-1"),
+         [], 2, ":2: not UTF-8"),
+        ("manifest_no_header.csv", ("%s,60\ncrlf.csv,60\n" % good).encode(), [], 2,
+         "no header row?"),
+        ("manifest_wrong_header.csv", ("file,target_c\n%s,60\n" % good).encode(), [], 2,
+         "neither a manifest"),
+        ("manifest_no_target_column.csv", ("path,product\n%s,mug\n" % good).encode(), [], 2,
+         "no target column"),
+        ("manifest_duplicate_columns.csv", ("path,target,target\n%s,60,61\n" % good).encode(),
+         [], 2, "duplicate column(s) target"),
+        ("manifest_unterminated_quote.csv", ('path,target,note\n%s,60,"oops\ncrlf.csv,60,x\n'
+                                             % good).encode(), [], 2, ":2: unbalanced"),
+        ("manifest_long_tag.csv", ("path,target,note\n%s,60,%s\n" % (good, "n" * 131073))
+         .encode(), [], 2, "131073 characters"),
+        ("manifest_binary.zip", zip_of("m.csv", "path,target\n"), [], 2, "ZIP archive"),
+        ("manifest_formula_tags.csv", ("path,target,tag\n" + "".join(
+            '%s,60,"%s"\n' % (good, f.replace('"', '""')) for f in formulas)).encode(),
+         [], 0, "'=HYPERLINK"),
+        ("manifest_target_nan.csv", ("path,target\n%s,nan\n" % good).encode(), [], 1,
+         "target is not finite"),
+        ("manifest_target_1e308.csv", ("path,target\n%s,1e308\n" % good).encode(), [], 1,
+         "outside a liquid's"),
+        ("manifest_refused_traces.csv", ("path,target\n" + "".join(
+            "%s,60\n" % n for n in ("kelvin.csv", "time_in_ms.csv", "fahrenheit_as_c.csv",
+                                    "all_equal_times.csv", good))).encode(), [], 1, "Kelvin"),
+    ]
+    return out
+
+
 def write(folder=HERE):
     """Write every case's file into ``folder``; returns the names written."""
     names = []
-    for name, data, _, _, _ in cases():
+    extra = [(n, d, None, None, None) for n, d, _ in profile_cases()]
+    for name, data, _, _, _ in cases() + calibrate_cases() + manifest_cases() + extra:
         with open(os.path.join(folder, name), "wb") as handle:
             handle.write(data)
         names.append(name)
