@@ -145,6 +145,14 @@ def cases():
     add("only_comments.csv", "# recorded on a bench\n# nothing else\n", [], 2, "empty file")
     add("header_only.csv", "time_s,temp_c\n", [], 2, "no data rows")
     add("no_time_column.csv", base.replace("time_s", "seconds", 1), [], 2, "no time_s column")
+    add("time_ms_column.csv", csv_text([(t * 1000.0, y) for t, y in cooling()],
+                                       header="time_ms,temp_c"), [], 2,
+        "rename it time_s and add --time-unit ms")
+    add("iso_time_column.csv", "time,temp_c\n" + "".join(
+        "2026-03-01T09:%02d:%02d,%.4f\n" % (int(t) // 60, int(t) % 60, y)
+        for t, y in cooling()), [], 0, "")
+    add("iso_time_column_bad_stamp.csv", "time,temp_c\n2026-03-01T09:00:00,80.0\n"
+        "2026-03-01 nine o'clock,79.9\n", [], 2, ":3: time is neither a number nor an ISO")
     add("temp_f_without_flag.csv", base.replace("temp_c", "temp_f", 1), [], 2, "--fahrenheit")
     add("html_page.csv", "<!DOCTYPE html>\n<html><body>not found</body></html>\n", [], 2,
         "starts with the line time_s,temp_c")
