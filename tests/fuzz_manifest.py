@@ -27,8 +27,11 @@ import sys
 import tempfile
 
 import atheris
-import numpy  # noqa: F401 - imported before instrumenting: only our modules are traced
+import matplotlib  # noqa: F401 - imported before instrumenting: only our modules are traced
+import numpy  # noqa: F401
 import pyarrow  # noqa: F401
+import scipy.optimize  # noqa: F401
+import scipy.signal  # noqa: F401
 import tqdm  # noqa: F401
 
 import tinytherm.estimator  # noqa: F401

@@ -55,9 +55,9 @@ def cmd_calibrate(args):
     for path in output_paths(args.out, plots):      # never overwrite a trace
         check_output(path, "--out", inputs=args.traces)
     notes = []
+    skip_bad = getattr(args, "skip_bad", not getattr(args, "strict", False))
     try:
-        traces = read_traces(args.traces, fahrenheit=args.fahrenheit,
-                             skip_bad=getattr(args, "skip_bad", not getattr(args, "strict", False)),
+        traces = read_traces(args.traces, fahrenheit=args.fahrenheit, skip_bad=skip_bad,
                              time_unit=args.time_unit, checks=not args.no_checks, notes=notes)
     except (OSError, TraceError) as exc:
         raise CliError(str(exc)) from None

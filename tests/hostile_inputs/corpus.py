@@ -116,6 +116,8 @@ def cases():
     add("kelvin.csv", csv_text([(t, y + 273.15) for t, y in cooling()]), [], 2, "Kelvin")
     add("fahrenheit_as_c.csv", csv_text([(t, y * 1.8 + 32 + 40) for t, y in cooling()]),
         [], 2, "--fahrenheit")
+    add("fahrenheit_hot_start.csv", csv_text([(t, y * 1.8 + 32) for t, y in cooling(
+        n=300, step=10.0, temp0=85.0)]), [], 2, "readings are above 150 C")
     add("all_1e308.csv", csv_text([(t, 1e308) for t, _ in cooling()], fmt=("%.1f", "%g")),
         [], 2, "not a liquid temperature")
     add("ambient_kelvin.csv", "time_s,temp_c,ambient_c\n" + "\n".join(
