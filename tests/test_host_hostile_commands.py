@@ -337,3 +337,26 @@ def test_whole_replay_corpus_through_fleet(tmp_path, capsys):
         else:
             assert rows[name]["error"], name
             assert "\n" not in rows[name]["error"]
+
+
+def test_calibrate_error_during_a_progress_bar_stands_on_its_own_line(tmp_path, capsys,
+                                                                       monkeypatch):
+    # fuzz_calibrate finding: a fit that failed inside cross-validation left the bar
+    # open, and "error: ..." was glued to the bar's line
+    from host_sim.calibrate import pipeline
+    real = pipeline.fit_dynamics
+    calls = []
+
+    def fail_second(*args, **kw):
+        calls.append(1)
+        if len(calls) == 2:
+            raise ValueError("fit failed on purpose")
+        return real(*args, **kw)
+
+    monkeypatch.setattr(pipeline, "fit_dynamics", fail_second)
+    traces = [os.path.join(CORPUS, n) for n in ("crlf.csv", "semicolon.csv")]
+    code, _, err = run(["calibrate"] + traces + ["--out", str(tmp_path / "p.json"),
+                                                 "--no-plots"], capsys)
+    assert code == 2 and len(calls) == 2
+    one_error_line(err, "fit failed on purpose")
+    assert "\rerror: fit failed" in err or err.startswith("error: ")

@@ -156,12 +156,11 @@ def calibrate(traces, fills=None, ambient_c=None, folds=5, smooth_s=60.0, settin
              for tr, f in zip(traces, fills)]
     heater = any(tr.heater is not None and np.any(np.asarray(tr.heater) > 0.0) for tr in traces)
     fit = fit_dynamics(preps, heater)
-    bar = _bar(len(preps), "replay (no profile)", progress)
     pairs_by_trace = []
-    for pr in preps:
-        pairs_by_trace.append(replay_pairs(pr, heater, settings))
-        bar.update(1)
-    bar.close()
+    with _bar(len(preps), "replay (no profile)", progress) as bar:
+        for pr in preps:
+            pairs_by_trace.append(replay_pairs(pr, heater, settings))
+            bar.update(1)
     all_pairs = [p for ps in pairs_by_trace for p in ps]
     table = conformal_table(all_pairs)
     prof = profile_from_fit(fit, None if table is None else table[:2])
@@ -192,7 +191,16 @@ def cross_validate(preps, pairs_by_trace, heater, folds, ambient_c=None, progres
     fold_of = np.arange(m) % k
     cov_dev, cov_prof, err_prof, err_dev = [], [], [], []
     curves = []
-    bar = _bar(k, "cross-validation", progress)
+    with _bar(k, "cross-validation", progress) as bar:
+        _folds(preps, pairs_by_trace, heater, ambient_c, fold_of, k, bar, cov_dev, cov_prof,
+               err_prof, err_dev, curves)
+    return _cv_figures(k, cov_dev, cov_prof, err_prof, err_dev, curves)
+
+
+def _folds(preps, pairs_by_trace, heater, ambient_c, fold_of, k, bar, cov_dev, cov_prof,
+           err_prof, err_dev, curves):
+    """Refit without each fold and score the held-out traces (appends to the lists)."""
+    m = len(preps)
     for f in range(k):
         train = [i for i in range(m) if fold_of[i] != f]
         test = [i for i in range(m) if fold_of[i] == f]
@@ -212,8 +220,10 @@ def cross_validate(preps, pairs_by_trace, heater, folds, ambient_c=None, progres
         for p, rows, ep, ed in per_pair:
             curves.append((p.frac[rows], ep, ed))
         bar.update(1)
-    bar.close()
 
+
+def _cv_figures(k, cov_dev, cov_prof, err_prof, err_dev, curves):
+    """The cross-validation dict of :func:`cross_validate` from the per-fold figures."""
     def wmean(v):
         v = [(a, w) for a, w in v if np.isfinite(a)]
         return float(sum(a * w for a, w in v) / sum(w for _, w in v)) if v else float("nan")
@@ -246,6 +256,12 @@ class _NoBar:
 
     def close(self):
         pass
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        return False
 
 
 def _bar(total, desc, on):
