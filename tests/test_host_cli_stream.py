@@ -45,7 +45,7 @@ def test_time_unit_and_fahrenheit_convert():
 
 def test_header_errors_raise_before_iteration_and_bad_rows_while_iterating():
     with pytest.raises(TraceError, match="no time_s column"):
-        iter_trace_rows(["time,temp_c\n", "0,1\n"], name="x.csv")
+        iter_trace_rows(["seconds,temp_c\n", "0,1\n"], name="x.csv")
     reader = iter_trace_rows(["time_s,temp_c\n", "0,50\n", "1,hot\n"], name="x.csv")
     it = iter(reader)
     assert next(it) == (0.0, 50.0, None, None, None)

@@ -43,8 +43,18 @@ def test_bad_number_names_line_and_problem():
 
 def test_missing_column():
     with pytest.raises(TraceError) as err:
-        parse("time,temp_c\n0,50\n")
+        parse("seconds,temp_c\n0,50\n")
     assert "t.csv:1" in str(err.value) and "no time_s column" in str(err.value)
+    # a `time` column holds ISO 8601 date-times (issue 19); numbers there are refused
+    with pytest.raises(TraceError) as err:
+        parse("time,temp_c\n0,50\n")
+    assert "t.csv:2" in str(err.value) and "time_s" in str(err.value)
+
+
+def test_iso_date_times_in_a_time_column_are_seconds_from_the_first_row():
+    trace = parse("time,temp_c\n2026-03-01T23:59:30Z,50\n2026-03-02T00:00:10+00:00,49\n"
+                  "2026-03-02T01:00:10+01:00,48\n")
+    assert list(trace.time_s) == [0.0, 40.0, 40.0]       # 01:00:10+01:00 is 00:00:10 UTC
 
 
 def test_missing_temp_column_hints_fahrenheit():

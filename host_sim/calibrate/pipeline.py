@@ -49,6 +49,7 @@ import sys
 
 import numpy as np
 
+from host_sim.calibrate.checks import check_arguments, data_warnings
 from host_sim.calibrate.conformal import conformal_table, coverage, replay_pairs
 from host_sim.calibrate.dynamics import fill_scaling, fit_dynamics, profile_from_fit
 from host_sim.calibrate.forecast import forecast_errors
@@ -131,6 +132,7 @@ class Calibration:
             "fill_scaling": self.fill_scaling,
             "table_pairs_per_bin": self.table_counts,
             "cross_validation": self.cv,
+            "warnings": list(getattr(self, "warnings", [])),
             "units": {"rate_per_s": "1/s at |T-E| = diff_ref_c K", "eq_offset_c": "deg C",
                       "gain_k_per_s": "K/s at full duty", "probe_lag_s": "s",
                       "heater_lag_s": "s", "log_q_*": "ln(actual/predicted remaining time)",
@@ -149,22 +151,17 @@ def calibrate(traces, fills=None, ambient_c=None, folds=5, smooth_s=60.0, settin
     :class:`host_sim.replay.settings.ReplaySettings` of the device's replays
     (no ``heater``: the traces decide it; no ``profile``). Returns :class:`Calibration`.
     """
-    if len(traces) < 1:
-        raise ValueError("calibrate needs at least one trace")
+    check_arguments(len(traces), fills, ambient_c, folds, smooth_s)
     fills = list(fills) if fills is not None else [None] * len(traces)
-    if len(fills) != len(traces):
-        raise ValueError("--fill-kg needs one value per trace (%d traces, %d fills)"
-                         % (len(traces), len(fills)))
     preps = [prepare(tr, smooth_s=smooth_s, fill_kg=f, ambient_c=ambient_c)
              for tr, f in zip(traces, fills)]
     heater = any(tr.heater is not None and np.any(np.asarray(tr.heater) > 0.0) for tr in traces)
     fit = fit_dynamics(preps, heater)
-    bar = _bar(len(preps), "replay (no profile)", progress)
     pairs_by_trace = []
-    for pr in preps:
-        pairs_by_trace.append(replay_pairs(pr, heater, settings))
-        bar.update(1)
-    bar.close()
+    with _bar(len(preps), "replay (no profile)", progress) as bar:
+        for pr in preps:
+            pairs_by_trace.append(replay_pairs(pr, heater, settings))
+            bar.update(1)
     all_pairs = [p for ps in pairs_by_trace for p in ps]
     table = conformal_table(all_pairs)
     prof = profile_from_fit(fit, None if table is None else table[:2])
@@ -178,10 +175,12 @@ def calibrate(traces, fills=None, ambient_c=None, folds=5, smooth_s=60.0, settin
                    "gain_k_per_s_at_median_fill": None if gs is None else gs[1],
                    "median_fill_kg": None if ks is None else ks[2]}
     cv = cross_validate(preps, pairs_by_trace, heater, folds, ambient_c, progress)
-    return Calibration(profile=prof, fit=fit, preps=preps, pairs=all_pairs,
-                       pairs_by_trace=pairs_by_trace, fill_scaling=scaling,
-                       table_counts=None if table is None else table[2], cv=cv,
-                       ambient_c=ambient_c)
+    cal = Calibration(profile=prof, fit=fit, preps=preps, pairs=all_pairs,
+                      pairs_by_trace=pairs_by_trace, fill_scaling=scaling,
+                      table_counts=None if table is None else table[2], cv=cv,
+                      ambient_c=ambient_c)
+    cal.warnings = data_warnings(cal)
+    return cal
 
 
 def cross_validate(preps, pairs_by_trace, heater, folds, ambient_c=None, progress=True):
@@ -193,7 +192,16 @@ def cross_validate(preps, pairs_by_trace, heater, folds, ambient_c=None, progres
     fold_of = np.arange(m) % k
     cov_dev, cov_prof, err_prof, err_dev = [], [], [], []
     curves = []
-    bar = _bar(k, "cross-validation", progress)
+    with _bar(k, "cross-validation", progress) as bar:
+        _folds(preps, pairs_by_trace, heater, ambient_c, fold_of, k, bar, cov_dev, cov_prof,
+               err_prof, err_dev, curves)
+    return _cv_figures(k, cov_dev, cov_prof, err_prof, err_dev, curves)
+
+
+def _folds(preps, pairs_by_trace, heater, ambient_c, fold_of, k, bar, cov_dev, cov_prof,
+           err_prof, err_dev, curves):
+    """Refit without each fold and score the held-out traces (appends to the lists)."""
+    m = len(preps)
     for f in range(k):
         train = [i for i in range(m) if fold_of[i] != f]
         test = [i for i in range(m) if fold_of[i] == f]
@@ -213,8 +221,10 @@ def cross_validate(preps, pairs_by_trace, heater, folds, ambient_c=None, progres
         for p, rows, ep, ed in per_pair:
             curves.append((p.frac[rows], ep, ed))
         bar.update(1)
-    bar.close()
 
+
+def _cv_figures(k, cov_dev, cov_prof, err_prof, err_dev, curves):
+    """The cross-validation dict of :func:`cross_validate` from the per-fold figures."""
     def wmean(v):
         v = [(a, w) for a, w in v if np.isfinite(a)]
         return float(sum(a * w for a, w in v) / sum(w for _, w in v)) if v else float("nan")
@@ -247,6 +257,12 @@ class _NoBar:
 
     def close(self):
         pass
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        return False
 
 
 def _bar(total, desc, on):

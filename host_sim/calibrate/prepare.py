@@ -8,6 +8,7 @@ import numpy as np
 from scipy.signal import lfilter, savgol_coeffs, savgol_filter
 
 TARGET_FRACTIONS = (0.30, 0.55, 0.80)
+MAX_GRID_POINTS = 100000    # one trace's grid (host_sim.calibrate.checks refuses more up front)
 
 
 # ------------------------------------------------------------- preprocessing
@@ -34,6 +35,13 @@ def prepare(trace, smooth_s=60.0, fill_kg=None, ambient_c=None):
     if len(t_raw) < 8:
         raise ValueError("%s: too few rows to calibrate on (%d)" % (trace.source, len(t_raw)))
     dt = max(float(np.median(np.diff(t_raw))), 0.5)
+    if not (math.isfinite(smooth_s) and smooth_s > 0.0):
+        raise ValueError("smooth_s must be a positive number of seconds, got %r" % (smooth_s,))
+    points = (t_raw[-1] - t_raw[0]) / dt + 1.0
+    if not points <= MAX_GRID_POINTS:       # refused before any allocation
+        raise ValueError("%s: %.3g s at a step of %.3g s is %.3g grid points (at most %d): "
+                         "split the recording into uses"
+                         % (trace.source, t_raw[-1] - t_raw[0], dt, points, MAX_GRID_POINTS))
     t = np.arange(t_raw[0], t_raw[-1] + 1e-9, dt)
     y = np.interp(t, t_raw, y_raw)
     win = int(round(smooth_s / dt)) | 1

@@ -62,7 +62,7 @@ def report_lines(cal):
                  % (cal.table_counts,))
     lines.append("    10 %%: %s" % "  ".join("%+.3f" % v for v in p.log_q_low))
     lines.append("    90 %%: %s" % "  ".join("%+.3f" % v for v in p.log_q_high))
-    for warning in fit_warnings(fit):
+    for warning in fit_warnings(fit) + list(getattr(cal, "warnings", [])):
         lines.append("  warning: " + warning)
     cv = cal.cv
     if cv.get("folds"):
@@ -76,6 +76,15 @@ def report_lines(cal):
     else:
         lines.append("  no cross-validation: %s" % cv.get("reason"))
     return lines
+
+
+def output_paths(out_path, plots=True):
+    """Every file :func:`write_outputs` writes for ``out_path``, in order."""
+    base = out_path[:-5] if out_path.endswith(".json") else out_path
+    paths = [out_path, base + ".bin", base + ".hex"]
+    if plots:
+        paths += [base + "_fit.png", base + "_error.png"]
+    return paths
 
 
 def write_outputs(cal, out_path, plots=True):
@@ -103,24 +112,147 @@ def _json_default(x):
     raise TypeError(type(x))
 
 
+MAX_PROFILE_BYTES = 1 << 20     # a PROFILE.json is a few KB; /dev/zero never ends
+_PROFILE_FIELDS = ("rate_per_s", "rate_log_sd", "eq_offset_c", "eq_offset_sd_c",
+                   "gain_k_per_s", "gain_rel_sd", "probe_lag_s", "rate_exponent")
+
+
+def _read_bounded(path, binary):
+    """The file's bytes (or UTF-8 text), refusing more than :data:`MAX_PROFILE_BYTES`."""
+    try:
+        with open(path, "rb") as fh:
+            data = fh.read(MAX_PROFILE_BYTES + 1)
+    except FileNotFoundError:
+        raise ValueError("no such file") from None
+    except IsADirectoryError:
+        raise ValueError("is a folder, not a profile") from None
+    except OSError as exc:
+        raise ValueError(exc.strerror or str(exc)) from None
+    if len(data) > MAX_PROFILE_BYTES:
+        raise ValueError("larger than %d bytes: not a profile from 'calibrate'"
+                         % MAX_PROFILE_BYTES)
+    if binary:
+        return data
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise ValueError("not UTF-8 text (a .bin blob? name it .bin)") from None
+
+
+def _profile_json(text):
+    """The dict of a PROFILE.json text; ValueError naming what is wrong with its shape."""
+    try:
+        doc = json.loads(text, parse_constant=_no_constant)
+    except RecursionError:
+        raise ValueError("JSON nested too deeply: not a profile from 'calibrate'") from None
+    except json.JSONDecodeError as exc:
+        raise ValueError("not JSON (%s at line %d column %d)" % (exc.msg, exc.lineno,
+                                                                 exc.colno)) from None
+    if not isinstance(doc, dict):
+        raise ValueError("the JSON is %s, not an object with a blob_hex entry: not a "
+                         "profile from 'calibrate'" % _json_kind(doc))
+    if "blob_hex" not in doc:
+        hint = " (this is a truth file from 'scenario')" if "crossing_time_s" in doc else ""
+        raise ValueError("no blob_hex entry%s: give the PROFILE.json, .hex or .bin that "
+                         "'calibrate' wrote" % hint)
+    if not isinstance(doc["blob_hex"], str):
+        raise ValueError("blob_hex is %s, not a hex string" % _json_kind(doc["blob_hex"]))
+    return doc
+
+
+def _no_constant(name):
+    raise ValueError("JSON holds %s, not a number a profile can hold" % name)
+
+
+def _json_kind(value):
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return "a boolean"
+    if isinstance(value, (int, float)):
+        return "a number"
+    if isinstance(value, str):
+        return "a string"
+    if isinstance(value, list):
+        return "a list"
+    return "an object"
+
+
+def _blob_of(path):
+    """``(blob bytes, JSON dict or None)`` of a .json, .hex or .bin profile file."""
+    if path.lower().endswith(".bin"):
+        return _read_bounded(path, True), None
+    text = _read_bounded(path, False)
+    doc = None
+    if path.lower().endswith(".json"):
+        doc = _profile_json(text)
+        blob_hex = doc["blob_hex"]
+    else:
+        blob_hex = text.strip()
+    try:
+        return bytes.fromhex(blob_hex), doc
+    except ValueError:
+        raise ValueError("blob_hex is not hexadecimal (%d characters, %d expected)"
+                         % (len(blob_hex), 2 * tp.PROFILE_SIZE)) from None
+
+
 def load_profile(path):
     """``(VesselProfile or None, reason code)`` from a PROFILE.json, .hex or .bin file.
 
     Always goes through the device form (:meth:`VesselProfile.from_blob`), so
-    the host uses the profile exactly as the device would.
+    the host uses the profile exactly as the device would. A file that is not
+    a profile at all (no such file, over :data:`MAX_PROFILE_BYTES`, JSON of
+    another shape, not hexadecimal) raises ValueError with one line saying why.
     """
-    if path.endswith(".bin"):
-        with open(path, "rb") as fh:
-            blob = fh.read()
-    else:
-        with open(path) as fh:
-            text = fh.read()
-        blob_hex = json.loads(text)["blob_hex"] if path.endswith(".json") else text.strip()
-        try:
-            blob = bytes.fromhex(blob_hex)
-        except ValueError:
-            return None, tp.REASON_LENGTH
+    blob, _ = _blob_of(path)
     return VesselProfile.from_blob(blob)
+
+
+def profile_notes(path, profile, heater):
+    """Warnings (list of str) about using the profile at ``path`` on this trace.
+
+    ``profile``: the :class:`VesselProfile` the device form gave; ``heater``:
+    whether the estimator runs with a heater. Says when the profile is for the
+    other heater mode (the estimator then runs without it), and when a field
+    of the JSON's ``profile`` section differs from the device blob (edited by
+    hand: the blob is what the device, and so the replay, uses).
+    """
+    notes = []
+    if profile is None:
+        return notes
+    if bool(profile.heater) != bool(heater):
+        notes.append("--profile %s is for a vessel %s a heater but this run is %s one: the "
+                     "estimator runs without the profile (%s)"
+                     % (path, "with" if profile.heater else "without",
+                        "with" if heater else "without",
+                        "use --heater off" if profile.heater else
+                        "calibrate on traces with a heater column"))
+    try:
+        _, doc = _blob_of(path)
+    except ValueError:
+        return notes
+    fields = doc.get("profile") if doc else None
+    if not isinstance(fields, dict):
+        return notes
+    edited = []
+    for name in _PROFILE_FIELDS + ("heater",):
+        if name not in fields:
+            continue
+        given, used = fields[name], getattr(profile, name)
+        if name == "heater":
+            same = given is used or given == used
+        else:
+            same = (isinstance(given, (int, float)) and not isinstance(given, bool)
+                    and math.isfinite(given)
+                    and abs(given - used) <= 1e-6 * max(1.0, abs(used)))
+        if not same:
+            edited.append("%s (JSON %r, blob %r)" % (name, given, used))
+    if edited:
+        notes.append("--profile %s: the JSON's profile section differs from its blob_hex in "
+                     "%s: the device blob is what is used; to change a value, calibrate "
+                     "again" % (path, ", ".join(edited[:4]) + (" and %d more" % (
+                         len(edited) - 4) if len(edited) > 4 else "")))
+    return notes
 
 
 def simulate_fit(prep, fit, i):

@@ -31,6 +31,11 @@ def add_parser(sub):
     add_set_option(c, help_text="a setting of the device's estimator for the replays that "
                    "calibrate the interval (repeatable; as --set of replay, without heater "
                    "and profile: the traces decide the heater, the replays use no profile)")
+    c.add_argument("--time-unit", choices=("s", "ms", "min"), default="s",
+                   help="unit of the traces' time_s column (default s); converted to seconds")
+    c.add_argument("--no-checks", action="store_true",
+                   help="calibrate even on traces whose sampling or readings look wrong (the "
+                        "checks of replay); the bounds on size and gaps still apply")
     c.add_argument("--no-plots", action="store_true", help="do not write the PNG plots")
     c.set_defaults(func=cmd_calibrate)
     return c
@@ -38,22 +43,30 @@ def add_parser(sub):
 
 def cmd_calibrate(args):
     """Run the ``calibrate`` subcommand; returns the exit code."""
+    from host_sim.calibrate.checks import check_arguments, read_traces
     from host_sim.calibrate.pipeline import calibrate
-    from host_sim.calibrate.report import report_lines, write_outputs
-    from host_sim.replay.trace_io import read_trace
+    from host_sim.calibrate.report import output_paths, report_lines, write_outputs
+    from host_sim.cli.options import check_output
     from host_sim.replay.trace_reader import TraceError
     from tinytherm import profile as tp
     settings = settings_from_args(args, refuse=("heater", "profile"))
-    traces = []
-    for path in args.traces:
-        try:
-            tr = read_trace(path, fahrenheit=args.fahrenheit, skip_bad=args.skip_bad)
-        except (OSError, TraceError) as exc:
-            raise CliError(str(exc)) from None
-        if tr.skipped_rows:
-            print("%s: skipped %d bad row(s) (a torn last row after a power loss is one)"
-                  % (path, tr.skipped_rows), file=sys.stderr)
-        traces.append(tr)
+    plots = not args.no_plots
+    try:
+        check_arguments(len(args.traces), args.fill_kg, args.ambient, args.folds,
+                        args.smooth_s)
+    except ValueError as exc:
+        raise CliError(str(exc)) from None
+    for path in output_paths(args.out, plots):      # never overwrite a trace
+        check_output(path, "--out", inputs=args.traces)
+    notes = []
+    skip_bad = args.skip_bad
+    try:
+        traces = read_traces(args.traces, fahrenheit=args.fahrenheit, skip_bad=skip_bad,
+                             time_unit=args.time_unit, checks=not args.no_checks, notes=notes)
+    except (OSError, TraceError) as exc:
+        raise CliError(str(exc)) from None
+    for note in notes:
+        print(note, file=sys.stderr)
     try:
         cal = calibrate(traces, fills=args.fill_kg, ambient_c=args.ambient, folds=args.folds,
                         smooth_s=args.smooth_s, settings=settings)
@@ -61,7 +74,10 @@ def cmd_calibrate(args):
         raise CliError(str(exc)) from None
     for line in report_lines(cal):
         print(line)
-    paths = write_outputs(cal, args.out, plots=not args.no_plots)
+    try:
+        paths = write_outputs(cal, args.out, plots=plots)
+    except OSError as exc:
+        raise CliError("--out %s: cannot write (%s)" % (args.out, exc.strerror or exc)) from None
     print("device blob: %d bytes, %s" % (tp.PROFILE_SIZE, cal.profile.to_blob().hex()))
     print("written: %s" % ", ".join(paths))
     return 0

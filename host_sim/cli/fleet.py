@@ -1,5 +1,6 @@
 """``fleet MANIFEST.csv --out RESULTS.csv``: replay many traces on a dask cluster (see :mod:`host_sim.fleet.run`)."""
 import os
+import sys
 
 from host_sim.cli.options import (SET_HELP, CliError, add_set_option, add_skip_bad_option,
                                   count_int, finite_float)
@@ -44,6 +45,8 @@ def add_parser(sub):
                    help="A/B: replay plots of the N worst traces (default 10)")
     f.add_argument("--no-plots", action="store_true", help="no PNG plots")
     f.add_argument("--quiet", action="store_true", help="no progress bar")
+    f.add_argument("--allow-failures", action="store_true",
+                   help="exit 0 even when some traces fail (default: exit 1, so CI notices)")
     f.set_defaults(func=cmd_fleet)
     return f
 
@@ -51,8 +54,10 @@ def add_parser(sub):
 def cmd_fleet(args):
     """The ``fleet`` subcommand; returns the exit code."""
     from host_sim.fleet import report as fleet_report
-    from host_sim.fleet.run import load_items, make_variant, run_fleet
+    from host_sim.cli.options import check_output
+    from host_sim.fleet.run import check_run_options, load_items, make_variant, run_fleet
     try:
+        check_run_options(args.workers, args.chunk)
         items, tag_names = load_items(args.manifest, args.target, args.skip_bad)
         variants = {"cand": make_variant(args.core, args.set)}
         if args.baseline_core or args.baseline_set:
@@ -61,6 +66,9 @@ def cmd_fleet(args):
         raise CliError(str(exc)) from None
     if not items:
         raise CliError("no traces in %s" % args.manifest)
+    inputs = [args.manifest] + [it.spec["path"] for it in items]
+    for path in fleet_report.output_paths(args.out, not args.no_plots):
+        check_output(path, "--out", inputs=inputs)   # never overwrite the manifest or a trace
     where = args.scheduler or ("this process" if args.workers == 0 else
                                "a LocalCluster of %d worker(s)"
                                % (args.workers or os.cpu_count() or 1))
@@ -79,4 +87,9 @@ def cmd_fleet(args):
                                     plots=not args.no_plots)
     for line in report:
         print(line)
+    failed = fleet_report.failed_count(results)
+    if failed and not args.allow_failures:
+        print("fleet: %d of %d trace(s) failed (listed in the report); exit status 1 "
+              "(--allow-failures exits 0)" % (failed, len(items)), file=sys.stderr)
+        return 1
     return 0

@@ -13,103 +13,11 @@ import numpy as np
 from host_sim.cli.options import (TRUST_FLOOR_S, TRUST_HELP, CliError, add_estimator_options,
                                   add_skip_bad_option, check_finite, check_output, finite_float,
                                   format_accuracy, load_truth, settings_from_args, show_temp)
+from host_sim.replay.trace_checks import TraceScan, target_problem, trace_problems
 from host_sim.replay.trace_reader import TraceError
 
-SCAN_SAMPLE = 20000          # rows whose steps and readings feed the sanity medians
-MAX_TIME_S = 1e10            # ~300 years: beyond this, row differences lose precision
 PLOT_POINTS = 20000          # rows kept for a plot (every k-th, plus events)
 MAX_EVENTS = 1000            # event markers kept for a plot (it labels the first 30)
-LIQUID_RANGE_C = (-60.0, 150.0)
-MAX_SPAN_S = 30 * 86400.0    # a month: longer is more likely milliseconds read as seconds
-
-def _median_low(values):
-    """The lower median (an element, so no overflow from averaging two), or None."""
-    if not values:
-        return None
-    return float(sorted(values)[(len(values) - 1) // 2])
-
-
-class _Scan:
-    """First pass over a trace: sizes, times and readings for the sanity checks."""
-
-    def __init__(self, reader):
-        self.columns = reader.columns
-        self.has_ambient, self.has_heater = reader.has_ambient, reader.has_heater
-        self.rows = 0
-        self.t0 = self.t_last = None
-        self.heater_on = False
-        steps, temps, ambs = [], [], []
-        prev = None
-        for row in reader:
-            t = row[0]
-            if prev is None:
-                self.t0 = t
-            elif len(steps) < SCAN_SAMPLE:
-                steps.append(t - prev)
-            if len(temps) < SCAN_SAMPLE:
-                temps.append(row[1])
-            if row[2] is not None and len(ambs) < SCAN_SAMPLE:
-                ambs.append(row[2])
-            if row[3] is not None and row[3] > 0.0:
-                self.heater_on = True
-            prev = t
-            self.rows += 1
-        self.t_last = prev
-        self.median_step_s = _median_low(steps)
-        self.median_temp_c = _median_low(temps)
-        self.median_ambient_c = _median_low(ambs)
-        self.skipped_rows = reader.skipped_rows
-        self.skipped_reasons = reader.skipped_reasons
-        self.skipped_by_reason = reader.skipped_by_reason
-
-
-def _sanity_problems(scan, unit, time_unit="s"):
-    """Messages for a trace that cannot be what the user meant (empty list if fine).
-
-    ``unit``: "C" or "F" for the messages; ``time_unit``: the --time-unit given.
-    """
-    problems = []
-    span = scan.t_last - scan.t0
-    lo, hi = LIQUID_RANGE_C
-    med = scan.median_temp_c
-    if not lo <= med <= hi:
-        shown = show_temp(med, unit)
-        if hi < med <= 500.0:
-            problems.append("the median reading is %s, beyond a liquid's %g..%g C: deg F? add "
-                            "--fahrenheit; Kelvin? subtract 273.15" % (shown, lo, hi))
-        else:
-            problems.append("the median reading is %s, not a liquid temperature (%g..%g C): "
-                            "is temp_c the right column, in deg C?" % (shown, lo, hi))
-    amb = scan.median_ambient_c
-    if amb is not None and not lo <= amb <= hi:
-        problems.append("the median ambient_c is %s, not an air or bath temperature (%g..%g "
-                        "C): Kelvin or deg F? convert it, or add --ignore-ambient-column"
-                        % (show_temp(amb, unit), lo, hi))
-    if scan.t_last > MAX_TIME_S:
-        problems.append("time_s reaches %.3g s: row-to-row differences are lost at that size "
-                        "in double precision; %swrite seconds since the start of the recording"
-                        % (scan.t_last, "milliseconds? add --time-unit ms; otherwise "
-                           if scan.t_last < 1e14 and time_unit == "s" else ""))
-    elif scan.rows > 1 and span == 0.0:
-        problems.append("all %d rows have the same time_s (%g): times must advance from row "
-                        "to row" % (scan.rows, scan.t0))
-    elif scan.median_step_s is not None and scan.median_step_s == 0.0:
-        problems.append("more than half of the rows repeat the previous row's time_s: "
-                        "times must advance from row to row")
-    elif scan.median_step_s is not None and scan.median_step_s < 0.1:
-        problems.append("the median time step is %.3g s (%.0f readings a second): time in "
-                        "minutes? add --time-unit min" % (scan.median_step_s,
-                                                          1.0 / scan.median_step_s))
-    elif scan.median_step_s is not None and scan.median_step_s > 3600.0:
-        problems.append("the median time step is %.3g s (%.1f h): time in milliseconds? add "
-                        "--time-unit ms" % (scan.median_step_s, scan.median_step_s / 3600.0))
-    elif span > MAX_SPAN_S:
-        problems.append("the trace spans %.0f days: time in milliseconds? add --time-unit ms"
-                        % (span / 86400.0))
-    elif span < 60.0:
-        problems.append("the trace covers only %.3g s; the estimator needs minutes of "
-                        "readings: time in minutes? add --time-unit min" % span)
-    return problems
 
 
 def add_parser(sub):
@@ -171,9 +79,10 @@ def _replay(args):
     target = args.target
     if args.fahrenheit and args.target_in_f:
         target = (target - 32.0) * 5.0 / 9.0
-    check_output(args.out, "--out", inputs=(args.trace, args.truth))
+    inputs = (args.trace, args.truth, getattr(args, "profile", None))
+    check_output(args.out, "--out", inputs=inputs)
     if args.plot:
-        check_output(args.plot, "--plot", suffix=".png", inputs=(args.trace, args.truth))
+        check_output(args.plot, "--plot", suffix=".png", inputs=inputs)
         if os.path.abspath(args.plot) == os.path.abspath(args.out):
             raise CliError("--plot and --out name the same file")
     crossing = None
@@ -184,7 +93,7 @@ def _replay(args):
         return iter_trace_rows(args.trace, fahrenheit=args.fahrenheit, skip_bad=args.skip_bad,
                                time_unit=args.time_unit)
 
-    scan = _Scan(open_rows())
+    scan = TraceScan.of(open_rows())
     if scan.skipped_rows:
         print("skipped %d bad row(s) (--skip-bad): %s" % (scan.skipped_rows, ", ".join(
             "%s %d" % kv for kv in sorted(scan.skipped_by_reason.items(),
@@ -198,13 +107,10 @@ def _replay(args):
                        "drop --ambient to use the column, or add --ignore-ambient-column to "
                        "use %g C" % (ambient, ambient))
     if not args.no_checks:
-        problems = _sanity_problems(scan, unit, args.time_unit)
-        lo, hi = LIQUID_RANGE_C
-        if not lo <= target <= hi:
-            problems.insert(0, "the target %s is outside a liquid's %g..%g C%s" % (
-                show_temp(target, unit), lo, hi,
-                ": deg F? add --fahrenheit --target-in-f" if hi < target <= 500.0
-                and not args.target_in_f else ""))
+        problems = trace_problems(scan, unit, args.time_unit)
+        target_wrong = target_problem(target, unit, args.target_in_f)
+        if target_wrong:
+            problems.insert(0, target_wrong)
         if problems:
             raise CliError("%s: %s (--no-checks replays it anyway)"
                            % (args.trace, "; ".join(problems)))
@@ -212,6 +118,11 @@ def _replay(args):
         estimator = settings.estimator(scan.has_heater, scan.heater_on)
     except ValueError as exc:
         raise CliError(str(exc).replace("heater on needs", "--heater on needs")) from None
+    kw = settings.constructor_kwargs(scan.has_heater, scan.heater_on)
+    if kw.get("profile") is not None:
+        from host_sim.calibrate.report import profile_notes
+        for note in profile_notes(settings.profile_path, kw["profile"], kw["heater"]):
+            print("warning: " + note, file=sys.stderr)
     use_amb = scan.has_ambient and settings.use_ambient_column
 
     n = scan.rows

@@ -23,6 +23,7 @@ import threading
 from host_sim.fleet.metrics import TraceScorer
 from host_sim.replay.replay import CrossingFinder, replay_rows
 from host_sim.replay.settings import ReplaySettings, estimator_arguments
+from host_sim.replay.trace_checks import TraceScan, trace_problems
 from host_sim.replay.trace_io import write_predictions
 from host_sim.replay.trace_reader import TraceError, iter_trace_rows
 
@@ -45,18 +46,24 @@ def core_root(path):
     raise ValueError("%s holds no tinytherm package (no tinytherm/__init__.py)" % path)
 
 
-def _scan(path, target_c, skip_bad, want_crossing):
-    """First pass: (crossing or None, has heater column, any nonzero duty)."""
+def _scan(path, target_c, skip_bad, want_crossing, checks=True):
+    """First pass: (crossing or None, has heater column, any nonzero duty).
+
+    With ``checks``, a trace that replay would refuse (the shared checks of
+    :mod:`host_sim.replay.trace_checks`) raises :class:`TraceError`.
+    """
     finder = CrossingFinder(target_c) if want_crossing else None
-    any_duty = False
     with iter_trace_rows(path, skip_bad=skip_bad) as rows:
+        scan = TraceScan(rows)
         for row in rows:
             if finder is not None:
                 finder.add(row[0], row[1])
-            if row[3]:
-                any_duty = True
-        has_heater = rows.has_heater
-    return (finder.result() if finder is not None else None), has_heater, any_duty
+            scan.add(row)
+        scan.finish()
+    problems = trace_problems(scan) if checks else []
+    if problems:
+        raise TraceError("%s: %s" % (path, "; ".join(problems)))
+    return (finder.result() if finder is not None else None), scan.has_heater, scan.heater_on
 
 
 def evaluate_trace(spec, variant, predictions_out=None):
@@ -65,8 +72,10 @@ def evaluate_trace(spec, variant, predictions_out=None):
     ``spec``: dict with ``path`` (trace CSV), ``target_c`` (deg C), optional
     ``crossing_s`` (a known crossing, seconds; otherwise the trace's own,
     :class:`host_sim.replay.replay.CrossingFinder`), ``noise_sd_c`` (deg C) and
-    ``skip_bad`` (skip malformed rows instead of failing). ``variant``: dict
-    with ``settings``, ``NAME=VALUE`` texts (or a dict) for
+    ``skip_bad`` (skip malformed rows instead of failing) and ``checks``
+    (default True: refuse what replay refuses, see
+    :mod:`host_sim.replay.trace_checks`). ``variant``: dict with
+    ``settings``, ``NAME=VALUE`` texts (or a dict) for
     :class:`host_sim.replay.settings.ReplaySettings`, read against this
     process's core.
     ``predictions_out``: also write the prediction CSV there. Errors of any
@@ -79,7 +88,8 @@ def evaluate_trace(spec, variant, predictions_out=None):
         target = float(spec["target_c"])
         skip_bad = bool(spec.get("skip_bad", False))
         known = spec.get("crossing_s")
-        crossing, has_heater, any_duty = _scan(spec["path"], target, skip_bad, known is None)
+        crossing, has_heater, any_duty = _scan(spec["path"], target, skip_bad, known is None,
+                                               spec.get("checks", True))
         if known is not None:
             crossing = float(known)
         settings = ReplaySettings(variant.get("settings"))

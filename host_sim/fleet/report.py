@@ -92,6 +92,16 @@ def columns(tag_names, ab):
     return cols
 
 
+# a text cell a spreadsheet would read as a formula (or a DDE call): OWASP "CSV
+# Injection" guidance, a leading single quote makes it text
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+
+def spreadsheet_text(text):
+    """``text`` as a CSV cell a spreadsheet shows as text: ``'`` before a formula start."""
+    return "'" + text if text.startswith(FORMULA_STARTS) else text
+
+
 def _cell(v):
     if v is None:
         return ""
@@ -101,7 +111,9 @@ def _cell(v):
         if v == math.inf:
             return "inf"
         return "%.6g" % v if math.isfinite(v) else ""
-    return str(v)
+    if isinstance(v, (int, np.integer)):
+        return str(v)
+    return spreadsheet_text(str(v))
 
 
 def write_csv(path, cols, rows):
@@ -308,6 +320,20 @@ def _fmt(v, fmt="%.3f"):
     if isinstance(v, float) and not math.isfinite(v):
         return "inf" if v > 0 else "-"
     return fmt % v
+
+
+def failed_count(results):
+    """Traces with an error in any variant, from :func:`host_sim.fleet.run.run_fleet`'s results."""
+    return sum(1 for res in results.values() if any(r.get("error") for r in res.values()))
+
+
+def output_paths(out, plots=True):
+    """Every file :func:`write_all` writes beside ``out`` (not the A/B plot folder)."""
+    stem = _stem(out)
+    paths = [out, stem + ".parquet", stem + "_by_tag.csv", stem + "_report.md"]
+    if plots:
+        paths += [stem + "_error_vs_elapsed.png", stem + "_errors_by_tag.png"]
+    return paths
 
 
 def write_all(out, items, tag_names, variants, results, worse_by=0.02, plot_worse=10,

@@ -29,7 +29,6 @@ settings are those of every command that replays
 estimator of the core they are for. The
 outputs then list the traces that got worse (:mod:`host_sim.fleet.report`).
 """
-import csv
 import glob
 import math
 import os
@@ -37,6 +36,8 @@ import sys
 
 from host_sim.fleet import core as fleet_core
 from host_sim.replay.settings import ReplaySettings
+from host_sim.replay.trace_checks import target_problem
+from host_sim.replay.trace_reader import TraceError, decoded_lines, split_fields
 
 KNOWN_COLUMNS = ("path", "target", "crossing_s", "noise_sd_c")
 
@@ -54,25 +55,59 @@ class Item:
         self.problem = problem
 
 
-def _is_manifest(path):
+MAX_TAG_CHARS = 1000        # a tag cell: a product, a firmware version, a note
+
+
+def _first_line(path):
+    """``(line number, header fields lower-cased)`` of a CSV file's first non-comment line.
+
+    Raises :class:`TraceError` (file and line named) for input that is not
+    UTF-8 CSV text, or ``(0, [])`` for a file without such a line.
+    """
+    with open(path, "rb") as handle:
+        for number, text in enumerate(decoded_lines(handle, path), 1):
+            if text.strip() and not text.lstrip().startswith("#"):
+                where = "%s:%d" % (path, number)
+                return number, [f.strip().lower() for f in split_fields(text, ",", where)]
+    return 0, []
+
+
+def _kind_of(path):
+    """"manifest" (a path column), "trace" (time_s or temp_c), or None (neither, or unreadable)."""
     try:
-        with open(path, newline="") as handle:
-            for row in csv.reader(handle):
-                if row and "".join(row).strip() and not row[0].lstrip().startswith("#"):
-                    return "path" in [c.strip().lower() for c in row]
-    except (OSError, UnicodeDecodeError):
-        return False
-    return False
+        _, header = _first_line(path)
+    except (OSError, TraceError):
+        return None
+    if "path" in header:
+        return "manifest"
+    if "time_s" in header or "temp_c" in header:
+        return "trace"
+    return None
 
 
 def _float_cell(text, name):
     text = (text or "").strip()
     if text == "":
         return None
-    value = float(text)           # ValueError names the bad text
+    try:
+        value = float(text)
+    except ValueError:
+        raise ValueError("%s is not a number: %r" % (name, text[:40])) from None
     if not math.isfinite(value):
-        raise ValueError("%s is not finite: %r" % (name, text))
+        raise ValueError("%s is not finite: %r" % (name, text[:40]))
     return value
+
+
+def check_target(target_c, option="--target"):
+    """ValueError unless ``target_c`` (deg C) is None or a liquid's temperature."""
+    if target_c is None:
+        return None
+    if isinstance(target_c, bool) or not isinstance(target_c, (int, float)):
+        raise ValueError("%s must be a number, got %r" % (option, target_c))
+    problem = target_problem(float(target_c))
+    if problem:
+        raise ValueError("%s: %s" % (option, problem))
+    return float(target_c)
 
 
 def load_items(source, target_c=None, skip_bad=False):
@@ -80,49 +115,94 @@ def load_items(source, target_c=None, skip_bad=False):
 
     ``target_c`` (deg C): the target of traces without one. Returns
     ``(items, tag_names)``; manifest rows with a bad cell get a ``problem``
-    and become error rows, they do not stop the run.
+    and become error rows, they do not stop the run. A manifest that cannot
+    be read as one (not UTF-8, no header, duplicate columns, an unbalanced
+    quote, a tag over :data:`MAX_TAG_CHARS` characters) raises ValueError
+    (a :class:`TraceError`) naming the file and line.
     """
+    target_c = check_target(target_c)
     if os.path.isdir(source) or any(ch in source for ch in "*?["):
         pattern = os.path.join(source, "*.csv") if os.path.isdir(source) else source
         # manifests lying among the traces are not traces
-        paths = sorted(p for p in glob.glob(pattern) if os.path.isfile(p) and not _is_manifest(p))
+        paths = sorted(p for p in glob.glob(pattern)
+                       if os.path.isfile(p) and _kind_of(p) != "manifest")
         return [_plain_item(i, p, target_c, skip_bad) for i, p in enumerate(paths)], []
     if not os.path.isfile(source):
         raise ValueError("%s: no such manifest, folder or pattern" % source)
-    if not _is_manifest(source):
-        return [_plain_item(0, source, target_c, skip_bad)], []
+    try:
+        number, header = _first_line(source)
+    except OSError as exc:
+        raise ValueError("%s: cannot read (%s)" % (source, exc.strerror or exc)) from None
+    if "path" not in header:
+        if "time_s" in header or "temp_c" in header:
+            return [_plain_item(0, source, target_c, skip_bad)], []
+        if not header:
+            raise TraceError("%s: empty file (no manifest header, no trace)" % source)
+        shown = ",".join(header)
+        hint = (" (no header row? the first cell looks like a file name)"
+                if header[0].endswith(".csv") else "")
+        raise TraceError("%s:%d: neither a manifest (header path,target,...) nor a trace "
+                         "(header time_s,temp_c): the first line is %s%s"
+                         % (source, number, shown[:80] + ("..." if len(shown) > 80 else ""),
+                            hint))
+    return _manifest_items(source, target_c, skip_bad)
+
+
+def _manifest_items(source, target_c, skip_bad):
     base = os.path.dirname(os.path.abspath(source))
-    items = []
-    with open(source, newline="") as handle:
-        rows = (r for r in handle if r.strip() and not r.lstrip().startswith("#"))
-        reader = csv.DictReader(rows)
-        fields = [f.strip() for f in reader.fieldnames]
-        reader.fieldnames = fields
-        tag_names = [f for f in fields if f.lower() not in KNOWN_COLUMNS]
-        lower = {f.lower(): f for f in fields}
-        for i, row in enumerate(reader):
-            path = (row.get(lower["path"]) or "").strip()
-            tags = {t: (row.get(t) or "").strip() for t in tag_names}
-            spec = {"path": os.path.join(base, path), "target_c": target_c,
-                    "skip_bad": skip_bad}
-            problem = ""
-            try:
-                if not path:
-                    raise ValueError("empty path")
-                if "target" in lower:
-                    cell = _float_cell(row.get(lower["target"]), "target")
-                    if cell is not None:
-                        spec["target_c"] = cell
-                if spec["target_c"] is None:
-                    raise ValueError("no target (give a target cell or --target)")
-                if "crossing_s" in lower:
-                    spec["crossing_s"] = _float_cell(row.get(lower["crossing_s"]), "crossing_s")
-                if "noise_sd_c" in lower:
-                    spec["noise_sd_c"] = _float_cell(row.get(lower["noise_sd_c"]), "noise_sd_c")
-            except ValueError as exc:
-                problem = "manifest line %d: %s" % (reader.line_num, exc)
-            items.append(Item(i, path, spec, tags, problem))
-    return items, tag_names
+    items, fields, col, tag_cols = [], None, {}, []
+    with open(source, "rb") as handle:
+        for number, text in enumerate(decoded_lines(handle, source), 1):
+            if not text.strip() or text.lstrip().startswith("#"):
+                continue
+            where = "%s:%d" % (source, number)
+            cells = [c.strip() for c in split_fields(text, ",", where)]
+            if fields is None:
+                fields = cells
+                lower = [f.lower() for f in fields]
+                dup = sorted({f for f in lower if f and lower.count(f) > 1})
+                if dup:
+                    raise TraceError("%s: duplicate column(s) %s" % (where, ",".join(dup[:10])))
+                col = {f: i for i, f in enumerate(lower)}
+                if "target" not in col and target_c is None:
+                    raise TraceError("%s: no target column and no --target: add a target "
+                                     "column (deg C) or give --target; columns are %s"
+                                     % (where, ",".join(fields)[:120]))
+                tag_cols = [(f, i) for i, f in enumerate(fields)
+                            if f and f.lower() not in KNOWN_COLUMNS]
+                continue
+            for name, i in tag_cols:
+                if i < len(cells) and len(cells[i]) > MAX_TAG_CHARS:
+                    raise TraceError("%s: tag %s holds %d characters (at most %d)"
+                                     % (where, name[:40], len(cells[i]), MAX_TAG_CHARS))
+            items.append(_manifest_item(len(items), cells, fields, col, tag_cols, base,
+                                        target_c, skip_bad, number))
+    return items, [name for name, _ in tag_cols]
+
+
+def _manifest_item(index, cells, fields, col, tag_cols, base, target_c, skip_bad, number):
+    path = cells[col["path"]] if col["path"] < len(cells) else ""
+    tags = {name: (cells[i] if i < len(cells) else "") for name, i in tag_cols}
+    spec = {"path": os.path.join(base, path), "target_c": target_c, "skip_bad": skip_bad}
+    problem = ""
+    try:
+        if len(cells) != len(fields):
+            raise ValueError("expected %d fields (as in the header), got %d"
+                             % (len(fields), len(cells)))
+        if not path:
+            raise ValueError("empty path")
+        if "target" in col:
+            cell = _float_cell(cells[col["target"]], "target")
+            if cell is not None:
+                spec["target_c"] = check_target(cell, "target")
+        if spec["target_c"] is None:
+            raise ValueError("no target (give a target cell or --target)")
+        for name in ("crossing_s", "noise_sd_c"):
+            if name in col:
+                spec[name] = _float_cell(cells[col[name]], name)
+    except ValueError as exc:
+        problem = "manifest line %d: %s" % (number, exc)
+    return Item(index, path, spec, tags, problem)
 
 
 def _plain_item(i, path, target_c, skip_bad):
@@ -163,6 +243,17 @@ def default_chunk_size(n_items, workers):
     return max(1, min(50, n_items // max(1, 8 * workers)))
 
 
+def check_run_options(workers=None, chunk_size=None):
+    """ValueError naming the option unless ``workers`` is None or an integer >= 0 and
+    ``chunk_size`` None or an integer >= 1 (a LocalCluster of -1 workers waits forever)."""
+    for value, option, least in ((workers, "--workers", 0), (chunk_size, "--chunk", 1)):
+        if value is None:
+            continue
+        if isinstance(value, bool) or not isinstance(value, int) or value < least:
+            raise ValueError("%s must be an integer of at least %d, got %r"
+                             % (option, least, value))
+
+
 def run_fleet(items, variants, workers=None, scheduler=None, processes=True, progress=True,
               chunk_size=None, task=None, retries=1):
     """Replay every item with every variant; returns ``{index: {name: result}}``.
@@ -175,6 +266,7 @@ def run_fleet(items, variants, workers=None, scheduler=None, processes=True, pro
     ``retries``: extra attempts of a task that raised.
     """
     from tqdm import tqdm
+    check_run_options(workers, chunk_size)
     task = task or evaluate_chunk
     if workers is None:
         workers = os.cpu_count() or 1

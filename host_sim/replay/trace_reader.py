@@ -4,7 +4,9 @@ Trace format (one header row, comma separated)::
 
     time_s,temp_c[,ambient_c][,heater][,event]
 
-- ``time_s``: seconds since the start of the recording, float, non-decreasing;
+- ``time_s``: seconds since the start of the recording, float, non-decreasing
+  (a column named ``time`` instead may hold ISO 8601 date-times such as
+  ``2026-01-31T14:05:00``: converted to seconds from the first row's);
 - ``temp_c``: the sensor reading in deg C (deg F with ``fahrenheit=True``);
 - ``ambient_c`` (optional): a second sensor's reading in deg C (deg F with
   ``fahrenheit=True``); an empty cell means "no ambient reading on this row";
@@ -26,6 +28,7 @@ tab uses that as the separator. Numbers are plain ASCII decimals (``80.5``,
 ``-1e-3``); quoted fields may not span lines.
 """
 import csv
+import datetime
 import io
 import math
 import re
@@ -193,6 +196,11 @@ def _split(line, sep, where):
         raise TraceError("%s: malformed CSV (%s)" % (where, exc)) from None
 
 
+# for other readers of the same CSV dialect (the fleet manifest)
+decoded_lines = _decoded_lines
+split_fields = _split
+
+
 def _is_comment(fields):
     return not "".join(fields).strip() or fields[0].lstrip().startswith("#")
 
@@ -267,6 +275,7 @@ class TraceRows(FileOwner):
         self.skipped_by_reason = {}
         self.keep_reasons = MAX_REASONS_KEPT
         self._started = False
+        self._first_stamp = None
         try:
             self._read_header()
         except BaseException:
@@ -305,11 +314,19 @@ class TraceRows(FileOwner):
         if self.fahrenheit:
             aliases = {"temp_f": "temp_c", "ambient_f": "ambient_c"}
             header = [aliases.get(c, c) for c in header]
+        # a logger's `time` column of ISO 8601 date-times
+        self._stamps = "time_s" not in header and "time" in header
+        if self._stamps:
+            header = ["time_s" if c == "time" else c for c in header]
         for name in REQUIRED_COLUMNS:
             if name not in header:
                 hint = ""
                 if name == "temp_c" and "temp_f" in header:
                     hint = " (found temp_f: use --fahrenheit)"
+                elif name == "time_s" and ("time_ms" in header or "time_min" in header):
+                    unit = "ms" if "time_ms" in header else "min"
+                    hint = " (found time_%s: rename it time_s and add --time-unit %s)" % (
+                        unit, unit)
                 elif len(header) == 1 and any(s in text for s in (";", "\t", "|")):
                     hint = " (separate columns with commas)"
                 shown = ",".join(header)
@@ -350,11 +367,19 @@ class TraceRows(FileOwner):
                              % (where, len(self.columns), len(fields),
                                 " (quote a cell that holds the separator)"
                                 if len(fields) > len(self.columns) else ""))
-        raw_t = _parse_float(fields[self._i_time], "time_s", where)
-        if raw_t < 0.0:
-            raise TraceError("%s: time_s is negative: %s (times are seconds since the start)"
-                            % (where, _shown(fields[self._i_time].strip())))
-        t = raw_t * self._scale
+        cell = fields[self._i_time].strip()
+        if self._stamps:
+            if _NUMBER.match(cell):
+                raise TraceError("%s: time holds a number (%s): a time column holds ISO 8601 "
+                                 "date-times; name a column of seconds time_s (or use "
+                                 "--time-unit for ms or min)" % (where, _shown(cell)))
+            t = self._stamp_seconds(cell, where)
+        else:
+            raw_t = _parse_float(cell, "time_s", where)
+            if raw_t < 0.0:
+                raise TraceError("%s: time_s is negative: %s (times are seconds since the "
+                                 "start)" % (where, _shown(cell)))
+            t = raw_t * self._scale
         if t < last_time:
             raise TraceError("%s: time_s decreases (%g after %g): rows must be in time order"
                             % (where, t, last_time))
@@ -376,6 +401,21 @@ class TraceRows(FileOwner):
         if self._i_event is not None:
             event = fields[self._i_event].strip() or None
         return TraceRow(t, temp, amb, duty, event)
+
+    def _stamp_seconds(self, cell, where):
+        """Seconds from the first row's stamp to an ISO 8601 date-time ``cell``."""
+        try:
+            stamp = datetime.datetime.fromisoformat(cell.replace("Z", "+00:00")
+                                                    if cell.endswith("Z") else cell)
+        except ValueError:
+            raise TraceError("%s: time is neither a number nor an ISO 8601 date-time "
+                             "(2026-01-31T14:05:00): %s" % (where, _shown(cell))) from None
+        if self._first_stamp is None:
+            self._first_stamp = stamp
+        elif (stamp.tzinfo is None) != (self._first_stamp.tzinfo is None):
+            raise TraceError("%s: time %s mixes date-times with and without a time zone"
+                             % (where, _shown(cell)))
+        return (stamp - self._first_stamp).total_seconds()
 
     def __iter__(self):
         if self._started:

@@ -116,6 +116,8 @@ def cases():
     add("kelvin.csv", csv_text([(t, y + 273.15) for t, y in cooling()]), [], 2, "Kelvin")
     add("fahrenheit_as_c.csv", csv_text([(t, y * 1.8 + 32 + 40) for t, y in cooling()]),
         [], 2, "--fahrenheit")
+    add("fahrenheit_hot_start.csv", csv_text([(t, y * 1.8 + 32) for t, y in cooling(
+        n=300, step=10.0, temp0=85.0)]), [], 2, "readings are above 150 C")
     add("all_1e308.csv", csv_text([(t, 1e308) for t, _ in cooling()], fmt=("%.1f", "%g")),
         [], 2, "not a liquid temperature")
     add("ambient_kelvin.csv", "time_s,temp_c,ambient_c\n" + "\n".join(
@@ -145,6 +147,14 @@ def cases():
     add("only_comments.csv", "# recorded on a bench\n# nothing else\n", [], 2, "empty file")
     add("header_only.csv", "time_s,temp_c\n", [], 2, "no data rows")
     add("no_time_column.csv", base.replace("time_s", "seconds", 1), [], 2, "no time_s column")
+    add("time_ms_column.csv", csv_text([(t * 1000.0, y) for t, y in cooling()],
+                                       header="time_ms,temp_c"), [], 2,
+        "rename it time_s and add --time-unit ms")
+    add("iso_time_column.csv", "time,temp_c\n" + "".join(
+        "2026-03-01T09:%02d:%02d,%.4f\n" % (int(t) // 60, int(t) % 60, y)
+        for t, y in cooling()), [], 0, "")
+    add("iso_time_column_bad_stamp.csv", "time,temp_c\n2026-03-01T09:00:00,80.0\n"
+        "2026-03-01 nine o'clock,79.9\n", [], 2, ":3: time is neither a number nor an ISO")
     add("temp_f_without_flag.csv", base.replace("temp_c", "temp_f", 1), [], 2, "--fahrenheit")
     add("html_page.csv", "<!DOCTYPE html>\n<html><body>not found</body></html>\n", [], 2,
         "starts with the line time_s,temp_c")
@@ -171,10 +181,85 @@ def cases():
     return out
 
 
+def profile_cases():
+    """Files given to ``replay --profile``: (name, bytes, piece of the one error line)."""
+    out = [
+        ("profile_list.json", b"[1]\n", "not an object"),
+        ("profile_string.json", b'"abc"\n', "not an object"),
+        ("profile_blob_number.json", b'{"blob_hex": 12}\n', "blob_hex is a number"),
+        ("profile_null.json", b"null\n", "the JSON is null"),
+        ("profile_nan.json", b"NaN\n", "NaN"),
+        ("profile_nested.json", b"[" * 100000 + b"]" * 100000, "nested too deeply"),
+        ("profile_truth.json", b'{"crossing_time_s": 812.5, "target_c": 60}\n', "truth file"),
+        ("profile_not_json.json", b"blob_hex = 01ff\n", "not JSON"),
+        ("profile_latin1.json", '{"blob_hex": "caf\xe9"}\n'.encode("latin-1"), "not UTF-8"),
+        ("profile_not_hex.hex", b"zz" * 54 + b"\n", "not hexadecimal"),
+        ("profile_short.bin", b"\x01\x00" * 5, "profile_length"),
+    ]
+    return out
+
+
+def calibrate_cases():
+    """Traces for ``calibrate`` beyond the replay corpus: (name, bytes, extra arguments,
+    expected exit status, piece of the one error line or of a warning for exit 0)."""
+    base = cooling(n=300)
+    out = [
+        ("cal_row_at_1e9.csv", csv_text(base + [(1e9, 21.0)]), [], 2, "spans"),
+        ("cal_row_at_1e9_no_checks.csv", csv_text(base + [(1e9, 21.0)]), ["--no-checks"], 2,
+         "grid points"),
+        ("cal_row_at_3e7.csv", csv_text(base + [(3e7, 21.0)]), ["--no-checks"], 2,
+         "grid points"),
+        ("cal_gap_8h.csv", csv_text(base + [(3e4, 21.0)]), [], 2, "a gap of"),
+        ("cal_eight_rows.csv", csv_text(cooling(n=8, step=30.0)), [], 0, "only 8 rows"),
+        ("cal_step.csv", csv_text([(5.0 * i, 80.0 if i < 100 else 20.0) for i in range(200)]),
+         [], 0, "a step"),
+    ]
+    return [(n, d.encode(), a, c, t) for n, d, a, c, t in out]
+
+
+def manifest_cases():
+    """Manifests for ``fleet`` (traces named are files of this corpus): (name, bytes, extra
+    arguments, expected exit status, piece of the one error line or of RESULTS.csv)."""
+    good = "utf8_bom.csv"
+    formulas = ["=HYPERLINK(\"http://x.invalid\",\"x\")", "+SUM(1+1)", "-2+3", "@SUM(1)",
+                "\tTAB", "plain"]
+    out = [
+        ("manifest_bom.csv", b"\xef\xbb\xbf" + ("path,target\n%s,60\n" % good).encode(),
+         [], 0, ""),
+        ("manifest_latin1.csv", ("path,target,note\n%s,60,caf\xe9\n" % good).encode("latin-1"),
+         [], 2, ":2: not UTF-8"),
+        ("manifest_no_header.csv", ("%s,60\ncrlf.csv,60\n" % good).encode(), [], 2,
+         "no header row?"),
+        ("manifest_wrong_header.csv", ("file,target_c\n%s,60\n" % good).encode(), [], 2,
+         "neither a manifest"),
+        ("manifest_no_target_column.csv", ("path,product\n%s,mug\n" % good).encode(), [], 2,
+         "no target column"),
+        ("manifest_duplicate_columns.csv", ("path,target,target\n%s,60,61\n" % good).encode(),
+         [], 2, "duplicate column(s) target"),
+        ("manifest_unterminated_quote.csv", ('path,target,note\n%s,60,"oops\ncrlf.csv,60,x\n'
+                                             % good).encode(), [], 2, ":2: unbalanced"),
+        ("manifest_long_tag.csv", ("path,target,note\n%s,60,%s\n" % (good, "n" * 131073))
+         .encode(), [], 2, "131073 characters"),
+        ("manifest_binary.zip", zip_of("m.csv", "path,target\n"), [], 2, "ZIP archive"),
+        ("manifest_formula_tags.csv", ("path,target,tag\n" + "".join(
+            '%s,60,"%s"\n' % (good, f.replace('"', '""')) for f in formulas)).encode(),
+         [], 0, "'=HYPERLINK"),
+        ("manifest_target_nan.csv", ("path,target\n%s,nan\n" % good).encode(), [], 1,
+         "target is not finite"),
+        ("manifest_target_1e308.csv", ("path,target\n%s,1e308\n" % good).encode(), [], 1,
+         "outside a liquid's"),
+        ("manifest_refused_traces.csv", ("path,target\n" + "".join(
+            "%s,60\n" % n for n in ("kelvin.csv", "time_in_ms.csv", "fahrenheit_as_c.csv",
+                                    "all_equal_times.csv", good))).encode(), [], 1, "Kelvin"),
+    ]
+    return out
+
+
 def write(folder=HERE):
     """Write every case's file into ``folder``; returns the names written."""
     names = []
-    for name, data, _, _, _ in cases():
+    extra = [(n, d, None, None, None) for n, d, _ in profile_cases()]
+    for name, data, _, _, _ in cases() + calibrate_cases() + manifest_cases() + extra:
         with open(os.path.join(folder, name), "wb") as handle:
             handle.write(data)
         names.append(name)
