@@ -2,7 +2,7 @@
 
 tests/fuzz_estimator.py is the generator (junk readings, times, ambients,
 duties, targets, save -> restore round trips, resealed junk blobs); the long
-runs and their figures are in DEVELOPERS.md. No outside reference: these are
+runs and their figures are in docs/benchmarks.md. No outside reference: these are
 the module's own promises (never raise, finite answers, a restore that
 succeeds does not change the next answer).
 """

@@ -142,7 +142,7 @@ def test_mug_deep_sleep_cycle_matches_truth(tmp_path):
 def test_mug_blob_restores_in_cpython(tmp_path):
     # A blob written by the MicroPython mug restores into a CPython estimator
     # with the same settings and gives the answer the mug logged at that wake
-    # (within the saved state's float32 rounding; DEVELOPERS, "Saved state").
+    # (it saves right after the reading, so its answer is what a restore answers; the blob is exact)
     cfg = mug_cfg(tmp_path, end_s=500, seed=6, **MUG)
     cfg["rtc_log"] = str(tmp_path / "rtc.hex")
     logs = parse_logs(run_example("mug", cfg, tmp_path))

@@ -1,6 +1,6 @@
 """A short bounded run of the coverage-guided fuzzer (tests/fuzz_trace_io.py).
 
-Longer runs print their figures the same way (see DEVELOPERS.md); this one only
+Longer runs print their figures the same way (see docs/robustness.md); this one only
 checks that the fuzz target runs and finds nothing in a few hundred cases.
 """
 import os

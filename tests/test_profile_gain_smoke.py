@@ -1,4 +1,4 @@
-"""The profile benchmark runs in CI at a small size (the figures are for DEVELOPERS.md).
+"""The profile benchmark runs in CI at a small size (the figures are in docs/profiles.md).
 
 benchmarks/profile_gain.py calibrates a profile on some simulated uses of a
 vessel (host_sim.sim.vessels, our own inventions) and replays other uses with and
