@@ -5,7 +5,7 @@ they would be for a device with a small heap: compiling sources needs more
 heap than running them, and -O3 leaves the source line numbers out of the
 bytecode (tracebacks show no lines; the core validates with exceptions, never
 with ``assert``, so nothing else changes). Measured with the estimator in
-parts: the smallest heap in 1K steps that runs this test is 74K (73K fails in
+parts: the smallest heap in 1K steps that runs this test is 76K (75K fails in
 the first hour: the import closure takes about 50K of bytecode and tables on
 this 64-bit port; benchmarks/device_budget.py prints the figures), and 76K
 ran out during a restore when the library sat in a longer folder path, so
