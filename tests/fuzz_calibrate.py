@@ -17,17 +17,16 @@ peak memory of the process (MB), so that "bounded time and memory" is measured.
 Without a corpus directory the script seeds a scratch one from
 tests/hostile_inputs (each file behind a 0x00 options byte) and two good traces.
 """
-import atexit
 import contextlib
 import io
 import os
 import resource
-import shutil
 import sys
 import tempfile
 import time
 
 import atheris
+from fuzz_launch import exception_key, fuzz, record_finding
 import matplotlib  # noqa: F401 - imported before instrumenting: only our modules are traced
 import numpy  # noqa: F401
 import scipy.optimize  # noqa: F401
@@ -50,10 +49,7 @@ UNITS = ("s", "ms", "min", "s")
 
 
 def _finding(kind, exc, data):
-    STATS["findings"] += 1
-    key = (kind, type(exc).__name__, str(exc)[:80])
-    if key not in DISTINCT:
-        DISTINCT[key] = data[:200]
+    record_finding(STATS, DISTINCT, exception_key(kind, exc), data)
 
 
 def one_case(data):
@@ -122,18 +118,7 @@ def seed_corpus(folder):
 
 
 def main():
-    atexit.register(shutil.rmtree, WORK, True)
-    atexit.register(report)
-    argv = list(sys.argv)
-    if not any(a.startswith("-max_len=") for a in argv):
-        argv.append("-max_len=8192")
-    if not any(os.path.isdir(a) for a in argv[1:] if not a.startswith("-")):
-        folder = os.path.join(WORK, "corpus")
-        os.mkdir(folder)
-        seed_corpus(folder)
-        argv.append(folder)
-    atheris.Setup(argv, one_case)
-    atheris.Fuzz()
+    fuzz(one_case, WORK, report, seed_corpus, 8192)
 
 
 if __name__ == "__main__":

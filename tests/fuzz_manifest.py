@@ -17,16 +17,15 @@ an exit 0 with a failed trace without ``--allow-failures``; or a text cell of
 RESULTS.csv that a spreadsheet would run as a formula. Findings are counted (not
 fatal); the figures are printed at the end.
 """
-import atexit
 import contextlib
 import csv
 import io
 import os
-import shutil
 import sys
 import tempfile
 
 import atheris
+from fuzz_launch import exception_key, fuzz, record_finding
 import matplotlib  # noqa: F401 - imported before instrumenting: only our modules are traced
 import numpy  # noqa: F401
 import pyarrow  # noqa: F401
@@ -49,10 +48,7 @@ FORMULA = ("=", "+", "-", "@", "\t", "\r")
 
 
 def _finding(kind, exc, data):
-    STATS["findings"] += 1
-    key = (kind, type(exc).__name__, str(exc)[:80])
-    if key not in DISTINCT:
-        DISTINCT[key] = data[:200]
+    record_finding(STATS, DISTINCT, exception_key(kind, exc), data)
 
 
 def _text_cells_safe(path):
@@ -152,19 +148,8 @@ def seed_corpus(folder, corpus):
 
 
 def main():
-    atexit.register(shutil.rmtree, WORK, True)
-    atexit.register(report)
     corpus = setup_traces()
-    argv = list(sys.argv)
-    if not any(a.startswith("-max_len=") for a in argv):
-        argv.append("-max_len=4096")
-    if not any(os.path.isdir(a) for a in argv[1:] if not a.startswith("-")):
-        folder = os.path.join(WORK, "corpus")
-        os.mkdir(folder)
-        seed_corpus(folder, corpus)
-        argv.append(folder)
-    atheris.Setup(argv, one_case)
-    atheris.Fuzz()
+    fuzz(one_case, WORK, report, lambda folder: seed_corpus(folder, corpus), 4096)
 
 
 if __name__ == "__main__":

@@ -29,14 +29,12 @@ each carrier and a constructor case; libFuzzer writes new inputs into the
 first directory given.
 """
 import array
-import atexit
 import os
-import shutil
 import struct
-import sys
 import tempfile
 
 import atheris
+from fuzz_launch import fuzz, record_finding
 
 with atheris.instrument_imports():
     from profile_checks import ARG_NAMES, check_args, check_blob
@@ -54,11 +52,8 @@ RANGES = ((1e-7, 1.0), (0.0, 5.0), (-50.0, 50.0), (0.0, 50.0), (-10.0, 10.0), (0
 
 
 def _finding(kind, text, data):
-    STATS["findings"] += 1
     BY_KIND[kind] = BY_KIND.get(kind, 0) + 1
-    key = (kind, text[:80])
-    if key not in DISTINCT:
-        DISTINCT[key] = data[:120]
+    record_finding(STATS, DISTINCT, (kind, text[:80]), data, 120)
 
 
 def _carrier(kind, body, per_byte):
@@ -173,18 +168,8 @@ def seed_corpus(folder):
 
 
 def main():
-    atexit.register(shutil.rmtree, WORK, True)
-    atexit.register(report)
-    argv = list(sys.argv)
-    if not any(a.startswith("-max_len=") for a in argv):
-        argv.append("-max_len=512")       # a blob is 54 bytes; 11 arguments need a few hundred
-    if not any(os.path.isdir(a) for a in argv[1:] if not a.startswith("-")):
-        folder = os.path.join(WORK, "corpus")
-        os.mkdir(folder)
-        seed_corpus(folder)
-        argv.append(folder)
-    atheris.Setup(argv, one_case)
-    atheris.Fuzz()
+    # a blob is 54 bytes; 11 arguments need a few hundred
+    fuzz(one_case, WORK, report, seed_corpus, 512)
 
 
 if __name__ == "__main__":

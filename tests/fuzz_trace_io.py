@@ -18,15 +18,14 @@ tests/hostile_inputs (each file behind a 0x00 options byte) and two good traces;
 libFuzzer writes new inputs into the first directory given, so never pass
 tests/hostile_inputs itself.
 """
-import atexit
 import contextlib
 import io
 import os
-import shutil
 import sys
 import tempfile
 
 import atheris
+from fuzz_launch import exception_key, fuzz, record_finding
 import numpy  # noqa: F401 - imported before instrumenting: only our modules are traced
 import tqdm  # noqa: F401
 
@@ -46,10 +45,7 @@ UNITS = ("s", "ms", "min", "s")
 
 
 def _finding(kind, exc, data):
-    STATS["findings"] += 1
-    key = (kind, type(exc).__name__, str(exc)[:80])
-    if key not in DISTINCT:
-        DISTINCT[key] = data[:200]
+    record_finding(STATS, DISTINCT, exception_key(kind, exc), data)
 
 
 def one_case(data):
@@ -120,19 +116,9 @@ def seed_corpus(folder):
 
 
 def main():
-    # matplotlib is not needed: the fuzzed CLI never gets --plot
-    atexit.register(shutil.rmtree, WORK, True)
-    atexit.register(report)
-    argv = list(sys.argv)
-    if not any(a.startswith("-max_len=") for a in argv):
-        argv.append("-max_len=4096")      # traces are text; megabyte inputs only slow it down
-    if not any(os.path.isdir(a) for a in argv[1:] if not a.startswith("-")):
-        folder = os.path.join(WORK, "corpus")
-        os.mkdir(folder)
-        seed_corpus(folder)
-        argv.append(folder)
-    atheris.Setup(argv, one_case)
-    atheris.Fuzz()
+    # matplotlib is not needed: the fuzzed CLI never gets --plot; traces are
+    # text, and megabyte inputs only slow it down
+    fuzz(one_case, WORK, report, seed_corpus, 4096)
 
 
 if __name__ == "__main__":
