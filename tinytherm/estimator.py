@@ -188,7 +188,7 @@ class ThermalEstimator(Answer):
         self._slope = 0.0
         self._blocks_done = 0               # blocks finished: the answer's cache key
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
-        self._known = False         # an ambient was known at the latest solve
+        self._known = False         # an ambient was known at the latest block close
         self.forget()
         self.clear(st.GATHERING)
 
@@ -351,7 +351,7 @@ class ThermalEstimator(Answer):
         reg = self.reg
         b = self.blocks
         self._blocks_done += 1
-        self._solve(self._known)
+        self._solve()
         yb = reg.yb
         if reg.ok:
             # anchor: the block's residual against the new fit, smoothed over about two blocks
@@ -410,23 +410,20 @@ class ThermalEstimator(Answer):
             return False
         return True
 
-    def _solve(self, known=None):
+    def _solve(self):
         """Priors for this block, then the regression's solve (see the module docstring).
 
-        ``known``: whether an ambient was known at the block close (restore
-        passes the saved one; it may have changed since).
+        The hint follows ``_known``: whether an ambient was known at the block
+        close (saved with the state; a measured one may arrive after it).
         """
         reg = self.reg
         reg.clear()
-        if known is None:
-            known = self.inputs.known()
-        self._known = known
         if reg.nb < 1.5 or not reg.w > 0.0:
             return
         s2 = self.noise.var
         prof = self._profile if self._profile_on else None
         # the equilibrium hint E ~ N(e, sd^2) as a distance from the latest gap G0
-        if known:
+        if self._known:
             dist = -self.blocks.g0 * _INV
             sd = KNOWN_AMBIENT_SD_C
         else:
@@ -471,7 +468,7 @@ class ThermalEstimator(Answer):
                     # its forecasts fail on this liquid: another vessel's profile
                     self._profile_on = False
                     self.profile_reason = PROFILE_REJECTED
-                    self._solve(self._known)
+                    self._solve()
                     return
 
     # ``predict(target_c, approach=0)``: the answer part's rules, as a method

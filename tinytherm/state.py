@@ -109,7 +109,7 @@ def _unpack(est, blob):
     est._known = bool(flags & 32)
     est._blocks_done = 1
     # the solution and what follows from it are derived: as at the last block close
-    est._solve(est._known)
+    est._solve()
     reg = est.reg
     if reg.ok:
         est._level = reg.level() + anchor
