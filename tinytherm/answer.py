@@ -41,6 +41,7 @@ INF = math.inf
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
 ARRIVE_MIN_S = 30.0       # s: no arrival in a fit younger than this
 RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival without a direction before this (probe lag)
+EQUILIBRIUM_SLACK = 0.1  # share of the distance to the fitted equilibrium it may be off
 MAX_REL_SD = 5.0          # an answer whose ln-time sd exceeds this stays SETTLING
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
 PROFILE_Z80 = 1.2815515655446004  # a profile's table holds 10 % / 90 % points
@@ -256,11 +257,25 @@ def _work_out(est, target, approach):
         return  # not moving, or turning: no honest time
     eta = time_to_target_from_slope_s(gap, slope, k)
     eta_shape = est._profile_law_s(gap, level, slope)
+    open_end = False
     if eta is None and eta_shape is None:
-        # beyond the equilibrium: say so only when even a slow bend reaches it
-        if (k - 2.0 * math.sqrt(reg.pkk)) * gap / slope >= 1.0:
-            est.status = st.OUT_OF_REACH
-        return
+        # beyond the fitted equilibrium E = level + slope / k, by ``over``. E is an
+        # extrapolation: a rate that bends on the way (a coolant warming, a slow
+        # second mode) moves it by a share of the distance still to go. Within
+        # that slack the answer is the time under the law levelling off the rest
+        # of the slack past the target, with no upper bound; beyond it, out of
+        # reach when even a slow bend cannot reach the target
+        to_e = slope / k if k > 0.0 else 0.0  # E - level, the sign of gap
+        slack = EQUILIBRIUM_SLACK * (to_e if to_e > 0.0 else -to_e)
+        over = gap - to_e if gap > 0.0 else to_e - gap
+        if k > 0.0 and over < slack:
+            k = slope / (gap + (slack - over) * (1.0 if gap > 0.0 else -1.0))
+            eta = time_to_target_from_slope_s(gap, slope, k)
+        if eta is None:
+            if (k - 2.0 * math.sqrt(reg.pkk)) * gap / slope >= 1.0:
+                est.status = st.OUT_OF_REACH
+            return
+        open_end = True
     rel2 = 0.0 if eta is None else eta_rel_var(gap, slope, k, eta, reg, gk)
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
@@ -268,7 +283,7 @@ def _work_out(est, target, approach):
     f = spread(est._z * rel)
     est.eta_s = eta
     est.eta_low_s = eta / f
-    est.eta_high_s = eta * f
+    est.eta_high_s = INF if open_end else eta * f
     if est._profile_on:
         # and the profile's own calibrated quantiles of ln(actual / predicted),
         # split-conformal (host_sim.calibrate.pipeline): the union
@@ -384,7 +399,16 @@ AUDIT_PRIOR_VAR = 0.04  # (log time)^2: forecast error assumed before any audit 
 AUDIT_MEMORY = 8        # audits in the running mean of squared log errors
 AUDIT_STRETCH = 4.0     # most the longest audit's variance is stretched beyond it
 AUDIT_LOG_CAP = 2.0794  # ln 8: one audit counts at most a factor 8
+AUDIT_FADE = 1.0        # old audit evidence fades with time constant AUDIT_FADE x the fit's age
 _LN4 = math.log(4.0)
+
+
+def _fade(took_s, age_s):
+    """Weight the old audit evidence keeps after ``took_s`` of a fit ``age_s`` old."""
+    try:
+        return math.exp(-took_s / (AUDIT_FADE * age_s))
+    except (ValueError, OverflowError, ZeroDivisionError):
+        return 0.0
 
 
 class Audit:
@@ -435,9 +459,13 @@ class Audit:
                         err = AUDIT_LOG_CAP
                     elif err < -AUDIT_LOG_CAP:
                         err = -AUDIT_LOG_CAP
+                # the old evidence (the checks so far and the prior) fades on the
+                # fit's clock: a check made when the fit was much younger judged
+                # a fit that has since forgotten those readings
+                old = (self.n + 1) * _fade(took, age_s)
                 if self.n < AUDIT_MEMORY:
                     self.n += 1
-                self.var += (err * err - self.var) / (self.n + 1)
+                self.var = (old * self.var + err * err) / (old + 1.0)
         self.age = age_s
         self.level = level
         self.slope = slope

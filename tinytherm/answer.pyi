@@ -6,6 +6,7 @@ INF: float
 ARRIVE_TOL_C: float
 ARRIVE_MIN_S: float
 RISE_ARRIVE_MIN_S: float
+EQUILIBRIUM_SLACK: float
 MAX_REL_SD: float
 FAULT_AFTER: int
 PROFILE_Z80: float
@@ -42,6 +43,7 @@ AUDIT_PRIOR_VAR: float
 AUDIT_MEMORY: int
 AUDIT_STRETCH: float
 AUDIT_LOG_CAP: float
+AUDIT_FADE: float
 
 class Audit:
     fraction: float

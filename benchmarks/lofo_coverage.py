@@ -1,0 +1,103 @@
+"""Leave-one-family-out choice of an interval setting by the goals' order.
+
+    python benchmarks/lofo_coverage.py tune.csv [--method iv]
+
+Reads the per-trace CSV of ``benchmarks/families.py --out`` (tune seeds) with
+a grid of settings for one method (labels ``iv[key=value,...]``). For each
+family, the setting is chosen on the tune traces of the *other* families by
+the order of issue 17's goals: fewest traces with an early arrival, then the
+fewest families with 80 % coverage outside 0.75-0.85 (ties: the smallest
+total distance outside), then the lowest mean no-estimate share, then the
+lowest median error; the chosen setting is then reported on the left-out
+family. The holdout seeds never choose: give this script tune rows only.
+Figures only; nothing passes or fails.
+"""
+import argparse
+import csv
+import math
+import statistics
+import sys
+from collections import defaultdict
+
+COVER_LOW, COVER_HIGH = 0.75, 0.85
+
+
+def _num(text):
+    return None if text == "" else float(text)
+
+
+def read(path, method):
+    """{label: {family: [row dict, ...]}} for the grid labels of ``method`` (tune rows)."""
+    out = defaultdict(lambda: defaultdict(list))
+    with open(path, newline="") as handle:
+        for row in csv.DictReader(handle):
+            if row["seed_set"] != "tune":
+                continue
+            m = row["method"]
+            if m == method or m.startswith(method + "["):
+                out[m][row["family"]].append(row)
+    return out
+
+
+def family_figures(rows):
+    """(coverage, no estimate, median error, early-arrival traces) over one family's traces."""
+    cov = [_num(r["coverage"]) for r in rows if _num(r["coverage"]) is not None]
+    ne = [_num(r["no_estimate_fraction"]) for r in rows
+          if _num(r["no_estimate_fraction"]) is not None]
+    med = [_num(r["median_rel_error"]) for r in rows if _num(r["median_rel_error"]) is not None]
+    early = sum(1 for r in rows if (_num(r["early_arrival"]) or 0) > 0)
+    return (sum(cov) / len(cov) if cov else math.nan, sum(ne) / len(ne) if ne else math.nan,
+            statistics.median(med) if med else math.nan, early)
+
+
+def score(per_family, families):
+    """The goals' order as a sortable key over ``families``."""
+    early = outside = distance = 0.0
+    ne, med = [], []
+    for f in families:
+        cov, no_est, m, e = family_figures(per_family[f])
+        early += e
+        miss = max(COVER_LOW - cov, cov - COVER_HIGH, 0.0) if cov == cov else 1.0
+        outside += miss > 0.0
+        distance += miss
+        ne.append(no_est)
+        med.append(m)
+    return (early, outside, round(distance, 4), sum(ne) / len(ne), statistics.median(med))
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description="Leave-one-family-out choice of an interval setting "
+                                             "(early arrivals, coverage, no estimate, median).")
+    ap.add_argument("csv", help="per-trace CSV of benchmarks/families.py --out (tune seeds)")
+    ap.add_argument("--method", default="iv", help="the grid method's name (default iv)")
+    args = ap.parse_args(argv)
+    data = read(args.csv, args.method)
+    if not data:
+        ap.error("no tune rows of method %r in %s" % (args.method, args.csv))
+    labels = sorted(data)
+    families = sorted({f for lab in labels for f in data[lab]})
+    print("| setting | " + " | ".join("%s cov / no est / median / early" % f for f in families)
+          + " |")
+    print("|---|" + "---|" * len(families))
+    for lab in labels:
+        cells = []
+        for f in families:
+            cov, ne, med, early = family_figures(data[lab][f])
+            cells.append("%.2f / %.2f / %.3f / %d" % (cov, ne, med, early))
+        print("| `%s` | %s |" % (lab, " | ".join(cells)))
+    print("")
+    print("| left-out family | setting chosen without it | coverage | no estimate | median rel err "
+          "| early-arrival traces |")
+    print("|---|---|---|---|---|---|")
+    for f in families:
+        others = [g for g in families if g != f]
+        choice = min(labels, key=lambda lab: score(data[lab], others))
+        cov, ne, med, early = family_figures(data[choice][f])
+        print("| %s | `%s` | %.2f | %.2f | %.3f | %d |" % (f, choice, cov, ne, med, early))
+    best = min(labels, key=lambda lab: score(data[lab], families))
+    print("\nsetting chosen on all families' tune traces: `%s`" % best)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
