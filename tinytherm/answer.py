@@ -10,23 +10,39 @@ target, ``s`` the slope now and ``k`` the rate::
 
     eta = -log1p(-k D / s) / k        (D / s when k = 0)
 
-Its variance by the delta method over the fit's covariance, plus the audits'
-forecast-error variance at that horizon; the interval is
-``eta * exp(+-z sd)`` with ``sd`` the total sd of ln(eta).
+The interval is ``eta * exp(+-z sd)`` with ``sd`` the sd of ln(eta). Its
+variance: what the fit's own forecasts measured (:class:`Audits`), with the
+fit's delta-method variance over its covariance as the prior worth one
+check. The delta method counts only white reading noise; a bent rate, a
+lagging probe and quantised readings make the forecasts err by a few times
+that sd, so the prior is :data:`DELTA_VAR_FACTOR` times it (at least
+:data:`AUDIT_PRIOR_VAR`)::
 
-The interval's own evidence (:class:`Audits`): the fit checks its forecasts
-against what happened. Three audits watch horizons of 1/8, 1/4 and 1/2 of the fit's age (at least
-10, 20 and 40 s). Each records the fitted level, slope and rate when it
-starts; once its horizon has passed and the level has moved clearly, it
-compares the time the fit's law predicted for the observed change with the
-time it took::
+    prior = max(F var_delta(ln eta), AUDIT_PRIOR_VAR)
+    var = (prior + n var_audits) / (1 + n)
+
+The interval's evidence (:class:`Audits`): the fit checks its forecasts
+against what happened. Three audits watch horizons of 1/8, 1/4 and 1/2 of the
+fit's age, started once the fit is old enough for those to exceed 10, 20 and
+40 s (a younger fit's forecast reaches far beyond its own span: it would
+judge a probe's lag transient, not the law). Each records the fitted level,
+slope and rate when it starts; once its horizon has passed and the level has
+moved clearly, it compares the time the fit's law predicted for the observed
+change with the time it took::
 
     e = ln(took / predicted),  |e| <= ln 8
-    var <- var + (e^2 - var) / (n + 1),  n <= AUDIT_MEMORY
+    w = n exp(-took / (AUDIT_FADE age))          (old checks fade on the fit's clock)
+    var_audits <- (w var_audits + e^2) / (w + 1),  n <- min(n + 1, AUDIT_MEMORY)
 
-starting from :data:`AUDIT_PRIOR_VAR`. :meth:`Audits.var_at` interpolates the
-three variances in log horizon for the answer's interval (beyond the longest
-audit it grows with the horizon, at most :data:`AUDIT_STRETCH` times).
+:meth:`Audits.var_at` interpolates the three in log horizon (beyond the
+longest audit the variance grows with the horizon, at most
+:data:`AUDIT_STRETCH` times).
+
+A target just beyond the fitted equilibrium ``E = level + s / k`` (by less
+than :data:`EQUILIBRIUM_SLACK` of the distance to it) is no proof of "out of
+reach": ``E`` is an extrapolation that a bending rate (a coolant warming, a
+slow second mode) moves. The answer is then the time under the law
+levelling off the rest of that slack past the target, with no upper bound.
 
 Runs unchanged on CPython and MicroPython; the audits run only at block closes.
 """
@@ -276,10 +292,14 @@ def _work_out(est, target, approach):
                 est.status = st.OUT_OF_REACH
             return
         open_end = True
-    rel2 = 0.0 if eta is None else eta_rel_var(gap, slope, k, eta, reg, gk)
+    # the fit's own variance of ln(eta), times the share model error adds to it,
+    # is the prior of what the audits measured
+    rel2 = 0.0 if eta is None else DELTA_VAR_FACTOR * eta_rel_var(gap, slope, k, eta, reg, gk)
+    if rel2 < AUDIT_PRIOR_VAR:
+        rel2 = AUDIT_PRIOR_VAR
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
-    rel = math.sqrt(rel2 + est.audits.var_at(eta, age_s))
+    rel = math.sqrt(est.audits.var_at(eta, age_s, rel2))
     f = spread(est._z * rel)
     est.eta_s = eta
     est.eta_low_s = eta / f
@@ -395,7 +415,8 @@ def time_to_target_from_slope_s(gap_c, slope_c_per_s, rate_per_s):
 
 AUDIT_FRACTIONS = (0.125, 0.25, 0.5)  # audit horizons, fractions of the fit's age
 AUDIT_MIN_S = (10.0, 20.0, 40.0)      # s: shortest audit horizons
-AUDIT_PRIOR_VAR = 0.04  # (log time)^2: forecast error assumed before any audit (20 % sd)
+AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before any audit (2 % sd)
+DELTA_VAR_FACTOR = 16.0   # the fit's delta-method variance of ln(eta) times this: the audits' prior
 AUDIT_MEMORY = 8        # audits in the running mean of squared log errors
 AUDIT_STRETCH = 4.0     # most the longest audit's variance is stretched beyond it
 AUDIT_LOG_CAP = 2.0794  # ln 8: one audit counts at most a factor 8
@@ -417,7 +438,7 @@ class Audit:
     def __init__(self, fraction, min_s):
         self.fraction = fraction   # horizon as a fraction of the fit's age
         self.min_s = min_s         # shortest horizon, s
-        self.var = AUDIT_PRIOR_VAR  # (log time)^2
+        self.var = 0.0             # (log time)^2: mean squared log error of the checks
         self.n = 0                 # checks in the running mean (at most AUDIT_MEMORY)
         self.clear()
 
@@ -434,7 +455,9 @@ class Audit:
         return h if h > self.min_s else self.min_s
 
     def due(self, age_s):
-        return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
+        if self.age < 0.0:
+            return self.fraction * age_s >= self.min_s
+        return age_s - self.age >= self.horizon_s(self.age)
 
     def check(self, law, age_s, level, slope, rate, need_c):
         """Learn from the waiting forecast if due, then start a new one.
@@ -459,13 +482,18 @@ class Audit:
                         err = AUDIT_LOG_CAP
                     elif err < -AUDIT_LOG_CAP:
                         err = -AUDIT_LOG_CAP
-                # the old evidence (the checks so far and the prior) fades on the
-                # fit's clock: a check made when the fit was much younger judged
-                # a fit that has since forgotten those readings
-                old = (self.n + 1) * _fade(took, age_s)
+                # the old evidence fades on the fit's clock: a check made when the
+                # fit was much younger judged a fit that has since forgotten those readings
+                old = self.n * _fade(took, age_s)
                 if self.n < AUDIT_MEMORY:
                     self.n += 1
                 self.var = (old * self.var + err * err) / (old + 1.0)
+        if self.fraction * age_s < self.min_s:
+            # a fit younger than its horizon over the fraction makes no forecast to
+            # audit: it would judge the lag transient of the first seconds (a
+            # forecast far beyond the fit's own span), not the law the fit follows
+            self.age = -1.0
+            return
         self.age = age_s
         self.level = level
         self.slope = slope
@@ -484,7 +512,7 @@ class Audits:
 
     def reset(self):
         for a in self.a:
-            a.var = AUDIT_PRIOR_VAR
+            a.var = 0.0
             a.n = 0
             a.clear()
 
@@ -500,21 +528,34 @@ class Audits:
                 return True
         return False
 
-    def var_at(self, eta_s, age_s):
-        """Forecast-error variance of ln(eta) at horizon ``eta_s`` s, fit ``age_s`` s old."""
+    def var_at(self, eta_s, age_s, prior_var):
+        """Forecast-error variance of ln(eta) at horizon ``eta_s`` s, fit ``age_s`` s old.
+
+        The audits' mean squared log error and their count at that horizon
+        (interpolated between the horizons), with ``prior_var`` worth one check::
+
+            var = (prior_var + n var_audits) / (1 + n)
+        """
         a0, a1, a2 = self.a
         h0 = a0.horizon_s(age_s)
         h2 = a2.horizon_s(age_s)
         if eta_s <= h0:
-            return a0.var
-        if eta_s >= h2:
+            v = a0.var
+            n = a0.n
+        elif eta_s >= h2:
             f = eta_s / h2
-            return a2.var * (f if f < AUDIT_STRETCH else AUDIT_STRETCH)
-        # the horizons are a factor 2 apart: interpolate on log2(eta / h0)
-        pos = math.log(eta_s / h0) / math.log(h2 / h0) * 2.0
-        if pos <= 1.0:
-            return a0.var + pos * (a1.var - a0.var)
-        return a1.var + (pos - 1.0) * (a2.var - a1.var)
+            v = a2.var * (f if f < AUDIT_STRETCH else AUDIT_STRETCH)
+            n = a2.n
+        else:
+            # the horizons are a factor 2 apart: interpolate on log2(eta / h0)
+            pos = math.log(eta_s / h0) / math.log(h2 / h0) * 2.0
+            if pos <= 1.0:
+                v = a0.var + pos * (a1.var - a0.var)
+                n = a0.n + pos * (a1.n - a0.n)
+            else:
+                v = a1.var + (pos - 1.0) * (a2.var - a1.var)
+                n = a1.n + (pos - 1.0) * (a2.n - a1.n)
+        return (prior_var + n * v) / (1.0 + n)
 
     def pack_into(self, buf, offset):
         for a in self.a:
