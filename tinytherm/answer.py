@@ -23,9 +23,7 @@ that sd, so the prior is :data:`DELTA_VAR_FACTOR` times it (at least
 
 The interval's evidence (:class:`Audits`): the fit checks its forecasts
 against what happened. Three audits watch horizons of 1/8, 1/4 and 1/2 of the
-fit's age, started once the fit is old enough for those to exceed 10, 20 and
-40 s (a younger fit's forecast reaches far beyond its own span: it would
-judge a probe's lag transient, not the law). Each records the fitted level,
+fit's age (at least 10, 20 and 40 s). Each records the fitted level,
 slope and rate when it starts; once its horizon has passed and the level has
 moved clearly, it compares the time the fit's law predicted for the observed
 change with the time it took::
@@ -58,7 +56,7 @@ ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at 
 ARRIVE_MIN_S = 30.0       # s: no arrival in a fit younger than this
 RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival without a direction before this (probe lag)
 EQUILIBRIUM_SLACK = 0.1  # share of the distance to the fitted equilibrium it may be off
-MAX_REL_SD = 5.0          # an answer whose ln-time sd exceeds this stays SETTLING
+MAX_REL_SD = 5.0          # an answer whose fit's own ln-time sd exceeds this stays SETTLING
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
 PROFILE_Z80 = 1.2815515655446004  # a profile's table holds 10 % / 90 % points
 _INV = 1.0 / SCALE
@@ -294,7 +292,8 @@ def _work_out(est, target, approach):
         open_end = True
     # the fit's own variance of ln(eta), times the share model error adds to it,
     # is the prior of what the audits measured
-    rel2 = 0.0 if eta is None else DELTA_VAR_FACTOR * eta_rel_var(gap, slope, k, eta, reg, gk)
+    own2 = 0.0 if eta is None else eta_rel_var(gap, slope, k, eta, reg, gk)
+    rel2 = DELTA_VAR_FACTOR * own2
     if rel2 < AUDIT_PRIOR_VAR:
         rel2 = AUDIT_PRIOR_VAR
     if eta_shape is not None:
@@ -319,7 +318,8 @@ def _work_out(est, target, approach):
         if own < rel:
             rel = own
     est.eta_rel_sd = rel
-    if rel <= MAX_REL_SD:
+    if own2 <= MAX_REL_SD * MAX_REL_SD:
+        # (the fit's own evidence decides whether to show it; model error widens it)
         est.status = st.TRACKING
 
 def _arrived(est, target, m, approach, age_ms):
@@ -455,9 +455,7 @@ class Audit:
         return h if h > self.min_s else self.min_s
 
     def due(self, age_s):
-        if self.age < 0.0:
-            return self.fraction * age_s >= self.min_s
-        return age_s - self.age >= self.horizon_s(self.age)
+        return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
 
     def check(self, law, age_s, level, slope, rate, need_c):
         """Learn from the waiting forecast if due, then start a new one.
@@ -488,12 +486,6 @@ class Audit:
                 if self.n < AUDIT_MEMORY:
                     self.n += 1
                 self.var = (old * self.var + err * err) / (old + 1.0)
-        if self.fraction * age_s < self.min_s:
-            # a fit younger than its horizon over the fraction makes no forecast to
-            # audit: it would judge the lag transient of the first seconds (a
-            # forecast far beyond the fit's own span), not the law the fit follows
-            self.age = -1.0
-            return
         self.age = age_s
         self.level = level
         self.slope = slope
