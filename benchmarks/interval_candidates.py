@@ -2,16 +2,14 @@
 
     python benchmarks/families.py --seeds tune --no-real --out tune.csv \\
         --candidate iv=benchmarks.interval_candidates:IntervalCandidate \\
-        --grid delta_var_factor=4,16,36 --grid audit_fade=0.5,1000 \\
-        --grid equilibrium_slack=0,0.1
+        --grid delta_var_factor=4,16,36 --grid equilibrium_slack=0.2,0.4
     python benchmarks/lofo_coverage.py tune.csv
 
 :class:`IntervalCandidate` is the core estimator with module constants of
 the interval (``tinytherm.answer.DELTA_VAR_FACTOR``, ``AUDIT_PRIOR_VAR``,
-``AUDIT_FADE``, ``EQUILIBRIUM_SLACK``) set from keywords. The constants are
-module globals: they are set when an instance is made, so candidates must be
-replayed one at a time per process (``families.py`` does: each worker
-replays a trace's methods in turn).
+``EQUILIBRIUM_SLACK``) given as keywords. The constants are module globals:
+each call of the candidate sets its values and puts the core's back when it
+returns, so a core replayed in the same process keeps its own.
 """
 import os
 import sys
@@ -25,24 +23,37 @@ from tinytherm.estimator import ThermalEstimator  # noqa: E402
 
 # keyword -> the module constant it sets
 KEYWORDS = {"delta_var_factor": "DELTA_VAR_FACTOR", "audit_prior_var": "AUDIT_PRIOR_VAR",
-            "audit_fade": "AUDIT_FADE", "equilibrium_slack": "EQUILIBRIUM_SLACK"}
-_DEFAULTS = {name: getattr(answer, name) for name in KEYWORDS.values()}
+            "equilibrium_slack": "EQUILIBRIUM_SLACK"}
+_CORE = {name: getattr(answer, name) for name in KEYWORDS.values()}
 
 
 class IntervalCandidate(ThermalEstimator):
     """The core with the interval's constants given as keywords (``None``: the core's value).
 
     ``delta_var_factor`` (times the delta-method variance: the audits' prior),
-    ``audit_prior_var`` ((log time)^2, the least prior), ``audit_fade`` (x the
-    fit's age) and ``equilibrium_slack`` (share of the distance to the fitted
-    equilibrium).
+    ``audit_prior_var`` ((log time)^2, the least prior) and
+    ``equilibrium_slack`` (share of the distance to the fitted equilibrium).
     """
 
-    def __init__(self, delta_var_factor=None, audit_prior_var=None, audit_fade=None,
-                 equilibrium_slack=None, **kwargs):
+    def __init__(self, delta_var_factor=None, audit_prior_var=None, equilibrium_slack=None,
+                 **kwargs):
         given = {"delta_var_factor": delta_var_factor, "audit_prior_var": audit_prior_var,
-                 "audit_fade": audit_fade, "equilibrium_slack": equilibrium_slack}
-        for key, name in KEYWORDS.items():
-            value = given[key]
-            setattr(answer, name, _DEFAULTS[name] if value is None else float(value))
+                 "equilibrium_slack": equilibrium_slack}
+        self._mine = {name: _CORE[name] if given[key] is None else float(given[key])
+                      for key, name in KEYWORDS.items()}
         super().__init__(**kwargs)
+
+    def _with_mine(self, method, *args, **kwargs):
+        for name, value in self._mine.items():
+            setattr(answer, name, value)
+        try:
+            return method(self, *args, **kwargs)
+        finally:
+            for name, value in _CORE.items():
+                setattr(answer, name, value)
+
+    def update(self, *args, **kwargs):
+        return self._with_mine(ThermalEstimator.update, *args, **kwargs)
+
+    def predict(self, *args, **kwargs):
+        return self._with_mine(ThermalEstimator.predict, *args, **kwargs)

@@ -43,7 +43,6 @@ AUDIT_PRIOR_VAR: float
 AUDIT_MEMORY: int
 AUDIT_STRETCH: float
 AUDIT_LOG_CAP: float
-AUDIT_FADE: float
 DELTA_VAR_FACTOR: float
 
 class Audit:
