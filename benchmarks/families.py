@@ -191,8 +191,19 @@ def replay_baseline(base, time_s, temp_c, target_c):
 
 
 def score_all(time_s, temp_c, target_c, crossing_s, clean_c, noise_sd_c, direction,
-              plan, heater=None, ambient_c=None, quantum_c=0.0625):
-    """Metrics per method label, and CPU seconds (process time) per label."""
+              plan, heater=None, ambient_c=None, quantum_c=0.0625, liquid_c=None,
+              liquid_at_crossing_c=None, approach_start_s=None):
+    """Metrics per method label, and CPU seconds (process time) per label.
+
+    Early arrivals are judged by ``liquid_c`` (the liquid per row, deg C)
+    against ``liquid_at_crossing_c`` when given, else by ``clean_c`` against
+    the target (see :mod:`host_sim.replay.metrics`); ``approach_start_s``:
+    where the approach starts (the last top-up), default the first row.
+    """
+    judge = dict(true_signal_c=clean_c, target_c=target_c, noise_sd_c=noise_sd_c,
+                 direction=direction, approach_start_s=approach_start_s)
+    if liquid_c is not None and liquid_at_crossing_c is not None:
+        judge.update(true_signal_c=liquid_c, target_c=liquid_at_crossing_c)
     out, cost = {}, {}
     for label, _name, spec, setting in plan:
         cls = load_class(spec)
@@ -209,16 +220,12 @@ def score_all(time_s, temp_c, target_c, crossing_s, clean_c, noise_sd_c, directi
                                                   ambient_c=ambient_c, heater=heater,
                                                   approach=approach)
         cost[label] = time.process_time() - t0
-        out[label] = trace_metrics(time_s, eta, crossing_s, low, high, status=status,
-                                   true_signal_c=clean_c, target_c=target_c,
-                                   noise_sd_c=noise_sd_c, direction=direction)
+        out[label] = trace_metrics(time_s, eta, crossing_s, low, high, status=status, **judge)
     for base in make_family_baselines():
         t0 = time.process_time()
         eta, status = replay_baseline(base, time_s, temp_c, target_c)
         cost[base.name] = time.process_time() - t0
-        out[base.name] = trace_metrics(time_s, eta, crossing_s, status=status,
-                                       true_signal_c=clean_c, target_c=target_c,
-                                       noise_sd_c=noise_sd_c, direction=direction)
+        out[base.name] = trace_metrics(time_s, eta, crossing_s, status=status, **judge)
     return out, cost
 
 
@@ -231,7 +238,9 @@ def run_job(job):
     metrics, cost = score_all(ft.time_s, ft.temp_c, tr["target_c"], tr["crossing_time_s"],
                               ft.clean_c, tr["noise_sd_c"], tr["direction"], plan,
                               heater=ft.heater, ambient_c=ft.ambient_c,
-                              quantum_c=tr["quantum_c"])
+                              quantum_c=tr["quantum_c"], liquid_c=ft.liquid_c,
+                              liquid_at_crossing_c=tr["liquid_at_crossing_c"],
+                              approach_start_s=tr["approach_start_s"])
     return {"seed_set": seed_set, "family": family, "seed": seed, "rows": len(ft),
             "interval_s": tr["sample_interval_s"], "quantum_c": tr["quantum_c"],
             "heater_column": tr["has_heater_column"], "ambient_column": tr["has_ambient_column"],
