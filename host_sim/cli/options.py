@@ -67,6 +67,44 @@ def add_skip_bad_option(p, default):
                         % ("skip" if default else "stop"))
 
 
+def add_unit_options(p, files="the trace's", target=False, checks_help=None):
+    """``--fahrenheit`` (``--target-in-f`` with ``target``), ``--time-unit`` and
+    ``--no-checks``: one spelling and one meaning in every command that reads
+    traces (the hints of :mod:`host_sim.replay.trace_checks` name them).
+    ``files``: how the help names the traces; ``checks_help``: what
+    ``--no-checks`` lets the command do. Read back with :func:`unit_of` and
+    :func:`target_in_c`."""
+    p.add_argument("--fahrenheit", action="store_true",
+                   help="%s temp_c/ambient_c columns hold deg F" % files)
+    if target:
+        p.add_argument("--target-in-f", action="store_true",
+                       help="with --fahrenheit: the target is in deg F too")
+    p.add_argument("--time-unit", choices=TIME_UNITS, default="s",
+                   help="unit of %s time_s column (default s); converted to seconds" % files)
+    p.add_argument("--no-checks", action="store_true",
+                   help=checks_help or "go on even when the sampling or the readings look "
+                                       "wrong (the checks every command runs on traces)")
+
+
+TIME_UNITS = ("s", "ms", "min")
+
+
+def unit_of(args):
+    """"F" with ``--fahrenheit``, else "C": the unit a command shows temperatures in."""
+    return "F" if getattr(args, "fahrenheit", False) else "C"
+
+
+def target_in_c(args, value, option="--target"):
+    """A target given on the command line (or in a manifest) in deg C: converted from deg F
+    with ``--fahrenheit --target-in-f``; ``--target-in-f`` alone is a :class:`CliError`."""
+    in_f = getattr(args, "target_in_f", False)
+    if in_f and not getattr(args, "fahrenheit", False):
+        raise CliError("--target-in-f needs --fahrenheit (the target is in deg C otherwise)")
+    if value is None or not in_f:
+        return value
+    return (value - 32.0) * 5.0 / 9.0   # deg F -> deg C
+
+
 # older spellings kept beside the generated ones (README and scripts use them)
 OPTION_ALIASES = {"ambient_c": ("--ambient",), "ambient_prior_c": ("--ambient-prior",)}
 SET_HELP = ("an estimator or replay setting by name, repeatable: NAME=VALUE with NAME an "

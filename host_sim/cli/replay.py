@@ -11,8 +11,9 @@ import sys
 import numpy as np
 
 from host_sim.cli.options import (TRUST_FLOOR_S, TRUST_HELP, CliError, add_estimator_options,
-                                  add_skip_bad_option, check_finite, check_output, finite_float,
-                                  format_accuracy, load_truth, settings_from_args, show_temp)
+                                  add_skip_bad_option, add_unit_options, check_finite,
+                                  check_output, finite_float, format_accuracy, load_truth,
+                                  settings_from_args, show_temp, target_in_c, unit_of)
 from host_sim.replay.trace_checks import TraceScan, target_problem, trace_problems
 from host_sim.replay.trace_reader import TraceError
 
@@ -35,20 +36,13 @@ def add_parser(sub):
     r.add_argument("--plot", metavar="OUT.png", help="also write a PNG plot")
     r.add_argument("--truth", metavar="TRUTH.json",
                    help="truth JSON from 'scenario' for the exact crossing time")
-    r.add_argument("--fahrenheit", action="store_true",
-                   help="the trace's temp_c/ambient_c columns hold deg F")
-    r.add_argument("--target-in-f", action="store_true",
-                   help="with --fahrenheit: --target is in deg F too")
     add_skip_bad_option(r, default=False)
-    r.add_argument("--time-unit", choices=("s", "ms", "min"), default="s",
-                   help="unit of the time_s column (default s); converted to seconds")
     r.add_argument("--verdict", action="store_true",
                    help="append a verdict column (accepted, spike, stuck, ...: what the "
                         "reading guard decided) after the fixed columns of PRED.csv")
-    r.add_argument("--no-checks", action="store_true",
-                   help="replay even when the sampling or the readings look wrong (median "
-                        "step under 0.1 s or over 1 h, under a minute of data, median "
-                        "reading outside -60..150 C)")
+    add_unit_options(r, target=True, checks_help="replay even when the sampling or the "
+                     "readings look wrong (median step under 0.1 s or over 1 h, under a "
+                     "minute of data, median reading outside -60..150 C)")
     add_estimator_options(r)
     r.set_defaults(func=cmd_replay)
     return r
@@ -70,15 +64,11 @@ def _replay(args):
     from host_sim.replay.trace_reader import iter_trace_rows
     from tinytherm import status as st
 
-    unit = "F" if args.fahrenheit else "C"
+    unit = unit_of(args)
     check_finite(args.target, "--target")
     settings = settings_from_args(args)
     ambient = settings.value("ambient_c")
-    if args.target_in_f and not args.fahrenheit:
-        raise CliError("--target-in-f needs --fahrenheit (the target is in deg C otherwise)")
-    target = args.target
-    if args.fahrenheit and args.target_in_f:
-        target = (target - 32.0) * 5.0 / 9.0
+    target = target_in_c(args, args.target)
     inputs = (args.trace, args.truth, getattr(args, "profile", None))
     check_output(args.out, "--out", inputs=inputs)
     if args.plot:
@@ -107,7 +97,8 @@ def _replay(args):
                        "drop --ambient to use the column, or add --ignore-ambient-column to "
                        "use %g C" % (ambient, ambient))
     if not args.no_checks:
-        problems = trace_problems(scan, unit, args.time_unit)
+        problems = trace_problems(scan, unit, args.time_unit,
+                                  ambient_option="--ignore-ambient-column")
         target_wrong = target_problem(target, unit, args.target_in_f)
         if target_wrong:
             problems.insert(0, target_wrong)

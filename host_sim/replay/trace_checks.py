@@ -97,11 +97,16 @@ def _show_temp(value_c, unit):
     return ("%.1f %s" if abs(value) < 1e6 else "%.3g %s") % (value, name)
 
 
-def trace_problems(scan, unit="C", time_unit="s", time_unit_option="--time-unit"):
+def trace_problems(scan, unit="C", time_unit="s", time_unit_option="--time-unit",
+                   ambient_option=None):
     """Messages for a trace that cannot be what the user meant (empty list if fine).
 
     ``scan``: a finished :class:`TraceScan`; ``unit``: "C" or "F" (how the
     readings are shown); ``time_unit``: the unit the time column was read in.
+    The hints name the unit options every command that reads traces has
+    (``--fahrenheit``, ``time_unit_option``); ``ambient_option``: how this
+    command is told to ignore the ambient_c column (None: it cannot be, the
+    hint says to convert the column).
     """
     problems = []
     if not scan.rows:
@@ -124,8 +129,9 @@ def trace_problems(scan, unit="C", time_unit="s", time_unit_option="--time-unit"
     amb = scan.median_ambient_c
     if amb is not None and not lo <= amb <= hi:
         problems.append("the median ambient_c is %s, not an air or bath temperature (%g..%g "
-                        "C): Kelvin or deg F? convert it, or add --ignore-ambient-column"
-                        % (_show_temp(amb, unit), lo, hi))
+                        "C): Kelvin or deg F? convert it%s"
+                        % (_show_temp(amb, unit), lo, hi,
+                           ", or add " + ambient_option if ambient_option else ""))
     if scan.t_last > MAX_TIME_S:
         problems.append("time_s reaches %.3g s: row-to-row differences are lost at that size "
                         "in double precision; %swrite seconds since the start of the recording"
