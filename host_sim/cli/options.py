@@ -256,8 +256,33 @@ class CliError(ValueError):
 TRUST_FLOOR_S = 120.0
 TRUST_HELP = ("time-to-trust: share of the approach (first reading to the crossing) after "
               "which every shown answer stays within 10 %% of the true time left (within "
-              "%.0f s in the last %.0f min); 1.00 = never" % (0.1 * TRUST_FLOOR_S,
-                                                               TRUST_FLOOR_S / 60.0))
+              "%.0f s in the last %.0f min), with how long before the crossing that holds; "
+              "never: the answers near the crossing missed (the last miss is named)"
+              % (0.1 * TRUST_FLOOR_S, TRUST_FLOOR_S / 60.0))
+
+
+def format_trust(figs):
+    """Time-to-trust as a reader takes it in, from the figures of
+    :func:`host_sim.replay.metrics.error_figures`: the share with how long before the
+    crossing the answers hold ("0.997 (the last 8 s)": a share that rounds to 1.00 is
+    printed with more digits, never mistaken for "never"), or "never" with the last
+    miss ("never (an answer 13 s before the crossing was 38 s off)")."""
+    from host_sim.replay.plots import duration_text
+    share = figs.get("time_to_trust")
+    if share is None:
+        return "n/a"
+    if figs.get("trusted_for_s") is None:
+        before, off = figs.get("trust_miss_before_s"), figs.get("trust_miss_s")
+        if before is None:
+            return "never"
+        if off is None:
+            return "never (no answer shown %s before the crossing)" % duration_text(before)
+        return "never (an answer %s before the crossing was %s off)" % (
+            duration_text(before), duration_text(off))
+    text = "%.2f" % share
+    if text == "1.00":
+        text = "%.3f" % share if "%.3f" % share != "1.000" else ">0.999"
+    return "%s (the last %s)" % (text, duration_text(figs["trusted_for_s"]))
 
 
 def check_finite(value, option):
@@ -323,10 +348,13 @@ def show_temp(value_c, unit):
     return ("%.1f %s" if abs(value) < 1e6 else "%.3g %s") % (value, name)
 
 def format_accuracy(m, trust):
+    """One line of accuracy figures: ``m`` from :func:`host_sim.replay.metrics.error_figures`
+    (or ``trace_metrics``), ``trust`` the figures of the time-to-trust call (its floor
+    is :data:`TRUST_FLOOR_S`), read by :func:`format_trust`."""
     def f(v, fmt):
         return "n/a" if v is None else fmt % v
     return ("median rel. error %s, p90 %s, time-to-trust %s, interval coverage %s, "
             "no answer on %s of the readings" % (
                 f(m["median_rel_error"], "%.3f"), f(m["p90_rel_error"], "%.3f"),
-                f(trust, "%.2f"), f(m["coverage"], "%.2f"),
+                format_trust(trust), f(m["coverage"], "%.2f"),
                 f(m["no_estimate_fraction"], "%.2f")))

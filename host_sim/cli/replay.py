@@ -14,6 +14,7 @@ from host_sim.cli.options import (TRUST_FLOOR_S, TRUST_HELP, CliError, add_estim
                                   add_skip_bad_option, add_unit_options, check_finite,
                                   check_output, finite_float, format_accuracy, load_truth,
                                   settings_from_args, show_temp, target_in_c, unit_of)
+from host_sim.cli.eta_table import ArrivalCount, EtaTable, add_table_options, auto_step_s
 from host_sim.replay.trace_checks import TraceScan, target_problem, trace_problems
 from host_sim.replay.trace_reader import TraceError
 
@@ -43,6 +44,7 @@ def add_parser(sub):
     add_unit_options(r, target=True, checks_help="replay even when the sampling or the "
                      "readings look wrong (median step under 0.1 s or over 1 h, under a "
                      "minute of data, median reading outside -60..150 C)")
+    add_table_options(r)
     add_estimator_options(r)
     r.set_defaults(func=cmd_replay)
     return r
@@ -137,6 +139,9 @@ def _replay(args):
         bar = tqdm(total=n, unit="row", desc="replay", disable=None if n >= 20000 else True,
                    file=sys.stderr, mininterval=0.5)
         crossing_finder = None if args.truth else CrossingFinder(target)
+        table = None if args.no_table else EtaTable(
+            args.every or auto_step_s(scan.t_last - scan.t0), settings.value("interval"))
+        arrivals = ArrivalCount(target, settings.approach)
         verdict_codes = {name: code for code, name in enumerate(st.VERDICT_NAMES)}
         for i, (row, pred) in enumerate(replay_rows(open_rows(), target, estimator, settings)):
             t, temp, amb, _, event = row
@@ -151,6 +156,9 @@ def _replay(args):
                           nan if high is None else high, 1.0 if code in shown_codes else 0.0)
             if crossing_finder is not None:
                 crossing_finder.add(t, temp)
+            if table is not None:
+                table.offer(t, temp, code, eta, low, high, event)
+            arrivals.add(pred)
             last = (t, temp, code, eta)
             if event and len(events) < MAX_EVENTS:
                 events.append((t, event))
@@ -187,15 +195,17 @@ def _replay(args):
     print("reading verdicts: accepted %d of %d%s" % (
         verdicts[st.ACCEPTED], rows_done,
         "; rejected: " + counted if counted else "; none rejected"))
-    print("last row: t=%.1f s, %s, status %s, eta %s" % (
-        last[0], show_temp(last[1], unit), st.status_name(last[2]),
-        "-" if last[3] is None or math.isnan(last[3]) else "%.0f s" % last[3]))
-
     if args.truth:
         source = "truth file %s" % args.truth
     else:
         crossing = crossing_finder.result()
         source = "the trace (5-reading running median)"
+    if table is not None:
+        for line in table.lines(crossing, unit, source):
+            print(line)
+    print("last row: t=%.1f s, %s, status %s, eta %s" % (
+        last[0], show_temp(last[1], unit), st.status_name(last[2]),
+        "-" if last[3] is None or math.isnan(last[3]) else "%.0f s" % last[3]))
     target_shown = show_temp(target, unit)
     if unit == "F":
         target_shown += " (%.2f C)" % target
@@ -206,10 +216,11 @@ def _replay(args):
             m = error_figures(_scored_chunks(scored, only_shown), crossing)
             m_trust = error_figures(_scored_chunks(scored, only_shown, intervals=False),
                                     crossing, floor_s=TRUST_FLOOR_S)
-            print("accuracy, %s: %s" % (label, format_accuracy(m, m_trust["time_to_trust"])))
+            print("accuracy, %s: %s" % (label, format_accuracy(m, m_trust)))
         print("  (" + TRUST_HELP + ")")
     else:
         print("the trace does not cross the target %s: no accuracy metrics" % target_shown)
+    print(arrivals.line())
     scored.close()
     if args.plot:
         from host_sim.replay.plots import ReplaySeries, plot_series

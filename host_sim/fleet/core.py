@@ -105,7 +105,7 @@ def evaluate_trace(spec, variant, predictions_out=None):
             crossing = float(known)
         settings = ReplaySettings(variant.get("settings"))
         estimator = settings.estimator(has_heater, any_duty)
-        scorer = TraceScorer(target, crossing, spec.get("noise_sd_c"))
+        scorer = TraceScorer(target, crossing, spec.get("noise_sd_c"), settings.approach)
         with iter_trace_rows(spec["path"], **reader_options) as rows:
             stream = replay_rows(rows, target, estimator, settings)
 

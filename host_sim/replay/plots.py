@@ -87,8 +87,11 @@ class ReplaySeries:
                    verdict=verdicts, events=list(zip(trace.time_s, trace.events)))
 
 
-def _dur(seconds):
-    """A duration for a legend: minutes up to two hours, then hours."""
+def duration_text(seconds):
+    """A duration for a reader: seconds under two minutes, minutes up to two hours,
+    then hours ("38 s", "7.1 min", "8.6 h")."""
+    if seconds < 119.5:
+        return "%.0f s" % seconds
     if seconds < 7200.0:
         return "%.1f min" % (seconds / 60.0)
     return "%.1f h" % (seconds / 3600.0)
@@ -189,7 +192,7 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
         x = (t[i] + tau) / 60.0
         ax1.plot(x, temp(curve), "-", lw=1.6, color="tab:orange",
                  label="model fitted at %.1f min, drawn forward (ETA %s then)"
-                 % (t[i] / 60.0, _dur(eta)))
+                 % (t[i] / 60.0, duration_text(eta)))
         ax1.plot([t[i] / 60.0], [temp(start)], "o", ms=5, color="tab:orange")
         if np.isfinite(low):
             # the same curve shifted to arrive at the interval's ends
@@ -197,11 +200,11 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
             if np.isfinite(high):
                 late = np.interp(tau - (high - eta), tau, curve, left=curve[0])
                 band_label = "%d%% ETA interval then (%s..%s)" % (
-                    round(100 * s.interval), _dur(low), _dur(high))
+                    round(100 * s.interval), duration_text(low), duration_text(high))
             else:
                 late = np.full_like(curve, curve[0])
                 band_label = "%d%% ETA interval then (%s..never)" % (
-                    round(100 * s.interval), _dur(low))
+                    round(100 * s.interval), duration_text(low))
             ax1.fill_between(x, temp(early), temp(late), color="tab:orange", alpha=0.18,
                              label=band_label)
     ax1.set_ylim(*ylim1)
