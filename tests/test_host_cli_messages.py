@@ -180,3 +180,22 @@ def test_fleet_reads_units_as_replay_does(tmp_path, capsys):
     code, text, res = _fleet_row([str(tmp_path / "ms.csv"), "--target", "60", "--no-checks"],
                                  folder, capsys)
     assert res[0]["error"] == "", res[0]
+
+
+@pytest.mark.parametrize("argv", [
+    ["demo", "--kind", "mug", "--seed", "3"],
+    ["demo", "--every", "1", "--kind", "fridge", "--seed", "1"],      # rows left out
+    ["demo", "--plot", "{d}/missing/d.png"],
+    ["demo", "--plot", "{d}/d.txt"],
+    ["scenario", "mug"],
+    ["scenario", "mug", "--out", "{d}/t.csv", "--truth", "{d}/t.csv"],
+    ["scenario", "mug", "--out", "{d}/missing/t.csv"],
+    ["benchmark", "--csv", "{d}/missing/b.csv"],
+    ["benchmark", "--csv", "{d}/b.csv", "--set", "nonsense=1"],
+    ["benchmark", "--csv", "{d}/b.csv", "--profile", "{d}/none.json"],
+])
+def test_other_commands_name_their_own_options(argv, tmp_path, capsys):
+    argv = [a.replace("{d}", str(tmp_path)) for a in argv]
+    code, text = run(argv, capsys)
+    assert text
+    check(argv[0], [(" ".join(argv), text)])
