@@ -194,3 +194,14 @@ def test_time_to_trust_near_one_is_not_never():
     eta[last] = np.nan
     figs = trace_metrics(t, eta, crossing, floor_s=TRUST_FLOOR_S)
     assert format_trust(figs) == "never (no answer shown 2 s before the crossing)"
+
+
+def test_benchmark_table_says_what_a_share_of_one_means():
+    from host_sim.cli.benchmark import format_table, run_suite
+    table = format_table("tune", run_suite("tune", per_kind=1, jobs=1, progress=False), 1)
+    shares = [float(ln.split("|")[5]) for ln in table.splitlines()
+              if ln.startswith("| ") and "| core |" in ln]
+    assert shares
+    note = [ln for ln in table.splitlines() if ln.startswith("time-to-trust: ")]
+    assert len(note) == 1 and "1.00 means more than half the traces never" in note[0]
+    assert "within 10 %" in note[0] and "30 s floor" in note[0]

@@ -32,7 +32,8 @@ def cmd_demo(args):
                   events=gen.events)
     target = tr["target_c"]
     print("demo: %s (invented scenario, seed %d), target %.1f C" % (tr["title"], args.seed, target))
-    print("true crossing of the noise-free sensor signal: %.0f s" % tr["crossing_time_s"])
+    print("true crossing of the noise-free sensor signal: %.0f s (%.1f min)"
+          % (tr["crossing_time_s"], tr["crossing_time_s"] / 60.0))
     # the product knows how it reaches its target (see --approach of replay)
     approach = -1 if tr.get("direction", "cooling") == "cooling" else 1
     result = replay(trace, target, approach=approach)
