@@ -205,3 +205,18 @@ def test_benchmark_table_says_what_a_share_of_one_means():
     note = [ln for ln in table.splitlines() if ln.startswith("time-to-trust: ")]
     assert len(note) == 1 and "1.00 means more than half the traces never" in note[0]
     assert "within 10 %" in note[0] and "30 s floor" in note[0]
+
+
+def test_a_table_piped_into_head_ends_quietly():
+    # the replay and demo tables are longer than a screen: `| head` must not end in a
+    # traceback (BrokenPipeError)
+    import os
+    import subprocess
+    import sys
+    root = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+    proc = subprocess.Popen([sys.executable, "-m", "host_sim", "demo", "--every", "5"],
+                            cwd=root, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    proc.stdout.close()                 # the reader leaves before the first line
+    err = proc.stderr.read().decode()
+    proc.wait(timeout=120)
+    assert "Traceback" not in err and "BrokenPipe" not in err, err
