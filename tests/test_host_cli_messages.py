@@ -199,3 +199,22 @@ def test_other_commands_name_their_own_options(argv, tmp_path, capsys):
     code, text = run(argv, capsys)
     assert text
     check(argv[0], [(" ".join(argv), text)])
+
+
+def test_the_ambient_hint_works_where_it_is_given(tmp_path, capsys):
+    # a Kelvin ambient column: the hint names how to ignore the column, and following it
+    # replays the trace (it was refused again with the same hint)
+    trace = os.path.join(CORPUS, "ambient_kelvin.csv")
+    code, text = run(["replay", trace, "--target", "60", "--out", str(tmp_path / "p.csv")],
+                     capsys)
+    assert code == 2 and "add --ignore-ambient-column" in text
+    code, text = run(["replay", trace, "--target", "60", "--out", str(tmp_path / "p.csv"),
+                      "--ignore-ambient-column", "--no-table"], capsys)
+    assert code == 0, text
+    folder = tmp_path / "fleet"
+    folder.mkdir()
+    code, text, res = _fleet_row([trace, "--target", "60"], folder, capsys)
+    assert code == 1 and "add --set use_ambient_column=false" in res[0]["error"]
+    code, text, res = _fleet_row([trace, "--target", "60", "--set", "use_ambient_column=false"],
+                                 folder, capsys)
+    assert code == 0 and res[0]["error"] == "", res[0]

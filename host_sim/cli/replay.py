@@ -100,7 +100,8 @@ def _replay(args):
                        "use %g C" % (ambient, ambient))
     if not args.no_checks:
         problems = trace_problems(scan, unit, args.time_unit,
-                                  ambient_option="--ignore-ambient-column")
+                                  ambient_option="--ignore-ambient-column",
+                                  ambient_used=settings.use_ambient_column)
         target_wrong = target_problem(target, unit, args.target_in_f)
         if target_wrong:
             problems.insert(0, target_wrong)

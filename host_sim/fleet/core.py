@@ -53,7 +53,7 @@ def _reader_options(spec):
             "time_unit": spec.get("time_unit", "s")}
 
 
-def _scan(path, target_c, reader_options, want_crossing, checks=True):
+def _scan(path, target_c, reader_options, want_crossing, checks=True, ambient_used=True):
     """First pass: (crossing or None, has heater column, any nonzero duty).
 
     With ``checks``, a trace that replay would refuse (the shared checks of
@@ -69,7 +69,8 @@ def _scan(path, target_c, reader_options, want_crossing, checks=True):
         scan.finish()
     problems = trace_problems(scan, "F" if reader_options["fahrenheit"] else "C",
                               reader_options["time_unit"],
-                              ambient_option="--set use_ambient_column=false") if checks else []
+                              ambient_option="--set use_ambient_column=false",
+                              ambient_used=ambient_used) if checks else []
     if problems:
         raise TraceError("%s: %s (--no-checks runs it anyway)" % (path, "; ".join(problems)))
     return (finder.result() if finder is not None else None), scan.has_heater, scan.heater_on
@@ -99,11 +100,12 @@ def evaluate_trace(spec, variant, predictions_out=None):
         target = float(spec["target_c"])
         reader_options = _reader_options(spec)
         known = spec.get("crossing_s")
+        settings = ReplaySettings(variant.get("settings"))
         crossing, has_heater, any_duty = _scan(spec["path"], target, reader_options,
-                                               known is None, spec.get("checks", True))
+                                               known is None, spec.get("checks", True),
+                                               settings.use_ambient_column)
         if known is not None:
             crossing = float(known)
-        settings = ReplaySettings(variant.get("settings"))
         estimator = settings.estimator(has_heater, any_duty)
         scorer = TraceScorer(target, crossing, spec.get("noise_sd_c"), settings.approach)
         with iter_trace_rows(spec["path"], **reader_options) as rows:

@@ -98,7 +98,7 @@ def _show_temp(value_c, unit):
 
 
 def trace_problems(scan, unit="C", time_unit="s", time_unit_option="--time-unit",
-                   ambient_option=None):
+                   ambient_option=None, ambient_used=True):
     """Messages for a trace that cannot be what the user meant (empty list if fine).
 
     ``scan``: a finished :class:`TraceScan`; ``unit``: "C" or "F" (how the
@@ -106,7 +106,8 @@ def trace_problems(scan, unit="C", time_unit="s", time_unit_option="--time-unit"
     The hints name the unit options every command that reads traces has
     (``--fahrenheit``, ``time_unit_option``); ``ambient_option``: how this
     command is told to ignore the ambient_c column (None: it cannot be, the
-    hint says to convert the column).
+    hint says to convert the column); ``ambient_used``: False when the
+    command was told to ignore the column (it is then not checked).
     """
     problems = []
     if not scan.rows:
@@ -127,7 +128,7 @@ def trace_problems(scan, unit="C", time_unit="s", time_unit_option="--time-unit"
         problems.append("%d of %d readings are above %g C, hotter than a liquid at the "
                         "stove: deg F? add --fahrenheit" % (scan.hot_rows, scan.rows, hi))
     amb = scan.median_ambient_c
-    if amb is not None and not lo <= amb <= hi:
+    if amb is not None and ambient_used and not lo <= amb <= hi:
         problems.append("the median ambient_c is %s, not an air or bath temperature (%g..%g "
                         "C): Kelvin or deg F? convert it%s"
                         % (_show_temp(amb, unit), lo, hi,
