@@ -218,3 +218,16 @@ def test_the_ambient_hint_works_where_it_is_given(tmp_path, capsys):
     code, text, res = _fleet_row([trace, "--target", "60", "--set", "use_ambient_column=false"],
                                  folder, capsys)
     assert code == 0 and res[0]["error"] == "", res[0]
+
+
+def test_a_too_short_trace_gets_the_minutes_hint_only_when_it_would_help(tmp_path, capsys):
+    out = str(tmp_path / "p.csv")
+    code, text = run(["replay", os.path.join(CORPUS, "single_row.csv"), "--target", "60",
+                      "--out", out], capsys)       # one row: 0 s, in minutes still 0 s
+    assert code == 2 and "covers only 0 s (1 rows)" in text and "--time-unit" not in text
+    code, text = run(["replay", os.path.join(CORPUS, "time_in_minutes.csv"), "--target", "60",
+                      "--out", out], capsys)       # 6.6 "s": 6.6 min read as seconds
+    assert code == 2 and "add --time-unit min" in text
+    code, text = run(["replay", os.path.join(CORPUS, "time_in_minutes.csv"), "--target", "60",
+                      "--out", out, "--time-unit", "min", "--no-table"], capsys)
+    assert code == 0, text

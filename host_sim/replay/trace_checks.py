@@ -156,8 +156,11 @@ def trace_problems(scan, unit="C", time_unit="s", time_unit_option="--time-unit"
         problems.append("the trace spans %.0f days: time in milliseconds? add %s ms"
                         % (span / 86400.0, time_unit_option))
     elif span < 60.0:
-        problems.append("the trace covers only %.3g s; the estimator needs minutes of "
-                        "readings: time in minutes? add %s min" % (span, time_unit_option))
+        # minutes read as seconds only when minutes would make it a minute or more
+        problems.append("the trace covers only %.3g s (%d rows); the estimator needs minutes "
+                        "of readings%s" % (span, scan.rows, ": time in minutes? add %s min"
+                                           % time_unit_option if span >= 1.0 and
+                                           time_unit == "s" else ""))
     return problems
 
 
