@@ -13,7 +13,13 @@ time ``rem = crossing_s - t``:
 - ``time_to_trust``: elapsed fraction of the approach, ``(t* - t0) / (crossing
   - t0)``, where ``t*`` is the first evaluated row from which every later
   evaluated row has an estimate within 10 %; 1.0 when the last evaluated row
-  is not within 10 %;
+  is not within 10 % (never trusted). Beside it, ``trusted_for_s`` is
+  ``crossing - t*`` (None when never), and ``trust_miss_before_s`` and
+  ``trust_miss_s`` say what broke trust last: the remaining time at the last
+  evaluated row not within 10 % and how far off its estimate was, seconds
+  (``|eta - rem|``; None when it had no estimate; both None when no row
+  missed). A fraction near 1 is then read as "trusted only for the last
+  seconds", not confused with "never";
 - ``coverage``: fraction of evaluated rows with an interval for which
   ``eta_low <= rem <= eta_high`` (a missing or infinite upper bound counts as
   unbounded);
@@ -206,7 +212,9 @@ def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
     given); ``crossing_s``: the true crossing, seconds; ``approach_start_s``:
     where the approach starts (default the first row). Returns a dict with
     ``median_rel_error``, ``p90_rel_error``, ``time_to_trust``, ``coverage``,
-    ``no_estimate_fraction`` (None where undefined) and ``evaluated_rows``.
+    ``no_estimate_fraction`` (None where undefined), ``evaluated_rows`` and the
+    time-to-trust details ``trusted_for_s``, ``trust_miss_before_s``,
+    ``trust_miss_s`` (seconds or None; see the module docstring).
 
     Counts and time-to-trust come from one pass; the median and p90 are the
     exact order statistics (:func:`_order_statistics`, a few more passes) with
@@ -219,6 +227,7 @@ def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
     n_eval = n_has = n_interval = n_inside = 0
     start = None
     trust_from = None     # time of the first evaluated row after the last bad one
+    miss = None           # (remaining time, |eta - rem| or NaN) of the last bad row
     intervals = False
     for start, t_e, rel_e, rem_e, low_e, high_e in _evaluated(chunks, crossing_s, warmup_s,
                                                               floor_s, approach_start_s):
@@ -229,6 +238,9 @@ def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
         bad = np.nonzero(~good)[0]
         if len(bad):
             trust_from = None if bad[-1] == len(good) - 1 else t_e[bad[-1] + 1]
+            b = bad[-1]
+            # rel = |eta - rem| / max(rem, floor), so the miss in seconds is rel * max(rem, floor)
+            miss = (float(rem_e[b]), float(rel_e[b] * max(rem_e[b], floor_s)))
         elif trust_from is None:
             trust_from = t_e[0]
         if low_e is not None:
@@ -240,8 +252,12 @@ def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
             n_interval += int(np.count_nonzero(with_interval))
             n_inside += int(np.count_nonzero(inside & with_interval))
     out["evaluated_rows"] = n_eval
+    out["trusted_for_s"] = out["trust_miss_before_s"] = out["trust_miss_s"] = None
     if n_eval == 0:
         return out
+    if miss is not None:
+        out["trust_miss_before_s"] = miss[0]
+        out["trust_miss_s"] = miss[1] if math.isfinite(miss[1]) else None
     out["no_estimate_fraction"] = float(1.0 - n_has / n_eval)
     if n_has:
         def values():
@@ -252,6 +268,7 @@ def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
     approach = crossing_s - start
     if trust_from is not None:    # the last evaluated row is within the tolerance
         out["time_to_trust"] = float((trust_from - start) / approach)
+        out["trusted_for_s"] = float(crossing_s - trust_from)
     else:
         out["time_to_trust"] = 1.0
     if intervals and n_interval:
