@@ -47,8 +47,9 @@ def test_every_goal_met(families_bench):
 
 
 def test_each_goal_missed_names_its_family(families_bench):
-    # the median is 0.22 (0.55 x the best baseline's 0.4); room has no answer on 12 % of its rows and coverage
-    # 0.9; topup arrives early with approach given; wort has 11 % no answer on the sparse grid
+    # the median is 0.22 (0.55 x the best baseline's 0.4); room has no answer on 12 % of
+    # its rows and coverage 0.9; topup arrives early with approach given; wort has 11 %
+    # no answer on the sparse grid
     dense = _results(F.FAMILIES,
                      lambda f: _metric(0.22, no_est=0.12 if f == "room" else 0.0,
                                        coverage=0.9 if f == "room" else 0.8),

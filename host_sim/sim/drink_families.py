@@ -14,8 +14,9 @@
 - ``topup``: a hot drink in a mug [liquid, wall, liquid kg, probe], partly
   filled (40-80 %), cooling; after 4-70 min the user drinks some (20-60 %)
   and tops it up with hot liquid (70-98 C) to 70-100 % of the mug (adding at
-  least a tenth of it), sometimes (30 %) a second time 5-30 min later. The liquid jumps at once (mixing:
-  ``T = (m1 T1 + m2 T2) / (m1 + m2)``, equal specific heats); the probe, in
+  least a tenth of it), sometimes (30 %) a second time 5-30 min later. The
+  liquid jumps at once (mixing: ``T = (m1 T1 + m2 T2) / (m1 + m2)``, equal
+  specific heats); the probe, in
   the liquid with a first-order time constant of 5-90 s, rises after it, so
   it passes the drinking target on its way up while the liquid is far hotter.
   The truth's crossing is that of the final approach (after the last pour).
@@ -42,7 +43,10 @@ ROOM_VESSELS = {
 
 
 class RoomDrinkFamily(Family):
-    """Drink in a room or cabinet whose air cycles. State: liquid, container, probe, air sensor (C)."""
+    """Drink in a room or cabinet whose air cycles.
+
+    State: liquid, container, probe, air sensor (deg C).
+    """
 
     crossing_range_s = (300.0, 14400.0)
     sensor_index = 2
@@ -228,4 +232,5 @@ class TopUp(Family):
         p = self.p
         return kinds.MugLiquid.from_params(
             p, c_liquid=C_DRINK, water_wall=water_wall_coefficient, outer_half_wall=True,
-            wall_j_per_k=p["wall_kg"] * p["wall_c_j_per_kg_k"], top_area_m2=math.pi * p["radius_m"] ** 2, top_length_m=p["radius_m"])
+            wall_j_per_k=p["wall_kg"] * p["wall_c_j_per_kg_k"],
+            top_area_m2=math.pi * p["radius_m"] ** 2, top_length_m=p["radius_m"])
