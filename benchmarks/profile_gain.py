@@ -200,6 +200,8 @@ def main(argv=None):
                                          coverage(base_pairs, prof)))
         with_pairs = replayed_pairs(tests[name], prof, heater, uses)
         err = row("device WITH the profile", with_pairs)
+        print("  %-42s %8s %7s %7.3f" % ("its ETA + calibrated interval table", "", "",
+                                         coverage(with_pairs, prof)))
         wrong_pairs = replayed_pairs(tests[name], profiles[other].profile, heater, uses)
         err_w = row("device with the %s's profile (wrong)" % other, wrong_pairs)
         e_p, e_d, _ = forecast_errors(prof, base_pairs, cal.fit.heater_lag_s)

@@ -39,7 +39,8 @@ import math
 from tinytherm import blob as bl
 from tinytherm import status as st
 from tinytherm import answer, state
-from tinytherm.answer import Answer, Audits, normal_quantile, time_to_target_from_slope_s
+from tinytherm.answer import (AUDIT_PRIOR_VAR, Answer, Audits, normal_quantile,
+                              time_to_target_from_slope_s)
 from tinytherm.change import ChangeDetector
 from tinytherm.crc import crc32
 from tinytherm.fit import MAX_BLOCK_READINGS, SCALE, BlockSums, Inputs, Noise, Regression
@@ -434,14 +435,17 @@ class ThermalEstimator(Answer):
             lk = s2 / (RATE_PRIOR_PER_S * RATE_PRIOR_PER_S)
             lg = s2  # heater gain ~ N(0, 1 K/s) without a profile
         else:
-            dist, sd, kp, lk, gp, lg = prof.priors(dist, s2)
-        # the slope without heat input, from the fit with the loose prior alone
+            # (with a heater: where the liquid levels off with the heat at the latest duty)
+            dist, sd, kp, lk, gp, lg = prof.priors(
+                dist, s2, self.blocks.u0 / 1024 if self.heater else 0.0)
+        # the slope towards the hint, from the fit with the loose prior alone
         solved = False
         if self.heater:
             if not reg.solve(s2, lk, kp, 0.0, 0.0, lg, gp):
                 return
             solved = True
-            slope = reg.s - reg.g * (self.blocks.u0 / 1024)
+            # without a profile the hint is the ambient: the slope without heat input
+            slope = reg.s if prof is not None else reg.s - reg.g * (self.blocks.u0 / 1024)
         else:
             slope = reg.slope_loose(lk, kp)
             if slope is None:
@@ -462,9 +466,10 @@ class ThermalEstimator(Answer):
         need = 4.0 * math.sqrt(self.reg.var_level()) + 0.5 * self.guard.quantum_c
         for a in self.audits.a:
             a.check(self, age, self._level, self._slope, self.reg.k, need)
-            if self._profile_on and a.n >= PROFILE_MISMATCH_N:
+            if self._profile_on and not self.heater and a.n >= PROFILE_MISMATCH_N:
+                # its own spread at that horizon and what an audit of a right law shows
                 own = self._profile.log_sd(a.horizon_s(age))
-                if a.var > PROFILE_MISMATCH_VAR * own * own:
+                if a.data_var() > PROFILE_MISMATCH_VAR * (own * own + AUDIT_PRIOR_VAR):
                     # its forecasts fail on this liquid: another vessel's profile
                     self._profile_on = False
                     self.profile_reason = PROFILE_REJECTED

@@ -249,15 +249,19 @@ class VesselProfile:
         except (ValueError, OverflowError, ZeroDivisionError):
             return None
 
-    def priors(self, dist_c, s2):
+    def priors(self, dist_c, s2, duty=0.0):
         """The estimator's priors from this profile: the first-order law tangent
         to its power law at the distance ``dist_c`` (deg C) from the latest
-        reading's gap to the ambient hint.
+        reading's gap to the ambient hint, with the heater at ``duty`` (0..1).
 
         Returns ``(dist_c, sd_c, rate, rate_weight, gain, gain_weight)``: the
-        hint's distance and sd (deg C), the rate prior's centre (1/s) and the
-        gain prior's centre (K/s), each weight being ``s2`` (the reading noise
-        variance, deg C^2) over the prior's variance.
+        distance to where that law levels off and its sd (deg C), the rate
+        prior's centre (1/s) and the gain prior's centre (K/s), each weight
+        being ``s2`` (the reading noise variance, deg C^2) over the prior's
+        variance. With heat the tangent law ``dT/dt = -k (T - E) + g duty``
+        levels off ``g duty / k`` beyond the passive equilibrium ``E`` (the
+        estimator's fitted slope includes the heat at that duty), with the
+        relative spread of ``g / k``.
         """
         n = self.rate_exponent
         d = -(dist_c + self.eq_offset_c)
@@ -266,7 +270,12 @@ class VesselProfile:
         rel = self.rate_log_sd if self.rate_log_sd > 0.02 else 0.02
         gp = self.gain_k_per_s
         rel_g = self.gain_rel_sd if self.gain_rel_sd > 0.02 else 0.02
-        return (-d / n, sd if sd > 0.05 else 0.05, kp, s2 / (kp * kp * rel * rel), gp,
+        dist = -d / n
+        if duty > 0.0 and gp != 0.0 and kp > 0.0:
+            heat = gp * duty / kp  # deg C: how far the heat moves the level-off point
+            dist += heat
+            sd = math.sqrt(sd * sd + heat * heat * (rel * rel + rel_g * rel_g))
+        return (dist, sd if sd > 0.05 else 0.05, kp, s2 / (kp * kp * rel * rel), gp,
                 s2 / (gp * gp * rel_g * rel_g) if gp != 0.0 else s2)
 
     def law_s(self, gap_c, level_c, slope_c_per_s, ambient_c):
