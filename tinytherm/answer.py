@@ -208,6 +208,8 @@ def _work_out(est, target, approach):
         est.clear(st.GATHERING)
         if est.readings and not est._fresh:
             est.temp_est_c = b.c * _INV
+            if est._profile_on and est._dir != 0 and target is not None:
+                _profile_first(est, target, approach)
         return
     est.clear(st.SETTLING)
     level = est._level
@@ -258,7 +260,7 @@ def _work_out(est, target, approach):
     if est._profile_on and est.heater and age_s < PROFILE_LAG_TIMES * est._profile.probe_lag_s:
         return  # the element's and the probe's lag still hide the heat-up's slope
     eta = time_to_target_from_slope_s(gap, slope, k)
-    eta_shape = est._profile_law_s(gap, level, slope)
+    eta_shape = est._profile_law_s(gap, level, slope, var_slope / (slope * slope))
     if eta is None and eta_shape is None:
         # beyond the equilibrium: say so only when even a slow bend reaches it
         if (k - 2.0 * math.sqrt(reg.pkk)) * gap / slope >= 1.0:
@@ -271,13 +273,7 @@ def _work_out(est, target, approach):
     # the fit's own evidence (delta method and audits) decides whether to show it
     rel = math.sqrt(rel2 + est.audits.var_at(eta, age_s))
     if est._profile_on:
-        # the profile's calibrated quantiles of ln(actual / predicted) (split-conformal,
-        # host_sim.calibrate.pipeline) at this horizon, scaled to the interval asked for
-        lo, hi = est._profile.interval_log_bounds(eta)
-        z = est._z / PROFILE_Z80
-        est.eta_low_s = eta * spread(z * lo)
-        est.eta_high_s = eta * spread(z * hi)
-        est.eta_rel_sd = est._profile.log_sd(eta)
+        _profile_interval(est, eta)  # the profile's calibrated interval
     else:
         f = spread(est._z * rel)
         est.eta_low_s = eta / f
@@ -285,6 +281,36 @@ def _work_out(est, target, approach):
         est.eta_rel_sd = rel
     if rel <= MAX_REL_SD:
         est.status = st.TRACKING
+
+def _profile_first(est, target, approach):
+    """A passive profile's answer before the fit has its own (its first readings after
+    the turn that set the direction ``est._dir`` towards the profile's equilibrium):
+    the profile's law at its typical rate from the latest reading, with its table."""
+    m = est._dir
+    if approach != 0 and approach != m:
+        return
+    y = est.blocks.c * _INV
+    gap = target - y
+    if gap * m <= 0.0 or not -1e4 <= target <= 1e4:
+        return
+    eta = est._profile_law_s(gap, y, 0.0)
+    if eta is None or not eta > 0.0:
+        return
+    _profile_interval(est, eta)
+    est.status = st.TRACKING
+
+
+def _profile_interval(est, eta):
+    """``eta_s`` and the profile's calibrated quantiles of ln(actual / predicted)
+    (split-conformal, host_sim.calibrate.pipeline) at that horizon, scaled to the
+    interval asked for."""
+    lo, hi = est._profile.interval_log_bounds(eta)
+    z = est._z / PROFILE_Z80
+    est.eta_s = eta
+    est.eta_low_s = eta * spread(z * lo)
+    est.eta_high_s = eta * spread(z * hi)
+    est.eta_rel_sd = est._profile.log_sd(eta)
+
 
 def _arrived(est, target, m, approach, age_ms):
     """Arrival, the reading being on the line: the block means or the fitted

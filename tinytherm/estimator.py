@@ -377,10 +377,14 @@ class ThermalEstimator(Answer):
         """Restart the fit from the latest reading (a jump or a turn)."""
         b = self.blocks
         c, rc, uc = b.c, b.rc, b.uc
+        turned_to = -self._dir
         self._restart_fit()
         if disturbed:
             self._disturbed = True
         self._first(c, rc, uc)
+        if (not disturbed and self._profile_on and not self.heater and turned_to != 0
+                and self._toward_profile_e(turned_to)):
+            self._dir = turned_to  # the passive profile's direction: known from the turn on
 
     def _turned(self, yb):
         """Track the extreme of the block means; True on a retreat beyond TURN_C.
@@ -389,8 +393,10 @@ class ThermalEstimator(Answer):
         explains it), never a restart.
         """
         cut = 4.0 * self.noise.sd
-        if cut < TURN_C:
-            cut = TURN_C
+        if cut < TURN_C and not (self._profile_on and not self.heater and self._dir != 0
+                                 and self._toward_profile_e(-self._dir)):
+            cut = TURN_C  # (a passive profile's liquid only moves towards its E: a
+            #   retreat that way is the probe caught up, seen at 4 noise sd)
         if self._dir == 0:
             if yb - self._ext > cut:
                 self._dir = 1
@@ -410,6 +416,12 @@ class ThermalEstimator(Answer):
             self._ext = yb
             return False
         return True
+
+    def _toward_profile_e(self, direction):
+        """True when moving in ``direction`` (+1 / -1) goes towards the passive profile's
+        equilibrium (the reference, known or the prior, plus its offset)."""
+        r = self.blocks.rc * _INV if self._known else self._prior_r
+        return (r + self._profile.eq_offset_c - self._ext) * direction > 0.0
 
     def _solve(self):
         """Priors for this block, then the regression's solve (see the module docstring).
@@ -486,12 +498,16 @@ class ThermalEstimator(Answer):
             return t
         return time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
 
-    def _profile_law_s(self, gap_c, level_c, slope_c_per_s):
-        """Seconds under the profile's power law (passive liquids), or None."""
+    def _profile_law_s(self, gap_c, level_c, slope_c_per_s, slope_rel_var=0.0):
+        """Seconds under the profile's power law (passive liquids), or None.
+
+        ``slope_rel_var``: the fitted slope's relative variance (see
+        :meth:`tinytherm.profile.VesselProfile.law_s`; a zero slope: the
+        typical law)."""
         if not self._profile_on or self.heater:
             return None
         r = self.blocks.rc * _INV if self.inputs.known() else self._prior_r
-        return self._profile.law_s(gap_c, level_c, slope_c_per_s, r)
+        return self._profile.law_s(gap_c, level_c, slope_c_per_s, r, slope_rel_var)
 
     # ------------------------------------------------------------ save/restore
     def save(self):

@@ -278,23 +278,37 @@ class VesselProfile:
         return (dist, sd if sd > 0.05 else 0.05, kp, s2 / (kp * kp * rel * rel), gp,
                 s2 / (gp * gp * rel_g * rel_g) if gp != 0.0 else s2)
 
-    def law_s(self, gap_c, level_c, slope_c_per_s, ambient_c):
+    def law_s(self, gap_c, level_c, slope_c_per_s, ambient_c, slope_rel_var=0.0):
         """Seconds to move ``gap_c`` (deg C) from ``level_c`` under this power law, or None.
 
         ``dT/dt = -a |T - E|^n sign(T - E)`` with ``E = ambient_c +
-        eq_offset_c`` and ``a`` such that the slope at ``level_c`` is the
-        fitted ``slope_c_per_s``: the profile gives the shape, the data the
-        scale. None when the liquid moves away from E or the target is not
-        between the level and E.
+        eq_offset_c``: the profile gives the shape, and the scale of ``a``
+        is this liquid's: the ratio ``r`` of the fitted ``slope_c_per_s`` to
+        the typical law's slope at ``level_c``, shrunk towards 1 by precision
+        (the host's profile model does the same)::
+
+            ln r' = ln r * w / (w + 1 / rate_log_sd^2),   w = 1 / slope_rel_var
+
+        ``slope_rel_var``: the relative variance of the fitted slope (0: the
+        data's scale alone; ``inf`` or a zero slope: the typical law alone).
+        None when the liquid moves away from E or the target is not between
+        the level and E.
         """
         e = ambient_c + self.eq_offset_c
         d0 = level_c - e
-        if d0 == 0.0 or slope_c_per_s * d0 >= 0.0 or (d0 + gap_c) * d0 <= 0.0:
+        if d0 == 0.0 or slope_c_per_s * d0 > 0.0 or (d0 + gap_c) * d0 <= 0.0:
             return None
         t = self.time_to_target_s(level_c, level_c + gap_c, e)
-        if t is None:
-            return None
-        return t * self.rate_at(d0) * d0 / -slope_c_per_s
+        if t is None or slope_c_per_s == 0.0:
+            return t
+        ratio = -slope_c_per_s / (self.rate_at(d0) * d0)  # this liquid's rate / the typical
+        if slope_rel_var > 0.0:
+            sd = self.rate_log_sd if self.rate_log_sd > 0.02 else 0.02
+            try:
+                ratio = math.exp(math.log(ratio) / (1.0 + slope_rel_var / (sd * sd)))
+            except (ValueError, OverflowError):
+                return t
+        return t / ratio
 
     def log_sd(self, eta_s):
         """The sd of ln(actual / predicted) its table gives at ``eta_s`` seconds (>= 0.05)."""
