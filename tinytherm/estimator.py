@@ -39,8 +39,7 @@ import math
 from tinytherm import blob as bl
 from tinytherm import status as st
 from tinytherm import answer, state
-from tinytherm.answer import (AUDIT_PRIOR_VAR, Answer, Audits, normal_quantile,
-                              time_to_target_from_slope_s)
+from tinytherm.answer import Answer, Audits, normal_quantile, time_to_target_from_slope_s
 from tinytherm.change import ChangeDetector
 from tinytherm.crc import crc32
 from tinytherm.fit import MAX_BLOCK_READINGS, SCALE, BlockSums, Inputs, Noise, Regression
@@ -481,7 +480,7 @@ class ThermalEstimator(Answer):
             if self._profile_on and not self.heater and a.n >= PROFILE_MISMATCH_N:
                 # its own spread at that horizon and what an audit of a right law shows
                 own = self._profile.log_sd(a.horizon_s(age))
-                if a.data_var() > PROFILE_MISMATCH_VAR * (own * own + AUDIT_PRIOR_VAR):
+                if a.data_var() > PROFILE_MISMATCH_VAR * (own * own + answer.AUDIT_PRIOR_VAR):
                     # its forecasts fail on this liquid: another vessel's profile
                     self._profile_on = False
                     self.profile_reason = PROFILE_REJECTED
