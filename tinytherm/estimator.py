@@ -65,6 +65,7 @@ PROFILE_HEATER_MISMATCH = 100  # profile_reason: a profile for the other heater 
 PROFILE_REJECTED = 101    # profile_reason: dropped, its forecasts failed on this liquid
 PROFILE_MISMATCH_VAR = 4.0  # dropped when the audits' error variance exceeds this many
 PROFILE_MISMATCH_N = 3      # times its own, over at least this many checks
+PROFILE_MISMATCH_Z = 4.0    # or when this liquid's rate lies this many sds from the profile's
 _INV = 1.0 / SCALE
 _SCALE_F = float(SCALE)
 _NAN = math.nan
@@ -419,8 +420,7 @@ class ThermalEstimator(Answer):
     def _toward_profile_e(self, direction):
         """True when moving in ``direction`` (+1 / -1) goes towards the passive profile's
         equilibrium (the reference, known or the prior, plus its offset)."""
-        r = self.blocks.rc * _INV if self._known else self._prior_r
-        return (r + self._profile.eq_offset_c - self._ext) * direction > 0.0
+        return (self._profile_r() + self._profile.eq_offset_c - self._ext) * direction > 0.0
 
     def _solve(self):
         """Priors for this block, then the regression's solve (see the module docstring).
@@ -475,17 +475,32 @@ class ThermalEstimator(Answer):
     def _audit(self):
         age = (self.blocks.age_ms - self.blocks.it) * 0.001  # at the block close
         need = 4.0 * math.sqrt(self.reg.var_level()) + 0.5 * self.guard.quantum_c
+        passive = self._profile_on and not self.heater
+        if passive and self._slope != 0.0:
+            # this liquid's rate against the profile's spread of rates (the fit is
+            # established here: the audits run from DETECT_MIN_BLOCKS blocks on)
+            reg = self.reg
+            gk = self.blocks.cb * _INV - self._level  # d slope / d k at the level
+            var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
+            z = self._profile.rate_z(self._level, self._slope, self._profile_r(),
+                                     var_slope / (self._slope * self._slope))
+            if z is not None and z > PROFILE_MISMATCH_Z:
+                self._reject_profile()
+                return
         for a in self.audits.a:
             a.check(self, age, self._level, self._slope, self.reg.k, need)
-            if self._profile_on and not self.heater and a.n >= PROFILE_MISMATCH_N:
+            if passive and a.n >= PROFILE_MISMATCH_N:
                 # its own spread at that horizon and what an audit of a right law shows
                 own = self._profile.log_sd(a.horizon_s(age))
                 if a.data_var() > PROFILE_MISMATCH_VAR * (own * own + answer.AUDIT_PRIOR_VAR):
-                    # its forecasts fail on this liquid: another vessel's profile
-                    self._profile_on = False
-                    self.profile_reason = PROFILE_REJECTED
-                    self._solve()
+                    self._reject_profile()
                     return
+
+    def _reject_profile(self):
+        """Its forecasts or its rate fail on this liquid (another vessel's profile)."""
+        self._profile_on = False
+        self.profile_reason = PROFILE_REJECTED
+        self._solve()
 
     # ``predict(target_c, approach=0)``: the answer part's rules, as a method
     predict = answer.predict
@@ -505,8 +520,13 @@ class ThermalEstimator(Answer):
         typical law)."""
         if not self._profile_on or self.heater:
             return None
-        r = self.blocks.rc * _INV if self.inputs.known() else self._prior_r
-        return self._profile.law_s(gap_c, level_c, slope_c_per_s, r, slope_rel_var)
+        return self._profile.law_s(gap_c, level_c, slope_c_per_s, self._profile_r(),
+                                   slope_rel_var)
+
+    def _profile_r(self):
+        """The reference the profile's equilibrium is offset from, deg C (the known or
+        measured ambient, else the ambient prior)."""
+        return self.blocks.rc * _INV if self.inputs.known() else self._prior_r
 
     # ------------------------------------------------------------ save/restore
     def save(self):

@@ -310,6 +310,25 @@ class VesselProfile:
                 return t
         return t / ratio
 
+    def rate_z(self, level_c, slope_c_per_s, ambient_c, slope_rel_var):
+        """How far this liquid's rate lies from the profile's, in sds (>= 0), or None.
+
+        ``|ln r| / sqrt(rate_log_sd^2 + slope_rel_var)`` with ``r`` the ratio
+        of the fitted ``slope_c_per_s`` (deg C/s, relative variance
+        ``slope_rel_var``) at ``level_c`` to the typical law's slope there
+        (E = ``ambient_c`` + eq_offset_c); None when the liquid moves away
+        from E (or sits on it).
+        """
+        d0 = level_c - (ambient_c + self.eq_offset_c)
+        if d0 == 0.0 or slope_c_per_s * d0 >= 0.0:
+            return None
+        sd = self.rate_log_sd if self.rate_log_sd > 0.02 else 0.02
+        try:
+            return abs(math.log(-slope_c_per_s / (self.rate_at(d0) * d0))) / math.sqrt(
+                sd * sd + slope_rel_var)
+        except (ValueError, OverflowError, ZeroDivisionError):
+            return None
+
     def log_sd(self, eta_s):
         """The sd of ln(actual / predicted) its table gives at ``eta_s`` seconds (>= 0.05)."""
         lo, hi = self.interval_log_bounds(eta_s)
