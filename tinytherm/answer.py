@@ -434,18 +434,6 @@ class Audit:
         h = self.fraction * age_s
         return h if h > self.min_s else self.min_s
 
-    def data_var(self):
-        """The running mean of squared log errors without the prior's share, (log time)^2.
-
-        ``var`` is ``(AUDIT_PRIOR_VAR + sum e^2) / (n + 1)`` until ``n`` reaches
-        :data:`AUDIT_MEMORY` (then a running mean whose prior share keeps
-        shrinking); 0.0 before any check.
-        """
-        if self.n == 0:
-            return 0.0
-        v = ((self.n + 1) * self.var - AUDIT_PRIOR_VAR) / self.n
-        return v if v > 0.0 else 0.0
-
     def due(self, age_s):
         return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
 

@@ -62,10 +62,8 @@ ANCHOR_GAIN = 0.5         # weight of the newest block residual in the anchor
 MISMATCH_C = 0.03         # deg C: model-mismatch allowance of a block innovation
 MAX_GAP_S = 900.0         # s: a longer gap is counted as a long gap (the guard's counts)
 PROFILE_HEATER_MISMATCH = 100  # profile_reason: a profile for the other heater mode
-PROFILE_REJECTED = 101    # profile_reason: dropped, its forecasts failed on this liquid
-PROFILE_MISMATCH_VAR = 4.0  # dropped when the audits' error variance exceeds this many
-PROFILE_MISMATCH_N = 3      # times its own, over at least this many checks
-PROFILE_MISMATCH_Z = 4.0    # or when this liquid's rate lies this many sds from the profile's
+PROFILE_REJECTED = 101    # profile_reason: dropped, this liquid's rate is another vessel's
+PROFILE_MISMATCH_Z = 4.0    # dropped when this liquid's rate lies this many sds from the profile's
 _INV = 1.0 / SCALE
 _SCALE_F = float(SCALE)
 _NAN = math.nan
@@ -475,10 +473,11 @@ class ThermalEstimator(Answer):
     def _audit(self):
         age = (self.blocks.age_ms - self.blocks.it) * 0.001  # at the block close
         need = 4.0 * math.sqrt(self.reg.var_level()) + 0.5 * self.guard.quantum_c
-        passive = self._profile_on and not self.heater
-        if passive and self._slope != 0.0:
+        if self._profile_on and not self.heater and self._slope != 0.0:
             # this liquid's rate against the profile's spread of rates (the fit is
-            # established here: the audits run from DETECT_MIN_BLOCKS blocks on)
+            # established here: the audits run from DETECT_MIN_BLOCKS blocks on). The
+            # audits' errors judge no profile: a probe catching up after a pour, or a
+            # heater's start-up, fails any law's short forecasts for a while.
             reg = self.reg
             gk = self.blocks.cb * _INV - self._level  # d slope / d k at the level
             var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
@@ -489,15 +488,9 @@ class ThermalEstimator(Answer):
                 return
         for a in self.audits.a:
             a.check(self, age, self._level, self._slope, self.reg.k, need)
-            if passive and a.n >= PROFILE_MISMATCH_N:
-                # its own spread at that horizon and what an audit of a right law shows
-                own = self._profile.log_sd(a.horizon_s(age))
-                if a.data_var() > PROFILE_MISMATCH_VAR * (own * own + answer.AUDIT_PRIOR_VAR):
-                    self._reject_profile()
-                    return
 
     def _reject_profile(self):
-        """Its forecasts or its rate fail on this liquid (another vessel's profile)."""
+        """Its rate fails on this liquid (another vessel's profile)."""
         self._profile_on = False
         self.profile_reason = PROFILE_REJECTED
         self._solve()
