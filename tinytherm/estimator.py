@@ -31,8 +31,18 @@ the saved state:
    passes a drinking target on its way up while the drink is hotter.
 
 A vessel profile (:mod:`tinytherm.profile`, imported only when given) sets
-the priors and the answer's law. Fixed state, no per-reading containers;
-runs unchanged on CPython and MicroPython.
+the priors (rate, heater gain, and where the liquid levels off: with a
+heater, with the heat at the latest duty) and the interval (its calibrated
+table of ln(actual / predicted) around the answer). For a passive liquid it
+also gives the answer's law, its power law with this liquid's rate ratio
+``r`` (fitted slope over the typical law's slope) shrunk towards 1 by
+precision, ``ln r' = ln r * w / (w + 1 / rate_log_sd^2)`` with ``w`` the
+fitted slope's relative precision; a retreat towards its equilibrium by 4
+noise sd is the turn after a pour (the probe has caught up) and sets the
+direction, and until the new fit has its own answer the law at its typical
+rate answers. It is dropped (``PROFILE_REJECTED``) when the fitted rate lies
+more than :data:`PROFILE_MISMATCH_Z` sds from its own. Fixed state, no
+per-reading containers; runs unchanged on CPython and MicroPython.
 """
 import math
 
