@@ -308,14 +308,16 @@ def _arrived(est, target, m, approach, age_ms):
     """Arrival, the reading being on the line: the block means or the fitted
     level now have passed the target in the direction ``m``, in a fit old
     enough (and, rising with no direction given and no heater on, old
-    enough to be no probe warming up, still rising, and not levelling off:
-    a probe that has warmed to the drink, bent through more than
-    ``RISE_BEND`` time constants of its fit, or turned is no arrival)."""
+    enough to be no probe warming up, still rising by the fit and by the
+    latest reading (at most 3 noise sd below the extreme), and not levelling
+    off: a probe that has warmed to the drink, bent through more than
+    ``RISE_BEND`` time constants of its fit, or begun to fall is no arrival)."""
     if age_ms < _ARRIVE_MIN_MS:
         return False
     if m > 0 and approach == 0 and not (est.heater and est.blocks.uc > 0) and (
             age_ms < _RISE_ARRIVE_MIN_MS or not est._slope > 0.0
-            or est.reg.k * age_ms > RISE_BEND * 1000.0):
+            or est.reg.k * age_ms > RISE_BEND * 1000.0
+            or est.blocks.c * _INV < est._ext - 3.0 * est.noise.sd):
         return False  # (a rise the heater drives is a real one)
     if (est._ext >= target) if m > 0 else (est._ext <= target):
         return True
