@@ -123,9 +123,9 @@ def test_sparse_solve_ivp_traces_answer_from_the_third_reading_with_sane_interva
                         inside += low <= crossing - t <= high
                         widths.append(high / low)
     # an answer on at least 95 % of the readings from the third to the crossing, and
-    # 80 % intervals that cover (on these exact first-order curves they are on the wide
-    # side: 0.985 when this test was written) but are no union of everything: high / low at most 4 in the
-    # median (a factor 2 either side)
+    # 80 % intervals that cover (on these exact first-order curves they are on the
+    # wide side: 0.985 when this test was written) but are no union of everything:
+    # high / low at most 4 in the median (a factor 2 either side)
     assert answered >= 0.95 * rows_after_third, (answered, rows_after_third)
     assert 0.70 <= inside / shown < 1.0, (inside, shown)
     assert float(np.median(widths)) <= 4.0, float(np.median(widths))

@@ -44,6 +44,8 @@ RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival without a direction before thi
 RISE_BEND = 3.0           # no rising arrival without a direction in a fit whose curve has bent
 #   through more than this many of its own time constants (k x age): it levels off, as a
 #   probe warming to a poured drink does (leave-one-family-out choice, docs/benchmarks.md)
+RISE_DROP_SD = 3.0        # ... nor once the latest reading is this many noise sd below the
+#   extreme of the block means (a probe past its peak while the fit still rises)
 MAX_REL_SD = 5.0          # an answer whose ln-time sd exceeds this stays SETTLING
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
 PROFILE_Z80 = 1.2815515655446004  # a profile's table holds 10 % / 90 % points
@@ -309,7 +311,7 @@ def _arrived(est, target, m, approach, age_ms):
     level now have passed the target in the direction ``m``, in a fit old
     enough (and, rising with no direction given and no heater on, old
     enough to be no probe warming up, still rising by the fit and by the
-    latest reading (at most 3 noise sd below the extreme), and not levelling
+    latest reading (at most ``RISE_DROP_SD`` noise sd below the extreme), and not levelling
     off: a probe that has warmed to the drink, bent through more than
     ``RISE_BEND`` time constants of its fit, or begun to fall is no arrival)."""
     if age_ms < _ARRIVE_MIN_MS:
@@ -317,7 +319,7 @@ def _arrived(est, target, m, approach, age_ms):
     if m > 0 and approach == 0 and not (est.heater and est.blocks.uc > 0) and (
             age_ms < _RISE_ARRIVE_MIN_MS or not est._slope > 0.0
             or est.reg.k * age_ms > RISE_BEND * 1000.0
-            or est.blocks.c * _INV < est._ext - 3.0 * est.noise.sd):
+            or est.blocks.c * _INV < est._ext - RISE_DROP_SD * est.noise.sd):
         return False  # (a rise the heater drives is a real one)
     if (est._ext >= target) if m > 0 else (est._ext <= target):
         return True
