@@ -98,6 +98,7 @@ class Answer:
         self._for_age_ms = 0
         self._arrive_dir = 0    # +1 / -1: arrival once the reading is >= / <= arrive_c
         self._arrive_c = 0      # counts
+        self._hold_c = 0        # counts: a reading back beyond it (a top-up) ends an arrival
 
     def clear(self, code):
         self.status = code
@@ -180,6 +181,8 @@ def predict(self, target_c, approach=0):
         m = self._arrive_dir
         a = self._arrive_c
         reached = m != 0 and ((b.c >= a and b.cq >= a) if m > 0 else (b.c <= a and b.cq <= a))
+        if reached and (b.c - self._hold_c) * m < 0:
+            reached = False  # back beyond the turn threshold: a top-up, not an arrival
         if self.status == st.ARRIVED:
             if reached:
                 return self.status
@@ -257,6 +260,10 @@ def _work_out(est, target, approach):
             tol = ARRIVE_TOL_C
         est._arrive_dir = m
         est._arrive_c = to_counts(target - m * tol)
+        # a reading back beyond the extreme by 4 noise sd (at least ARRIVE_TOL_C) ends an
+        # arrival before the fit sees a turn: the lagging probe rising after a top-up
+        hold = 4.0 * est.noise.sd
+        est._hold_c = to_counts(est._ext - m * (hold if hold > ARRIVE_TOL_C else ARRIVE_TOL_C))
         if (b.c - est._arrive_c) * m >= 0 and _arrived(est, target, m, approach, b.age_ms):
             if (b.cq - est._arrive_c) * m >= 0:
                 est.arrive()
@@ -314,8 +321,8 @@ def _arrived(est, target, m, approach, age_ms):
     latest reading (at most ``RISE_DROP_SD`` noise sd below the extreme), and not levelling
     off: a probe that has warmed to the drink, bent through more than
     ``RISE_BEND`` time constants of its fit, or begun to fall is no arrival)."""
-    if age_ms < _ARRIVE_MIN_MS:
-        return False
+    if age_ms < _ARRIVE_MIN_MS or (est.blocks.c - est._hold_c) * m < 0:
+        return False  # (young, or back beyond the turn threshold: a top-up's probe rising)
     if m > 0 and approach == 0 and not (est.heater and est.blocks.uc > 0) and (
             age_ms < _RISE_ARRIVE_MIN_MS or not est._slope > 0.0
             or est.reg.k * age_ms > RISE_BEND * 1000.0
