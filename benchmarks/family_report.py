@@ -90,6 +90,18 @@ def best_baseline(results, family=None):
     return best
 
 
+def worse_than_baseline(results, method):
+    """``"family err > baseline err"`` for every family where ``method``'s median
+    relative error is above the family's best baseline (or it never answers)."""
+    worse = []
+    for f in fam.FAMILIES:
+        fs = summary_of(results, method, f)["median_rel_error"]
+        fb = best_baseline(results, f)
+        if fb is not None and (fs is None or fs > fb[1]):
+            worse.append("%s %s > %s %s" % (f, _f(fs), fb[0], _f(fb[1])))
+    return worse
+
+
 def target_marks(results, method, real=None):
     """Lines marking issue 9's targets met / MISSED for one estimator method."""
     def mark(ok):
@@ -102,12 +114,7 @@ def target_marks(results, method, real=None):
     lines.append("- median rel err %s <= %.1f x best baseline %s (%s) = %s: **%s**" % (
         _f(med), TARGET_MEDIAN_RATIO, _f(bb[1] if bb else None), bb[0] if bb else "-",
         _f(TARGET_MEDIAN_RATIO * bb[1] if bb else None), mark(ok)))
-    worse = []
-    for f in fam.FAMILIES:
-        fs = summary_of(results, method, f)["median_rel_error"]
-        fb = best_baseline(results, f)
-        if fb is not None and (fs is None or fs > fb[1]):
-            worse.append("%s %s > %s %s" % (f, _f(fs), fb[0], _f(fb[1])))
+    worse = worse_than_baseline(results, method)
     lines.append("- no family worse than its best baseline: **%s**%s" % (
         mark(not worse), (" (" + "; ".join(worse) + ")") if worse else ""))
     ne = s["no_estimate_fraction"]
@@ -270,12 +277,7 @@ def _dense_goals(dense, pair):
     lines.append("- median rel err %s = %s x the best baseline (%s %s), goal <= %.1f x: **%s**" % (
         _f(med), _f(med / bb[1] if med is not None and bb and bb[1] else None, "%.2f"),
         bb[0] if bb else "-", _f(bb[1] if bb else None), GOAL_MEDIAN_RATIO, _mark(ok)))
-    worse = []
-    for f in fam.FAMILIES:
-        fs = summary_of(dense, default, f)["median_rel_error"]
-        fb = best_baseline(dense, f)
-        if fb is not None and (fs is None or fs > fb[1]):
-            worse.append("%s %s > %s %s" % (f, _f(fs), fb[0], _f(fb[1])))
+    worse = worse_than_baseline(dense, default)
     lines.append("- no family worse than its best baseline: **%s**%s" % (
         _mark(not worse), (" (" + "; ".join(worse) + ")") if worse else ""))
     ne = s["no_estimate_fraction"]

@@ -1,22 +1,10 @@
 """The families benchmark's tables and goal marks (benchmarks/family_report.py), on results
 made up so that each goal of issue 17 is met or missed by a known margin (common practice,
 no source: the marks are arithmetic on the figures)."""
-import importlib.util
-import os
 
 import pytest
 
 from host_sim.sim import families as F
-
-ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
-
-
-def _bench():
-    spec = importlib.util.spec_from_file_location(
-        "bench_families", os.path.join(ROOT, "benchmarks", "families.py"))
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    return mod
 
 
 def _metric(err, no_est=0.0, coverage=0.8, early=0, third=0.0):
@@ -39,38 +27,36 @@ PLAN = [("core[approach=0]", "core", "x:Y", {"approach": 0}),
         ("core[approach=1]", "core", "x:Y", {"approach": 1})]
 
 
-def test_approach_pairs_match_default_and_approach_labels():
-    rep = _bench()
-    assert rep.approach_pairs(PLAN) == [("core[approach=0]", "core[approach=1]")]
-    assert rep.approach_pairs([("core", "core", "x:Y", {})]) == [("core", None)]
+def test_approach_pairs_match_default_and_approach_labels(families_bench):
+    assert families_bench.approach_pairs(PLAN) == [("core[approach=0]", "core[approach=1]")]
+    assert families_bench.approach_pairs([("core", "core", "x:Y", {})]) == [("core", None)]
     plan = [("c[approach=0,k=1]", "c", "", {"approach": 0, "k": 1}),
             ("c[approach=1,k=1]", "c", "", {"approach": 1, "k": 1}),
             ("c[approach=0,k=2]", "c", "", {"approach": 0, "k": 2})]
-    assert rep.approach_pairs(plan) == [("c[approach=0,k=1]", "c[approach=1,k=1]"),
+    assert families_bench.approach_pairs(plan) == [("c[approach=0,k=1]", "c[approach=1,k=1]"),
                                         ("c[approach=0,k=2]", None)]
 
 
-def test_every_goal_met():
-    rep = _bench()
+def test_every_goal_met(families_bench):
     dense = _results(F.FAMILIES, lambda f: _metric(0.1), lambda f: _metric(0.1))
     sparse = _results(F.sparse_families(), lambda f: _metric(0.1, third=0.05),
                       lambda f: _metric(0.1, third=0.05), sampling="sparse")
-    lines = rep.issue17_goals(dense, sparse, ("core[approach=0]", "core[approach=1]"))
+    lines = families_bench.issue17_goals(dense, sparse, ("core[approach=0]", "core[approach=1]"))
     assert len(lines) == 10
     assert all(line.endswith("**met**") for line in lines), lines
 
 
-def test_each_goal_missed_names_its_family():
-    rep = _bench()
-    # the median is 0.22 (0.55 x the best baseline's 0.4); room has no answer on 12 % of its rows and coverage
-    # 0.9; topup arrives early with approach given; wort has 11 % no answer on the sparse grid
+def test_each_goal_missed_names_its_family(families_bench):
+    # the median is 0.22 (0.55 x the best baseline's 0.4); room has no answer on 12 % of
+    # its rows and coverage 0.9; topup arrives early with approach given; wort has 11 %
+    # no answer on the sparse grid
     dense = _results(F.FAMILIES,
                      lambda f: _metric(0.22, no_est=0.12 if f == "room" else 0.0,
                                        coverage=0.9 if f == "room" else 0.8),
                      lambda f: _metric(0.1, early=4 if f == "topup" else 0))
     sparse = _results(F.sparse_families(), lambda f: _metric(0.1, third=0.11 if f == "wort" else 0.0),
                       lambda f: _metric(0.1), sampling="sparse")
-    lines = rep.issue17_goals(dense, sparse, ("core[approach=0]", "core[approach=1]"))
+    lines = families_bench.issue17_goals(dense, sparse, ("core[approach=0]", "core[approach=1]"))
     text = "\n".join(lines)
     assert "median rel err 0.220 = 0.55 x the best baseline (slope 0.400)" in lines[0]
     assert lines[0].endswith("**MISSED**")
@@ -85,14 +71,13 @@ def test_each_goal_missed_names_its_family():
     # a family worse than its best baseline is named with both figures
     dense[0]["metrics"]["core[approach=0]"]["median_rel_error"] = 0.45
     pair = ("core[approach=0]", "core[approach=1]")
-    assert "mug 0.450 > slope 0.400" in rep.issue17_goals(dense, None, pair)[1]
-    assert "not run" in rep.issue17_goals(dense, None, ("core[approach=0]", None))[-1]
+    assert "mug 0.450 > slope 0.400" in families_bench.issue17_goals(dense, None, pair)[1]
+    assert "not run" in families_bench.issue17_goals(dense, None, ("core[approach=0]", None))[-1]
 
 
-def test_tables_show_default_beside_approach_and_the_sparse_figures():
-    rep = _bench()
+def test_tables_show_default_beside_approach_and_the_sparse_figures(families_bench):
     dense = _results(F.FAMILIES, lambda f: _metric(0.2), lambda f: _metric(0.1, early=2))
-    lines = rep.default_and_approach_table(dense, ("core[approach=0]", "core[approach=1]"),
+    lines = families_bench.default_and_approach_table(dense, ("core[approach=0]", "core[approach=1]"),
                                            F.FAMILIES)
     room = [line for line in lines if line.startswith("| room |")][0]
     assert "0.200 / 0.100" in room and "slope 0.400" in room and "0.50x" in room
@@ -100,7 +85,7 @@ def test_tables_show_default_beside_approach_and_the_sparse_figures():
     assert lines[-1].startswith("| **all** | 8 |")
     sparse = _results(F.sparse_families(), lambda f: _metric(0.2, third=0.25),
                       lambda f: _metric(0.1), sampling="sparse")
-    table = rep.sparse_table(sparse, ["core[approach=0]"], lambda r: r["family"],
+    table = families_bench.sparse_table(sparse, ["core[approach=0]"], lambda r: r["family"],
                              F.sparse_families(), "family")
     assert len(table) == 2 + len(F.sparse_families()) + 1
     assert "| topup | core[approach=0] | 1 | 0.200 | 0.200 | 0.00 | 0.25 | 3 |" in table[-2]

@@ -6,9 +6,6 @@ also checks every family against scipy's implicit Radau solver); the mixing
 of two volumes of one liquid by an energy balance, ``T = (m1 T1 + m2 T2) /
 (m1 + m2)`` (common practice, no source); numpy for the expected counts.
 """
-import importlib.util
-import math
-import os
 
 import numpy as np
 import pytest
@@ -17,16 +14,7 @@ from host_sim.sim import drink_families, families as F, family_tables
 from host_sim.sim.physics import crossing_by_brentq
 from host_sim.replay.metrics import early_arrivals, trace_metrics
 
-ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 ORIGINAL = ("mug", "pot", "bath", "kettle", "wort", "fridge")
-
-
-def _bench():
-    spec = importlib.util.spec_from_file_location(
-        "bench_families", os.path.join(ROOT, "benchmarks", "families.py"))
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    return mod
 
 
 def _draws(cls, n=300):
@@ -202,19 +190,18 @@ class _NaiveArrival:
         self.eta_low_s, self.eta_high_s = self.eta_s, self.eta_s
 
 
-def test_early_arrival_after_a_pour_is_judged_by_the_liquid(monkeypatch):
+def test_early_arrival_after_a_pour_is_judged_by_the_liquid(monkeypatch, families_bench):
     ft = _topup_with_rising_probe()
     tr = ft.truth
-    bench = _bench()
     spec = "naive:Arrival"
-    monkeypatch.setitem(bench._CLASS_CACHE, spec, _NaiveArrival)
+    monkeypatch.setitem(families_bench._CLASS_CACHE, spec, _NaiveArrival)
     plan = [("naive", "naive", spec, {})]
     args = (ft.time_s, ft.temp_c, tr["target_c"], tr["crossing_time_s"], ft.clean_c,
             tr["noise_sd_c"], tr["direction"], plan)
-    by_liquid, _ = bench.score_all(*args, liquid_c=ft.liquid_c,
+    by_liquid, _ = families_bench.score_all(*args, liquid_c=ft.liquid_c,
                                    liquid_at_crossing_c=tr["liquid_at_crossing_c"],
                                    approach_start_s=tr["approach_start_s"])
-    by_probe, _ = bench.score_all(*args)
+    by_probe, _ = families_bench.score_all(*args)
     # rows after the last pour where the probe is still below the target: arrived, and early
     after = (ft.time_s > tr["approach_start_s"]) & (ft.temp_c <= tr["target_c"])
     margin = max(0.3, 3.0 * tr["noise_sd_c"])

@@ -174,8 +174,9 @@ def trace_metrics(time_s, eta_s, crossing_s, eta_low_s=None, eta_high_s=None,
     sensor signal per row, deg C), ``target_c`` (deg C) and ``noise_sd_c``
     (deg C) give ``early_arrival`` (a row count; see :func:`early_arrivals`);
     ``first_answer_reading`` and, with ``crossing_s``, ``no_estimate_from_third``
-    (:func:`answers_by_reading`). Without them these figures are None. ``approach_start_s``: where the approach starts
-    (seconds; default the first row), e.g. the last top-up.
+    (:func:`answers_by_reading`). Without them these figures are None.
+    ``approach_start_s``: where the approach starts (seconds; default the
+    first row), e.g. the last top-up.
     """
     keys = ("median_rel_error", "p90_rel_error", "time_to_trust", "coverage",
             "no_estimate_fraction", "early_arrival", "first_answer_s",

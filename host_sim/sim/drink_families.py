@@ -14,8 +14,9 @@
 - ``topup``: a hot drink in a mug [liquid, wall, liquid kg, probe], partly
   filled (40-80 %), cooling; after 4-70 min the user drinks some (20-60 %)
   and tops it up with hot liquid (70-98 C) to 70-100 % of the mug (adding at
-  least a tenth of it), sometimes (30 %) a second time 5-30 min later. The liquid jumps at once (mixing:
-  ``T = (m1 T1 + m2 T2) / (m1 + m2)``, equal specific heats); the probe, in
+  least a tenth of it), sometimes (30 %) a second time 5-30 min later. The
+  liquid jumps at once (mixing: ``T = (m1 T1 + m2 T2) / (m1 + m2)``, equal
+  specific heats); the probe, in
   the liquid with a first-order time constant of 5-90 s, rises after it, so
   it passes the drinking target on its way up while the liquid is far hotter.
   The truth's crossing is that of the final approach (after the last pour).
@@ -25,7 +26,7 @@ All numbers are our own estimates of such drinks, rooms and probes.
 import math
 
 from host_sim.sim import kinds
-from host_sim.sim.family_base import Family
+from host_sim.sim.family_base import Family, draw_mug_wall
 from host_sim.sim.physics import C_DRINK, MATERIALS, water_wall_coefficient
 
 AIR_QUANTA_C = (0.0625, 0.1, 0.5)
@@ -42,7 +43,10 @@ ROOM_VESSELS = {
 
 
 class RoomDrinkFamily(Family):
-    """Drink in a room or cabinet whose air cycles. State: liquid, container, probe, air sensor (C)."""
+    """Drink in a room or cabinet whose air cycles.
+
+    State: liquid, container, probe, air sensor (deg C).
+    """
 
     crossing_range_s = (300.0, 14400.0)
     sensor_index = 2
@@ -183,18 +187,7 @@ class TopUp(Family):
         p["fill_m"] = p["liquid_kg"] / 1000.0 / (math.pi * r * r)
         p["height_m"] = full_m * self.u(1.05, 1.2)
         p["max_fill_factor"] = 1.0 / p["first_fill"]       # the wetted wall grows to the brim
-        p["material"] = self.choice(("ceramic", "glass", "paper"), [0.6, 0.25, 0.15])
-        c, rho, k, eps, (th_lo, th_hi) = MATERIALS[p["material"]]
-        p["wall_m"] = self.u(th_lo, th_hi)
-        p["inner_area_m2"] = math.pi * r * r + 2.0 * math.pi * r * p["fill_m"]
-        p["outer_area_m2"] = math.pi * r * r + 2.0 * math.pi * (r + p["wall_m"]) * p["height_m"]
-        p["wall_kg"] = rho * p["wall_m"] * 0.5 * (p["inner_area_m2"] + p["outer_area_m2"]) * 1.3
-        p["wall_j_per_k"] = p["wall_kg"] * c
-        p["wall_half_r"] = 0.5 * p["wall_m"] / k
-        p["wall_eps"] = eps
-        p["preheated"] = self.chance(0.3)
-        frac = self.u(0.5, 0.95) if p["preheated"] else 0.0
-        p["wall0_c"] = p["room_c"] + frac * (p["pour_c"] - p["room_c"])
+        draw_mug_wall(self, p)
         p["lid"] = self.chance(0.3)
         p["lid_u"] = self.u(2.0, 6.0)             # W/(m^2 K), a plastic lid (own estimate)
         # the probe in the liquid, with its own first-order lag
@@ -239,4 +232,5 @@ class TopUp(Family):
         p = self.p
         return kinds.MugLiquid.from_params(
             p, c_liquid=C_DRINK, water_wall=water_wall_coefficient, outer_half_wall=True,
+            wall_j_per_k=p["wall_kg"] * p["wall_c_j_per_kg_k"],
             top_area_m2=math.pi * p["radius_m"] ** 2, top_length_m=p["radius_m"])

@@ -35,7 +35,7 @@ sensor signal, :attr:`FamilyTrace.clean_c`), ``liquid_c`` per row (the
 liquid's own temperature, :attr:`FamilyTrace.liquid_c`) and
 ``liquid_at_crossing_c`` (the liquid at the true crossing; an arrival shown
 while the liquid is still on the starting side of this value is early, see
-``benchmarks/families.py``), ``noise_sd_c`` (standard
+:mod:`host_sim.replay.metrics`), ``noise_sd_c`` (standard
 deviation of a reading's error: Gaussian noise and quantisation together,
 ``sqrt(sd^2 + q^2/12)``), ``gauss_sd_c``, ``quantum_c``,
 ``sample_interval_s``, ``has_heater_column``, ``has_ambient_column``,
@@ -93,11 +93,12 @@ class FamilyTrace:
     """One generated trace: columns (deg C, seconds), truth dict, optional dense physics.
 
     ``time_s``, ``temp_c``, ``clean_c`` (noise-free sensor signal per row),
-    ``liquid_c`` (the liquid's temperature per row, deg C) float arrays; ``ambient_c`` array or None; ``heater`` duty array or None;
-    ``truth`` dict (see module docstring). ``solution``, ``sensor_signal``
-    (callable, seconds -> deg C) and ``physics`` (the family instance with
-    ``rhs``, ``y0``, ``breaks``, ``mode0``) are present only when generated
-    with ``keep_solution=True`` (not cached).
+    ``liquid_c`` (the liquid's temperature per row, deg C) float arrays;
+    ``ambient_c`` array or None; ``heater`` duty array or None; ``truth``
+    dict (see module docstring). ``solution``, ``sensor_signal`` (callable,
+    seconds -> deg C) and ``physics`` (the family instance with ``rhs``,
+    ``y0``, ``breaks``, ``mode0``) are present only when generated with
+    ``keep_solution=True`` (not cached).
     """
 
     def __init__(self, family, seed, time_s, temp_c, clean_c, ambient_c, heater, truth,

@@ -6,6 +6,9 @@ scheduled events to ``breaks``), ``physics`` maps ``p`` onto a kind of
 :mod:`host_sim.sim.kinds`. The class attributes below tell the generator
 (:mod:`host_sim.sim.families`) how to sample and judge the trace.
 """
+import math
+
+from host_sim.sim.physics import MATERIALS
 from host_sim.sim.ranges import Draw
 from host_sim.sim.sensor import QUANTUM_C
 
@@ -70,3 +73,28 @@ class Family(Draw):
     def tau_ref_s(self, temp_c):
         """Loss time constant (s) of the liquid near ``temp_c``, or None if not defined."""
         return None
+
+
+def draw_mug_wall(draw, p):
+    """Draw a mug's wall into ``p`` (the mug and top-up families share it).
+
+    Needs ``radius_m``, ``fill_m``, ``height_m`` (m), ``room_c`` and ``pour_c``
+    (deg C) in ``p``; adds the material (ceramic, glass or paper), its
+    thickness, the wetted and outer areas, the wall's mass (a handle and a
+    base: 1.3 times the shell, own estimate), its specific heat, half its
+    conduction resistance, its emissivity, and a wall at room temperature or
+    preheated (30 %) towards the pour. ``draw``: a :class:`Draw`.
+    """
+    p["material"] = draw.choice(("ceramic", "glass", "paper"), [0.6, 0.25, 0.15])
+    c, rho, k, eps, (th_lo, th_hi) = MATERIALS[p["material"]]
+    p["wall_m"] = draw.u(th_lo, th_hi)
+    r = p["radius_m"]
+    p["inner_area_m2"] = math.pi * r * r + 2.0 * math.pi * r * p["fill_m"]
+    p["outer_area_m2"] = math.pi * r * r + 2.0 * math.pi * (r + p["wall_m"]) * p["height_m"]
+    p["wall_kg"] = rho * p["wall_m"] * 0.5 * (p["inner_area_m2"] + p["outer_area_m2"]) * 1.3
+    p["wall_c_j_per_kg_k"] = c
+    p["wall_half_r"] = 0.5 * p["wall_m"] / k
+    p["wall_eps"] = eps
+    p["preheated"] = draw.chance(0.3)
+    frac = draw.u(0.5, 0.95) if p["preheated"] else 0.0
+    p["wall0_c"] = p["room_c"] + frac * (p["pour_c"] - p["room_c"])

@@ -36,7 +36,7 @@ from host_sim.sim.physics import (C_ALUMINIUM, C_DRINK, C_STEEL, C_WATER, EPS_AL
                                   EPS_GLASS, EPS_STEEL, MATERIALS, set_mode, side_wall_loss_w,
                                   top_loss_w, water_wall_coefficient)
 from host_sim.sim.drink_families import RoomDrinkFamily, TopUp
-from host_sim.sim.family_base import Family
+from host_sim.sim.family_base import Family, draw_mug_wall
 
 # Order matters: a family's seed code is its place here, so new families are appended and
 # the traces of the older ones stay bit-identical.
@@ -71,19 +71,7 @@ class Mug(Family):
         p["radius_m"] = self.u(0.030, 0.045)
         p["fill_m"] = p["liquid_kg"] / 1000.0 / (math.pi * p["radius_m"] ** 2)
         p["height_m"] = p["fill_m"] * self.u(1.1, 1.35)
-        p["material"] = self.choice(("ceramic", "glass", "paper"), [0.6, 0.25, 0.15])
-        c, rho, k, eps, (th_lo, th_hi) = MATERIALS[p["material"]]
-        p["wall_m"] = self.u(th_lo, th_hi)
-        r = p["radius_m"]
-        p["inner_area_m2"] = math.pi * r * r + 2.0 * math.pi * r * p["fill_m"]
-        p["outer_area_m2"] = math.pi * r * r + 2.0 * math.pi * (r + p["wall_m"]) * p["height_m"]
-        p["wall_kg"] = rho * p["wall_m"] * 0.5 * (p["inner_area_m2"] + p["outer_area_m2"]) * 1.3
-        p["wall_c_j_per_kg_k"] = c
-        p["wall_half_r"] = 0.5 * p["wall_m"] / k
-        p["wall_eps"] = eps
-        p["preheated"] = self.chance(0.3)
-        frac = self.u(0.5, 0.95) if p["preheated"] else 0.0
-        p["wall0_c"] = p["room_c"] + frac * (p["pour_c"] - p["room_c"])
+        draw_mug_wall(self, p)
         p["lid"] = self.choice(("open", "lidded", "lid_off"), [0.5, 0.3, 0.2])
         p["lid_u"] = self.u(2.0, 6.0)                  # W/(m^2 K), plastic lid (own estimate)
         p["probe"] = self.choice(("middle", "near_wall", "outside"), [0.5, 0.3, 0.2])
