@@ -116,7 +116,7 @@ def main():
             continue
         # duty applied over the interval that ends with this reading
         est.update_ticks(temp_c, board.ticks_ms(), None, duty)
-        est.predict(SETPOINT_C)
+        est.predict(SETPOINT_C, 1)  # the bath heats to its setpoint: say so (no early "arrived")
         if phase == WAITING:
             wait_s = start_in_s(plan, temp_c, elapsed_s)
             if wait_s <= 0.0:

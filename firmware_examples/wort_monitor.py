@@ -101,7 +101,7 @@ def main():
                 est.update_ticks(wort_c, now)
             n += 1
             if n % REPORT_EVERY == 0:
-                est.predict(PITCH_C)
+                est.predict(PITCH_C, -1)  # wort is chilled down to its pitching temperature
                 print(report(est, sensor_c, skipped))
                 eta = est.eta_s
                 print("log t=%d temp=%.3f status=%s eta=%d skipped=%d crc=%d power_up=%d" % (

@@ -57,6 +57,11 @@ ARRIVE_MIN_S = 30.0       # s: no arrival in a fit younger than this
 RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival without a direction before this (probe lag)
 EQUILIBRIUM_SLACK = 0.1  # share of the distance to the fitted equilibrium it may be off
 #   (the families, all reachable, chose 0.4; 0.2 already answers a mug below a warm room)
+RISE_BEND = 3.0           # no rising arrival without a direction in a fit whose curve has bent
+#   through more than this many of its own time constants (k x age): it levels off, as a
+#   probe warming to a poured drink does (leave-one-family-out choice, docs/benchmarks.md)
+RISE_DROP_SD = 3.0        # ... nor once the latest reading is this many noise sd below the
+#   extreme of the block means (a probe past its peak while the fit still rises)
 MAX_REL_SD = 5.0          # an answer whose fit's own ln-time sd exceeds this stays SETTLING
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
 PROFILE_Z80 = 1.2815515655446004  # a profile's table holds 10 % / 90 % points
@@ -110,6 +115,7 @@ class Answer:
         self._for_age_ms = 0
         self._arrive_dir = 0    # +1 / -1: arrival once the reading is >= / <= arrive_c
         self._arrive_c = 0      # counts
+        self._hold_c = 0        # counts: a reading back beyond it (a top-up) ends an arrival
 
     def clear(self, code):
         self.status = code
@@ -190,7 +196,10 @@ def predict(self, target_c, approach=0):
         # the same block and question: count the answer down, unless the
         # latest reading has reached the arrival line
         m = self._arrive_dir
-        reached = m != 0 and (b.c >= self._arrive_c if m > 0 else b.c <= self._arrive_c)
+        a = self._arrive_c
+        reached = m != 0 and ((b.c >= a and b.cq >= a) if m > 0 else (b.c <= a and b.cq <= a))
+        if reached and (b.c - self._hold_c) * m < 0:
+            reached = False  # back beyond the turn threshold: a top-up, not an arrival
         if self.status == st.ARRIVED:
             if reached:
                 return self.status
@@ -220,7 +229,10 @@ def _work_out(est, target, approach):
     b = est.blocks
     est._for_age_ms = b.age_ms - b.it  # the answer is for the block close
     est._arrive_dir = 0
-    if b.readings < 3 or not reg.ok or target is None or not -1e4 <= target <= 1e4:
+    # three readings, or two that began the fit at a turn (the first reading of the
+    # approach was taken before it: the probe in the air before a pour)
+    if (b.readings < (2 if est._seeded else 3) or not reg.ok or target is None
+            or not -1e4 <= target <= 1e4):
         est.clear(st.GATHERING)
         if est.readings and not est._fresh:
             est.temp_est_c = b.c * _INV
@@ -258,15 +270,29 @@ def _work_out(est, target, approach):
         return  # moving away from how this product reaches its target
     gap = target - level
     age_s = b.age_ms * 0.001
-    if m != 0:
+    if m != 0 and d == m:
+        # (an arrival needs the fitted slope to agree with the block means: a spike or
+        # a wrong turn of the means is no arrival while the fit says the other way)
         # the arrival line: at most min(0.3 C, 3 noise sd) short of the target
         tol = 3.0 * est.noise.sd
         if tol > ARRIVE_TOL_C:
             tol = ARRIVE_TOL_C
         est._arrive_dir = m
         est._arrive_c = to_counts(target - m * tol)
+        # a reading back beyond the extreme by 4 noise sd (at least ARRIVE_TOL_C) ends an
+        # arrival before the fit sees a turn: the lagging probe rising after a top-up
+        hold = 4.0 * est.noise.sd
+        est._hold_c = to_counts(est._ext - m * (hold if hold > ARRIVE_TOL_C else ARRIVE_TOL_C))
         if (b.c - est._arrive_c) * m >= 0 and _arrived(est, target, m, approach, b.age_ms):
-            est.arrive()
+            if (b.cq - est._arrive_c) * m >= 0:
+                est.arrive()
+                return
+            # one reading on the line may be a spike: arriving now, confirmed by the next
+            est.status = st.TRACKING
+            est.eta_s = 0.0
+            est.eta_low_s = 0.0
+            est.eta_high_s = tol / (slope if slope > 0.0 else -slope) if slope != 0.0 else INF
+            est._for_gen = -2  # (from the latest reading: not counted down)
             return
     if gap * d <= 0.0:
         gap = target - y  # the level crossed, the readings not yet
@@ -357,12 +383,16 @@ def _arrived(est, target, m, approach, age_ms):
     """Arrival, the reading being on the line: the block means or the fitted
     level now have passed the target in the direction ``m``, in a fit old
     enough (and, rising with no direction given and no heater on, old
-    enough to be no probe warming up, and still rising: a probe that has
-    warmed to the drink and turned is no arrival)."""
-    if age_ms < _ARRIVE_MIN_MS:
-        return False
+    enough to be no probe warming up, still rising by the fit and by the
+    latest reading (at most ``RISE_DROP_SD`` noise sd below the extreme), and not levelling
+    off: a probe that has warmed to the drink, bent through more than
+    ``RISE_BEND`` time constants of its fit, or begun to fall is no arrival)."""
+    if age_ms < _ARRIVE_MIN_MS or (est.blocks.c - est._hold_c) * m < 0:
+        return False  # (young, or back beyond the turn threshold: a top-up's probe rising)
     if m > 0 and approach == 0 and not (est.heater and est.blocks.uc > 0) and (
-            age_ms < _RISE_ARRIVE_MIN_MS or not est._slope > 0.0):
+            age_ms < _RISE_ARRIVE_MIN_MS or not est._slope > 0.0
+            or est.reg.k * age_ms > RISE_BEND * 1000.0
+            or est.blocks.c * _INV < est._ext - RISE_DROP_SD * est.noise.sd):
         return False  # (a rise the heater drives is a real one)
     if (est._ext >= target) if m > 0 else (est._ext <= target):
         return True

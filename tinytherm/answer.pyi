@@ -7,6 +7,8 @@ ARRIVE_TOL_C: float
 ARRIVE_MIN_S: float
 RISE_ARRIVE_MIN_S: float
 EQUILIBRIUM_SLACK: float
+RISE_BEND: float
+RISE_DROP_SD: float
 MAX_REL_SD: float
 FAULT_AFTER: int
 PROFILE_Z80: float

@@ -67,7 +67,9 @@ SPAN_BLOCKS = 4.0         # the memory spans at least this many blocks (sparse r
 RATE_PRIOR_PER_S = 1.0 / 1800.0  # 1/s: sd of the loose prior on k (a line until the data bend)
 KNOWN_AMBIENT_SD_C = 2.0  # deg C: sd with a known or measured ambient (evaporation, a bent rate)
 TURN_C = 1.0              # deg C: a retreat from the extreme that restarts the fit
-DETECT_MIN_BLOCKS = 5     # blocks before the change detector listens
+DETECT_MIN_BLOCKS = 5     # blocks before the change detector listens (weighted), and readings
+#   before the noise is learnt and the audits start (counted: with readings minutes apart,
+#   a block each, the weighted count of a memory of SPAN_BLOCKS blocks stays near 4.5)
 ANCHOR_GAIN = 0.5         # weight of the newest block residual in the anchor
 MISMATCH_C = 0.03         # deg C: model-mismatch allowance of a block innovation
 MAX_GAP_S = 900.0         # s: a longer gap is counted as a long gap (the guard's counts)
@@ -198,6 +200,7 @@ class ThermalEstimator(Answer):
         self._blocks_done = 0               # blocks finished: the answer's cache key
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
         self._known = False         # an ambient was known at the latest block close
+        self._seeded = False        # the fit began with two readings at a turn (_begin_again)
         self.forget()
         self.clear(st.GATHERING)
 
@@ -313,16 +316,18 @@ class ThermalEstimator(Answer):
         xb = reg.x + b.sx / (n * 2000 * SCALE)
         yb = b.sy / (n * SCALE)
         vb = reg.v + b.sv / (n * 1000 * 1024) if heater else 0.0
-        if reg.ok and reg.nb >= DETECT_MIN_BLOCKS:
-            # innovation of the block mean against the fit's forecast
-            pred = reg.my + reg.s * tb - reg.k * xb + self._anchor
-            if heater:
-                pred += reg.g * vb
-            sd = math.sqrt(self.noise.var / n + 4.0 * reg.var_my + MISMATCH_C * MISMATCH_C)
-            if self.detector.update(yb - pred, sd):
-                self.changes += 1
-                self._begin_again(True)
-                return
+        if reg.ok and b.readings > DETECT_MIN_BLOCKS:
+            if reg.nb >= DETECT_MIN_BLOCKS:
+                # innovation of the block mean against the fit's forecast (weighted blocks:
+                # a sparse fit's forecast over minutes is no test of a jump)
+                pred = reg.my + reg.s * tb - reg.k * xb + self._anchor
+                if heater:
+                    pred += reg.g * vb
+                sd = math.sqrt(self.noise.var / n + 4.0 * reg.var_my + MISMATCH_C * MISMATCH_C)
+                if self.detector.update(yb - pred, sd):
+                    self.changes += 1
+                    self._begin_again(True)
+                    return
             self.noise.learn(b)
         # forgetting: time constant MEMORY_FRACTION x age, at least a few blocks
         dur = b.it * 0.001
@@ -371,7 +376,7 @@ class ThermalEstimator(Answer):
             self._level = reg.level() + self._anchor
             # slope at the level (the reference gap and duty are the closing reading's)
             self._slope = reg.s - reg.k * (self._level - b.cb * _INV)
-            if reg.nb >= DETECT_MIN_BLOCKS:
+            if b.readings >= DETECT_MIN_BLOCKS:
                 self._disturbed = False  # established again after a jump
                 if self.audits.any_due((b.age_ms - b.it) * 0.001):
                     self._pending = 2  # the audits with the next reading
@@ -379,17 +384,28 @@ class ThermalEstimator(Answer):
             self._slope = 0.0
         if self._turned(yb):
             self.turns += 1
-            self._begin_again(False)
+            self._begin_again(False, b.readings == 3)
 
-    def _begin_again(self, disturbed):
-        """Restart the fit from the latest reading (a jump or a turn)."""
+    def _begin_again(self, disturbed, from_previous=False):
+        """Restart the fit from the latest reading (a jump or a turn); ``from_previous``:
+        from the reading that closed the block before it, keeping both (a turn right
+        after the jump that set the direction: with readings minutes apart the new
+        approach began at that reading, the peak after a pour)."""
         b = self.blocks
         c, rc, uc = b.c, b.rc, b.uc
+        cp, ip = b.cp, b.ip
         turned_to = -self._dir
         self._restart_fit()
         if disturbed:
             self._disturbed = True
-        self._first(c, rc, uc)
+        if from_previous and ip > 0:
+            # (no heater: a turn with one restarts nothing; the reference over ip taken as now)
+            self._seeded = True
+            self._first(cp, rc, uc)
+            b.add(c, rc, uc, ip, 0, self.noise.clip)
+            self._close_block()
+        else:
+            self._first(c, rc, uc)
         if (not disturbed and self._profile_on and not self.heater and turned_to != 0
                 and self._toward_profile_e(turned_to)):
             self._dir = turned_to  # the passive profile's direction: known from the turn on
@@ -401,10 +417,14 @@ class ThermalEstimator(Answer):
         explains it), never a restart.
         """
         cut = 4.0 * self.noise.sd
-        if cut < TURN_C and not (self._profile_on and not self.heater and self._dir != 0
-                                 and self._toward_profile_e(-self._dir)):
-            cut = TURN_C  # (a passive profile's liquid only moves towards its E: a
-            #   retreat that way is the probe caught up, seen at 4 noise sd)
+        if cut < TURN_C and not (self.blocks.readings == 3 and self._dir != 0) and not (
+                self._profile_on and not self.heater and self._dir != 0
+                and self._toward_profile_e(-self._dir)):
+            # at least TURN_C, but for the retreat right after the jump that set the
+            # direction (a reading taken before a pour, then the drink cooling), and for
+            # a passive profile's liquid, which only moves towards its E (a retreat that
+            # way is the probe caught up, seen at 4 noise sd)
+            cut = TURN_C
         if self._dir == 0:
             if yb - self._ext > cut:
                 self._dir = 1
@@ -419,9 +439,11 @@ class ThermalEstimator(Answer):
         if (self._ext - yb) * self._dir <= cut:
             return False
         if self.heater:
-            # the heater turned it: a new direction, the same fit (it explains the turn)
-            self._dir = -self._dir
-            self._ext = yb
+            # the heater turned it: a new direction, the same fit (it explains the turn),
+            # once the fitted slope (duty included) agrees; before, it is a spike or noise
+            if self._slope * self._dir < 0.0:
+                self._dir = -self._dir
+                self._ext = yb
             return False
         return True
 

@@ -42,8 +42,8 @@ class BlockSums:
     """Integer sums of the open block and the latest reading (see the module docstring)."""
 
     # saved: block and noise counts, the 64-bit sums, the 32-bit ones
-    _FMT = "<HHB6q9i"
-    STATE_SIZE = 89
+    _FMT = "<HHB6q10i"
+    STATE_SIZE = 93
 
     def __init__(self):
         self.reset()
@@ -64,6 +64,10 @@ class BlockSums:
         self.g0 = 0         # reference gap G0, counts (the latest block's)
         self.u0 = 0         # reference duty, counts
         self.cb = 0         # the reading that closed the latest block, counts
+        self.cq = 0         # the reading before the latest, counts
+        # (not saved: used only by the block close's second half, which save() finishes)
+        self.cp = 0         # the reading that closed the block before the latest, counts
+        self.ip = 0         # the latest block's duration: ms from cp to cb
         self.age_ms = 0     # time since the fit's first reading, ms
         self.readings = 0   # readings in this fit (counted to 255)
         # noise: successive differences less the fitted slope, clipped
@@ -82,6 +86,8 @@ class BlockSums:
         self.sy = c
         self.readings = 1
         self.cb = c
+        self.cp = c
+        self.cq = c
 
     def add(self, c, rc, uc, dt_ms, expect, clip):
         """One reading ``dt_ms`` after the previous: integers only.
@@ -102,6 +108,7 @@ class BlockSums:
         self.sx += self.ix
         self.sv += self.iv
         self.sy += c
+        self.cq = self.c
         if dt_ms <= NOISE_MAX_DT_MS:
             e = c - self.c - expect
             if e > clip:
@@ -125,6 +132,8 @@ class BlockSums:
 
     def next_block(self):
         """Zero the block sums; the latest reading becomes the new reference (exact)."""
+        self.cp = self.cb
+        self.ip = self.it
         self.n = 0
         self.it = self.ix = self.iv = 0
         self.st = self.sx = self.sv = self.sy = 0
@@ -136,12 +145,12 @@ class BlockSums:
     def pack_into(self, buf, offset):
         struct.pack_into(self._FMT, buf, offset, self.n, self.en, self.readings, self.ix,
                          self.iv, self.sx, self.sv, self.e2, self.age_ms, self.it, self.st,
-                         self.sy, self.c, self.rc, self.uc, self.g0, self.u0, self.cb)
+                         self.sy, self.c, self.rc, self.uc, self.g0, self.u0, self.cb, self.cq)
 
     def unpack_from(self, buf, offset):
         """Load the state; False when a value is impossible (the caller resets)."""
         (n, en, readings, ix, iv, sx, sv, e2, age, it, st, sy, c, rc, uc, g0, u0,
-         cb) = struct.unpack_from(self._FMT, buf, offset)
+         cb, cq) = struct.unpack_from(self._FMT, buf, offset)
         if not (0 <= n <= MAX_BLOCK_READINGS and 0 <= it <= age and 0 <= uc <= DUTY_SCALE
                 and 0 <= u0 <= DUTY_SCALE and 0 <= en <= n and e2 >= 0 and st >= 0
                 and n <= readings):
@@ -150,6 +159,7 @@ class BlockSums:
         self.st, self.sx, self.sv, self.sy, self.e2, self.age_ms = st, sx, sv, sy, e2, age
         self.c, self.rc, self.uc, self.g0, self.u0 = c, rc, uc, g0, u0
         self.cb = cb
+        self.cq = cq
         return True
 
 

@@ -7,7 +7,8 @@ Payload (little-endian), after the frame's 8-byte header::
     4       2     sudden changes (uint16)
     6       2     turns (uint16)
     8       1     flags: fresh (1), disturbed (2), profile on (4), direction + 1
-                  (bits 3-4), an ambient known at the last solve (32)
+                  (bits 3-4), an ambient known at the last solve (32), a fit seeded
+                  with two readings at a turn (64)
     9       1     profile_reason
     10      8     anchor, deg C (float64)
     18      8     extreme of the block means, deg C (float64)
@@ -42,7 +43,7 @@ def save(est):
     o = bl.PAYLOAD_OFFSET
     flags = ((1 if est._fresh else 0) | (2 if est._disturbed else 0)
              | (4 if est._profile_on else 0) | ((est._dir + 1) << 3)
-             | (32 if est._known else 0))
+             | (32 if est._known else 0) | (64 if est._seeded else 0))
     struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
                      est.turns & 0xFFFF, flags, est.profile_reason, est._anchor,
                      est._ext)
@@ -81,7 +82,7 @@ def _unpack(est, blob):
     readings, changes, turns, flags, reason, anchor, ext = struct.unpack_from(_HEAD, blob, o)
     o += _HEAD_SIZE
     direction = ((flags >> 3) & 3) - 1
-    if flags & 0xC0 or direction > 1 or (flags & 4 and est._profile is None) \
+    if flags & 0x80 or direction > 1 or (flags & 4 and est._profile is None) \
             or not (-1e6 < anchor < 1e6 and -1e6 < ext < 1e6):
         return bl.BLOB_VALUES
     est.reset()
@@ -107,6 +108,7 @@ def _unpack(est, blob):
     est._anchor = anchor
     est._ext = ext
     est._known = bool(flags & 32)
+    est._seeded = bool(flags & 64)
     est._blocks_done = 1
     # the solution and what follows from it are derived: as at the last block close
     est._solve()
