@@ -40,6 +40,7 @@ from tinytherm.num import as_float
 INF = math.inf
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
 ARRIVE_MIN_S = 30.0       # s: no arrival in a fit younger than this
+ARRIVE_Z = 2.0            # sd by which a block mean or the level must pass the target
 RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival without a direction before this (probe lag)
 MAX_REL_SD = 5.0          # an answer whose ln-time sd exceeds this stays SETTLING
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
@@ -210,7 +211,7 @@ def _work_out(est, target, approach):
         return
     est.clear(st.SETTLING)
     level = est._level
-    slope = est._slope
+    slope = est.slope_ahead()  # (the slope now, unless a measured air cycles)
     k = reg.k
     est.temp_est_c = level
     est.rate_per_s = k
@@ -288,18 +289,27 @@ def _work_out(est, target, approach):
         est.status = st.TRACKING
 
 def _arrived(est, target, m, approach, age_ms):
-    """Arrival, the reading being on the line: the block means or the fitted
-    level now have passed the target in the direction ``m``, in a fit old
-    enough (and, rising with no direction given and no heater on, old
-    enough to be no probe warming up, and still rising: a probe that has
-    warmed to the drink and turned is no arrival)."""
+    """Arrival, the reading being on the line: the liquid has passed the target
+    in the direction ``m`` beyond the noise, in a fit old enough (and, rising
+    with no direction given and no heater on, old enough to be no probe
+    warming up, and still rising: a probe that has warmed to the drink and
+    turned is no arrival).
+
+    Passed means the extreme of the block means beyond the target by
+    :data:`ARRIVE_Z` sd of that block's mean, or the fitted level at the
+    latest reading beyond it by :data:`ARRIVE_Z` sd of the level; and the
+    fitted level now not back short of the target by more than the line's
+    tolerance (a drink hovering at its target while the fridge cycles
+    passes it by noise and then drifts back: that is no arrival)::
+
+        (ext - target) m >= Z sd / sqrt(n_ext)   or   (level - target) m >= Z sd_level
+        and (target - level) m <= tol
+    """
     if age_ms < _ARRIVE_MIN_MS:
         return False
     if m > 0 and approach == 0 and not (est.heater and est.blocks.uc > 0) and (
             age_ms < _RISE_ARRIVE_MIN_MS or not est._slope > 0.0):
         return False  # (a rise the heater drives is a real one)
-    if (est._ext >= target) if m > 0 else (est._ext <= target):
-        return True
     reg = est.reg
     b = est.blocks
     # the fitted level at the latest reading (the fit's coordinates moved on)
@@ -307,7 +317,16 @@ def _arrived(est, target, m, approach, age_ms):
              + est._anchor)
     if est.heater:
         level += reg.g * (reg.v + b.iv * _IV_TO_S)
-    return (level >= target) if m > 0 else (level <= target)
+    sd = est.noise.sd
+    tol = 3.0 * sd
+    if tol > ARRIVE_TOL_C:
+        tol = ARRIVE_TOL_C
+    if (target - level) * m > tol:
+        return False  # the level is back short: a retreat, no arrival
+    if (est._ext - target) * m >= ARRIVE_Z * sd / math.sqrt(est._ext_n):
+        return True
+    var = reg.var_level()
+    return (level - target) * m >= ARRIVE_Z * math.sqrt(var if var > 0.0 else 0.0)
 
 
 def eta_rel_var(gap, slope, k, eta, reg, gk):

@@ -183,12 +183,15 @@ class ThermalEstimator(Answer):
         self.detector.reset()
         self._dir = 0               # direction of the block means (+1, -1, 0)
         self._ext = 0.0             # first block mean while _dir == 0, then the extreme, deg C
+        self._ext_n = 1             # readings in the block of that extreme (its noise)
+        self._block_n = 1           # readings in the latest closed block (not saved: used at once)
         self._anchor = 0.0          # smoothed residual of the latest blocks, deg C
         self._level = 0.0           # fitted level and slope at the latest block close
         self._slope = 0.0
         self._blocks_done = 0               # blocks finished: the answer's cache key
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
         self._known = False         # an ambient was known at the latest block close
+        self._ahead = 0             # the air ahead at the latest block close, counts * 2**8
         self.forget()
         self.clear(st.GATHERING)
 
@@ -251,8 +254,9 @@ class ThermalEstimator(Answer):
         b = self.blocks
         try:
             if self._fresh or self.guard.gap == GAP_RESTART:
+                dt_ms = 0 if self._fresh else self.guard.elapsed_ms  # (the air's cycle goes on)
                 self._restart_fit()
-                self._first(c, self.inputs.reference(ambient_c, 0, True), uc)
+                self._first(c, self.inputs.reference(ambient_c, dt_ms, True), uc)
             else:
                 dt_ms = self.guard.elapsed_ms
                 if ambient_c is None and not self.inputs.measured:
@@ -282,6 +286,7 @@ class ThermalEstimator(Answer):
         """The fit's first reading: the first block, closed at once."""
         self._fresh = False
         self._ext = c * _INV
+        self._ext_n = 1
         self.blocks.first(c, rc, uc)
         self._close_block()
         self._next_step()
@@ -335,7 +340,9 @@ class ThermalEstimator(Answer):
                       reg.v + b.iv / (1000 * 1024) if heater else 0.0,
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
         b.next_block()
+        self._block_n = n
         self._known = self.inputs.known()
+        self._ahead = self.inputs.ahead_fine()
         self._pending = 1
 
     def _next_step(self):
@@ -394,12 +401,15 @@ class ThermalEstimator(Answer):
             if yb - self._ext > cut:
                 self._dir = 1
                 self._ext = yb
+                self._ext_n = self._block_n
             elif self._ext - yb > cut:
                 self._dir = -1
                 self._ext = yb
+                self._ext_n = self._block_n
             return False
         if (yb > self._ext) if self._dir > 0 else (yb < self._ext):
             self._ext = yb
+            self._ext_n = self._block_n
             return False
         if (self._ext - yb) * self._dir <= cut:
             return False
@@ -407,6 +417,7 @@ class ThermalEstimator(Answer):
             # the heater turned it: a new direction, the same fit (it explains the turn)
             self._dir = -self._dir
             self._ext = yb
+            self._ext_n = self._block_n
             return False
         return True
 
@@ -461,7 +472,7 @@ class ThermalEstimator(Answer):
         age = (self.blocks.age_ms - self.blocks.it) * 0.001  # at the block close
         need = 4.0 * math.sqrt(self.reg.var_level()) + 0.5 * self.guard.quantum_c
         for a in self.audits.a:
-            a.check(self, age, self._level, self._slope, self.reg.k, need)
+            a.check(self, age, self._level, self.slope_ahead(), self.reg.k, need)
             if self._profile_on and a.n >= PROFILE_MISMATCH_N:
                 own = self._profile.log_sd(a.horizon_s(age))
                 if a.var > PROFILE_MISMATCH_VAR * own * own:
@@ -470,6 +481,23 @@ class ThermalEstimator(Answer):
                     self.profile_reason = PROFILE_REJECTED
                     self._solve()
                     return
+
+    def slope_ahead(self):
+        """Slope at the fitted level under the air the future will see, deg C/s.
+
+        The law is driven by the air reading ``A``; ahead, the air is taken at
+        its mean over the last whole cycle ``M`` as known at the latest block
+        close (:meth:`Inputs.ahead_fine`), so with ``A0`` the air then::
+
+            s_ahead = s_now + k (M - A0)     (equilibrium E_ahead = E_now + M - A0)
+
+        Without a measured air it is the slope now.
+        """
+        if not self.inputs.measured:
+            return self._slope
+        b = self.blocks
+        # the reference at the block close: G0 = cb - rc
+        return self._slope + self.reg.k * (self._ahead * (1.0 / 256) - (b.cb - b.g0)) * _INV
 
     # ``predict(target_c, approach=0)``: the answer part's rules, as a method
     predict = answer.predict
