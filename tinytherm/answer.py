@@ -211,7 +211,7 @@ def _work_out(est, target, approach):
         return
     est.clear(st.SETTLING)
     level = est._level
-    slope = est.slope_ahead()  # (the slope now, unless a measured air cycles)
+    slope = est._slope_ahead()  # the slope now, unless a measured air cycles: then its mean's
     k = reg.k
     est.temp_est_c = level
     est.rate_per_s = k
@@ -236,11 +236,9 @@ def _work_out(est, target, approach):
     else:
         d = est._dir
     m = est._dir
-    if approach != 0 and ((m if m != 0 else d) != approach or d == -approach):
-        return  # moving away from how this product reaches its target
     gap = target - level
     age_s = b.age_ms * 0.001
-    if m != 0:
+    if m != 0 and (approach == 0 or m == approach):
         # the arrival line: at most min(0.3 C, 3 noise sd) short of the target
         tol = 3.0 * est.noise.sd
         if tol > ARRIVE_TOL_C:
@@ -250,6 +248,8 @@ def _work_out(est, target, approach):
         if (b.c - est._arrive_c) * m >= 0 and _arrived(est, target, m, approach, b.age_ms):
             est.arrive()
             return
+    if approach != 0 and ((m if m != 0 else d) != approach or d == -approach):
+        return  # moving away from how this product reaches its target
     if gap * d <= 0.0:
         gap = target - y  # the level crossed, the readings not yet
         est._for_gen = -2  # (an answer from the latest reading: not counted down)

@@ -5,6 +5,7 @@ from tinytherm.fit import Regression
 INF: float
 ARRIVE_TOL_C: float
 ARRIVE_MIN_S: float
+ARRIVE_Z: float
 RISE_ARRIVE_MIN_S: float
 MAX_REL_SD: float
 FAULT_AFTER: int

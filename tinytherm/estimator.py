@@ -375,6 +375,9 @@ class ThermalEstimator(Answer):
                     self._pending = 2  # the audits with the next reading
         else:
             self._slope = 0.0
+        # the noise's expected step follows the new slope (a restored run works it out afresh:
+        # kept from an older slope, an uninterrupted run and a restored one would differ)
+        self.noise.expect_ms = -1
         if self._turned(yb):
             self.turns += 1
             self._begin_again(False)
@@ -472,7 +475,7 @@ class ThermalEstimator(Answer):
         age = (self.blocks.age_ms - self.blocks.it) * 0.001  # at the block close
         need = 4.0 * math.sqrt(self.reg.var_level()) + 0.5 * self.guard.quantum_c
         for a in self.audits.a:
-            a.check(self, age, self._level, self.slope_ahead(), self.reg.k, need)
+            a.check(self, age, self._level, self._slope_ahead(), self.reg.k, need)
             if self._profile_on and a.n >= PROFILE_MISMATCH_N:
                 own = self._profile.log_sd(a.horizon_s(age))
                 if a.var > PROFILE_MISMATCH_VAR * own * own:
@@ -482,7 +485,7 @@ class ThermalEstimator(Answer):
                     self._solve()
                     return
 
-    def slope_ahead(self):
+    def _slope_ahead(self):
         """Slope at the fitted level under the air the future will see, deg C/s.
 
         The law is driven by the air reading ``A``; ahead, the air is taken at

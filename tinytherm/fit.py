@@ -38,7 +38,6 @@ CYCLE_SLOW_S = 600.0      # s: the slow mean of the air, about which its cycles 
 CYCLE_BAND_C = 0.25       # deg C: hysteresis of a crossing (above an air sensor's noise)
 CYCLE_MIN_S = 300.0       # s: a shorter cycle is noise, not a cycle
 CYCLE_MAX_S = 14400.0     # s: a longer one means the air stopped cycling
-CYCLE_FALLBACK_SLOW = 1
 _INV_SCALE = 1.0 / SCALE
 _BAND = int(CYCLE_BAND_C * SCALE * 256)
 _CYCLE_MIN_MS = int(CYCLE_MIN_S * 1000)
@@ -338,7 +337,7 @@ class Inputs:
             return (0 if self.fixed is None else self.fixed) << 8
         if self.has_mean:
             return self.mean
-        return self.slow if CYCLE_FALLBACK_SLOW else self.fine
+        return self.slow
 
     def duty_counts(self, duty):
         """A duty in [0, 1] as counts of 1/DUTY_SCALE (cached: the duty rarely changes)."""

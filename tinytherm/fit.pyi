@@ -8,7 +8,11 @@ MAX_BLOCK_READINGS: int
 NOISE_MAX_DT_MS: int
 NOISE_PRIOR_C: float
 NOISE_PRIOR_N: int
-AMBIENT_SMOOTH_S: float
+AIR_SMOOTH_S: float
+CYCLE_SLOW_S: float
+CYCLE_BAND_C: float
+CYCLE_MIN_S: float
+CYCLE_MAX_S: float
 
 class BlockSums:
     STATE_SIZE: int
@@ -61,14 +65,24 @@ class Inputs:
     fixed: Optional[int]
     measured: bool
     fine: int
+    slow: int
+    last: int
+    side: int
+    running: bool
+    cyc_int: int
+    cyc_ms: int
+    has_mean: bool
+    mean: int
     alpha_ms: int
     alpha: int
+    beta: int
     duty: float
     duty_c: int
     def __init__(self, fixed_c: Optional[float]) -> None: ...
     def reset(self) -> None: ...
     def known(self) -> bool: ...
     def reference(self, ambient_c: Optional[float], dt_ms: int, restart: bool) -> int: ...
+    def ahead_fine(self) -> int: ...
     def duty_counts(self, duty: float) -> int: ...
     def pack_into(self, buf: bytearray, offset: int) -> None: ...
     def unpack_from(self, buf: Buffer, offset: int) -> bool: ...
