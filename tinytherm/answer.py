@@ -45,6 +45,7 @@ RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival without a direction before thi
 MAX_REL_SD = 5.0          # an answer whose ln-time sd exceeds this stays SETTLING
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
 PROFILE_Z80 = 1.2815515655446004  # a profile's table holds 10 % / 90 % points
+PROFILE_LAG_TIMES = 1.5   # a heated fit younger than this many profile lags shows no time
 _INV = 1.0 / SCALE
 _IX_TO_CS = 1.0 / (2000 * SCALE)  # doubled count ms -> deg C s
 _IV_TO_S = 1.0 / (1000 * DUTY_SCALE)  # duty-count ms -> s at full duty
@@ -208,6 +209,8 @@ def _work_out(est, target, approach):
         est.clear(st.GATHERING)
         if est.readings and not est._fresh:
             est.temp_est_c = b.c * _INV
+            if est._profile_on and est._dir != 0 and target is not None:
+                _profile_first(est, target, approach)
         return
     est.clear(st.SETTLING)
     level = est._level
@@ -255,8 +258,10 @@ def _work_out(est, target, approach):
         est._for_gen = -2  # (an answer from the latest reading: not counted down)
     if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
         return  # not moving, or turning: no honest time
+    if est._profile_on and est.heater and age_s < PROFILE_LAG_TIMES * est._profile.probe_lag_s:
+        return  # the element's and the probe's lag still hide the heat-up's slope
     eta = time_to_target_from_slope_s(gap, slope, k)
-    eta_shape = est._profile_law_s(gap, level, slope)
+    eta_shape = est._profile_law_s(gap, level, slope, var_slope / (slope * slope))
     if eta is None and eta_shape is None:
         # beyond the equilibrium: say so only when even a slow bend reaches it
         if (k - 2.0 * math.sqrt(reg.pkk)) * gap / slope >= 1.0:
@@ -265,28 +270,48 @@ def _work_out(est, target, approach):
     rel2 = 0.0 if eta is None else eta_rel_var(gap, slope, k, eta, reg, gk)
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
-    rel = math.sqrt(rel2 + est.audits.var_at(eta, age_s))
-    f = spread(est._z * rel)
     est.eta_s = eta
-    est.eta_low_s = eta / f
-    est.eta_high_s = eta * f
+    # the fit's own evidence (delta method and audits) decides whether to show it
+    rel = math.sqrt(rel2 + est.audits.var_at(eta, age_s))
     if est._profile_on:
-        # and the profile's own calibrated quantiles of ln(actual / predicted),
-        # split-conformal (host_sim.calibrate.pipeline): the union
-        lo, hi = est._profile.interval_log_bounds(eta)
-        z = est._z / PROFILE_Z80
-        low = eta * math.exp(z * lo)
-        high = eta * spread(z * hi)
-        if low < est.eta_low_s:
-            est.eta_low_s = low
-        if high > est.eta_high_s:
-            est.eta_high_s = high
-        own = est._profile.log_sd(eta)
-        if own < rel:
-            rel = own
-    est.eta_rel_sd = rel
+        _profile_interval(est, eta)  # the profile's calibrated interval
+    else:
+        f = spread(est._z * rel)
+        est.eta_low_s = eta / f
+        est.eta_high_s = eta * f
+        est.eta_rel_sd = rel
     if rel <= MAX_REL_SD:
         est.status = st.TRACKING
+
+def _profile_first(est, target, approach):
+    """A passive profile's answer before the fit has its own (its first readings after
+    the turn that set the direction ``est._dir`` towards the profile's equilibrium):
+    the profile's law at its typical rate from the latest reading, with its table."""
+    m = est._dir
+    if approach != 0 and approach != m:
+        return
+    y = est.blocks.c * _INV
+    gap = target - y
+    if gap * m <= 0.0 or not -1e4 <= target <= 1e4:
+        return
+    eta = est._profile_law_s(gap, y, 0.0)
+    if eta is None or not eta > 0.0:
+        return
+    _profile_interval(est, eta)
+    est.status = st.TRACKING
+
+
+def _profile_interval(est, eta):
+    """``eta_s`` and the profile's calibrated quantiles of ln(actual / predicted)
+    (split-conformal, host_sim.calibrate.pipeline) at that horizon, scaled to the
+    interval asked for."""
+    lo, hi = est._profile.interval_log_bounds(eta)
+    z = est._z / PROFILE_Z80
+    est.eta_s = eta
+    est.eta_low_s = eta * spread(z * lo)
+    est.eta_high_s = eta * spread(z * hi)
+    est.eta_rel_sd = est._profile.log_sd(eta)
+
 
 def _arrived(est, target, m, approach, age_ms):
     """Arrival, the reading being on the line: the liquid has passed the target

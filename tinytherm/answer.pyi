@@ -10,6 +10,7 @@ RISE_ARRIVE_MIN_S: float
 MAX_REL_SD: float
 FAULT_AFTER: int
 PROFILE_Z80: float
+PROFILE_LAG_TIMES: float
 SCALE: int
 DUTY_SCALE: int
 

@@ -31,8 +31,18 @@ the saved state:
    passes a drinking target on its way up while the drink is hotter.
 
 A vessel profile (:mod:`tinytherm.profile`, imported only when given) sets
-the priors and the answer's law. Fixed state, no per-reading containers;
-runs unchanged on CPython and MicroPython.
+the priors (rate, heater gain, and where the liquid levels off: with a
+heater, with the heat at the latest duty) and the interval (its calibrated
+table of ln(actual / predicted) around the answer). For a passive liquid it
+also gives the answer's law, its power law with this liquid's rate ratio
+``r`` (fitted slope over the typical law's slope) shrunk towards 1 by
+precision, ``ln r' = ln r * w / (w + 1 / rate_log_sd^2)`` with ``w`` the
+fitted slope's relative precision; a retreat towards its equilibrium by 4
+noise sd is the turn after a pour (the probe has caught up) and sets the
+direction, and until the new fit has its own answer the law at its typical
+rate answers. It is dropped (``PROFILE_REJECTED``) when the fitted rate lies
+more than :data:`PROFILE_MISMATCH_Z` sds from its own. Fixed state, no
+per-reading containers; runs unchanged on CPython and MicroPython.
 """
 import math
 
@@ -62,9 +72,8 @@ ANCHOR_GAIN = 0.5         # weight of the newest block residual in the anchor
 MISMATCH_C = 0.03         # deg C: model-mismatch allowance of a block innovation
 MAX_GAP_S = 900.0         # s: a longer gap is counted as a long gap (the guard's counts)
 PROFILE_HEATER_MISMATCH = 100  # profile_reason: a profile for the other heater mode
-PROFILE_REJECTED = 101    # profile_reason: dropped, its forecasts failed on this liquid
-PROFILE_MISMATCH_VAR = 4.0  # dropped when the audits' error variance exceeds this many
-PROFILE_MISMATCH_N = 3      # times its own, over at least this many checks
+PROFILE_REJECTED = 101    # profile_reason: dropped, this liquid's rate is another vessel's
+PROFILE_MISMATCH_Z = 4.0    # dropped when this liquid's rate lies this many sds from the profile's
 _INV = 1.0 / SCALE
 _SCALE_F = float(SCALE)
 _NAN = math.nan
@@ -386,10 +395,14 @@ class ThermalEstimator(Answer):
         """Restart the fit from the latest reading (a jump or a turn)."""
         b = self.blocks
         c, rc, uc = b.c, b.rc, b.uc
+        turned_to = -self._dir
         self._restart_fit()
         if disturbed:
             self._disturbed = True
         self._first(c, rc, uc)
+        if (not disturbed and self._profile_on and not self.heater and turned_to != 0
+                and self._toward_profile_e(turned_to)):
+            self._dir = turned_to  # the passive profile's direction: known from the turn on
 
     def _turned(self, yb):
         """Track the extreme of the block means; True on a retreat beyond TURN_C.
@@ -398,8 +411,10 @@ class ThermalEstimator(Answer):
         explains it), never a restart.
         """
         cut = 4.0 * self.noise.sd
-        if cut < TURN_C:
-            cut = TURN_C
+        if cut < TURN_C and not (self._profile_on and not self.heater and self._dir != 0
+                                 and self._toward_profile_e(-self._dir)):
+            cut = TURN_C  # (a passive profile's liquid only moves towards its E: a
+            #   retreat that way is the probe caught up, seen at 4 noise sd)
         if self._dir == 0:
             if yb - self._ext > cut:
                 self._dir = 1
@@ -423,6 +438,11 @@ class ThermalEstimator(Answer):
             self._ext_n = self._block_n
             return False
         return True
+
+    def _toward_profile_e(self, direction):
+        """True when moving in ``direction`` (+1 / -1) goes towards the passive profile's
+        equilibrium (the reference, known or the prior, plus its offset)."""
+        return (self._profile_r() + self._profile.eq_offset_c - self._ext) * direction > 0.0
 
     def _solve(self):
         """Priors for this block, then the regression's solve (see the module docstring).
@@ -448,14 +468,17 @@ class ThermalEstimator(Answer):
             lk = s2 / (RATE_PRIOR_PER_S * RATE_PRIOR_PER_S)
             lg = s2  # heater gain ~ N(0, 1 K/s) without a profile
         else:
-            dist, sd, kp, lk, gp, lg = prof.priors(dist, s2)
-        # the slope without heat input, from the fit with the loose prior alone
+            # (with a heater: where the liquid levels off with the heat at the latest duty)
+            dist, sd, kp, lk, gp, lg = prof.priors(
+                dist, s2, self.blocks.u0 / 1024 if self.heater else 0.0)
+        # the slope towards the hint, from the fit with the loose prior alone
         solved = False
         if self.heater:
             if not reg.solve(s2, lk, kp, 0.0, 0.0, lg, gp):
                 return
             solved = True
-            slope = reg.s - reg.g * (self.blocks.u0 / 1024)
+            # without a profile the hint is the ambient: the slope without heat input
+            slope = reg.s if prof is not None else reg.s - reg.g * (self.blocks.u0 / 1024)
         else:
             slope = reg.slope_loose(lk, kp)
             if slope is None:
@@ -474,16 +497,27 @@ class ThermalEstimator(Answer):
     def _audit(self):
         age = (self.blocks.age_ms - self.blocks.it) * 0.001  # at the block close
         need = 4.0 * math.sqrt(self.reg.var_level()) + 0.5 * self.guard.quantum_c
+        if self._profile_on and not self.heater and self._slope != 0.0:
+            # this liquid's rate against the profile's spread of rates (the fit is
+            # established here: the audits run from DETECT_MIN_BLOCKS blocks on). The
+            # audits' errors judge no profile: a probe catching up after a pour, or a
+            # heater's start-up, fails any law's short forecasts for a while.
+            reg = self.reg
+            gk = self.blocks.cb * _INV - self._level  # d slope / d k at the level
+            var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
+            z = self._profile.rate_z(self._level, self._slope, self._profile_r(),
+                                     var_slope / (self._slope * self._slope))
+            if z is not None and z > PROFILE_MISMATCH_Z:
+                self._reject_profile()
+                return
         for a in self.audits.a:
             a.check(self, age, self._level, self._slope_ahead(), self.reg.k, need)
-            if self._profile_on and a.n >= PROFILE_MISMATCH_N:
-                own = self._profile.log_sd(a.horizon_s(age))
-                if a.var > PROFILE_MISMATCH_VAR * own * own:
-                    # its forecasts fail on this liquid: another vessel's profile
-                    self._profile_on = False
-                    self.profile_reason = PROFILE_REJECTED
-                    self._solve()
-                    return
+
+    def _reject_profile(self):
+        """Its rate fails on this liquid (another vessel's profile)."""
+        self._profile_on = False
+        self.profile_reason = PROFILE_REJECTED
+        self._solve()
 
     def _slope_ahead(self):
         """Slope at the fitted level under the air the future will see, deg C/s.
@@ -512,12 +546,21 @@ class ThermalEstimator(Answer):
             return t
         return time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
 
-    def _profile_law_s(self, gap_c, level_c, slope_c_per_s):
-        """Seconds under the profile's power law (passive liquids), or None."""
+    def _profile_law_s(self, gap_c, level_c, slope_c_per_s, slope_rel_var=0.0):
+        """Seconds under the profile's power law (passive liquids), or None.
+
+        ``slope_rel_var``: the fitted slope's relative variance (see
+        :meth:`tinytherm.profile.VesselProfile.law_s`; a zero slope: the
+        typical law)."""
         if not self._profile_on or self.heater:
             return None
-        r = self.blocks.rc * _INV if self.inputs.known() else self._prior_r
-        return self._profile.law_s(gap_c, level_c, slope_c_per_s, r)
+        return self._profile.law_s(gap_c, level_c, slope_c_per_s, self._profile_r(),
+                                   slope_rel_var)
+
+    def _profile_r(self):
+        """The reference the profile's equilibrium is offset from, deg C (the known or
+        measured ambient, else the ambient prior)."""
+        return self.blocks.rc * _INV if self.inputs.known() else self._prior_r
 
     # ------------------------------------------------------------ save/restore
     def save(self):

@@ -23,8 +23,7 @@ MISMATCH_C: float
 MAX_GAP_S: float
 PROFILE_HEATER_MISMATCH: int
 PROFILE_REJECTED: int
-PROFILE_MISMATCH_VAR: float
-PROFILE_MISMATCH_N: int
+PROFILE_MISMATCH_Z: float
 
 
 class ThermalEstimator(Answer):

@@ -249,15 +249,19 @@ class VesselProfile:
         except (ValueError, OverflowError, ZeroDivisionError):
             return None
 
-    def priors(self, dist_c, s2):
+    def priors(self, dist_c, s2, duty=0.0):
         """The estimator's priors from this profile: the first-order law tangent
         to its power law at the distance ``dist_c`` (deg C) from the latest
-        reading's gap to the ambient hint.
+        reading's gap to the ambient hint, with the heater at ``duty`` (0..1).
 
         Returns ``(dist_c, sd_c, rate, rate_weight, gain, gain_weight)``: the
-        hint's distance and sd (deg C), the rate prior's centre (1/s) and the
-        gain prior's centre (K/s), each weight being ``s2`` (the reading noise
-        variance, deg C^2) over the prior's variance.
+        distance to where that law levels off and its sd (deg C), the rate
+        prior's centre (1/s) and the gain prior's centre (K/s), each weight
+        being ``s2`` (the reading noise variance, deg C^2) over the prior's
+        variance. With heat the tangent law ``dT/dt = -k (T - E) + g duty``
+        levels off ``g duty / k`` beyond the passive equilibrium ``E`` (the
+        estimator's fitted slope includes the heat at that duty), with the
+        relative spread of ``g / k``.
         """
         n = self.rate_exponent
         d = -(dist_c + self.eq_offset_c)
@@ -266,26 +270,64 @@ class VesselProfile:
         rel = self.rate_log_sd if self.rate_log_sd > 0.02 else 0.02
         gp = self.gain_k_per_s
         rel_g = self.gain_rel_sd if self.gain_rel_sd > 0.02 else 0.02
-        return (-d / n, sd if sd > 0.05 else 0.05, kp, s2 / (kp * kp * rel * rel), gp,
+        dist = -d / n
+        if duty > 0.0 and gp != 0.0 and kp > 0.0:
+            heat = gp * duty / kp  # deg C: how far the heat moves the level-off point
+            dist += heat
+            sd = math.sqrt(sd * sd + heat * heat * (rel * rel + rel_g * rel_g))
+        return (dist, sd if sd > 0.05 else 0.05, kp, s2 / (kp * kp * rel * rel), gp,
                 s2 / (gp * gp * rel_g * rel_g) if gp != 0.0 else s2)
 
-    def law_s(self, gap_c, level_c, slope_c_per_s, ambient_c):
+    def law_s(self, gap_c, level_c, slope_c_per_s, ambient_c, slope_rel_var=0.0):
         """Seconds to move ``gap_c`` (deg C) from ``level_c`` under this power law, or None.
 
         ``dT/dt = -a |T - E|^n sign(T - E)`` with ``E = ambient_c +
-        eq_offset_c`` and ``a`` such that the slope at ``level_c`` is the
-        fitted ``slope_c_per_s``: the profile gives the shape, the data the
-        scale. None when the liquid moves away from E or the target is not
-        between the level and E.
+        eq_offset_c``: the profile gives the shape, and the scale of ``a``
+        is this liquid's: the ratio ``r`` of the fitted ``slope_c_per_s`` to
+        the typical law's slope at ``level_c``, shrunk towards 1 by precision
+        (the host's profile model does the same)::
+
+            ln r' = ln r * w / (w + 1 / rate_log_sd^2),   w = 1 / slope_rel_var
+
+        ``slope_rel_var``: the relative variance of the fitted slope (0: the
+        data's scale alone; ``inf`` or a zero slope: the typical law alone).
+        None when the liquid moves away from E or the target is not between
+        the level and E.
         """
         e = ambient_c + self.eq_offset_c
         d0 = level_c - e
-        if d0 == 0.0 or slope_c_per_s * d0 >= 0.0 or (d0 + gap_c) * d0 <= 0.0:
+        if d0 == 0.0 or slope_c_per_s * d0 > 0.0 or (d0 + gap_c) * d0 <= 0.0:
             return None
         t = self.time_to_target_s(level_c, level_c + gap_c, e)
-        if t is None:
+        if t is None or slope_c_per_s == 0.0:
+            return t
+        ratio = -slope_c_per_s / (self.rate_at(d0) * d0)  # this liquid's rate / the typical
+        if slope_rel_var > 0.0:
+            sd = self.rate_log_sd if self.rate_log_sd > 0.02 else 0.02
+            try:
+                ratio = math.exp(math.log(ratio) / (1.0 + slope_rel_var / (sd * sd)))
+            except (ValueError, OverflowError):
+                return t
+        return t / ratio
+
+    def rate_z(self, level_c, slope_c_per_s, ambient_c, slope_rel_var):
+        """How far this liquid's rate lies from the profile's, in sds (>= 0), or None.
+
+        ``|ln r| / sqrt(rate_log_sd^2 + slope_rel_var)`` with ``r`` the ratio
+        of the fitted ``slope_c_per_s`` (deg C/s, relative variance
+        ``slope_rel_var``) at ``level_c`` to the typical law's slope there
+        (E = ``ambient_c`` + eq_offset_c); None when the liquid moves away
+        from E (or sits on it).
+        """
+        d0 = level_c - (ambient_c + self.eq_offset_c)
+        if d0 == 0.0 or slope_c_per_s * d0 >= 0.0:
             return None
-        return t * self.rate_at(d0) * d0 / -slope_c_per_s
+        sd = self.rate_log_sd if self.rate_log_sd > 0.02 else 0.02
+        try:
+            return abs(math.log(-slope_c_per_s / (self.rate_at(d0) * d0))) / math.sqrt(
+                sd * sd + slope_rel_var)
+        except (ValueError, OverflowError, ZeroDivisionError):
+            return None
 
     def log_sd(self, eta_s):
         """The sd of ln(actual / predicted) its table gives at ``eta_s`` seconds (>= 0.05)."""

@@ -15,11 +15,14 @@ class Pair:
         self.__dict__.update(kw)
 
 
-def replay_pairs(prep, use_heater, settings=None, fractions=TARGET_FRACTIONS):
-    """Replay ``prep.trace`` through the estimator without a profile, one run per target.
+def replay_pairs(prep, use_heater, settings=None, fractions=TARGET_FRACTIONS, profile=None):
+    """Replay ``prep.trace`` through the estimator, one run per target.
 
     ``settings``: a :class:`host_sim.replay.settings.ReplaySettings` (or None:
-    the core's defaults) without ``heater`` (``use_heater`` decides it).
+    the core's defaults) without ``heater`` (``use_heater`` decides it) and
+    without ``profile``; ``profile``: a
+    :class:`tinytherm.profile.VesselProfile` the estimator is given through
+    its device blob (None: no profile).
     """
     from host_sim.replay.replay import SHOWN_STATUSES, replay
     i0, _, _ = approach(prep)
@@ -29,7 +32,9 @@ def replay_pairs(prep, use_heater, settings=None, fractions=TARGET_FRACTIONS):
         cross = crossing_s(prep, target)
         if cross is None or cross - t_start < 30.0:
             continue
-        result = replay(prep.trace, target, settings, heater="on" if use_heater else "off")
+        extra = {} if profile is None else {"profile": profile.to_blob()}
+        result = replay(prep.trace, target, settings, heater="on" if use_heater else "off",
+                        **extra)
         t = np.asarray(prep.trace.time_s, dtype=float)
         col = {name: np.array([np.nan if v is None else float(v) for v in result.column(name)])
                for name in ("eta_s", "eta_low_s", "eta_high_s")}

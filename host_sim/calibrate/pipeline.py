@@ -27,16 +27,20 @@
    (the device does not know the fill, so that scaling is printed and kept
    in the JSON, not in the blob).
 2. **Interval.** Each trace is replayed through the device's estimator
-   *without* a profile towards three targets along its approach (30 %, 55 %,
-   80 % of the way), and ``r = ln(actual / predicted remaining time)`` is
-   collected on every row the device shows an answer. The 10 % and 90 %
+   *with* the profile of step 1 (its device blob; the interval table not yet
+   known, so the default ``+-1.28 rate_log_sd``, which the answer uses only
+   to reject a failing profile) towards three targets along its approach
+   (30 %, 55 %, 80 % of the way), and ``r = ln(actual / predicted remaining
+   time)`` is collected on every row the device shows an answer: the table
+   describes the answers the device gives with the profile. The 10 % and 90 %
    points of ``r`` per horizon bin (predicted remaining time below 60 s,
    60-300 s, 300-1200 s, above) are split-conformal quantiles: each
    (trace, target) pair weighs the same, the levels are widened by the
    finite-sample factor ``(1 + 1/m)`` for ``m`` pairs.
 3. **Cross-validation by trace** (``--folds``, default 5): the profile is
-   refitted without each fold and checked on it: interval coverage of the
-   calibrated 80 % interval against the device's own, and the median
+   refitted (dynamics and table) without each fold and checked on it:
+   interval coverage of the device with that profile (its calibrated 80 %
+   interval) against the device's own without a profile, and the median
    relative error of the profile model's own forecast (typical parameters,
    current temperature from the readings; a host-side stand-in until the
    device estimator takes a profile) against the device's answer.
@@ -163,7 +167,7 @@ def calibrate(traces, fills=None, ambient_c=None, folds=5, smooth_s=60.0, settin
             pairs_by_trace.append(replay_pairs(pr, heater, settings))
             bar.update(1)
     all_pairs = [p for ps in pairs_by_trace for p in ps]
-    table = conformal_table(all_pairs)
+    table = profile_table(preps, heater, profile_from_fit(fit, None), settings, progress)
     prof = profile_from_fit(fit, None if table is None else table[:2])
     scaling = None
     if all(f is not None for f in fills):
@@ -174,7 +178,7 @@ def calibrate(traces, fills=None, ambient_c=None, folds=5, smooth_s=60.0, settin
                    "gain_exponent_in_fill": None if gs is None else gs[0],
                    "gain_k_per_s_at_median_fill": None if gs is None else gs[1],
                    "median_fill_kg": None if ks is None else ks[2]}
-    cv = cross_validate(preps, pairs_by_trace, heater, folds, ambient_c, progress)
+    cv = cross_validate(preps, pairs_by_trace, heater, folds, ambient_c, progress, settings)
     cal = Calibration(profile=prof, fit=fit, preps=preps, pairs=all_pairs,
                       pairs_by_trace=pairs_by_trace, fill_scaling=scaling,
                       table_counts=None if table is None else table[2], cv=cv,
@@ -183,7 +187,19 @@ def calibrate(traces, fills=None, ambient_c=None, folds=5, smooth_s=60.0, settin
     return cal
 
 
-def cross_validate(preps, pairs_by_trace, heater, folds, ambient_c=None, progress=True):
+def profile_table(preps, heater, dynamics, settings=None, progress=False):
+    """The split-conformal table of the device's answers with the profile ``dynamics``
+    (a :class:`VesselProfile` without its table): ``(low, high, counts)`` or None."""
+    pairs = []
+    with _bar(len(preps), "replay (with the profile)", progress) as bar:
+        for pr in preps:
+            pairs += replay_pairs(pr, heater, settings, profile=dynamics)
+            bar.update(1)
+    return conformal_table(pairs)
+
+
+def cross_validate(preps, pairs_by_trace, heater, folds, ambient_c=None, progress=True,
+                   settings=None):
     """k-fold CV by trace; a dict of figures (see :func:`calibrate`), or a reason why not."""
     m = len(preps)
     k = min(int(folds), m)
@@ -194,26 +210,29 @@ def cross_validate(preps, pairs_by_trace, heater, folds, ambient_c=None, progres
     curves = []
     with _bar(k, "cross-validation", progress) as bar:
         _folds(preps, pairs_by_trace, heater, ambient_c, fold_of, k, bar, cov_dev, cov_prof,
-               err_prof, err_dev, curves)
+               err_prof, err_dev, curves, settings)
     return _cv_figures(k, cov_dev, cov_prof, err_prof, err_dev, curves)
 
 
 def _folds(preps, pairs_by_trace, heater, ambient_c, fold_of, k, bar, cov_dev, cov_prof,
-           err_prof, err_dev, curves):
+           err_prof, err_dev, curves, settings=None):
     """Refit without each fold and score the held-out traces (appends to the lists)."""
     m = len(preps)
     for f in range(k):
         train = [i for i in range(m) if fold_of[i] != f]
         test = [i for i in range(m) if fold_of[i] == f]
         fit = fit_dynamics([preps[i] for i in train], heater)
-        table = conformal_table([p for i in train for p in pairs_by_trace[i]])
+        table = profile_table([preps[i] for i in train], heater, profile_from_fit(fit, None),
+                              settings)
         prof = profile_from_fit(fit, None if table is None else table[:2])
         held = [p for i in test for p in pairs_by_trace[i]]
         if not held:
             bar.update(1)
             continue
+        held_with = [p for i in test
+                     for p in replay_pairs(preps[i], heater, settings, profile=prof)]
         cov_dev.append((coverage(held), len(held)))
-        cov_prof.append((coverage(held, prof), len(held)))
+        cov_prof.append((coverage(held_with), len(held_with)))
         e_p, e_d, per_pair = forecast_errors(prof, held, fit.heater_lag_s, ambient_c)
         if np.isfinite(e_p):
             err_prof.append((e_p, len(per_pair)))

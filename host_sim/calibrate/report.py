@@ -284,22 +284,27 @@ def plot_calibration(cal, base):
     import matplotlib
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
+    from host_sim.replay.plots import TimeAxis
     paths = []
     m = len(cal.preps)
+    # one time unit for every panel, as replay's plots choose it (minutes, hours when long)
+    axis = TimeAxis(max((float(pr.raw_t[-1] - pr.raw_t[0]) for pr in cal.preps
+                         if len(pr.raw_t)), default=0.0))
     cols = min(4, m)
     rows = int(math.ceil(m / cols))
     fig, axes = plt.subplots(rows, cols, figsize=(3.2 * cols, 2.6 * rows), squeeze=False)
     for i, pr in enumerate(cal.preps):
         ax = axes[i // cols][i % cols]
-        ax.plot(pr.raw_t, pr.raw_y, ".", ms=1.5, color="0.5", label="readings")
-        ax.plot(pr.t, simulate_fit(pr, cal.fit, i), "-", color="C3", lw=1.0, label="fitted model")
+        ax.plot(axis.of(pr.raw_t), pr.raw_y, ".", ms=1.5, color="0.5", label="readings")
+        ax.plot(axis.of(pr.t), simulate_fit(pr, cal.fit, i), "-", color="C3", lw=1.0,
+                label="fitted model")
         ax.set_title(os.path.basename(str(pr.trace.source))[:28], fontsize=7)
         ax.tick_params(labelsize=6)
         if i == 0:
             ax.legend(fontsize=6)
     for j in range(m, rows * cols):
         axes[j // cols][j % cols].axis("off")
-    fig.supxlabel("time, s", fontsize=8)
+    fig.supxlabel(axis.label("time since the first reading"), fontsize=8)
     fig.supylabel("temperature, C", fontsize=8)
     fig.tight_layout()
     fig.savefig(base + "_fit.png", dpi=110)

@@ -27,11 +27,11 @@ import multiprocessing
 import sys
 import time
 
-from host_sim.cli.options import (CliError, add_estimator_options, check_output, count_int,
-                                  settings_from_args)
+from host_sim.cli.options import (TRUST_FLOOR_S, CliError, add_estimator_options, check_output,
+                                  count_int, settings_from_args)
 from host_sim.sim import scenarios
 from host_sim.replay.baselines import make_baselines
-from host_sim.replay.metrics import summarise, trace_metrics
+from host_sim.replay.metrics import FLOOR_S, TRUST_TOLERANCE, summarise, trace_metrics
 from host_sim.replay.replay import replay
 from host_sim.replay.settings import settings_of
 from host_sim.replay.trace_io import Trace
@@ -141,6 +141,14 @@ def format_table(seed_set, results, per_kind):
                 kind, m, _f(s["median_rel_error"]), _f(s["p90_rel_error"]),
                 _f(s["time_to_trust"], "%.2f"), _f(s["coverage"], "%.2f"),
                 _f(s["no_estimate_fraction"], "%.2f")))
+    lines.append("")
+    lines.append("time-to-trust: median over traces of the share of the approach after which "
+                 "every shown answer stays within %.0f %% of the true time left (at least "
+                 "%.0f s: the metrics' %.0f s floor); a trace never within it counts 1.00, so "
+                 "1.00 means more than half the traces never were (replay and demo print it "
+                 "per trace with a %.0f s floor)" % (100 * TRUST_TOLERANCE,
+                                                     TRUST_TOLERANCE * FLOOR_S, FLOOR_S,
+                                                     TRUST_FLOOR_S))
     agg = groups["all"]
     best_name = min(BASELINES, key=lambda m: agg[m]["median_rel_error"]
                     if agg[m]["median_rel_error"] is not None else math.inf)

@@ -1,8 +1,9 @@
 """``calibrate TRACE.csv ... --out PROFILE.json``: learn a vessel profile (see :mod:`host_sim.calibrate`)."""
 import sys
 
-from host_sim.cli.options import (CliError, add_set_option, add_skip_bad_option, count_int,
-                                  finite_float, positive_float, settings_from_args)
+from host_sim.cli.options import (CliError, add_set_option, add_skip_bad_option,
+                                  add_unit_options, count_int, finite_float, positive_float,
+                                  settings_from_args)
 
 
 def add_parser(sub):
@@ -25,17 +26,13 @@ def add_parser(sub):
                    help="cross-validation folds by trace (default 5)")
     c.add_argument("--smooth-s", type=positive_float, default=60.0, metavar="S",
                    help="smoothing window for the derivatives, seconds (default 60)")
-    c.add_argument("--fahrenheit", action="store_true",
-                   help="the traces' temp_c/ambient_c columns hold deg F")
     add_skip_bad_option(c, default=True)
     add_set_option(c, help_text="a setting of the device's estimator for the replays that "
                    "calibrate the interval (repeatable; as --set of replay, without heater "
                    "and profile: the traces decide the heater, the replays use no profile)")
-    c.add_argument("--time-unit", choices=("s", "ms", "min"), default="s",
-                   help="unit of the traces' time_s column (default s); converted to seconds")
-    c.add_argument("--no-checks", action="store_true",
-                   help="calibrate even on traces whose sampling or readings look wrong (the "
-                        "checks of replay); the bounds on size and gaps still apply")
+    add_unit_options(c, files="the traces'", checks_help="calibrate even on traces whose "
+                     "sampling or readings look wrong (the checks of replay); the bounds on "
+                     "size and gaps still apply")
     c.add_argument("--no-plots", action="store_true", help="do not write the PNG plots")
     c.set_defaults(func=cmd_calibrate)
     return c

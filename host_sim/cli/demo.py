@@ -1,22 +1,20 @@
 """``demo [--plot demo.png]``: stream an invented scenario through the core, printing the time-to-target."""
-import math
-
+from host_sim.cli.eta_table import ArrivalCount, EtaTable, add_table_options, auto_step_s
 from host_sim.cli.options import (SAFETY_NOTE, TRUST_FLOOR_S, TRUST_HELP, check_output,
-                                  format_accuracy, positive_float, seed_int)
+                                  format_accuracy, seed_int)
 from host_sim.sim import scenarios
 
 
 def add_parser(sub):
     """Add the ``demo`` subcommand to the CLI's subparsers."""
     d = sub.add_parser("demo", help="stream an invented scenario through the estimator",
-                       description="Synthesise a scenario, stream it through the estimator "
-                                   "printing the time-to-target as it evolves, and "
-                                   "optionally write a PNG.")
+                       description="Synthesise a scenario, stream it through the estimator, "
+                                   "print the time-to-target as it evolves (a table in "
+                                   "minutes) and optionally write a PNG.")
     d.add_argument("--plot", metavar="demo.png")
     d.add_argument("--kind", choices=scenarios.KINDS, default="mug")
     d.add_argument("--seed", type=seed_int, default=7, help="non-negative integer (default 7)")
-    d.add_argument("--every", type=positive_float, default=60.0, metavar="S",
-                   help="print a line every S seconds of trace time (and at events)")
+    add_table_options(d)
     d.set_defaults(func=cmd_demo)
     return d
 
@@ -34,33 +32,28 @@ def cmd_demo(args):
                   events=gen.events)
     target = tr["target_c"]
     print("demo: %s (invented scenario, seed %d), target %.1f C" % (tr["title"], args.seed, target))
-    print("true crossing of the noise-free sensor signal: %.0f s" % tr["crossing_time_s"])
+    print("true crossing of the noise-free sensor signal: %.0f s (%.1f min)"
+          % (tr["crossing_time_s"], tr["crossing_time_s"] / 60.0))
     # the product knows how it reaches its target (see --approach of replay)
-    result = replay(trace, target,
-                    approach=-1 if tr.get("direction", "cooling") == "cooling" else 1)
-    print("%8s %8s  %-12s %10s %21s %10s" % ("time_s", "temp_c", "status", "eta_s",
-                                              "interval_s", "true_s"))
-    next_print = 0.0
+    approach = -1 if tr.get("direction", "cooling") == "cooling" else 1
+    result = replay(trace, target, approach=approach)
+    table = EtaTable(args.every or auto_step_s(trace.time_s[-1] - trace.time_s[0]),
+                     result.settings.value("interval"))
+    arrivals = ArrivalCount(target, approach)
     for r, ev in zip(result.rows, trace.events):
-        if r["time_s"] + 1e-9 < next_print and not ev:
-            continue
-        next_print = r["time_s"] + args.every
-        true_left = tr["crossing_time_s"] - r["time_s"]
-        eta = "-" if r["eta_s"] is None else "%.0f" % r["eta_s"]
-        if r["eta_low_s"] is None:
-            band = "-"
-        else:
-            band = "%.0f..%s" % (r["eta_low_s"], "inf" if not math.isfinite(r["eta_high_s"])
-                                 else "%.0f" % r["eta_high_s"])
-        print("%8.0f %8.2f  %-12s %10s %21s %10s%s" % (
-            r["time_s"], r["temp_c"], r["status"], eta, band,
-            "%.0f" % true_left if true_left > 0 else "-", ("   <- " + ev) if ev else ""))
+        table.offer(r["time_s"], r["temp_c"], r["status_code"], r["eta_s"], r["eta_low_s"],
+                    r["eta_high_s"], ev)
+        arrivals.add(r)
+    if not args.no_table:
+        for line in table.lines(tr["crossing_time_s"], "C", "the simulation's truth"):
+            print(line)
     m = trace_metrics(trace.time_s, result.shown_eta(), tr["crossing_time_s"],
                       result.shown_eta("eta_low_s"), result.shown_eta("eta_high_s"))
     trust = trace_metrics(trace.time_s, result.shown_eta(), tr["crossing_time_s"],
-                          floor_s=TRUST_FLOOR_S)["time_to_trust"]
+                          floor_s=TRUST_FLOOR_S)
     print("accuracy of the answers shown (tracking/arrived): " + format_accuracy(m, trust))
     print("  (" + TRUST_HELP + ")")
+    print(arrivals.line())
     if args.plot:
         from host_sim.replay.plots import plot_replay
         plot_replay(trace, result, args.plot, crossing_s=tr["crossing_time_s"],

@@ -48,13 +48,26 @@ def main(argv=None):
 
     A command reports a user error by raising :class:`CliError`: one line
     ``error: ...`` on stderr and exit status 2, the same for every command.
+    Output piped into a reader that stops early (``| head``) ends the command
+    quietly with status 141, as a shell reports SIGPIPE.
     """
     args = build_parser().parse_args(argv)
     try:
-        return args.func(args)
+        code = args.func(args)
+        sys.stdout.flush()          # a closed pipe shows here, not at interpreter exit
+        return code
     except CliError as exc:
         print("error: %s" % exc, file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        # the reader of our output left (`... | head`): stop quietly, as the Python docs'
+        # note on SIGPIPE advises (stdout to devnull so the exit flush does not fail too)
+        import os
+        try:
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        except (OSError, ValueError):      # stdout is no file (a test's capture)
+            pass
+        return 141

@@ -3,7 +3,7 @@ import os
 import sys
 
 from host_sim.cli.options import (SET_HELP, CliError, add_set_option, add_skip_bad_option,
-                                  count_int, finite_float)
+                                  add_unit_options, count_int, finite_float, target_in_c)
 
 
 def add_parser(sub):
@@ -28,8 +28,11 @@ def add_parser(sub):
     f.add_argument("--threads", action="store_true",
                    help="LocalCluster workers as threads, not processes")
     f.add_argument("--target", type=finite_float, metavar="C",
-                   help="target, deg C, for traces without one in the manifest")
+                   help="target, deg C (deg F with --target-in-f), for traces without one in "
+                        "the manifest")
     add_skip_bad_option(f, default=False)
+    add_unit_options(f, files="the traces'", target=True, checks_help="run traces that replay "
+                     "would refuse (the checks every command runs on traces)")
     f.add_argument("--chunk", type=count_int(1), metavar="K",
                    help="traces per task (default: auto)")
     f.add_argument("--core", metavar="PATH", help="candidate core: another checkout's folder "
@@ -58,7 +61,10 @@ def cmd_fleet(args):
     from host_sim.fleet.run import check_run_options, load_items, make_variant, run_fleet
     try:
         check_run_options(args.workers, args.chunk)
-        items, tag_names = load_items(args.manifest, args.target, args.skip_bad)
+        units = {"fahrenheit": args.fahrenheit, "time_unit": args.time_unit,
+                 "checks": not args.no_checks, "target_in_f": args.target_in_f}
+        items, tag_names = load_items(args.manifest, target_in_c(args, args.target),
+                                      args.skip_bad, units)
         variants = {"cand": make_variant(args.core, args.set)}
         if args.baseline_core or args.baseline_set:
             variants["base"] = make_variant(args.baseline_core, args.baseline_set)

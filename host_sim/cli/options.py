@@ -67,6 +67,44 @@ def add_skip_bad_option(p, default):
                         % ("skip" if default else "stop"))
 
 
+def add_unit_options(p, files="the trace's", target=False, checks_help=None):
+    """``--fahrenheit`` (``--target-in-f`` with ``target``), ``--time-unit`` and
+    ``--no-checks``: one spelling and one meaning in every command that reads
+    traces (the hints of :mod:`host_sim.replay.trace_checks` name them).
+    ``files``: how the help names the traces; ``checks_help``: what
+    ``--no-checks`` lets the command do. Read back with :func:`unit_of` and
+    :func:`target_in_c`."""
+    p.add_argument("--fahrenheit", action="store_true",
+                   help="%s temp_c/ambient_c columns hold deg F" % files)
+    if target:
+        p.add_argument("--target-in-f", action="store_true",
+                       help="with --fahrenheit: the target is in deg F too")
+    p.add_argument("--time-unit", choices=TIME_UNITS, default="s",
+                   help="unit of %s time_s column (default s); converted to seconds" % files)
+    p.add_argument("--no-checks", action="store_true",
+                   help=checks_help or "go on even when the sampling or the readings look "
+                                       "wrong (the checks every command runs on traces)")
+
+
+TIME_UNITS = ("s", "ms", "min")
+
+
+def unit_of(args):
+    """"F" with ``--fahrenheit``, else "C": the unit a command shows temperatures in."""
+    return "F" if getattr(args, "fahrenheit", False) else "C"
+
+
+def target_in_c(args, value, option="--target"):
+    """A target given on the command line (or in a manifest) in deg C: converted from deg F
+    with ``--fahrenheit --target-in-f``; ``--target-in-f`` alone is a :class:`CliError`."""
+    in_f = getattr(args, "target_in_f", False)
+    if in_f and not getattr(args, "fahrenheit", False):
+        raise CliError("--target-in-f needs --fahrenheit (the target is in deg C otherwise)")
+    if value is None or not in_f:
+        return value
+    return (value - 32.0) * 5.0 / 9.0   # deg F -> deg C
+
+
 # older spellings kept beside the generated ones (README and scripts use them)
 OPTION_ALIASES = {"ambient_c": ("--ambient",), "ambient_prior_c": ("--ambient-prior",)}
 SET_HELP = ("an estimator or replay setting by name, repeatable: NAME=VALUE with NAME an "
@@ -218,8 +256,33 @@ class CliError(ValueError):
 TRUST_FLOOR_S = 120.0
 TRUST_HELP = ("time-to-trust: share of the approach (first reading to the crossing) after "
               "which every shown answer stays within 10 %% of the true time left (within "
-              "%.0f s in the last %.0f min); 1.00 = never" % (0.1 * TRUST_FLOOR_S,
-                                                               TRUST_FLOOR_S / 60.0))
+              "%.0f s in the last %.0f min), with how long before the crossing that holds; "
+              "never: the answers near the crossing missed (the last miss is named)"
+              % (0.1 * TRUST_FLOOR_S, TRUST_FLOOR_S / 60.0))
+
+
+def format_trust(figs):
+    """Time-to-trust as a reader takes it in, from the figures of
+    :func:`host_sim.replay.metrics.error_figures`: the share with how long before the
+    crossing the answers hold ("0.997 (the last 8 s)": a share that rounds to 1.00 is
+    printed with more digits, never mistaken for "never"), or "never" with the last
+    miss ("never (an answer 13 s before the crossing was 38 s off)")."""
+    from host_sim.replay.plots import duration_text
+    share = figs.get("time_to_trust")
+    if share is None:
+        return "n/a"
+    if figs.get("trusted_for_s") is None:
+        before, off = figs.get("trust_miss_before_s"), figs.get("trust_miss_s")
+        if before is None:
+            return "never"
+        if off is None:
+            return "never (no answer shown %s before the crossing)" % duration_text(before)
+        return "never (an answer %s before the crossing was %s off)" % (
+            duration_text(before), duration_text(off))
+    text = "%.2f" % share
+    if text == "1.00":
+        text = "%.3f" % share if "%.3f" % share != "1.000" else ">0.999"
+    return "%s (the last %s)" % (text, duration_text(figs["trusted_for_s"]))
 
 
 def check_finite(value, option):
@@ -285,10 +348,13 @@ def show_temp(value_c, unit):
     return ("%.1f %s" if abs(value) < 1e6 else "%.3g %s") % (value, name)
 
 def format_accuracy(m, trust):
+    """One line of accuracy figures: ``m`` from :func:`host_sim.replay.metrics.error_figures`
+    (or ``trace_metrics``), ``trust`` the figures of the time-to-trust call (its floor
+    is :data:`TRUST_FLOOR_S`), read by :func:`format_trust`."""
     def f(v, fmt):
         return "n/a" if v is None else fmt % v
     return ("median rel. error %s, p90 %s, time-to-trust %s, interval coverage %s, "
             "no answer on %s of the readings" % (
                 f(m["median_rel_error"], "%.3f"), f(m["p90_rel_error"], "%.3f"),
-                f(trust, "%.2f"), f(m["coverage"], "%.2f"),
+                format_trust(trust), f(m["coverage"], "%.2f"),
                 f(m["no_estimate_fraction"], "%.2f")))

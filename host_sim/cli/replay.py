@@ -11,8 +11,10 @@ import sys
 import numpy as np
 
 from host_sim.cli.options import (TRUST_FLOOR_S, TRUST_HELP, CliError, add_estimator_options,
-                                  add_skip_bad_option, check_finite, check_output, finite_float,
-                                  format_accuracy, load_truth, settings_from_args, show_temp)
+                                  add_skip_bad_option, add_unit_options, check_finite,
+                                  check_output, finite_float, format_accuracy, load_truth,
+                                  settings_from_args, show_temp, target_in_c, unit_of)
+from host_sim.cli.eta_table import ArrivalCount, EtaTable, add_table_options, auto_step_s
 from host_sim.replay.trace_checks import TraceScan, target_problem, trace_problems
 from host_sim.replay.trace_reader import TraceError
 
@@ -35,20 +37,14 @@ def add_parser(sub):
     r.add_argument("--plot", metavar="OUT.png", help="also write a PNG plot")
     r.add_argument("--truth", metavar="TRUTH.json",
                    help="truth JSON from 'scenario' for the exact crossing time")
-    r.add_argument("--fahrenheit", action="store_true",
-                   help="the trace's temp_c/ambient_c columns hold deg F")
-    r.add_argument("--target-in-f", action="store_true",
-                   help="with --fahrenheit: --target is in deg F too")
     add_skip_bad_option(r, default=False)
-    r.add_argument("--time-unit", choices=("s", "ms", "min"), default="s",
-                   help="unit of the time_s column (default s); converted to seconds")
     r.add_argument("--verdict", action="store_true",
                    help="append a verdict column (accepted, spike, stuck, ...: what the "
                         "reading guard decided) after the fixed columns of PRED.csv")
-    r.add_argument("--no-checks", action="store_true",
-                   help="replay even when the sampling or the readings look wrong (median "
-                        "step under 0.1 s or over 1 h, under a minute of data, median "
-                        "reading outside -60..150 C)")
+    add_unit_options(r, target=True, checks_help="replay even when the sampling or the "
+                     "readings look wrong (median step under 0.1 s or over 1 h, under a "
+                     "minute of data, median reading outside -60..150 C)")
+    add_table_options(r)
     add_estimator_options(r)
     r.set_defaults(func=cmd_replay)
     return r
@@ -70,15 +66,11 @@ def _replay(args):
     from host_sim.replay.trace_reader import iter_trace_rows
     from tinytherm import status as st
 
-    unit = "F" if args.fahrenheit else "C"
+    unit = unit_of(args)
     check_finite(args.target, "--target")
     settings = settings_from_args(args)
     ambient = settings.value("ambient_c")
-    if args.target_in_f and not args.fahrenheit:
-        raise CliError("--target-in-f needs --fahrenheit (the target is in deg C otherwise)")
-    target = args.target
-    if args.fahrenheit and args.target_in_f:
-        target = (target - 32.0) * 5.0 / 9.0
+    target = target_in_c(args, args.target)
     inputs = (args.trace, args.truth, getattr(args, "profile", None))
     check_output(args.out, "--out", inputs=inputs)
     if args.plot:
@@ -107,7 +99,9 @@ def _replay(args):
                        "drop --ambient to use the column, or add --ignore-ambient-column to "
                        "use %g C" % (ambient, ambient))
     if not args.no_checks:
-        problems = trace_problems(scan, unit, args.time_unit)
+        problems = trace_problems(scan, unit, args.time_unit,
+                                  ambient_option="--ignore-ambient-column",
+                                  ambient_used=settings.use_ambient_column)
         target_wrong = target_problem(target, unit, args.target_in_f)
         if target_wrong:
             problems.insert(0, target_wrong)
@@ -146,6 +140,9 @@ def _replay(args):
         bar = tqdm(total=n, unit="row", desc="replay", disable=None if n >= 20000 else True,
                    file=sys.stderr, mininterval=0.5)
         crossing_finder = None if args.truth else CrossingFinder(target)
+        table = None if args.no_table else EtaTable(
+            args.every or auto_step_s(scan.t_last - scan.t0), settings.value("interval"))
+        arrivals = ArrivalCount(target, settings.approach)
         verdict_codes = {name: code for code, name in enumerate(st.VERDICT_NAMES)}
         for i, (row, pred) in enumerate(replay_rows(open_rows(), target, estimator, settings)):
             t, temp, amb, _, event = row
@@ -160,6 +157,9 @@ def _replay(args):
                           nan if high is None else high, 1.0 if code in shown_codes else 0.0)
             if crossing_finder is not None:
                 crossing_finder.add(t, temp)
+            if table is not None:
+                table.offer(t, temp, code, eta, low, high, event)
+            arrivals.add(pred)
             last = (t, temp, code, eta)
             if event and len(events) < MAX_EVENTS:
                 events.append((t, event))
@@ -196,15 +196,17 @@ def _replay(args):
     print("reading verdicts: accepted %d of %d%s" % (
         verdicts[st.ACCEPTED], rows_done,
         "; rejected: " + counted if counted else "; none rejected"))
-    print("last row: t=%.1f s, %s, status %s, eta %s" % (
-        last[0], show_temp(last[1], unit), st.status_name(last[2]),
-        "-" if last[3] is None or math.isnan(last[3]) else "%.0f s" % last[3]))
-
     if args.truth:
         source = "truth file %s" % args.truth
     else:
         crossing = crossing_finder.result()
         source = "the trace (5-reading running median)"
+    if table is not None:
+        for line in table.lines(crossing, unit, source):
+            print(line)
+    print("last row: t=%.1f s, %s, status %s, eta %s" % (
+        last[0], show_temp(last[1], unit), st.status_name(last[2]),
+        "-" if last[3] is None or math.isnan(last[3]) else "%.0f s" % last[3]))
     target_shown = show_temp(target, unit)
     if unit == "F":
         target_shown += " (%.2f C)" % target
@@ -215,10 +217,11 @@ def _replay(args):
             m = error_figures(_scored_chunks(scored, only_shown), crossing)
             m_trust = error_figures(_scored_chunks(scored, only_shown, intervals=False),
                                     crossing, floor_s=TRUST_FLOOR_S)
-            print("accuracy, %s: %s" % (label, format_accuracy(m, m_trust["time_to_trust"])))
+            print("accuracy, %s: %s" % (label, format_accuracy(m, m_trust)))
         print("  (" + TRUST_HELP + ")")
     else:
         print("the trace does not cross the target %s: no accuracy metrics" % target_shown)
+    print(arrivals.line())
     scored.close()
     if args.plot:
         from host_sim.replay.plots import ReplaySeries, plot_series

@@ -46,23 +46,33 @@ def core_root(path):
     raise ValueError("%s holds no tinytherm package (no tinytherm/__init__.py)" % path)
 
 
-def _scan(path, target_c, skip_bad, want_crossing, checks=True):
+def _reader_options(spec):
+    """The keyword arguments of ``iter_trace_rows`` a spec asks for (deg F, time unit)."""
+    return {"skip_bad": bool(spec.get("skip_bad", False)),
+            "fahrenheit": bool(spec.get("fahrenheit", False)),
+            "time_unit": spec.get("time_unit", "s")}
+
+
+def _scan(path, target_c, reader_options, want_crossing, checks=True, ambient_used=True):
     """First pass: (crossing or None, has heater column, any nonzero duty).
 
     With ``checks``, a trace that replay would refuse (the shared checks of
     :mod:`host_sim.replay.trace_checks`) raises :class:`TraceError`.
     """
     finder = CrossingFinder(target_c) if want_crossing else None
-    with iter_trace_rows(path, skip_bad=skip_bad) as rows:
+    with iter_trace_rows(path, **reader_options) as rows:
         scan = TraceScan(rows)
         for row in rows:
             if finder is not None:
                 finder.add(row[0], row[1])
             scan.add(row)
         scan.finish()
-    problems = trace_problems(scan) if checks else []
+    problems = trace_problems(scan, "F" if reader_options["fahrenheit"] else "C",
+                              reader_options["time_unit"],
+                              ambient_option="--set use_ambient_column=false",
+                              ambient_used=ambient_used) if checks else []
     if problems:
-        raise TraceError("%s: %s" % (path, "; ".join(problems)))
+        raise TraceError("%s: %s (--no-checks runs it anyway)" % (path, "; ".join(problems)))
     return (finder.result() if finder is not None else None), scan.has_heater, scan.heater_on
 
 
@@ -72,7 +82,9 @@ def evaluate_trace(spec, variant, predictions_out=None):
     ``spec``: dict with ``path`` (trace CSV), ``target_c`` (deg C), optional
     ``crossing_s`` (a known crossing, seconds; otherwise the trace's own,
     :class:`host_sim.replay.replay.CrossingFinder`), ``noise_sd_c`` (deg C) and
-    ``skip_bad`` (skip malformed rows instead of failing) and ``checks``
+    ``skip_bad`` (skip malformed rows instead of failing), ``fahrenheit``
+    (the temperature columns hold deg F), ``time_unit`` ("s", "ms", "min":
+    the unit of the time column) and ``checks``
     (default True: refuse what replay refuses, see
     :mod:`host_sim.replay.trace_checks`). ``variant``: dict with
     ``settings``, ``NAME=VALUE`` texts (or a dict) for
@@ -86,16 +98,17 @@ def evaluate_trace(spec, variant, predictions_out=None):
     out["profile"] = []
     try:
         target = float(spec["target_c"])
-        skip_bad = bool(spec.get("skip_bad", False))
+        reader_options = _reader_options(spec)
         known = spec.get("crossing_s")
-        crossing, has_heater, any_duty = _scan(spec["path"], target, skip_bad, known is None,
-                                               spec.get("checks", True))
+        settings = ReplaySettings(variant.get("settings"))
+        crossing, has_heater, any_duty = _scan(spec["path"], target, reader_options,
+                                               known is None, spec.get("checks", True),
+                                               settings.use_ambient_column)
         if known is not None:
             crossing = float(known)
-        settings = ReplaySettings(variant.get("settings"))
         estimator = settings.estimator(has_heater, any_duty)
-        scorer = TraceScorer(target, crossing, spec.get("noise_sd_c"))
-        with iter_trace_rows(spec["path"], skip_bad=skip_bad) as rows:
+        scorer = TraceScorer(target, crossing, spec.get("noise_sd_c"), settings.approach)
+        with iter_trace_rows(spec["path"], **reader_options) as rows:
             stream = replay_rows(rows, target, estimator, settings)
 
             def scored():

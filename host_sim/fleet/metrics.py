@@ -16,7 +16,12 @@ the trace's own 5-reading running median (the smoothing that
 :func:`host_sim.replay.replay.crossing_from_trace` uses) as the signal: rows with
 status ``arrived`` while that median is short of the target by more than
 ``max(0.3 C, 3 x noise_sd_c)`` (:func:`host_sim.replay.metrics.early_arrivals`,
-counted in blocks of rows). ``noise_sd_c`` defaults to 0 (margin 0.3 C).
+counted in blocks of rows). ``noise_sd_c`` defaults to 0 (margin 0.3 C). The
+side the liquid starts on is the approach's when the product says it
+(``direction``: -1 cools, +1 heats, as ``predict``'s ``approach``); otherwise
+the side of the running median at the first ``tracking`` row, where the
+device starts answering (a probe that reads the room before the pour would
+otherwise make every honest arrival of a cooling drink count as early).
 
 The elapsed-fraction profile (:attr:`TraceScorer.profile`) counts shown
 answers' relative errors in :data:`PROFILE_BINS` bins of the elapsed
@@ -79,10 +84,11 @@ class TraceScorer:
 
     ``target_c`` deg C; ``crossing_s``: the trace's crossing of the target
     (seconds, the trace's clock) or None; ``noise_sd_c``: sensor noise sd,
-    deg C, for the early-arrival margin.
+    deg C, for the early-arrival margin; ``direction``: -1 (cools to the
+    target), +1 (heats), or 0/None (the side at the first ``tracking`` row).
     """
 
-    def __init__(self, target_c, crossing_s=None, noise_sd_c=0.0):
+    def __init__(self, target_c, crossing_s=None, noise_sd_c=0.0, direction=None):
         self.target_c = float(target_c)
         self.crossing_s = crossing_s
         self.noise_sd_c = float(noise_sd_c or 0.0)
@@ -94,7 +100,8 @@ class TraceScorer:
         self._pending = []          # statuses waiting for their running median
         self._block_status = []
         self._block_signal = []
-        self._direction = None
+        self._direction = direction or None
+        self._first_side = None
         self._keep = ColumnSpool(4)  # evaluated rows: t, eta, low, high (NaN = none)
         self.profile = {}            # (fraction bin, error bin) -> count
 
@@ -128,9 +135,12 @@ class TraceScorer:
 
     def _signal(self, med):
         status = self._pending.pop(0)
-        if self._direction is None:
-            # metrics.early_arrivals' default: the side the first value lies on
-            self._direction = -1 if med > self.target_c else 1
+        side = -1 if med > self.target_c else 1     # above the target: it has to cool
+        if self._first_side is None:
+            self._first_side = side
+        if self._direction is None and status in SHOWN:
+            # the approach the device answers; an arrival before any answer: the first side
+            self._direction = side if status == "tracking" else self._first_side
         self._block_status.append(status)
         self._block_signal.append(med)
         if len(self._block_status) >= _BLOCK:
@@ -140,7 +150,7 @@ class TraceScorer:
         if self._block_status:
             self.early_arrival += metrics.early_arrivals(
                 self._block_status, self._block_signal, self.target_c, self.noise_sd_c,
-                self._direction)
+                self._direction or self._first_side)
         self._block_status, self._block_signal = [], []
 
     def result(self):

@@ -98,35 +98,42 @@ def _float_cell(text, name):
     return value
 
 
-def check_target(target_c, option="--target"):
-    """ValueError unless ``target_c`` (deg C) is None or a liquid's temperature."""
+def check_target(target_c, option="--target", unit="C", target_in_f=False):
+    """ValueError unless ``target_c`` (deg C) is None or a liquid's temperature.
+
+    ``unit``, ``target_in_f``: how the user gave it (``--fahrenheit``,
+    ``--target-in-f``), for the message."""
     if target_c is None:
         return None
     if isinstance(target_c, bool) or not isinstance(target_c, (int, float)):
         raise ValueError("%s must be a number, got %r" % (option, target_c))
-    problem = target_problem(float(target_c))
+    problem = target_problem(float(target_c), unit, target_in_f)
     if problem:
         raise ValueError("%s: %s" % (option, problem))
     return float(target_c)
 
 
-def load_items(source, target_c=None, skip_bad=False):
+def load_items(source, target_c=None, skip_bad=False, units=None):
     """The fleet's traces from a manifest CSV, a folder or a glob pattern.
 
-    ``target_c`` (deg C): the target of traces without one. Returns
+    ``target_c`` (deg C): the target of traces without one. ``units``: dict of
+    how to read every trace, as replay's options say it: ``fahrenheit``,
+    ``time_unit``, ``checks`` (False: run traces the shared checks refuse) and
+    ``target_in_f`` (the manifest's targets are in deg F). Returns
     ``(items, tag_names)``; manifest rows with a bad cell get a ``problem``
     and become error rows, they do not stop the run. A manifest that cannot
     be read as one (not UTF-8, no header, duplicate columns, an unbalanced
     quote, a tag over :data:`MAX_TAG_CHARS` characters) raises ValueError
     (a :class:`TraceError`) naming the file and line.
     """
-    target_c = check_target(target_c)
+    units = dict(units or {})
+    target_c = check_target(target_c, "--target", *_target_unit(units))
     if os.path.isdir(source) or any(ch in source for ch in "*?["):
         pattern = os.path.join(source, "*.csv") if os.path.isdir(source) else source
         # manifests lying among the traces are not traces
         paths = sorted(p for p in glob.glob(pattern)
                        if os.path.isfile(p) and _kind_of(p) != "manifest")
-        return [_plain_item(i, p, target_c, skip_bad) for i, p in enumerate(paths)], []
+        return [_plain_item(i, p, target_c, skip_bad, units) for i, p in enumerate(paths)], []
     if not os.path.isfile(source):
         raise ValueError("%s: no such manifest, folder or pattern" % source)
     try:
@@ -135,7 +142,7 @@ def load_items(source, target_c=None, skip_bad=False):
         raise ValueError("%s: cannot read (%s)" % (source, exc.strerror or exc)) from None
     if "path" not in header:
         if "time_s" in header or "temp_c" in header:
-            return [_plain_item(0, source, target_c, skip_bad)], []
+            return [_plain_item(0, source, target_c, skip_bad, units)], []
         if not header:
             raise TraceError("%s: empty file (no manifest header, no trace)" % source)
         shown = ",".join(header)
@@ -145,10 +152,24 @@ def load_items(source, target_c=None, skip_bad=False):
                          "(header time_s,temp_c): the first line is %s%s"
                          % (source, number, shown[:80] + ("..." if len(shown) > 80 else ""),
                             hint))
-    return _manifest_items(source, target_c, skip_bad)
+    return _manifest_items(source, target_c, skip_bad, units)
 
 
-def _manifest_items(source, target_c, skip_bad):
+def _target_unit(units):
+    """``(unit, target_in_f)`` of a units dict, for :func:`check_target`."""
+    return ("F" if units.get("fahrenheit") else "C"), bool(units.get("target_in_f"))
+
+
+def _spec(path, target_c, skip_bad, units):
+    """The spec of :func:`host_sim.fleet.core.evaluate_trace` for one trace."""
+    spec = {"path": path, "target_c": target_c, "skip_bad": skip_bad}
+    for name in ("fahrenheit", "time_unit", "checks"):
+        if name in units:
+            spec[name] = units[name]
+    return spec
+
+
+def _manifest_items(source, target_c, skip_bad, units):
     base = os.path.dirname(os.path.abspath(source))
     items, fields, col, tag_cols = [], None, {}, []
     with open(source, "rb") as handle:
@@ -176,14 +197,15 @@ def _manifest_items(source, target_c, skip_bad):
                     raise TraceError("%s: tag %s holds %d characters (at most %d)"
                                      % (where, name[:40], len(cells[i]), MAX_TAG_CHARS))
             items.append(_manifest_item(len(items), cells, fields, col, tag_cols, base,
-                                        target_c, skip_bad, number))
+                                        target_c, skip_bad, number, units))
     return items, [name for name, _ in tag_cols]
 
 
-def _manifest_item(index, cells, fields, col, tag_cols, base, target_c, skip_bad, number):
+def _manifest_item(index, cells, fields, col, tag_cols, base, target_c, skip_bad, number,
+                   units):
     path = cells[col["path"]] if col["path"] < len(cells) else ""
     tags = {name: (cells[i] if i < len(cells) else "") for name, i in tag_cols}
-    spec = {"path": os.path.join(base, path), "target_c": target_c, "skip_bad": skip_bad}
+    spec = _spec(os.path.join(base, path), target_c, skip_bad, units)
     problem = ""
     try:
         if len(cells) != len(fields):
@@ -193,8 +215,10 @@ def _manifest_item(index, cells, fields, col, tag_cols, base, target_c, skip_bad
             raise ValueError("empty path")
         if "target" in col:
             cell = _float_cell(cells[col["target"]], "target")
+            if cell is not None and units.get("target_in_f"):
+                cell = (cell - 32.0) * 5.0 / 9.0        # deg F -> deg C
             if cell is not None:
-                spec["target_c"] = check_target(cell, "target")
+                spec["target_c"] = check_target(cell, "target", *_target_unit(units))
         if spec["target_c"] is None:
             raise ValueError("no target (give a target cell or --target)")
         for name in ("crossing_s", "noise_sd_c"):
@@ -205,8 +229,8 @@ def _manifest_item(index, cells, fields, col, tag_cols, base, target_c, skip_bad
     return Item(index, path, spec, tags, problem)
 
 
-def _plain_item(i, path, target_c, skip_bad):
-    spec = {"path": os.path.abspath(path), "target_c": target_c, "skip_bad": skip_bad}
+def _plain_item(i, path, target_c, skip_bad, units):
+    spec = _spec(os.path.abspath(path), target_c, skip_bad, units)
     problem = "" if target_c is not None else "no target (use --target with a folder or glob)"
     return Item(i, path, spec, {}, problem)
 

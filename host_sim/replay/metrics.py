@@ -1,8 +1,10 @@
 """Accuracy metrics of a time-to-target answer against the true crossing time.
 
 For one trace with readings at ``time_s`` and a true crossing at ``crossing_s``
-(seconds, same clock), the *approach* is ``[time_s[0], crossing_s)``. Rows in
-the approach after a warm-up (default 60 s) are *evaluated*. At an evaluated
+(seconds, same clock), the *approach* is ``[start, crossing_s)``, ``start``
+the first reading's time or, where something no one can foresee came first
+(a top-up), the ``approach_start_s`` the truth gives. Rows in the approach
+after a warm-up (default 60 s) are *evaluated*. At an evaluated
 row with an estimate ``eta`` (seconds from that reading) and true remaining
 time ``rem = crossing_s - t``:
 
@@ -11,7 +13,13 @@ time ``rem = crossing_s - t``:
 - ``time_to_trust``: elapsed fraction of the approach, ``(t* - t0) / (crossing
   - t0)``, where ``t*`` is the first evaluated row from which every later
   evaluated row has an estimate within 10 %; 1.0 when the last evaluated row
-  is not within 10 %;
+  is not within 10 % (never trusted). Beside it, ``trusted_for_s`` is
+  ``crossing - t*`` (None when never), and ``trust_miss_before_s`` and
+  ``trust_miss_s`` say what broke trust last: the remaining time at the last
+  evaluated row not within 10 % and how far off its estimate was, seconds
+  (``|eta - rem|``; None when it had no estimate; both None when no row
+  missed). A fraction near 1 is then read as "trusted only for the last
+  seconds", not confused with "never";
 - ``coverage``: fraction of evaluated rows with an interval for which
   ``eta_low <= rem <= eta_high`` (a missing or infinite upper bound counts as
   unbounded);
@@ -21,11 +29,25 @@ Two figures need the per-row status names (``"tracking"``, ``"arrived"``, ...)
 and, for the first, the scenario's truth:
 
 - ``early_arrival``: number of rows (anywhere in the trace) whose status is
-  ``"arrived"`` while the TRUE noise-free sensor signal is still short of the
-  target by more than ``max(0.3 C, 3 x noise sd)`` (issue 9's definition: an
-  honest arrival never comes while the liquid is clearly on the starting side);
+  ``"arrived"`` while the TRUE signal is still short of the target by more
+  than ``max(0.3 C, 3 x noise sd)`` (issue 9's definition: an honest arrival
+  never comes while the liquid is clearly on the starting side). Where the
+  truth knows the liquid's own temperature, the liquid is the judge: the
+  families benchmark passes the liquid per row and, as the target, the
+  liquid's temperature at the true crossing (what it is when the probe
+  reads the target). The probe's noise-free signal is the wrong judge where
+  it lags a jump: after a top-up the probe rises through the target while
+  the drink is far hotter, and a probe-only judge calls that arrival honest.
+  Recordings without the liquid's temperature pass the smoothed reading;
 - ``first_answer_s``: seconds from the first row to the first row whose status
-  is ``"tracking"`` (an ETA shown); None when no row is.
+  is ``"tracking"`` (an ETA shown); None when no row is;
+- ``no_estimate_from_third``: fraction of the approach's rows from its third
+  reading on (readings counted from the approach's start, warm-up ignored)
+  without an answer shown (status not ``"tracking"``/``"arrived"``);
+  ``first_answer_reading``: the number (1 = the approach's first reading) of
+  the first reading with an answer shown, None when none is. These two are
+  the figures of readings minutes apart (issue 17: an answer from the third
+  reading on).
 
 Figures are per row (readings), not per second. Per kind and aggregate,
 :func:`summarise` takes the median over traces of the per-trace median, p90,
@@ -48,6 +70,8 @@ FLOOR_S = 30.0
 TRUST_TOLERANCE = 0.10
 EARLY_MARGIN_C = 0.3      # issue 9: arrival is early when short by > max(0.3 C, 3 sd)
 EARLY_SD_FACTOR = 3.0
+SHOWN = ("tracking", "arrived")
+FROM_READING = 3          # issue 17: an answer from the third reading on
 
 
 def _as_array(values):
@@ -113,10 +137,31 @@ def first_answer_s(time_s, status):
     return None
 
 
+def answers_by_reading(time_s, status, crossing_s, approach_start_s=None,
+                       from_reading=FROM_READING):
+    """``(no_estimate_from_third, first_answer_reading)`` of one trace (module docstring).
+
+    ``time_s``: per-row seconds; ``status``: per-row status names or core
+    codes; ``crossing_s`` (None: no crossing, no fraction) and
+    ``approach_start_s`` (default the first row's time): seconds.
+    ``from_reading``: count rows from this reading number on. The fraction is
+    None when the approach has fewer readings.
+    """
+    t = np.asarray(time_s, dtype=float)
+    start = t[0] if approach_start_s is None else approach_start_s
+    rows = np.nonzero(t >= start)[0]
+    shown = [_status_name(status[i]) in SHOWN for i in rows]
+    first = next((k + 1 for k, s in enumerate(shown) if s), None)
+    counted = [s for k, s in enumerate(shown)
+               if k + 1 >= from_reading and crossing_s is not None and t[rows[k]] < crossing_s]
+    frac = float(1.0 - sum(counted) / len(counted)) if counted else None
+    return frac, first
+
+
 def trace_metrics(time_s, eta_s, crossing_s, eta_low_s=None, eta_high_s=None,
                   warmup_s=WARMUP_S, floor_s=FLOOR_S, tolerance=TRUST_TOLERANCE,
                   status=None, true_signal_c=None, target_c=None, noise_sd_c=None,
-                  direction=None):
+                  direction=None, approach_start_s=None):
     """Metrics of one trace (see module docstring); dict of floats or None.
 
     ``time_s``: per-row seconds; ``eta_s``, ``eta_low_s``, ``eta_high_s``:
@@ -127,11 +172,15 @@ def trace_metrics(time_s, eta_s, crossing_s, eta_low_s=None, eta_high_s=None,
     Optional: ``status`` (per-row status names or core codes) gives
     ``first_answer_s`` (seconds); with it, ``true_signal_c`` (noise-free
     sensor signal per row, deg C), ``target_c`` (deg C) and ``noise_sd_c``
-    (deg C) give ``early_arrival`` (a row count; see :func:`early_arrivals`).
-    Without them these two figures are None.
+    (deg C) give ``early_arrival`` (a row count; see :func:`early_arrivals`);
+    ``first_answer_reading`` and, with ``crossing_s``, ``no_estimate_from_third``
+    (:func:`answers_by_reading`). Without them these figures are None.
+    ``approach_start_s``: where the approach starts (seconds; default the
+    first row), e.g. the last top-up.
     """
     keys = ("median_rel_error", "p90_rel_error", "time_to_trust", "coverage",
-            "no_estimate_fraction", "early_arrival", "first_answer_s")
+            "no_estimate_fraction", "early_arrival", "first_answer_s",
+            "no_estimate_from_third", "first_answer_reading")
     out = dict.fromkeys(keys)
     out["evaluated_rows"] = 0
     out["status_given"] = status is not None
@@ -140,26 +189,33 @@ def trace_metrics(time_s, eta_s, crossing_s, eta_low_s=None, eta_high_s=None,
         if true_signal_c is not None and target_c is not None and noise_sd_c is not None:
             out["early_arrival"] = early_arrivals(status, true_signal_c, target_c,
                                                   noise_sd_c, direction)
+    if status is not None:
+        out["no_estimate_from_third"], out["first_answer_reading"] = answers_by_reading(
+            time_s, status, crossing_s, approach_start_s)
     if crossing_s is None:
         return out
     intervals = eta_low_s is not None and eta_high_s is not None
     rows = (np.asarray(time_s, dtype=float), _as_array(eta_s),
             _as_array(eta_low_s) if intervals else None,
             _as_array(eta_high_s) if intervals else None)
-    out.update(error_figures(lambda: iter((rows,)), crossing_s, warmup_s, floor_s, tolerance))
+    out.update(error_figures(lambda: iter((rows,)), crossing_s, warmup_s, floor_s, tolerance,
+                             approach_start_s))
     return out
 
 
 def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
-                  tolerance=TRUST_TOLERANCE):
+                  tolerance=TRUST_TOLERANCE, approach_start_s=None):
     """The error figures of :func:`trace_metrics` from rows given a part at a time.
 
     ``chunks``: a function returning a fresh iterator, in row order, of
     ``(time_s, eta_s, eta_low_s, eta_high_s)`` float arrays (seconds, NaN
     where none; ``eta_low_s``/``eta_high_s`` None when no interval was
-    given); ``crossing_s``: the true crossing, seconds. Returns a dict with
+    given); ``crossing_s``: the true crossing, seconds; ``approach_start_s``:
+    where the approach starts (default the first row). Returns a dict with
     ``median_rel_error``, ``p90_rel_error``, ``time_to_trust``, ``coverage``,
-    ``no_estimate_fraction`` (None where undefined) and ``evaluated_rows``.
+    ``no_estimate_fraction`` (None where undefined), ``evaluated_rows`` and the
+    time-to-trust details ``trusted_for_s``, ``trust_miss_before_s``,
+    ``trust_miss_s`` (seconds or None; see the module docstring).
 
     Counts and time-to-trust come from one pass; the median and p90 are the
     exact order statistics (:func:`_order_statistics`, a few more passes) with
@@ -172,9 +228,10 @@ def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
     n_eval = n_has = n_interval = n_inside = 0
     start = None
     trust_from = None     # time of the first evaluated row after the last bad one
+    miss = None           # (remaining time, |eta - rem| or NaN) of the last bad row
     intervals = False
     for start, t_e, rel_e, rem_e, low_e, high_e in _evaluated(chunks, crossing_s, warmup_s,
-                                                              floor_s):
+                                                              floor_s, approach_start_s):
         n_eval += len(t_e)
         has = np.isfinite(rel_e)
         n_has += int(np.count_nonzero(has))
@@ -182,6 +239,9 @@ def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
         bad = np.nonzero(~good)[0]
         if len(bad):
             trust_from = None if bad[-1] == len(good) - 1 else t_e[bad[-1] + 1]
+            b = bad[-1]
+            # rel = |eta - rem| / max(rem, floor), so the miss in seconds is rel * max(rem, floor)
+            miss = (float(rem_e[b]), float(rel_e[b] * max(rem_e[b], floor_s)))
         elif trust_from is None:
             trust_from = t_e[0]
         if low_e is not None:
@@ -193,17 +253,23 @@ def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
             n_interval += int(np.count_nonzero(with_interval))
             n_inside += int(np.count_nonzero(inside & with_interval))
     out["evaluated_rows"] = n_eval
+    out["trusted_for_s"] = out["trust_miss_before_s"] = out["trust_miss_s"] = None
     if n_eval == 0:
         return out
+    if miss is not None:
+        out["trust_miss_before_s"] = miss[0]
+        out["trust_miss_s"] = miss[1] if math.isfinite(miss[1]) else None
     out["no_estimate_fraction"] = float(1.0 - n_has / n_eval)
     if n_has:
         def values():
-            for _, _, rel_e, _, _, _ in _evaluated(chunks, crossing_s, warmup_s, floor_s):
+            for _, _, rel_e, _, _, _ in _evaluated(chunks, crossing_s, warmup_s, floor_s,
+                                                   approach_start_s):
                 yield rel_e[np.isfinite(rel_e)]
         out["median_rel_error"], out["p90_rel_error"] = _quantiles(values, n_has)
     approach = crossing_s - start
     if trust_from is not None:    # the last evaluated row is within the tolerance
         out["time_to_trust"] = float((trust_from - start) / approach)
+        out["trusted_for_s"] = float(crossing_s - trust_from)
     else:
         out["time_to_trust"] = 1.0
     if intervals and n_interval:
@@ -211,9 +277,9 @@ def error_figures(chunks, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_S,
     return out
 
 
-def _evaluated(chunks, crossing_s, warmup_s, floor_s):
-    """Per chunk: ``(first time of the trace, t, rel, remaining, low, high)`` of evaluated rows."""
-    start = None
+def _evaluated(chunks, crossing_s, warmup_s, floor_s, approach_start_s=None):
+    """Per chunk: ``(start of the approach, t, rel, remaining, low, high)`` of evaluated rows."""
+    start = approach_start_s
     for t, eta, low, high in chunks():
         t = np.asarray(t, dtype=float)
         if not len(t):
@@ -338,11 +404,15 @@ def summarise(per_trace):
     is ``inf`` when more than half never answer); ``never_answered``: the
     number of such traces. ``early_arrival``: total rows over traces;
     ``early_traces``: traces with at least one. These are None when no trace
-    carried the inputs.
+    carried the inputs. ``no_estimate_from_third``: mean over traces that
+    have it; ``first_answer_reading``: median over traces that carry it, a
+    trace with status given but no answer counting as never (``inf``).
     """
     first = [math.inf if m["first_answer_s"] is None else m["first_answer_s"]
              for m in per_trace if m.get("status_given")]
     early = [m["early_arrival"] for m in per_trace if m.get("early_arrival") is not None]
+    by_reading = [math.inf if m.get("first_answer_reading") is None else m["first_answer_reading"]
+                  for m in per_trace if m.get("status_given") and "first_answer_reading" in m]
     return {
         "traces": len(per_trace),
         "median_rel_error": _median([m["median_rel_error"] for m in per_trace]),
@@ -354,4 +424,6 @@ def summarise(per_trace):
         "never_answered": sum(1 for v in first if v == math.inf) if first else None,
         "early_arrival": int(sum(early)) if early else None,
         "early_traces": sum(1 for v in early if v > 0) if early else None,
+        "no_estimate_from_third": _mean([m.get("no_estimate_from_third") for m in per_trace]),
+        "first_answer_reading": float(np.median(by_reading)) if by_reading else None,
     }

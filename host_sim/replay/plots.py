@@ -10,7 +10,8 @@ disturbed and sensor-fault stretches shaded),
 its interval (an unbounded upper end is marked at the top edge, never drawn
 as a spike), and the true remaining time. The ETA axis fits the data: values
 above it are clipped and marked. Temperatures are drawn in deg C or deg F
-(``unit``); times in minutes.
+(``unit``); times in one unit for the whole figure, minutes or hours by the
+span (:class:`TimeAxis`).
 """
 import math
 
@@ -87,8 +88,44 @@ class ReplaySeries:
                    verdict=verdicts, events=list(zip(trace.time_s, trace.events)))
 
 
-def _dur(seconds):
-    """A duration for a legend: minutes up to two hours, then hours."""
+HOURS_FROM_S = 3 * 3600.0   # spans from three hours on are drawn in hours, shorter in minutes
+
+
+class TimeAxis:
+    """One time unit for a whole plot, chosen for its span: minutes below
+    :data:`HOURS_FROM_S`, hours from there on. Every time on the plot (axes, legends,
+    labels) goes through it, so an axis in minutes never sits beside "8.6 h".
+
+    ``unit``: "min" or "h"; ``seconds``: seconds per unit. :meth:`of` scales
+    seconds (a number or an array) to the unit; :meth:`text` writes a time with
+    its unit; :meth:`label` an axis label ("time since the first reading (min)").
+    Replay's, calibrate's and fleet's plots all use it.
+    """
+
+    def __init__(self, span_s):
+        span_s = float(span_s) if span_s is not None and math.isfinite(span_s) else 0.0
+        self.unit, self.seconds = ("h", 3600.0) if span_s >= HOURS_FROM_S else ("min", 60.0)
+
+    def of(self, seconds):
+        """Seconds -> the axis unit (float or numpy array)."""
+        if isinstance(seconds, (int, float)):
+            return seconds / self.seconds
+        return np.asarray(seconds, dtype=float) / self.seconds
+
+    def text(self, seconds):
+        """A time in the axis unit with the unit: "7.1 min", "8.60 h"."""
+        return ("%.1f %s" if self.unit == "min" else "%.2f %s") % (self.of(seconds), self.unit)
+
+    def label(self, what):
+        """An axis label: ``what`` and the unit in brackets."""
+        return "%s (%s)" % (what, self.unit)
+
+
+def duration_text(seconds):
+    """A duration for a reader: seconds under two minutes, minutes up to two hours,
+    then hours ("38 s", "7.1 min", "8.6 h")."""
+    if seconds < 119.5:
+        return "%.0f s" % seconds
     if seconds < 7200.0:
         return "%.1f min" % (seconds / 60.0)
     return "%.1f h" % (seconds / 3600.0)
@@ -148,26 +185,27 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
         return v * 9.0 / 5.0 + 32.0 if unit == "F" else v
 
     t = s.time_s
-    minutes = t / 60.0
     t_end = crossing_s if crossing_s is not None else t[-1]
+    axis = TimeAxis(max(t[-1], t_end) - t[0])
+    xs = axis.of(t)       # the x values, in the plot's one time unit
     fig, (ax1, ax2) = plt.subplots(2, 1, figsize=(10, 8), sharex=True,
                                    gridspec_kw={"height_ratios": (1.15, 1.0)})
 
     # --- top: temperatures ---
     rejected = s.verdict != st.ACCEPTED
-    ax1.plot(minutes[~rejected], temp(s.temp_c[~rejected]), ".", ms=2.5, color="0.6",
+    ax1.plot(xs[~rejected], temp(s.temp_c[~rejected]), ".", ms=2.5, color="0.6",
              label="readings")
     if clean_c is not None:
-        ax1.plot(minutes, temp(clean_c), "-", lw=0.8, color="0.25",
+        ax1.plot(xs, temp(clean_c), "-", lw=0.8, color="0.25",
                  label="noise-free sensor signal (simulation truth)")
-    ax1.plot(minutes, temp(s.temp_est_c), "-", lw=1.2, color="tab:blue",
+    ax1.plot(xs, temp(s.temp_est_c), "-", lw=1.2, color="tab:blue",
              label="estimator's current temperature")
     ax1.axhline(temp(s.target_c), color="tab:red", lw=1.0, ls="--",
                 label="target %.1f %s" % (temp(s.target_c), unit))
     lo_list = [np.nanmin(s.temp_c[~rejected]) if (~rejected).any() else s.target_c, s.target_c]
     hi_list = [np.nanmax(s.temp_c[~rejected]) if (~rejected).any() else s.target_c, s.target_c]
     if s.ambient_c is not None and np.isfinite(s.ambient_c).any():
-        ax1.plot(minutes, temp(s.ambient_c), "-", lw=0.8, color="tab:cyan",
+        ax1.plot(xs, temp(s.ambient_c), "-", lw=0.8, color="tab:cyan",
                  label="ambient sensor")
         lo_list.append(np.nanpercentile(s.ambient_c, 1))
         hi_list.append(np.nanpercentile(s.ambient_c, 99))
@@ -176,7 +214,7 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
     ylim1 = (lo_t - pad, hi_t + pad)
     if rejected.any():
         y_rej = np.clip(temp(s.temp_c[rejected]), ylim1[0], ylim1[1])
-        ax1.plot(minutes[rejected], y_rej, "x", ms=4, color="tab:red", mew=0.9,
+        ax1.plot(xs[rejected], y_rej, "x", ms=4, color="tab:red", mew=0.9,
                  label="rejected by the guard (%d; off-scale ones at the edge)"
                  % int(rejected.sum()))
     i = _snapshot(s, t_end)
@@ -186,22 +224,22 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
         span = min(1.25 * eta, 3.0 * (t[-1] - t[0]) + 60.0)
         tau = np.linspace(0.0, span, 200)
         curve = np.array([model.temperature_at(x, start, k, eq) for x in tau])
-        x = (t[i] + tau) / 60.0
+        x = axis.of(t[i] + tau)
         ax1.plot(x, temp(curve), "-", lw=1.6, color="tab:orange",
-                 label="model fitted at %.1f min, drawn forward (ETA %s then)"
-                 % (t[i] / 60.0, _dur(eta)))
-        ax1.plot([t[i] / 60.0], [temp(start)], "o", ms=5, color="tab:orange")
+                 label="model fitted at %s, drawn forward (ETA %s then)"
+                 % (axis.text(t[i]), axis.text(eta)))
+        ax1.plot([axis.of(t[i])], [temp(start)], "o", ms=5, color="tab:orange")
         if np.isfinite(low):
             # the same curve shifted to arrive at the interval's ends
             early = np.interp(tau + (eta - low), tau, curve, right=np.nan)
             if np.isfinite(high):
                 late = np.interp(tau - (high - eta), tau, curve, left=curve[0])
                 band_label = "%d%% ETA interval then (%s..%s)" % (
-                    round(100 * s.interval), _dur(low), _dur(high))
+                    round(100 * s.interval), axis.text(low), axis.text(high))
             else:
                 late = np.full_like(curve, curve[0])
                 band_label = "%d%% ETA interval then (%s..never)" % (
-                    round(100 * s.interval), _dur(low))
+                    round(100 * s.interval), axis.text(low))
             ax1.fill_between(x, temp(early), temp(late), color="tab:orange", alpha=0.18,
                              label=band_label)
     ax1.set_ylim(*ylim1)
@@ -220,11 +258,11 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
     top = 1.2 * ref
     finite_high = np.isfinite(high)
     band_hi = np.where(finite_high, np.minimum(high, top), np.nan)
-    ax2.fill_between(minutes, np.minimum(low, top) / 60.0, band_hi / 60.0, color="tab:blue",
+    ax2.fill_between(xs, axis.of(np.minimum(low, top)), axis.of(band_hi), color="tab:blue",
                      alpha=0.15, lw=0, label="%d%% ETA interval" % round(100 * s.interval))
     unbounded = np.isinf(high) & np.isfinite(low)
     if unbounded.any():
-        ax2.fill_between(minutes, np.minimum(low, top) / 60.0, top / 60.0, where=unbounded,
+        ax2.fill_between(xs, axis.of(np.minimum(low, top)), axis.of(top), where=unbounded,
                          color="tab:blue", alpha=0.06, lw=0, hatch="///",
                          label="interval with no upper end (\"never\" not ruled out)")
     for code, (label, colour, style, width) in _LINE.items():
@@ -232,20 +270,20 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
         if not mask.any() or code == st.ARRIVED:
             continue
         # values above the axis are left out of the line (marked below), not drawn on the edge
-        ax2.plot(minutes, np.where(mask & (eta <= top), eta, np.nan) / 60.0, style, lw=width,
+        ax2.plot(xs, axis.of(np.where(mask & (eta <= top), eta, np.nan)), style, lw=width,
                  color=colour, label=label)
     off = np.isfinite(eta) & (eta > top)
     if off.any():
-        ax2.plot(minutes[off], np.full(int(off.sum()), top / 60.0), "^", ms=3,
+        ax2.plot(xs[off], np.full(int(off.sum()), axis.of(top)), "^", ms=3,
                  color="0.4", label="ETA above the axis (clipped)")
     if crossing_s is not None:
         before = t <= crossing_s
-        ax2.plot(minutes[before], (crossing_s - t[before]) / 60.0, "k--", lw=1.0,
+        ax2.plot(xs[before], axis.of(crossing_s - t[before]), "k--", lw=1.0,
                  label="true remaining time" if crossing_label == "true crossing"
                  else "remaining time (crossing from the trace)")
-    ax2.set_ylim(0.0, top / 60.0)
-    ax2.set_ylabel("time to target (min)")
-    ax2.set_xlabel("time since the first reading (min)")
+    ax2.set_ylim(0.0, axis.of(top))
+    ax2.set_ylabel(axis.label("time to target"))
+    ax2.set_xlabel(axis.label("time since the first reading"))
     ax2.grid(alpha=0.3)
 
     # --- status stretches, events and the crossing on both panels ---
@@ -256,8 +294,8 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
         if code not in _SHADE:
             continue
         label, colour = _SHADE[code]
-        x0 = minutes[a]
-        x1 = minutes[b + 1] if b + 1 < len(minutes) else minutes[b]
+        x0 = xs[a]
+        x1 = xs[b + 1] if b + 1 < len(xs) else xs[b]
         for ax in (ax1, ax2):
             ax.axvspan(x0, x1, color=colour, alpha=0.5, lw=0,
                        label=None if (code in seen or ax is ax1) else label)
@@ -265,18 +303,18 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
     ev_shown = s.events[:30]
     for n, (te, text) in enumerate(ev_shown):
         for ax in (ax1, ax2):
-            ax.axvline(te / 60.0, color="tab:purple", lw=0.9, ls="-.",
+            ax.axvline(axis.of(te), color="tab:purple", lw=0.9, ls="-.",
                        label="event" if (n == 0 and ax is ax2) else None)
-        ax1.annotate(_plain(text, 30), (te / 60.0, 1.0), xycoords=("data", "axes fraction"),
+        ax1.annotate(_plain(text, 30), (axis.of(te), 1.0), xycoords=("data", "axes fraction"),
                      xytext=(2, -4), textcoords="offset points", rotation=90, va="top",
                      ha="left", fontsize=7, color="tab:purple")
     if crossing_s is not None:
         for ax in (ax1, ax2):
-            ax.axvline(crossing_s / 60.0, color="k", lw=0.9, ls=":",
-                       label=None if ax is ax2 else "%s, %.1f min" % (crossing_label,
-                                                                     crossing_s / 60.0))
+            ax.axvline(axis.of(crossing_s), color="k", lw=0.9, ls=":",
+                       label=None if ax is ax2 else "%s, %s" % (crossing_label,
+                                                                axis.text(crossing_s)))
     right = max(t[-1], crossing_s if crossing_s is not None else t[-1])
-    ax2.set_xlim(t[0] / 60.0, (t[0] + 1.03 * (right - t[0]) + 1.0) / 60.0)
+    ax2.set_xlim(axis.of(t[0]), axis.of(t[0] + 1.03 * (right - t[0]) + 1.0))
     ax1.legend(loc="best", fontsize=7, framealpha=0.85)
     ax2.legend(loc="upper right", fontsize=7, framealpha=0.85)
     if title:
@@ -284,6 +322,7 @@ def plot_series(s, out_path, crossing_s=None, title=None, clean_c=None, unit="C"
     fig.tight_layout()
     fig.savefig(out_path, dpi=110, format="png")
     drawn = {"eta_axis_top_s": top, "temp_axis_c": ylim1, "events": len(ev_shown),
+             "time_unit": axis.unit,
              "eta_clipped": int(off.sum()), "unbounded_rows": int(unbounded.sum()),
              "rejected": int(rejected.sum()),
              "shaded": sorted(set(int(c) for c in shade_codes if int(c) in _SHADE)),

@@ -97,11 +97,17 @@ def _show_temp(value_c, unit):
     return ("%.1f %s" if abs(value) < 1e6 else "%.3g %s") % (value, name)
 
 
-def trace_problems(scan, unit="C", time_unit="s", time_unit_option="--time-unit"):
+def trace_problems(scan, unit="C", time_unit="s", time_unit_option="--time-unit",
+                   ambient_option=None, ambient_used=True):
     """Messages for a trace that cannot be what the user meant (empty list if fine).
 
     ``scan``: a finished :class:`TraceScan`; ``unit``: "C" or "F" (how the
     readings are shown); ``time_unit``: the unit the time column was read in.
+    The hints name the unit options every command that reads traces has
+    (``--fahrenheit``, ``time_unit_option``); ``ambient_option``: how this
+    command is told to ignore the ambient_c column (None: it cannot be, the
+    hint says to convert the column); ``ambient_used``: False when the
+    command was told to ignore the column (it is then not checked).
     """
     problems = []
     if not scan.rows:
@@ -122,10 +128,11 @@ def trace_problems(scan, unit="C", time_unit="s", time_unit_option="--time-unit"
         problems.append("%d of %d readings are above %g C, hotter than a liquid at the "
                         "stove: deg F? add --fahrenheit" % (scan.hot_rows, scan.rows, hi))
     amb = scan.median_ambient_c
-    if amb is not None and not lo <= amb <= hi:
+    if amb is not None and ambient_used and not lo <= amb <= hi:
         problems.append("the median ambient_c is %s, not an air or bath temperature (%g..%g "
-                        "C): Kelvin or deg F? convert it, or add --ignore-ambient-column"
-                        % (_show_temp(amb, unit), lo, hi))
+                        "C): Kelvin or deg F? convert it%s"
+                        % (_show_temp(amb, unit), lo, hi,
+                           ", or add " + ambient_option if ambient_option else ""))
     if scan.t_last > MAX_TIME_S:
         problems.append("time_s reaches %.3g s: row-to-row differences are lost at that size "
                         "in double precision; %swrite seconds since the start of the recording"
@@ -149,8 +156,11 @@ def trace_problems(scan, unit="C", time_unit="s", time_unit_option="--time-unit"
         problems.append("the trace spans %.0f days: time in milliseconds? add %s ms"
                         % (span / 86400.0, time_unit_option))
     elif span < 60.0:
-        problems.append("the trace covers only %.3g s; the estimator needs minutes of "
-                        "readings: time in minutes? add %s min" % (span, time_unit_option))
+        # minutes read as seconds only when minutes would make it a minute or more
+        problems.append("the trace covers only %.3g s (%d rows); the estimator needs minutes "
+                        "of readings%s" % (span, scan.rows, ": time in minutes? add %s min"
+                                           % time_unit_option if span >= 1.0 and
+                                           time_unit == "s" else ""))
     return problems
 
 

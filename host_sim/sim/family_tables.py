@@ -20,7 +20,9 @@ the air):
   reservoir, sensor]: tap water whose inlet warms as the pipes do, or a
   recirculated tub of iced water that warms with the heat it takes up;
 - ``fridge``: drink cooling in a cycling fridge [liquid, container, sensor,
-  air sensor]: 0.33-1.5 L, glass, plastic or can, in-liquid or strap-on
+  air sensor]: 0.33-1.5 L, glass, plastic or can, in-liquid or strap-on;
+- ``room`` and ``topup`` (:mod:`host_sim.sim.drink_families`): a drink in a
+  room or cabinet whose air cycles, and a mug topped up with hot liquid.
 
 Each family class draws its parameters (``draw``: the ranges, some of them
 conditional on an earlier draw, e.g. the wall thickness on the material) and
@@ -33,9 +35,12 @@ from host_sim.sim import kinds
 from host_sim.sim.physics import (C_ALUMINIUM, C_DRINK, C_STEEL, C_WATER, EPS_ALUMINIUM,
                                   EPS_GLASS, EPS_STEEL, MATERIALS, set_mode, side_wall_loss_w,
                                   top_loss_w, water_wall_coefficient)
-from host_sim.sim.ranges import Draw
+from host_sim.sim.drink_families import RoomDrinkFamily, TopUp
+from host_sim.sim.family_base import Family, draw_mug_wall
 
-FAMILIES = ("mug", "pot", "bath", "kettle", "wort", "fridge")
+# Order matters: a family's seed code is its place here, so new families are appended and
+# the traces of the older ones stay bit-identical.
+FAMILIES = ("mug", "pot", "bath", "kettle", "wort", "fridge", "room", "topup")
 FAMILY_TITLES = {
     "mug": "hot drink cooling in a mug",
     "pot": "pot heated on a hob at constant power",
@@ -43,46 +48,13 @@ FAMILY_TITLES = {
     "kettle": "kettle heating water (stops before boiling)",
     "wort": "wort chilled by an immersion coil, coolant warming",
     "fridge": "drink cooling in a cycling fridge",
+    "room": "drink cooling or warming in a room or cabinet whose air cycles",
+    "topup": "mug topped up with hot liquid, probe with its own lag",
 }
 MAX_FORCED_H = 60.0                    # W/(m^2 K), cap on the forced-air coefficient of a wall
 
 
-class _Family(Draw):
-    """Common draws: room, sensor, intervals; subclasses give the physics."""
-
-    direction = -1
-    crossing_range_s = (300.0, 3600.0)
-    target_limits_c = (-50.0, 150.0)
-    sensor_index = -1
-    air_index = None            # state index of a lagged air sensor (fridge)
-    heater_possible = False
-    room_column_possible = True
-    boil_stop = False           # stop the trace before the water reaches
-                                # host_sim.sim.families.BOIL_STOP_C
-
-    def __init__(self, rng):
-        super().__init__(rng)
-        self.p = {}
-        self.breaks = []
-        self.events = []
-
-    def build(self):
-        """The physics of the drawn parameters (``model``, ``rhs``); after :meth:`draw`."""
-        self.model = self.physics()
-        self.rhs = self.model.rhs
-
-    def mode0(self):
-        return {"lid": False, "stir": 1.0, "duty": 1.0}
-
-    def water_index(self):
-        return 0
-
-    def tau_ref_s(self, temp_c):
-        """Loss time constant (s) of the liquid near ``temp_c``, or None if not defined."""
-        return None
-
-
-class Mug(_Family):
+class Mug(Family):
     """Hot drink in a mug. State: liquid C, wall C, liquid kg, sensor C."""
 
     direction = -1
@@ -99,19 +71,7 @@ class Mug(_Family):
         p["radius_m"] = self.u(0.030, 0.045)
         p["fill_m"] = p["liquid_kg"] / 1000.0 / (math.pi * p["radius_m"] ** 2)
         p["height_m"] = p["fill_m"] * self.u(1.1, 1.35)
-        p["material"] = self.choice(("ceramic", "glass", "paper"), [0.6, 0.25, 0.15])
-        c, rho, k, eps, (th_lo, th_hi) = MATERIALS[p["material"]]
-        p["wall_m"] = self.u(th_lo, th_hi)
-        r = p["radius_m"]
-        p["inner_area_m2"] = math.pi * r * r + 2.0 * math.pi * r * p["fill_m"]
-        p["outer_area_m2"] = math.pi * r * r + 2.0 * math.pi * (r + p["wall_m"]) * p["height_m"]
-        p["wall_kg"] = rho * p["wall_m"] * 0.5 * (p["inner_area_m2"] + p["outer_area_m2"]) * 1.3
-        p["wall_c_j_per_kg_k"] = c
-        p["wall_half_r"] = 0.5 * p["wall_m"] / k
-        p["wall_eps"] = eps
-        p["preheated"] = self.chance(0.3)
-        frac = self.u(0.5, 0.95) if p["preheated"] else 0.0
-        p["wall0_c"] = p["room_c"] + frac * (p["pour_c"] - p["room_c"])
+        draw_mug_wall(self, p)
         p["lid"] = self.choice(("open", "lidded", "lid_off"), [0.5, 0.3, 0.2])
         p["lid_u"] = self.u(2.0, 6.0)                  # W/(m^2 K), plastic lid (own estimate)
         p["probe"] = self.choice(("middle", "near_wall", "outside"), [0.5, 0.3, 0.2])
@@ -143,7 +103,7 @@ class Mug(_Family):
             top_area_m2=math.pi * p["radius_m"] ** 2, top_length_m=p["radius_m"])
 
 
-class _Heated(_Family):
+class _Heated(Family):
     """Water heated at constant power through an element with its own lag.
 
     State: water C, element C, sensor C. Losses: a vertical wall (convection
@@ -285,7 +245,7 @@ class Bath(_Heated):
         p["w_element"] = self.u(0.0, 0.03)
 
 
-class Kettle(_Family):
+class Kettle(Family):
     """Kettle. State: water C, element plate C, body C, sensor C."""
 
     direction = 1
@@ -293,6 +253,7 @@ class Kettle(_Family):
     target_limits_c = (40.0, 95.0)
     heater_possible = True
     boil_stop = True
+    sparse_possible = False      # boils within ~10 min: no ten readings a minute apart
 
     def draw(self):
         p = self.p
@@ -319,7 +280,7 @@ class Kettle(_Family):
         return kinds.Kettle.from_params(self.p)
 
 
-class Wort(_Family):
+class Wort(Family):
     """Wort and immersion coil. State: wort C, wort kg, coolant reservoir C, sensor C."""
 
     direction = -1
@@ -375,7 +336,7 @@ class Wort(_Family):
                                              recirculated=self.p["coolant"] != "tap")
 
 
-class Fridge(_Family):
+class Fridge(Family):
     """Drink in a fridge. State: liquid C, container C, sensor C, air sensor C."""
 
     direction = -1
@@ -436,4 +397,4 @@ class Fridge(_Family):
 
 
 CLASSES = {"mug": Mug, "pot": Pot, "bath": Bath, "kettle": Kettle, "wort": Wort,
-           "fridge": Fridge}
+           "fridge": Fridge, "room": RoomDrinkFamily, "topup": TopUp}

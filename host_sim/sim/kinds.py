@@ -1,5 +1,5 @@
 """One right-hand side per physical kind: mug, heated water (bath, pot), kettle, wort chiller,
-drink in a fridge, and the power-law pot.
+drink in cycling air (a fridge, a room or cabinet), and the power-law pot.
 
 Each class holds the physical quantities of one vessel (SI units, deg C) and
 gives ``rhs(t, y, mode)`` for :func:`host_sim.sim.physics.integrate_piecewise`;
@@ -238,36 +238,32 @@ class WortChiller(Quantities):
         return [d_wort, -evap, d_res, d_sensor]
 
 
-class FridgeDrink(Quantities):
-    """Drink in a fridge whose air cycles. State: liquid C, container C, sensor C, air sensor C.
+class CyclingAirDrink(Quantities):
+    """A drink in a container in air whose temperature is a function of time ``air_c(t)``.
 
-    Air: ``set + amp (sin ph + 0.3 sin(2 ph + skew)) + door_rise exp(-t /
-    door_tau)`` (plus a second door opening when ``second_door``). Liquid ->
-    container: water-side free convection in series with half the container
-    wall; container -> air: free convection and radiation. The air sensor is
-    a lagged reading of the air.
+    State: liquid C, container C, sensor C, air sensor C. Liquid -> container:
+    water-side free convection in series with half the container wall;
+    container -> air: free convection and radiation; the top (when
+    ``top_area_m2`` is given): a lid's U-value or an open evaporating surface
+    (the mass lost is neglected: grams per hour on a drink, own estimate). The
+    probe reads a lagged mixture of liquid, container and air; the air sensor
+    is a lagged reading of the air. Subclasses give :meth:`air_c`.
 
-    Quantities: set_c, cycle_amp_c, cycle_period_s, cycle_phase, cycle_skew,
-    door_rise_c, door_tau_s, second_door, second_door_s, second_rise_c,
-    liquid_kg, container_j_per_k, inner_area_m2, area_m2, height_m, half_r,
-    eps, water_wall (callable), w_liquid, w_container, w_air, sensor_lag_s,
-    air_sensor_lag_s.
+    Quantities: liquid_kg, container_j_per_k, inner_area_m2, area_m2, height_m,
+    half_r, eps, water_wall (callable), w_liquid, w_container, w_air,
+    sensor_lag_s, air_sensor_lag_s; optional top_area_m2, top_length_m, lid_u,
+    rel_humidity (``mode["lid"]`` says whether the top is closed).
     """
 
-    NAMES = ("set_c", "cycle_amp_c", "cycle_period_s", "cycle_phase", "cycle_skew", "door_rise_c",
-             "door_tau_s", "second_door", "liquid_kg", "container_j_per_k", "inner_area_m2",
-             "area_m2", "height_m", "half_r", "eps", "water_wall", "w_liquid", "w_container",
-             "w_air", "sensor_lag_s", "air_sensor_lag_s")
-    OPTIONAL = ("second_door_s", "second_rise_c")
+    NAMES = ("liquid_kg", "container_j_per_k", "inner_area_m2", "area_m2", "height_m", "half_r",
+             "eps", "water_wall", "w_liquid", "w_container", "w_air", "sensor_lag_s",
+             "air_sensor_lag_s")
+    OPTIONAL = ("top_area_m2", "top_length_m", "lid_u", "rel_humidity")
+    top_area_m2 = 0.0            # no top loss unless a table gives one
 
     def air_c(self, t):
-        """Fridge air temperature at t seconds, deg C."""
-        ph = 2.0 * math.pi * t / self.cycle_period_s + self.cycle_phase
-        cyc = math.sin(ph) + 0.3 * math.sin(2.0 * ph + self.cycle_skew)
-        air = self.set_c + self.cycle_amp_c * cyc + self.door_rise_c * math.exp(-t / self.door_tau_s)
-        if self.second_door and t > self.second_door_s:
-            air += self.second_rise_c * math.exp(-(t - self.second_door_s) / self.door_tau_s)
-        return air
+        """Air temperature at t seconds, deg C."""
+        raise NotImplementedError
 
     def rhs(self, t, y, mode):
         tl, tg, s, a = y
@@ -279,10 +275,70 @@ class FridgeDrink(Quantities):
         h_out = air_wall_h(d_out, self.height_m)
         q_ga = h_out * self.area_m2 * d_out + radiation_w(self.eps, self.area_m2, tg, air)
         sensed = self.w_liquid * tl + self.w_container * tg + self.w_air * air
-        return [-q_lg / (self.liquid_kg * C_DRINK),
+        if self.top_area_m2:
+            q_top = top_loss_w(tl, air, self.top_area_m2, self.top_length_m, mode["lid"],
+                               self.lid_u, self.rel_humidity)[0]
+            d_liquid = -(q_lg + q_top) / (self.liquid_kg * C_DRINK)
+        else:
+            d_liquid = -q_lg / (self.liquid_kg * C_DRINK)
+        return [d_liquid,
                 (q_lg - q_ga) / self.container_j_per_k,
                 (sensed - s) / self.sensor_lag_s,
                 (air - a) / self.air_sensor_lag_s]
+
+
+class FridgeDrink(CyclingAirDrink):
+    """Drink in a fridge whose air cycles. State: liquid C, container C, sensor C, air sensor C.
+
+    Air: ``set + amp (sin ph + 0.3 sin(2 ph + skew)) + door_rise exp(-t /
+    door_tau)`` (plus a second door opening when ``second_door``); no top
+    loss (a closed bottle or can). The rest is :class:`CyclingAirDrink`.
+
+    Quantities: set_c, cycle_amp_c, cycle_period_s, cycle_phase, cycle_skew,
+    door_rise_c, door_tau_s, second_door, second_door_s, second_rise_c and
+    those of :class:`CyclingAirDrink`.
+    """
+
+    NAMES = ("set_c", "cycle_amp_c", "cycle_period_s", "cycle_phase", "cycle_skew", "door_rise_c",
+             "door_tau_s", "second_door") + CyclingAirDrink.NAMES
+    OPTIONAL = ("second_door_s", "second_rise_c")
+
+    def air_c(self, t):
+        """Fridge air temperature at t seconds, deg C."""
+        ph = 2.0 * math.pi * t / self.cycle_period_s + self.cycle_phase
+        cyc = math.sin(ph) + 0.3 * math.sin(2.0 * ph + self.cycle_skew)
+        air = self.set_c + self.cycle_amp_c * cyc + self.door_rise_c * math.exp(-t / self.door_tau_s)
+        if self.second_door and t > self.second_door_s:
+            air += self.second_rise_c * math.exp(-(t - self.second_door_s) / self.door_tau_s)
+        return air
+
+
+class RoomDrink(CyclingAirDrink):
+    """A drink in a room or cabinet whose air a thermostat or a compressor cycles.
+
+    Air (deg C): ``mean + drift t + amp sin(theta)``, ``theta = ph + skew (1 -
+    cos ph)``, ``ph = 2 pi t / period + phase + wobble sin(2 pi t /
+    wobble_period)``. With ``|skew| < 1`` theta still rises with ph, so the
+    cycle stays smooth while its warming and cooling parts take unequal shares
+    of the period (a duty cycle other than one half); the wobble makes the
+    cycles unequal in length, as a thermostat's are. The rest is
+    :class:`CyclingAirDrink` (with the top when the table gives one).
+
+    Quantities: air_mean_c, drift_c_per_s, cycle_amp_c, cycle_period_s,
+    cycle_phase, cycle_skew, cycle_wobble, cycle_wobble_period_s and those of
+    :class:`CyclingAirDrink`.
+    """
+
+    NAMES = ("air_mean_c", "drift_c_per_s", "cycle_amp_c", "cycle_period_s", "cycle_phase",
+             "cycle_skew", "cycle_wobble", "cycle_wobble_period_s") + CyclingAirDrink.NAMES
+    OPTIONAL = CyclingAirDrink.OPTIONAL
+
+    def air_c(self, t):
+        """Room or cabinet air temperature at t seconds, deg C."""
+        ph = (2.0 * math.pi * t / self.cycle_period_s + self.cycle_phase
+              + self.cycle_wobble * math.sin(2.0 * math.pi * t / self.cycle_wobble_period_s))
+        theta = ph + self.cycle_skew * (1.0 - math.cos(ph))
+        return self.air_mean_c + self.drift_c_per_s * t + self.cycle_amp_c * math.sin(theta)
 
 
 class PowerLawPot(Quantities):

@@ -194,6 +194,11 @@ class PiecewiseSolution:
             out[:, mask] = self.sols[i](t[mask])
         return out
 
+    def after(self, t):
+        """State just after ``t`` seconds (``__call__`` gives the state just before a jump)."""
+        i = max(int(np.searchsorted(self.starts, float(t), side="right")) - 1, 0)
+        return self.sols[i](float(t))
+
 
 def integrate_piecewise(rhs, y0, t_end, breaks, mode):
     """Integrate ``rhs(t, y, mode)`` over [0, t_end] with jumps at ``breaks``.
