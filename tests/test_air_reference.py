@@ -24,17 +24,17 @@ def test_cycle_means_match_numpy_trapezoid():
     start = None
     checked = 0
     for i, a in enumerate(air):
-        was = inp.side
+        was = inp.air.side if inp.air is not None else 0
         inp.reference(float(a), 0 if i == 0 else int(t_ms[i] - t_ms[i - 1]), False)
-        if was <= 0 and inp.side == 1:
+        if was <= 0 and inp.air.side == 1:
             if start is not None:
                 counts = np.array([to_counts(float(x)) for x in air[start:i + 1]], dtype=float)
                 span = t_ms[start:i + 1]
                 mean = np.trapezoid(counts, span) / (span[-1] - span[0])
-                assert inp.has_mean
-                assert abs(inp.mean / 256.0 - mean) <= 0.5 / 256.0 + 1e-9, (i, inp.mean / 256.0, mean)
+                assert inp.air.has_mean
+                assert abs(inp.air.mean / 256.0 - mean) <= 0.5 / 256.0 + 1e-9, (i, inp.air.mean / 256.0, mean)
                 checked += 1
             start = i
     assert checked >= 15, checked
     # and in deg C the mean is the cycle's own (4 C; the noise and the skew average out)
-    assert abs(inp.mean / 256.0 / SCALE - 4.0) < 0.1
+    assert abs(inp.air.mean / 256.0 / SCALE - 4.0) < 0.1

@@ -33,15 +33,7 @@ MAX_BLOCK_READINGS = 255
 NOISE_MAX_DT_MS = 120000  # successive differences further apart than this measure drift, not noise
 NOISE_PRIOR_C = 0.05      # deg C: reading noise sd assumed before it is measured
 NOISE_PRIOR_N = 4         # readings that prior is worth
-AIR_SMOOTH_S = 60.0       # s: time constant of the measured air's smoothing (its noise)
-CYCLE_SLOW_S = 600.0      # s: the slow mean of the air, about which its cycles cross
-CYCLE_BAND_C = 0.25       # deg C: hysteresis of a crossing (above an air sensor's noise)
-CYCLE_MIN_S = 300.0       # s: a shorter cycle is noise, not a cycle
-CYCLE_MAX_S = 14400.0     # s: a longer one means the air stopped cycling
 _INV_SCALE = 1.0 / SCALE
-_BAND = int(CYCLE_BAND_C * SCALE * 256)
-_CYCLE_MIN_MS = int(CYCLE_MIN_S * 1000)
-_CYCLE_MAX_MS = int(CYCLE_MAX_S * 1000)
 _MS = 0.001
 
 
@@ -227,32 +219,14 @@ class Noise:
 class Inputs:
     """The reference ``R`` of each reading (the air the law is driven by), its future mean, the duty.
 
-    ``R`` is the fixed ambient, or the measured air reading smoothed with a
-    time constant of :data:`AIR_SMOOTH_S` (its noise only: the law is driven
-    by the air as it moves), or 0 when nothing is known. A measured air, once
+    ``R`` is the fixed ambient, or the measured air (:class:`tinytherm.air.Air`,
+    imported with the first measured air: a product without an air sensor
+    does not load it), or 0 when nothing is known. A measured air, once
     given, overrides the fixed one; a reading without one holds the last.
-
-    What the air *will* do (:meth:`ahead_fine`): its mean over the last
-    whole cycle. A cycle runs from one upward crossing of the slow mean
-    (time constant :data:`CYCLE_SLOW_S`, hysteresis :data:`CYCLE_BAND_C`) to
-    the next (a fridge's compressor, a room's heating); its mean is the
-    trapezoid integral of the readings over it divided by its length::
-
-        M = sum((a_i + a_(i-1)) dt_i) / (2 sum(dt_i))      (counts, exact integers)
-
-    Before a whole cycle has been seen, or when the current one has run
-    longer than :data:`CYCLE_MAX_S` (the air stopped cycling), the slow mean
-    stands in. All of it in integers per reading (8 fractional bits in the
-    smoothed values and the cycle's mean, rounded: a slow mean at 1 s steps
-    moves for a difference of 0.005 C); a cycle's mean is divided once, when
-    it closes.
+    What the air *will* do on average is :meth:`ahead_fine`.
     """
 
-    # saved: smoothed air and slow mean (counts * 2**8), cycle integral (doubled
-    # count ms), last air counts, cycle mean (counts * 2**8), cycle length (ms),
-    # flags (measured 1, a cycle running 2, a mean kept 4, trigger side + 1 in bits 3-4)
-    _FMT = "<iiqiiiB"
-    STATE_SIZE = 29
+    STATE_SIZE = 29   # the air's bytes (zeros while none was measured)
 
     def __init__(self, fixed_c):
         self.fixed = None if fixed_c is None else to_counts(fixed_c)
@@ -260,18 +234,7 @@ class Inputs:
 
     def reset(self):
         self.measured = False
-        self.fine = 0          # smoothed measured air, counts * 2**8
-        self.slow = 0          # slow mean of the air, counts * 2**8
-        self.last = 0          # latest air reading, counts
-        self.side = 0          # Schmitt trigger: +1 above the slow mean, -1 below, 0 not yet
-        self.running = False   # a cycle is being integrated (since an upward crossing)
-        self.cyc_int = 0       # doubled trapezoid integral of the air over it, count ms
-        self.cyc_ms = 0        # its length so far, ms
-        self.has_mean = False  # a whole cycle has been seen
-        self.mean = 0          # mean of the last whole cycle, counts * 2**8
-        self.alpha_ms = -1     # step length the smoothing weights were worked out for
-        self.alpha = 0         # weights per step, 1/2**16: the reference's and the slow mean's
-        self.beta = 0
+        self.air = None        # the measured air's smoothing and cycle (tinytherm.air.Air)
         self.duty = 0.0        # the last duty and its counts (cache)
         self.duty_c = 0
 
@@ -283,61 +246,26 @@ class Inputs:
         """``R`` for this reading in counts; ``dt_ms`` since the previous reading.
 
         ``restart``: the fit starts with this reading (the smoothing starts
-        again at it; the cycle and the slow mean go on).
+        again at it; the air's cycle goes on).
         """
         if ambient_c is None:
             if not self.measured:
                 return 0 if self.fixed is None else self.fixed
-            a = self.last
-        else:
-            a = to_counts(ambient_c)
+            return self.air.step(self.air.last, dt_ms, restart)
         if not self.measured:
+            # imported only when used: the module costs RAM a product without one need not spend
+            from tinytherm.air import Air
+            self.air = Air()
             self.measured = True
-            self.fine = self.slow = a << 8
-            self.last = a
-            return a
-        if dt_ms != self.alpha_ms:
-            self.alpha = _weight(dt_ms, AIR_SMOOTH_S)
-            self.beta = _weight(dt_ms, CYCLE_SLOW_S)
-            self.alpha_ms = dt_ms
-        if restart:
-            self.fine = a << 8
-        else:
-            self.fine += (((a << 8) - self.fine) * self.alpha + 32768) >> 16
-        self.slow += (((a << 8) - self.slow) * self.beta + 32768) >> 16
-        if self.running:
-            self.cyc_int += (a + self.last) * dt_ms
-            self.cyc_ms += dt_ms
-            if self.cyc_ms > _CYCLE_MAX_MS:
-                self.running = False  # no cycle this long: the air stopped cycling
-                self.has_mean = False
-        self.last = a
-        # the trigger: the smoothed air against the slow mean, with hysteresis
-        band = _BAND
-        if self.side <= 0 and self.fine > self.slow + band:
-            self.side = 1
-            if self.running and self.cyc_ms >= _CYCLE_MIN_MS:
-                # a whole cycle: M = integral / (2 length), kept with 8 fractional bits
-                self.mean = (self.cyc_int * 128 + self.cyc_ms // 2) // self.cyc_ms
-                self.has_mean = True
-            self.running = True
-            self.cyc_int = 0
-            self.cyc_ms = 0
-        elif self.side >= 0 and self.fine < self.slow - band:
-            self.side = -1
-        return (self.fine + 128) >> 8
+            return self.air.start(to_counts(ambient_c))
+        return self.air.step(to_counts(ambient_c), dt_ms, restart)
 
     def ahead_fine(self):
-        """The air the future will see on average, counts * 2**8 (int).
-
-        The mean of the last whole cycle; the slow mean before one is seen;
-        the fixed ambient (or 0) when nothing is measured.
-        """
-        if not self.measured:
-            return (0 if self.fixed is None else self.fixed) << 8
-        if self.has_mean:
-            return self.mean
-        return self.slow
+        """The air the future will see on average, counts * 2**8 (int): the measured
+        air's (:meth:`tinytherm.air.Air.ahead_fine`), else the fixed ambient, else 0."""
+        if self.measured:
+            return self.air.ahead_fine()
+        return (0 if self.fixed is None else self.fixed) << 8
 
     def duty_counts(self, duty):
         """A duty in [0, 1] as counts of 1/DUTY_SCALE (cached: the duty rarely changes)."""
@@ -347,33 +275,23 @@ class Inputs:
         return self.duty_c
 
     def pack_into(self, buf, offset):
-        flags = ((1 if self.measured else 0) | (2 if self.running else 0)
-                 | (4 if self.has_mean else 0) | ((self.side + 1) << 3))
-        struct.pack_into(self._FMT, buf, offset, self.fine, self.slow, self.cyc_int, self.last,
-                         self.mean, self.cyc_ms, flags)
+        if self.measured:
+            self.air.pack_into(buf, offset)
+        else:
+            for i in range(self.STATE_SIZE):
+                buf[offset + i] = 0
 
     def unpack_from(self, buf, offset):
-        fine, slow, cyc_int, last, mean, cyc_ms, flags = struct.unpack_from(
-            self._FMT, buf, offset)
-        side = ((flags >> 3) & 3) - 1
-        if flags > 31 or side > 1 or not 0 <= cyc_ms <= _CYCLE_MAX_MS:
+        """Load the state; False when a value is impossible (the caller resets)."""
+        if not buf[offset + self.STATE_SIZE - 1] & 1:
+            return True   # (no air measured: its bytes are zeros)
+        from tinytherm.air import Air
+        air = Air()
+        if not air.unpack_from(buf, offset):
             return False
-        self.fine, self.slow, self.cyc_int, self.last = fine, slow, cyc_int, last
-        self.mean, self.cyc_ms, self.side = mean, cyc_ms, side
-        self.measured = bool(flags & 1)
-        self.running = bool(flags & 2)
-        self.has_mean = bool(flags & 4)
+        self.air = air
+        self.measured = True
         return True
-
-
-def _weight(dt_ms, tau_s):
-    """Smoothing weight of one step ``dt_ms`` long for a time constant ``tau_s``, 1/2**16."""
-    if tau_s <= 0.0:
-        return 65536
-    try:
-        return int((1.0 - math.exp(-dt_ms * 0.001 / tau_s)) * 65536.0 + 0.5)
-    except (ValueError, OverflowError):
-        return 65536
 
 
 class Regression:

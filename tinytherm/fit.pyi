@@ -1,5 +1,7 @@
 from typing import Optional, Union
 
+from tinytherm.air import Air
+
 Buffer = Union[bytes, bytearray, memoryview]
 
 SCALE: int
@@ -8,11 +10,6 @@ MAX_BLOCK_READINGS: int
 NOISE_MAX_DT_MS: int
 NOISE_PRIOR_C: float
 NOISE_PRIOR_N: int
-AIR_SMOOTH_S: float
-CYCLE_SLOW_S: float
-CYCLE_BAND_C: float
-CYCLE_MIN_S: float
-CYCLE_MAX_S: float
 
 class BlockSums:
     STATE_SIZE: int
@@ -64,18 +61,7 @@ class Inputs:
     STATE_SIZE: int
     fixed: Optional[int]
     measured: bool
-    fine: int
-    slow: int
-    last: int
-    side: int
-    running: bool
-    cyc_int: int
-    cyc_ms: int
-    has_mean: bool
-    mean: int
-    alpha_ms: int
-    alpha: int
-    beta: int
+    air: Optional[Air]
     duty: float
     duty_c: int
     def __init__(self, fixed_c: Optional[float]) -> None: ...

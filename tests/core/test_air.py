@@ -123,10 +123,10 @@ def test_cycle_mean_is_the_mean_over_the_last_whole_cycle():
     for i in range(1200):
         a = 5.0 + (1.5 if (t_ms // 750000) % 2 == 0 else -1.5) + 0.0625 * (i % 3)
         c = int(math.floor(a * SCALE + 0.5))
-        was_side = inp.side
+        was_side = inp.air.side if inp.air is not None else 0
         inp.reference(a, 0 if i == 0 else 7000, False)
         readings.append((t_ms, c))
-        if was_side <= 0 and inp.side == 1:
+        if was_side <= 0 and inp.air.side == 1:
             if started:
                 # trapezoid mean of the cycle's readings, in counts * 2**8, rounded
                 area2 = 0
@@ -134,7 +134,7 @@ def test_cycle_mean_is_the_mean_over_the_last_whole_cycle():
                     area2 += ((readings[j][1] + readings[j - 1][1])
                               * (readings[j][0] - readings[j - 1][0]))
                 span = readings[-1][0] - readings[0][0]
-                assert inp.has_mean and inp.mean == (area2 * 128 + span // 2) // span, i
+                assert inp.air.has_mean and inp.air.mean == (area2 * 128 + span // 2) // span, i
                 means += 1
             # the next cycle starts at this reading
             started = True
@@ -142,7 +142,7 @@ def test_cycle_mean_is_the_mean_over_the_last_whole_cycle():
         t_ms += 7000
     assert means >= 3, means
     # the slow mean stands in only until a whole cycle is seen
-    assert inp.ahead_fine() == inp.mean
+    assert inp.ahead_fine() == inp.air.mean
 
 
 def test_ahead_is_the_slow_mean_before_a_whole_cycle_and_the_fixed_ambient_without_air():
@@ -152,7 +152,7 @@ def test_ahead_is_the_slow_mean_before_a_whole_cycle_and_the_fixed_ambient_witho
     assert inp.ahead_fine() == 4 * SCALE * 256
     for _ in range(60):
         inp.reference(6.0, 10000, False)   # a step up: the slow mean moves towards it
-    assert not inp.has_mean and 4 * SCALE * 256 < inp.ahead_fine() < 6 * SCALE * 256
+    assert not inp.air.has_mean and 4 * SCALE * 256 < inp.ahead_fine() < 6 * SCALE * 256
     assert Inputs(None).ahead_fine() == 0
 
 
@@ -163,10 +163,10 @@ def test_air_that_stops_cycling_drops_the_cycle_mean():
         a = 4.0 + 2.0 * math.sin(2.0 * math.pi * t / 1200.0)
         inp.reference(a, 0 if i == 0 else 10000, False)
         t += 10
-    assert inp.has_mean
+    assert inp.air.has_mean
     for _ in range(1500):   # 4 h of a steady air: no whole cycle that long
         inp.reference(4.0, 10000, False)
-    assert not inp.has_mean
+    assert not inp.air.has_mean
 
 
 def test_hovering_drink_is_not_arrived_but_a_real_crossing_is():
@@ -235,7 +235,7 @@ def _wake_run(rounder=None):
         if rounder is not None:
             round_instance_floats(steady, rounder)
             round_instance_floats(woken, rounder)
-        if woken.inputs.has_mean:
+        if woken.inputs.measured and woken.inputs.air.has_mean:
             cycles += 1
         steady.predict(5.0)
         woken.predict(5.0)
