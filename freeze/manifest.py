@@ -9,7 +9,7 @@
 #
 #     include("/path/to/tinytherm/freeze", forecast=True, sensors=True)
 #
-# Options: profile, forecast, planner, sensors (all False by default). The
+# Options: profile, air, forecast, planner, sensors (all False by default). The
 # module lists are read from the parts' package.json files, the same lists
 # mip installs (tools/build_mpy.py writes them), so freezing and installing
 # cannot drift apart. Frozen modules are compiled by the firmware's own
@@ -21,7 +21,7 @@
 # Checked by tests/test_freeze.py as far as the unix port can.
 import json
 
-options.defaults(profile=False, forecast=False, planner=False, sensors=False)
+options.defaults(profile=False, air=False, forecast=False, planner=False, sensors=False)
 
 # The port's own frozen modules (skipped if the board manifest included them).
 include("$(PORT_DIR)/boards/manifest.py")
@@ -34,7 +34,7 @@ def _modules(package_json):
 
 
 files = _modules("../package.json")
-for part in ("profile", "forecast", "planner", "sensors"):
+for part in ("profile", "air", "forecast", "planner", "sensors"):
     if getattr(options, part):
         for name in _modules("../packages/%s/package.json" % part):
             if name not in files:

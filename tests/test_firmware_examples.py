@@ -333,6 +333,10 @@ PART_RUNS = {
     "profile": "from tinytherm.profile import VesselProfile\n"
                "p = VesselProfile()\n"
                "print('ok', p.problem() is None and p.time_to_target_s(80.0, 60.0, 20.0) > 0.0)\n",
+    "air": "from tinytherm.air import Air\n"
+           "a = Air()\n"
+           "a.start(1024)\n"
+           "print('ok', a.step(1088, 10000, False) > 1024)\n",
     "forecast": "from tinytherm.forecast import Forecast, AmbientTracker\n"
                 "fc = Forecast(1.0 / 900.0, 0.0, 20.0)\n"
                 "fc.set_ambient_periodic(20.0, 2.0, 3600.0)\n"

@@ -26,7 +26,7 @@ import pytest
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 FREEZE = os.path.join(ROOT, "freeze")
-PARTS = ("profile", "forecast", "planner", "sensors")
+PARTS = ("profile", "air", "forecast", "planner", "sensors")
 
 
 class _Options:

@@ -54,6 +54,7 @@ from tinytherm.num import as_float
 INF = math.inf
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
 ARRIVE_MIN_S = 30.0       # s: no arrival in a fit younger than this
+ARRIVE_Z = 2.0            # sd by which a block mean or the level must pass the target
 RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival without a direction before this (probe lag)
 EQUILIBRIUM_SLACK = 0.1  # share of the distance to the fitted equilibrium it may be off
 #   (the families, all reachable, chose 0.4; 0.2 already answers a mug below a warm room)
@@ -241,7 +242,7 @@ def _work_out(est, target, approach):
         return
     est.clear(st.SETTLING)
     level = est._level
-    slope = est._slope
+    slope = est._slope_ahead()  # the slope now, unless a measured air cycles: then its mean's
     k = reg.k
     est.temp_est_c = level
     est.rate_per_s = k
@@ -266,11 +267,9 @@ def _work_out(est, target, approach):
     else:
         d = est._dir
     m = est._dir
-    if approach != 0 and ((m if m != 0 else d) != approach or d == -approach):
-        return  # moving away from how this product reaches its target
     gap = target - level
     age_s = b.age_ms * 0.001
-    if m != 0 and d == m:
+    if m != 0 and d == m and (approach == 0 or m == approach):
         # (an arrival needs the fitted slope to agree with the block means: a spike or
         # a wrong turn of the means is no arrival while the fit says the other way)
         # the arrival line: at most min(0.3 C, 3 noise sd) short of the target
@@ -294,6 +293,8 @@ def _work_out(est, target, approach):
             est.eta_high_s = tol / (slope if slope > 0.0 else -slope) if slope != 0.0 else INF
             est._for_gen = -2  # (from the latest reading: not counted down)
             return
+    if approach != 0 and ((m if m != 0 else d) != approach or d == -approach):
+        return  # moving away from how this product reaches its target
     if gap * d <= 0.0:
         gap = target - y  # the level crossed, the readings not yet
         est._for_gen = -2  # (an answer from the latest reading: not counted down)
@@ -380,13 +381,24 @@ def _profile_interval(est, eta):
 
 
 def _arrived(est, target, m, approach, age_ms):
-    """Arrival, the reading being on the line: the block means or the fitted
-    level now have passed the target in the direction ``m``, in a fit old
-    enough (and, rising with no direction given and no heater on, old
-    enough to be no probe warming up, still rising by the fit and by the
-    latest reading (at most ``RISE_DROP_SD`` noise sd below the extreme), and not levelling
-    off: a probe that has warmed to the drink, bent through more than
-    ``RISE_BEND`` time constants of its fit, or begun to fall is no arrival)."""
+    """Arrival, the reading being on the line: the liquid has passed the target
+    in the direction ``m`` beyond the noise, in a fit old enough (and, rising
+    with no direction given and no heater on, old enough to be no probe
+    warming up, still rising by the fit and by the latest reading (at most
+    ``RISE_DROP_SD`` noise sd below the extreme), and not levelling off: a
+    probe that has warmed to the drink, bent through more than ``RISE_BEND``
+    time constants of its fit, or begun to fall is no arrival).
+
+    Passed means the extreme of the block means beyond the target by
+    :data:`ARRIVE_Z` sd of that block's mean, or the fitted level at the
+    latest reading beyond it by :data:`ARRIVE_Z` sd of the level; and the
+    fitted level now not back short of the target by more than the line's
+    tolerance (a drink hovering at its target while the fridge cycles
+    passes it by noise and then drifts back: that is no arrival)::
+
+        (ext - target) m >= Z sd / sqrt(n_ext)   or   (level - target) m >= Z sd_level
+        and (target - level) m <= tol
+    """
     if age_ms < _ARRIVE_MIN_MS or (est.blocks.c - est._hold_c) * m < 0:
         return False  # (young, or back beyond the turn threshold: a top-up's probe rising)
     if m > 0 and approach == 0 and not (est.heater and est.blocks.uc > 0) and (
@@ -394,8 +406,6 @@ def _arrived(est, target, m, approach, age_ms):
             or est.reg.k * age_ms > RISE_BEND * 1000.0
             or est.blocks.c * _INV < est._ext - RISE_DROP_SD * est.noise.sd):
         return False  # (a rise the heater drives is a real one)
-    if (est._ext >= target) if m > 0 else (est._ext <= target):
-        return True
     reg = est.reg
     b = est.blocks
     # the fitted level at the latest reading (the fit's coordinates moved on)
@@ -403,7 +413,16 @@ def _arrived(est, target, m, approach, age_ms):
              + est._anchor)
     if est.heater:
         level += reg.g * (reg.v + b.iv * _IV_TO_S)
-    return (level >= target) if m > 0 else (level <= target)
+    sd = est.noise.sd
+    tol = 3.0 * sd
+    if tol > ARRIVE_TOL_C:
+        tol = ARRIVE_TOL_C
+    if (target - level) * m > tol:
+        return False  # the level is back short: a retreat, no arrival
+    if (est._ext - target) * m >= ARRIVE_Z * sd / math.sqrt(est._ext_n):
+        return True
+    var = reg.var_level()
+    return (level - target) * m >= ARRIVE_Z * math.sqrt(var if var > 0.0 else 0.0)
 
 
 def eta_rel_var(gap, slope, k, eta, reg, gk):

@@ -5,6 +5,7 @@ from tinytherm.fit import Regression
 INF: float
 ARRIVE_TOL_C: float
 ARRIVE_MIN_S: float
+ARRIVE_Z: float
 RISE_ARRIVE_MIN_S: float
 EQUILIBRIUM_SLACK: float
 RISE_BEND: float

@@ -194,6 +194,8 @@ class ThermalEstimator(Answer):
         self.detector.reset()
         self._dir = 0               # direction of the block means (+1, -1, 0)
         self._ext = 0.0             # first block mean while _dir == 0, then the extreme, deg C
+        self._ext_n = 1             # readings in the block of that extreme (its noise)
+        self._block_n = 1           # readings in the latest closed block (not saved: used at once)
         self._anchor = 0.0          # smoothed residual of the latest blocks, deg C
         self._level = 0.0           # fitted level and slope at the latest block close
         self._slope = 0.0
@@ -201,6 +203,7 @@ class ThermalEstimator(Answer):
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
         self._known = False         # an ambient was known at the latest block close
         self._seeded = False        # the fit began with two readings at a turn (_begin_again)
+        self._ahead = 0             # the air ahead at the latest block close, counts * 2**8
         self.forget()
         self.clear(st.GATHERING)
 
@@ -263,8 +266,9 @@ class ThermalEstimator(Answer):
         b = self.blocks
         try:
             if self._fresh or self.guard.gap == GAP_RESTART:
+                dt_ms = 0 if self._fresh else self.guard.elapsed_ms  # (the air's cycle goes on)
                 self._restart_fit()
-                self._first(c, self.inputs.reference(ambient_c, 0, True), uc)
+                self._first(c, self.inputs.reference(ambient_c, dt_ms, True), uc)
             else:
                 dt_ms = self.guard.elapsed_ms
                 if ambient_c is None and not self.inputs.measured:
@@ -294,6 +298,7 @@ class ThermalEstimator(Answer):
         """The fit's first reading: the first block, closed at once."""
         self._fresh = False
         self._ext = c * _INV
+        self._ext_n = 1
         self.blocks.first(c, rc, uc)
         self._close_block()
         self._next_step()
@@ -349,7 +354,9 @@ class ThermalEstimator(Answer):
                       reg.v + b.iv / (1000 * 1024) if heater else 0.0,
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
         b.next_block()
+        self._block_n = n
         self._known = self.inputs.known()
+        self._ahead = self.inputs.ahead_fine()
         self._pending = 1
 
     def _next_step(self):
@@ -382,6 +389,9 @@ class ThermalEstimator(Answer):
                     self._pending = 2  # the audits with the next reading
         else:
             self._slope = 0.0
+        # the noise's expected step follows the new slope (a restored run works it out afresh:
+        # kept from an older slope, an uninterrupted run and a restored one would differ)
+        self.noise.expect_ms = -1
         if self._turned(yb):
             self.turns += 1
             self._begin_again(False, b.readings == 3)
@@ -429,12 +439,15 @@ class ThermalEstimator(Answer):
             if yb - self._ext > cut:
                 self._dir = 1
                 self._ext = yb
+                self._ext_n = self._block_n
             elif self._ext - yb > cut:
                 self._dir = -1
                 self._ext = yb
+                self._ext_n = self._block_n
             return False
         if (yb > self._ext) if self._dir > 0 else (yb < self._ext):
             self._ext = yb
+            self._ext_n = self._block_n
             return False
         if (self._ext - yb) * self._dir <= cut:
             return False
@@ -444,6 +457,7 @@ class ThermalEstimator(Answer):
             if self._slope * self._dir < 0.0:
                 self._dir = -self._dir
                 self._ext = yb
+                self._ext_n = self._block_n
             return False
         return True
 
@@ -519,13 +533,30 @@ class ThermalEstimator(Answer):
                 self._reject_profile()
                 return
         for a in self.audits.a:
-            a.check(self, age, self._level, self._slope, self.reg.k, need)
+            a.check(self, age, self._level, self._slope_ahead(), self.reg.k, need)
 
     def _reject_profile(self):
         """Its rate fails on this liquid (another vessel's profile)."""
         self._profile_on = False
         self.profile_reason = PROFILE_REJECTED
         self._solve()
+
+    def _slope_ahead(self):
+        """Slope at the fitted level under the air the future will see, deg C/s.
+
+        The law is driven by the air reading ``A``; ahead, the air is taken at
+        its mean over the last whole cycle ``M`` as known at the latest block
+        close (:meth:`Inputs.ahead_fine`), so with ``A0`` the air then::
+
+            s_ahead = s_now + k (M - A0)     (equilibrium E_ahead = E_now + M - A0)
+
+        Without a measured air it is the slope now.
+        """
+        if not self.inputs.measured:
+            return self._slope
+        b = self.blocks
+        # the reference at the block close: G0 = cb - rc
+        return self._slope + self.reg.k * (self._ahead * (1.0 / 256) - (b.cb - b.g0)) * _INV
 
     # ``predict(target_c, approach=0)``: the answer part's rules, as a method
     predict = answer.predict

@@ -33,7 +33,6 @@ MAX_BLOCK_READINGS = 255
 NOISE_MAX_DT_MS = 120000  # successive differences further apart than this measure drift, not noise
 NOISE_PRIOR_C = 0.05      # deg C: reading noise sd assumed before it is measured
 NOISE_PRIOR_N = 4         # readings that prior is worth
-AMBIENT_SMOOTH_S = 300.0  # s: time constant of the measured-ambient smoothing
 _INV_SCALE = 1.0 / SCALE
 _MS = 0.001
 
@@ -41,9 +40,10 @@ _MS = 0.001
 class BlockSums:
     """Integer sums of the open block and the latest reading (see the module docstring)."""
 
-    # saved: block and noise counts, the 64-bit sums, the 32-bit ones
-    _FMT = "<HHB6q10i"
-    STATE_SIZE = 93
+    # saved: block and noise counts, the 64-bit sums, the 32-bit ones (the duties,
+    # at most DUTY_SCALE, in 16 bits: with a heater the payload needs the room)
+    _FMT = "<HHB6q5iHiH2i"
+    STATE_SIZE = 89
 
     def __init__(self):
         self.reset()
@@ -228,15 +228,16 @@ class Noise:
 
 
 class Inputs:
-    """The reference ``R`` and the duty of each reading, in counts.
+    """The reference ``R`` of each reading (the air the law is driven by), its future mean, the duty.
 
-    ``R`` is the fixed ambient, or the measured ambient smoothed with a time
-    constant of :data:`AMBIENT_SMOOTH_S` (integer arithmetic, 16 fractional
-    bits), or 0 when nothing is known. A measured ambient, once given,
-    overrides the fixed one.
+    ``R`` is the fixed ambient, or the measured air (:class:`tinytherm.air.Air`,
+    imported with the first measured air: a product without an air sensor
+    does not load it), or 0 when nothing is known. A measured air, once
+    given, overrides the fixed one; a reading without one holds the last.
+    What the air *will* do on average is :meth:`ahead_fine`.
     """
 
-    STATE_SIZE = 9
+    STATE_SIZE = 29   # the air's bytes (zeros while none was measured)
 
     def __init__(self, fixed_c):
         self.fixed = None if fixed_c is None else to_counts(fixed_c)
@@ -244,9 +245,7 @@ class Inputs:
 
     def reset(self):
         self.measured = False
-        self.fine = 0          # smoothed measured ambient, counts * 2**16
-        self.alpha_ms = -1     # step length the smoothing weight was worked out for
-        self.alpha = 0         # smoothing weight per step, 1/2**16
+        self.air = None        # the measured air's smoothing and cycle (tinytherm.air.Air)
         self.duty = 0.0        # the last duty and its counts (cache)
         self.duty_c = 0
 
@@ -255,22 +254,29 @@ class Inputs:
         return self.measured or self.fixed is not None
 
     def reference(self, ambient_c, dt_ms, restart):
-        """``R`` for this reading in counts (``restart``: the fit starts with it)."""
+        """``R`` for this reading in counts; ``dt_ms`` since the previous reading.
+
+        ``restart``: the fit starts with this reading (the smoothing starts
+        again at it; the air's cycle goes on).
+        """
         if ambient_c is None:
-            if self.measured:
-                return self.fine >> 16
-            return 0 if self.fixed is None else self.fixed
-        a = to_counts(ambient_c) << 16
-        if restart or not self.measured:
+            if not self.measured:
+                return 0 if self.fixed is None else self.fixed
+            return self.air.step(self.air.last, dt_ms, restart)
+        if not self.measured:
+            # imported only when used: the module costs RAM a product without one need not spend
+            from tinytherm.air import Air
+            self.air = Air()
             self.measured = True
-            self.fine = a
-        else:
-            if dt_ms != self.alpha_ms:
-                self.alpha = int((1.0 - math.exp(-dt_ms * 0.001 / AMBIENT_SMOOTH_S)) * 65536.0
-                                 + 0.5)
-                self.alpha_ms = dt_ms
-            self.fine += ((a - self.fine) * self.alpha) >> 16
-        return self.fine >> 16
+            return self.air.start(to_counts(ambient_c))
+        return self.air.step(to_counts(ambient_c), dt_ms, restart)
+
+    def ahead_fine(self):
+        """The air the future will see on average, counts * 2**8 (int): the measured
+        air's (:meth:`tinytherm.air.Air.ahead_fine`), else the fixed ambient, else 0."""
+        if self.measured:
+            return self.air.ahead_fine()
+        return (0 if self.fixed is None else self.fixed) << 8
 
     def duty_counts(self, duty):
         """A duty in [0, 1] as counts of 1/DUTY_SCALE (cached: the duty rarely changes)."""
@@ -280,14 +286,22 @@ class Inputs:
         return self.duty_c
 
     def pack_into(self, buf, offset):
-        struct.pack_into("<qB", buf, offset, self.fine, 1 if self.measured else 0)
+        if self.measured:
+            self.air.pack_into(buf, offset)
+        else:
+            for i in range(self.STATE_SIZE):
+                buf[offset + i] = 0
 
     def unpack_from(self, buf, offset):
-        fine, measured = struct.unpack_from("<qB", buf, offset)
-        if measured > 1:
+        """Load the state; False when a value is impossible (the caller resets)."""
+        if not buf[offset + self.STATE_SIZE - 1] & 1:
+            return True   # (no air measured: its bytes are zeros)
+        from tinytherm.air import Air
+        air = Air()
+        if not air.unpack_from(buf, offset):
             return False
-        self.fine = fine
-        self.measured = measured == 1
+        self.air = air
+        self.measured = True
         return True
 
 

@@ -1,5 +1,7 @@
 from typing import Optional, Union
 
+from tinytherm.air import Air
+
 Buffer = Union[bytes, bytearray, memoryview]
 
 SCALE: int
@@ -8,7 +10,6 @@ MAX_BLOCK_READINGS: int
 NOISE_MAX_DT_MS: int
 NOISE_PRIOR_C: float
 NOISE_PRIOR_N: int
-AMBIENT_SMOOTH_S: float
 
 class BlockSums:
     STATE_SIZE: int
@@ -60,15 +61,14 @@ class Inputs:
     STATE_SIZE: int
     fixed: Optional[int]
     measured: bool
-    fine: int
-    alpha_ms: int
-    alpha: int
+    air: Optional[Air]
     duty: float
     duty_c: int
     def __init__(self, fixed_c: Optional[float]) -> None: ...
     def reset(self) -> None: ...
     def known(self) -> bool: ...
     def reference(self, ambient_c: Optional[float], dt_ms: int, restart: bool) -> int: ...
+    def ahead_fine(self) -> int: ...
     def duty_counts(self, duty: float) -> int: ...
     def pack_into(self, buf: bytearray, offset: int) -> None: ...
     def unpack_from(self, buf: Buffer, offset: int) -> bool: ...

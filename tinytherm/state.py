@@ -12,7 +12,9 @@ Payload (little-endian), after the frame's 8-byte header::
     9       1     profile_reason
     10      8     anchor, deg C (float64)
     18      8     extreme of the block means, deg C (float64)
-    26      ...   the parts in turn, each ``STATE_SIZE`` bytes: guard,
+    26      1     readings in the block of that extreme (uint8)
+    27      4     the air ahead at the last block close, 1/65536 deg C (int32)
+    31      ...   the parts in turn, each ``STATE_SIZE`` bytes: guard,
                   change detector, inputs, noise, block sums, regression, audits
 
 The fit's solution is derived: ``restore`` solves again as at the last block
@@ -24,8 +26,9 @@ import struct
 from tinytherm import blob as bl
 from tinytherm.fit import SCALE
 
-_HEAD = "<IHHBBdd"  # readings, changes, turns, flags, profile reason, anchor, extreme
-_HEAD_SIZE = 26
+# readings, changes, turns, flags, profile reason, anchor, extreme, its n, air ahead
+_HEAD = "<IHHBBddBi"
+HEAD_SIZE = 31
 _INV = 1.0 / SCALE
 
 
@@ -46,8 +49,8 @@ def save(est):
              | (32 if est._known else 0) | (64 if est._seeded else 0))
     struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
                      est.turns & 0xFFFF, flags, est.profile_reason, est._anchor,
-                     est._ext)
-    o += _HEAD_SIZE
+                     est._ext, est._ext_n, est._ahead)
+    o += HEAD_SIZE
     for part in parts(est):
         part.pack_into(buf, o)
         o += part.STATE_SIZE
@@ -79,11 +82,12 @@ def restore(est, blob):
 
 def _unpack(est, blob):
     o = bl.PAYLOAD_OFFSET
-    readings, changes, turns, flags, reason, anchor, ext = struct.unpack_from(_HEAD, blob, o)
-    o += _HEAD_SIZE
+    readings, changes, turns, flags, reason, anchor, ext, ext_n, ahead = struct.unpack_from(
+        _HEAD, blob, o)
+    o += HEAD_SIZE
     direction = ((flags >> 3) & 3) - 1
     if flags & 0x80 or direction > 1 or (flags & 4 and est._profile is None) \
-            or not (-1e6 < anchor < 1e6 and -1e6 < ext < 1e6):
+            or not (-1e6 < anchor < 1e6 and -1e6 < ext < 1e6 and 1 <= ext_n <= 255):
         return bl.BLOB_VALUES
     est.reset()
     for part in parts(est):
@@ -107,6 +111,8 @@ def _unpack(est, blob):
     est._dir = direction
     est._anchor = anchor
     est._ext = ext
+    est._ext_n = ext_n
+    est._ahead = ahead
     est._known = bool(flags & 32)
     est._seeded = bool(flags & 64)
     est._blocks_done = 1

@@ -1,6 +1,7 @@
 from typing import Any, Union
 
 SCALE: int
+HEAD_SIZE: int
 
 def save(est: Any) -> bytearray: ...
 def parts(est: Any) -> tuple[Any, ...]: ...

@@ -46,6 +46,7 @@ PACKAGE_JSON = os.path.join(ROOT, "package.json")
 PARTS = (
     ("core", "package.json", "estimator"),
     ("profile", "packages/profile/package.json", "profile"),
+    ("air", "packages/air/package.json", "air"),
     ("forecast", "packages/forecast/package.json", "forecast"),
     ("planner", "packages/planner/package.json", "planner"),
     ("sensors", "packages/sensors/package.json", "sensors"),

@@ -317,7 +317,7 @@ def test_corrupted_blobs_are_rejected_with_a_fresh_start():
     # a NaN, an infinity or a huge value in any float field of a sealed payload:
     # the header's two, then the regression's and the audits' (each part packs its own)
     offsets = [bl.PAYLOAD_OFFSET + 10, bl.PAYLOAD_OFFSET + 18]
-    at = bl.PAYLOAD_OFFSET + 26
+    at = bl.PAYLOAD_OFFSET + state.HEAD_SIZE
     for part in state.parts(est):
         if part is est.reg:
             offsets += [at + 8 * i for i in range(part.STATE_SIZE // 8)]
