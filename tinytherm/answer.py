@@ -4,11 +4,8 @@ Worked out once per block close (and when the target changes), then counted
 down between blocks (:meth:`Answer.count_down`), so a product that asks
 every reading pays a few float operations, not a solve.
 
-The closed form (:func:`time_to_target_from_slope_s`, the one copy in the
-core; :mod:`tinytherm.model` re-exports it) with ``D`` the distance to the
-target, ``s`` the slope now and ``k`` the rate::
-
-    eta = -log1p(-k D / s) / k        (D / s when k = 0)
+The time is the closed form :func:`time_to_target_from_slope_s` (the one copy
+in the core; :mod:`tinytherm.model` re-exports it).
 
 The interval is ``eta * exp(+-z sd)`` with ``sd`` the sd of ln(eta). Its
 variance: what the fit's own forecasts measured (:class:`Audits`), with the
@@ -35,14 +32,9 @@ change with the time it took::
 longest audit the variance grows with the horizon, at most
 :data:`AUDIT_STRETCH` times).
 
-A target just beyond the fitted equilibrium ``E = level + s / k`` (by less
-than :data:`EQUILIBRIUM_SLACK` of the distance to it) is no proof of "out of
-reach": ``E`` is an extrapolation that a bending rate (a coolant warming, a
-slow second mode) moves. The answer is then the time under the law
-levelling off the rest of that slack past the target, with no upper bound.
-A passive liquid never passes a known ambient: the slack ends there.
-
-Runs unchanged on CPython and MicroPython; the audits run only at block closes.
+A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`) gets
+a time with no upper bound, not "out of reach" (the why: at its code). Runs
+unchanged on CPython and MicroPython; the audits run only at block closes.
 """
 import math
 import struct
@@ -65,7 +57,6 @@ RISE_DROP_SD = 3.0        # ... nor once the latest reading is this many noise s
 #   extreme of the block means (a probe past its peak while the fit still rises)
 MAX_REL_SD = 5.0          # an answer whose fit's own ln-time sd exceeds this stays SETTLING
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
-PROFILE_Z80 = 1.2815515655446004  # a profile's table holds 10 % / 90 % points
 PROFILE_LAG_TIMES = 1.5   # a heated fit younger than this many profile lags shows no time
 _INV = 1.0 / SCALE
 _IX_TO_CS = 1.0 / (2000 * SCALE)  # doubled count ms -> deg C s
@@ -238,7 +229,7 @@ def _work_out(est, target, approach):
         if est.readings and not est._fresh:
             est.temp_est_c = b.c * _INV
             if est._profile_on and est._dir != 0 and target is not None:
-                _profile_first(est, target, approach)
+                est._profile.first_answer(est, target, approach)
         return
     est.clear(st.SETTLING)
     level = est._level
@@ -342,7 +333,7 @@ def _work_out(est, target, approach):
     est.eta_s = eta
     rel = math.sqrt(est.audits.var_at(eta, age_s, rel2))
     if est._profile_on:
-        _profile_interval(est, eta)  # the profile's calibrated interval
+        est._profile.interval_into(est, eta)  # the profile's calibrated interval
     else:
         f = spread(est._z * rel)
         est.eta_low_s = eta / f
@@ -351,36 +342,6 @@ def _work_out(est, target, approach):
     if own2 <= MAX_REL_SD * MAX_REL_SD:
         # (the fit's own evidence decides whether to show it; model error widens it)
         est.status = st.TRACKING
-
-def _profile_first(est, target, approach):
-    """A passive profile's answer before the fit has its own (its first readings after
-    the turn that set the direction ``est._dir`` towards the profile's equilibrium):
-    the profile's law at its typical rate from the latest reading, with its table."""
-    m = est._dir
-    if approach != 0 and approach != m:
-        return
-    y = est.blocks.c * _INV
-    gap = target - y
-    if gap * m <= 0.0 or not -1e4 <= target <= 1e4:
-        return
-    eta = est._profile_law_s(gap, y, 0.0)
-    if eta is None or not eta > 0.0:
-        return
-    _profile_interval(est, eta)
-    est.status = st.TRACKING
-
-
-def _profile_interval(est, eta):
-    """``eta_s`` and the profile's calibrated quantiles of ln(actual / predicted)
-    (split-conformal, host_sim.calibrate.pipeline) at that horizon, scaled to the
-    interval asked for."""
-    lo, hi = est._profile.interval_log_bounds(eta)
-    z = est._z / PROFILE_Z80
-    est.eta_s = eta
-    est.eta_low_s = eta * spread(z * lo)
-    est.eta_high_s = eta * spread(z * hi)
-    est.eta_rel_sd = est._profile.log_sd(eta)
-
 
 def _arrived(est, target, m, approach, age_ms):
     """Arrival, the reading being on the line: the liquid has passed the target

@@ -12,7 +12,6 @@ RISE_BEND: float
 RISE_DROP_SD: float
 MAX_REL_SD: float
 FAULT_AFTER: int
-PROFILE_Z80: float
 PROFILE_LAG_TIMES: float
 SCALE: int
 DUTY_SCALE: int

@@ -3,7 +3,7 @@
 One principle: *fit the first-order law on the recent part of the approach,
 anchor the answer at the latest readings, and judge the answer by the fit's
 own forecasts.* Model (:mod:`tinytherm.fit`), ``G = T - R`` the gap to a
-reference ``R`` (the known ambient, the measured ambient smoothed, or 0), ``u``
+reference ``R`` (the known ambient, the measured air, or 0), ``u``
 the heater duty::
 
     dT/dt = s - k (G - G0) + g (u - u0)        (equilibrium E = T + s / k)
@@ -25,23 +25,14 @@ the saved state:
    on the block's residual, a reversal beyond :data:`TURN_C` restarts the fit
    (no heater), and the :class:`~tinytherm.answer.Audits` check old forecasts.
 4. ``predict`` (:mod:`tinytherm.answer`) works the answer out once per block
-   and target, and counts it down between blocks. A rising liquid with no
-   direction given and no heater on is not ``ARRIVED`` before the fit is
-   :data:`RISE_ARRIVE_MIN_S` old: a probe warming after a pour or a top-up
-   passes a drinking target on its way up while the drink is hotter.
+   and target, and counts it down between blocks (the arrival rules, such
+   as no rising arrival while a probe warms after a pour: docs/design.md).
 
 A vessel profile (:mod:`tinytherm.profile`, imported only when given) sets
-the priors (rate, heater gain, and where the liquid levels off: with a
-heater, with the heat at the latest duty) and the interval (its calibrated
-table of ln(actual / predicted) around the answer). For a passive liquid it
-also gives the answer's law, its power law with this liquid's rate ratio
-``r`` (fitted slope over the typical law's slope) shrunk towards 1 by
-precision, ``ln r' = ln r * w / (w + 1 / rate_log_sd^2)`` with ``w`` the
-fitted slope's relative precision; a retreat towards its equilibrium by 4
-noise sd is the turn after a pour (the probe has caught up) and sets the
-direction, and until the new fit has its own answer the law at its typical
-rate answers. It is dropped (``PROFILE_REJECTED``) when the fitted rate lies
-more than :data:`PROFILE_MISMATCH_Z` sds from its own. Fixed state, no
+the priors, the interval (its calibrated table) and, for a passive liquid,
+the answer's law; it is dropped (``PROFILE_REJECTED``) when the fitted rate
+lies more than :data:`PROFILE_MISMATCH_Z` sds from its own (the equations:
+docs/design.md, "Vessel profile"). Fixed state, no
 per-reading containers; runs unchanged on CPython and MicroPython.
 """
 import math
@@ -157,8 +148,7 @@ class ThermalEstimator(Answer):
 
     def _take_profile(self, profile):
         """A profile or its blob; a bad blob or another heater mode is not used (the reason kept)."""
-        # imported only when used: the module costs RAM a product without one need not spend
-        from tinytherm.profile import VesselProfile
+        from tinytherm.profile import VesselProfile  # (only when used: it costs RAM)
         t = type(profile)
         if t is bytes or t is bytearray or t is memoryview:
             profile, self.profile_reason = VesselProfile.from_blob(profile)
@@ -398,7 +388,7 @@ class ThermalEstimator(Answer):
 
     def _begin_again(self, disturbed, from_previous=False):
         """Restart the fit from the latest reading (a jump or a turn); ``from_previous``:
-        from the reading that closed the block before it, keeping both (a turn right
+        start at the reading that closed the block before it, keeping both (a turn right
         after the jump that set the direction: with readings minutes apart the new
         approach began at that reading, the peak after a pour)."""
         b = self.blocks
@@ -569,11 +559,8 @@ class ThermalEstimator(Answer):
         return time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
 
     def _profile_law_s(self, gap_c, level_c, slope_c_per_s, slope_rel_var=0.0):
-        """Seconds under the profile's power law (passive liquids), or None.
-
-        ``slope_rel_var``: the fitted slope's relative variance (see
-        :meth:`tinytherm.profile.VesselProfile.law_s`; a zero slope: the
-        typical law)."""
+        """Seconds under the profile's power law (passive liquids), or None; see
+        :meth:`tinytherm.profile.VesselProfile.law_s` for ``slope_rel_var``."""
         if not self._profile_on or self.heater:
             return None
         return self._profile.law_s(gap_c, level_c, slope_c_per_s, self._profile_r(),

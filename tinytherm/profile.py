@@ -39,10 +39,15 @@ runs without a profile.
 import math
 import struct
 
+from tinytherm import status as _st
+from tinytherm.answer import spread as _spread
 from tinytherm.crc import crc32
+from tinytherm.fit import SCALE as _SCALE
 from tinytherm.num import as_float, finite, number
 
 PROFILE_FORMAT = 1
+PROFILE_Z80 = 1.2815515655446004  # the table holds 10 % / 90 % points: z of 0.9
+_INV = 1.0 / _SCALE  # deg C per count
 PROFILE_SIZE = 54
 _FLOATS = "<8f"
 _QUANTS = "<8h"
@@ -316,8 +321,8 @@ class VesselProfile:
         ``|ln r| / sqrt(rate_log_sd^2 + slope_rel_var)`` with ``r`` the ratio
         of the fitted ``slope_c_per_s`` (deg C/s, relative variance
         ``slope_rel_var``) at ``level_c`` to the typical law's slope there
-        (E = ``ambient_c`` + eq_offset_c); None when the liquid moves away
-        from E (or sits on it).
+        (E = ``ambient_c`` + eq_offset_c); None when the liquid moves away from
+        E (or sits on it).
         """
         d0 = level_c - (ambient_c + self.eq_offset_c)
         if d0 == 0.0 or slope_c_per_s * d0 >= 0.0:
@@ -358,6 +363,35 @@ class VesselProfile:
         except (ValueError, OverflowError):
             f = 0.0
         return (lo[i] + f * (lo[i + 1] - lo[i]), hi[i] + f * (hi[i + 1] - hi[i]))
+
+    def interval_into(self, est, eta_s):
+        """Set ``est``'s ``eta_s`` (s) and its interval from this profile's calibrated
+        quantiles of ln(actual / predicted) (split-conformal,
+        host_sim.calibrate.pipeline) at that horizon, scaled to the interval asked for."""
+        lo, hi = self.interval_log_bounds(eta_s)
+        z = est._z / PROFILE_Z80
+        est.eta_s = eta_s
+        est.eta_low_s = eta_s * _spread(z * lo)
+        est.eta_high_s = eta_s * _spread(z * hi)
+        est.eta_rel_sd = self.log_sd(eta_s)
+
+    def first_answer(self, est, target_c, approach):
+        """A passive liquid's answer before ``est``'s fit has its own (its first readings
+        after the turn that set the direction ``est._dir`` towards this profile's
+        equilibrium): the law at its typical rate from the latest reading, with the
+        table. ``target_c`` in deg C, ``approach`` as ``predict``'s."""
+        m = est._dir
+        if approach != 0 and approach != m:
+            return
+        y = est.blocks.c * _INV
+        gap = target_c - y
+        if gap * m <= 0.0 or not -1e4 <= target_c <= 1e4:
+            return
+        eta = est._profile_law_s(gap, y, 0.0)
+        if eta is None or not eta > 0.0:
+            return
+        self.interval_into(est, eta)
+        est.status = _st.TRACKING
 
     # ----------------------------------------------------------- device form
     def to_blob(self):
