@@ -25,6 +25,7 @@ KNOBS = {
     "rise_drop_sd": (answer, "RISE_DROP_SD"),
     "rise_arrive_min_s": (answer, "RISE_ARRIVE_MIN_S"),
     "turn_c": (estimator, "TURN_C"),
+    "settle_s": (answer, "SETTLE_S"),
 }
 
 
@@ -63,12 +64,17 @@ class _Applied:
         self.saved = [(m, c, getattr(m, c)) for m, c, _ in self.knobs]
         for m, c, v in self.knobs:
             setattr(m, c, v)
-        if any(c == "RISE_ARRIVE_MIN_S" for _, c, _ in self.knobs):
-            answer._RISE_ARRIVE_MIN_MS = int(answer.RISE_ARRIVE_MIN_S * 1000)
+        _derived()
         return self
 
     def __exit__(self, *exc):
         for m, c, v in self.saved:
             setattr(m, c, v)
-        answer._RISE_ARRIVE_MIN_MS = int(answer.RISE_ARRIVE_MIN_S * 1000)
+        _derived()
         return False
+
+
+def _derived():
+    """The millisecond copies of the constants set (the core reads those)."""
+    answer._RISE_ARRIVE_MIN_MS = int(answer.RISE_ARRIVE_MIN_S * 1000)
+    answer.SETTLE_MS = int(answer.SETTLE_S * 1000)

@@ -150,7 +150,8 @@ def device_kwargs(cls, heater, quantum_c):
         params = inspect.signature(cls).parameters
     except (TypeError, ValueError):
         params = {}
-    if "quantum_c" in params:
+    if "quantum_c" in params or any(p.kind == p.VAR_KEYWORD for p in params.values()):
+        # (a candidate taking **kwargs passes them on to the core)
         kw["quantum_c"] = float(quantum_c)
     return kw
 

@@ -48,6 +48,8 @@ ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at 
 ARRIVE_MIN_S = 30.0       # s: no arrival in a fit younger than this
 ARRIVE_Z = 2.0            # sd by which a block mean or the level must pass the target
 RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival without a direction before this (probe lag)
+SETTLE_S = 300.0          # s: no direction given, a probe may take this long to meet the liquid
+#   (tinytherm.settle; 300 and 600 tie by leave-one-family-out, 900 does worse)
 EQUILIBRIUM_SLACK = 0.1  # share of the distance to the fitted equilibrium it may be off
 #   (the families, all reachable, chose 0.4; 0.2 already answers a mug below a warm room)
 RISE_BEND = 3.0           # no rising arrival without a direction in a fit whose curve has bent
@@ -63,6 +65,7 @@ _IX_TO_CS = 1.0 / (2000 * SCALE)  # doubled count ms -> deg C s
 _IV_TO_S = 1.0 / (1000 * DUTY_SCALE)  # duty-count ms -> s at full duty
 _ARRIVE_MIN_MS = int(ARRIVE_MIN_S * 1000)
 _RISE_ARRIVE_MIN_MS = int(RISE_ARRIVE_MIN_S * 1000)
+SETTLE_MS = int(SETTLE_S * 1000)
 
 
 
@@ -369,6 +372,9 @@ def _arrived(est, target, m, approach, age_ms):
             or est.reg.k * age_ms > RISE_BEND * 1000.0
             or est.blocks.c * _INV < est._ext - RISE_DROP_SD * est.noise.sd):
         return False  # (a rise the heater drives is a real one)
+    if approach == 0 and not (est.heater and est.blocks.uc > 0) and not est.settle.allows(
+            to_counts(target), m, est.blocks.c, est.noise.sd, ARRIVE_TOL_C):
+        return False  # (the probe may still be settling to the liquid: tinytherm.settle)
     reg = est.reg
     b = est.blocks
     # the fitted level at the latest reading (the fit's coordinates moved on)

@@ -14,26 +14,22 @@ the saved state:
 1. :class:`~tinytherm.guard.ReadingGuard` judges it (spikes, error codes,
    time going backwards...).
 2. :class:`~tinytherm.fit.BlockSums` adds it to the open block in integers.
-3. About every :data:`BLOCK_S` seconds (shorter while the fit is young) the
-   block closes: the :class:`~tinytherm.change.ChangeDetector` compares its
-   mean with the fit's forecast (a jump restarts the fit: ``DISTURBED``),
-   the :class:`~tinytherm.fit.Regression` adds it with a memory of
-   :data:`MEMORY_FRACTION` of the fit's age (the recent part of the approach)
-   and solves with weak priors (``k ~ N(0, RATE_PRIOR_PER_S^2)``; the ambient
-   only as a hint on ``k`` given the slope, used only when the liquid moves
-   towards it: it may bend the curve, never turn it), the level is anchored
-   on the block's residual, a reversal beyond :data:`TURN_C` restarts the fit
-   (no heater), and the :class:`~tinytherm.answer.Audits` check old forecasts.
+3. About every :data:`BLOCK_S` seconds (sooner in a young fit) the block
+   closes: the :class:`~tinytherm.change.ChangeDetector` tests its mean
+   against the fit's forecast (a jump restarts the fit: ``DISTURBED``), the
+   :class:`~tinytherm.fit.Regression` adds it with a memory of
+   :data:`MEMORY_FRACTION` of the fit's age and solves with weak priors (the
+   ambient a hint on ``k`` given the slope: it may bend the curve, never turn
+   it), the level is anchored on the block's residual, a reversal beyond
+   :data:`TURN_C` restarts the fit (no heater), the audits check old forecasts.
 4. ``predict`` (:mod:`tinytherm.answer`) works the answer out once per block
-   and target, and counts it down between blocks (the arrival rules, such
-   as no rising arrival while a probe warms after a pour: docs/design.md).
+   and target and counts it down between blocks; its arrival rules (a probe
+   still meeting the liquid: :mod:`tinytherm.settle`) are in docs/design.md.
 
-A vessel profile (:mod:`tinytherm.profile`, imported only when given) sets
-the priors, the interval (its calibrated table) and, for a passive liquid,
-the answer's law; it is dropped (``PROFILE_REJECTED``) when the fitted rate
-lies more than :data:`PROFILE_MISMATCH_Z` sds from its own (the equations:
-docs/design.md, "Vessel profile"). Fixed state, no
-per-reading containers; runs unchanged on CPython and MicroPython.
+A vessel profile (:mod:`tinytherm.profile`, imported only when given) sets the
+priors, the interval and a passive liquid's law; it is dropped when the fitted
+rate lies :data:`PROFILE_MISMATCH_Z` sds from its own (docs/design.md). Fixed
+state, no per-reading containers; runs unchanged on CPython and MicroPython.
 """
 import math
 
@@ -46,6 +42,7 @@ from tinytherm.crc import crc32
 from tinytherm.fit import MAX_BLOCK_READINGS, SCALE, BlockSums, Inputs, Noise, Regression
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.num import as_float, number
+from tinytherm.settle import Settle
 
 # Fixed choices (module constants, not arguments: no product needs another value).
 BLOCK_S = 40.0            # s: longest block averaged into one observation (the device budget: 20 s
@@ -134,6 +131,7 @@ class ThermalEstimator(Answer):
         self.blocks = BlockSums()
         self.reg = Regression(heater)
         self.audits = Audits()
+        self.settle = Settle()  # whether the probe has met the liquid (no direction given)
         self._prior_r = float(ambient_prior_c)
         self._prior_sd = float(ambient_prior_sd_c)
         self._z = normal_quantile(0.5 + 0.5 * interval)  # the interval's half-width in sd
@@ -184,11 +182,10 @@ class ThermalEstimator(Answer):
         self.detector.reset()
         self._dir = 0               # direction of the block means (+1, -1, 0)
         self._ext = 0.0             # first block mean while _dir == 0, then the extreme, deg C
-        self._ext_n = 1             # readings in the block of that extreme (its noise)
-        self._block_n = 1           # readings in the latest closed block (not saved: used at once)
+        self._ext_n = self._block_n = 1  # readings in that block / the latest closed one
+        self._ext_sy = self._block_sy = 0  # their sums of readings, counts (exact)
         self._anchor = 0.0          # smoothed residual of the latest blocks, deg C
-        self._level = 0.0           # fitted level and slope at the latest block close
-        self._slope = 0.0
+        self._level = self._slope = 0.0  # fitted level and slope at the latest block close
         self._blocks_done = 0               # blocks finished: the answer's cache key
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
         self._known = False         # an ambient was known at the latest block close
@@ -289,6 +286,8 @@ class ThermalEstimator(Answer):
         self._fresh = False
         self._ext = c * _INV
         self._ext_n = 1
+        self._ext_sy = c
+        self.settle.first(c)
         self.blocks.first(c, rc, uc)
         self._close_block()
         self._next_step()
@@ -343,8 +342,10 @@ class ThermalEstimator(Answer):
                       reg.x + b.ix / (2000 * SCALE),
                       reg.v + b.iv / (1000 * 1024) if heater else 0.0,
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
+        self._block_sy = b.sy
         b.next_block()
         self._block_n = n
+        self.settle.block_closed(b.age_ms, answer.SETTLE_MS, b.cb)
         self._known = self.inputs.known()
         self._ahead = self.inputs.ahead_fine()
         self._pending = 1
@@ -402,6 +403,7 @@ class ThermalEstimator(Answer):
             # (no heater: a turn with one restarts nothing; the reference over ip taken as now)
             self._seeded = True
             self._first(cp, rc, uc)
+            self.settle.seeded()  # (a turn: the probe has met the liquid)
             b.add(c, rc, uc, ip, 0, self.noise.clip)
             self._close_block()
         else:
@@ -428,16 +430,13 @@ class ThermalEstimator(Answer):
         if self._dir == 0:
             if yb - self._ext > cut:
                 self._dir = 1
-                self._ext = yb
-                self._ext_n = self._block_n
+                self._extreme(yb)
             elif self._ext - yb > cut:
                 self._dir = -1
-                self._ext = yb
-                self._ext_n = self._block_n
+                self._extreme(yb)
             return False
         if (yb > self._ext) if self._dir > 0 else (yb < self._ext):
-            self._ext = yb
-            self._ext_n = self._block_n
+            self._extreme(yb)
             return False
         if (self._ext - yb) * self._dir <= cut:
             return False
@@ -446,10 +445,14 @@ class ThermalEstimator(Answer):
             # once the fitted slope (duty included) agrees; before, it is a spike or noise
             if self._slope * self._dir < 0.0:
                 self._dir = -self._dir
-                self._ext = yb
-                self._ext_n = self._block_n
+                self._extreme(yb)
             return False
         return True
+
+    def _extreme(self, yb):
+        self._ext = yb  # (the block's mean: its sum over its readings, kept exactly)
+        self._ext_n = self._block_n
+        self._ext_sy = self._block_sy
 
     def _toward_profile_e(self, direction):
         """True when moving in ``direction`` (+1 / -1) goes towards the passive profile's

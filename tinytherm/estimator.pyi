@@ -5,6 +5,7 @@ from tinytherm.change import ChangeDetector
 from tinytherm.fit import BlockSums, Inputs, Noise, Regression
 from tinytherm.guard import ReadingGuard
 from tinytherm.profile import VesselProfile
+from tinytherm.settle import Settle
 
 SCALE: int
 MAX_BLOCK_READINGS: int
@@ -36,6 +37,7 @@ class ThermalEstimator(Answer):
     blocks: BlockSums
     reg: Regression
     audits: Audits
+    settle: Settle
     readings: int
     rejected: int
     last_verdict: int

@@ -11,11 +11,12 @@ Payload (little-endian), after the frame's 8-byte header::
                   with two readings at a turn (64)
     9       1     profile_reason
     10      8     anchor, deg C (float64)
-    18      8     extreme of the block means, deg C (float64)
-    26      1     readings in the block of that extreme (uint8)
-    27      4     the air ahead at the last block close, 1/65536 deg C (int32)
-    31      ...   the parts in turn, each ``STATE_SIZE`` bytes: guard,
-                  change detector, inputs, noise, block sums, regression, audits
+    18      4     extreme of the block means: its block's sum of readings,
+                  1/256 deg C (int32; the mean is that over the next field x 256)
+    22      1     readings in the block of that extreme (uint8)
+    23      4     the air ahead at the last block close, 1/65536 deg C (int32)
+    27      ...   the parts in turn, each ``STATE_SIZE`` bytes: guard,
+                  change detector, inputs, noise, block sums, regression, audits, settle
 
 The fit's solution is derived: ``restore`` solves again as at the last block
 close, so an uninterrupted run and one saved and restored on every reading
@@ -26,10 +27,11 @@ import struct
 from tinytherm import blob as bl
 from tinytherm.fit import SCALE
 
-# readings, changes, turns, flags, profile reason, anchor, extreme, its n, air ahead
-_HEAD = "<IHHBBddBi"
-HEAD_SIZE = 31
+# readings, changes, turns, flags, profile reason, anchor, extreme's sum, its n, air ahead
+_HEAD = "<IHHBBdiBi"
+HEAD_SIZE = 27
 _INV = 1.0 / SCALE
+_LIMIT = 10001 * SCALE  # counts: beyond any reading (the guard's limits are within 1e4 C)
 
 
 def save(est):
@@ -49,7 +51,7 @@ def save(est):
              | (32 if est._known else 0) | (64 if est._seeded else 0))
     struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
                      est.turns & 0xFFFF, flags, est.profile_reason, est._anchor,
-                     est._ext, est._ext_n, est._ahead)
+                     est._ext_sy, est._ext_n, est._ahead)
     o += HEAD_SIZE
     for part in parts(est):
         part.pack_into(buf, o)
@@ -58,7 +60,7 @@ def save(est):
 
 def parts(est):
     return (est.guard, est.detector, est.inputs, est.noise, est.blocks, est.reg,
-            est.audits)
+            est.audits, est.settle)
 
 def restore(est, blob):
     """Load a blob written by :meth:`save`; returns a ``tinytherm.blob`` code.
@@ -82,12 +84,13 @@ def restore(est, blob):
 
 def _unpack(est, blob):
     o = bl.PAYLOAD_OFFSET
-    readings, changes, turns, flags, reason, anchor, ext, ext_n, ahead = struct.unpack_from(
+    readings, changes, turns, flags, reason, anchor, ext_sy, ext_n, ahead = struct.unpack_from(
         _HEAD, blob, o)
     o += HEAD_SIZE
     direction = ((flags >> 3) & 3) - 1
     if flags & 0x80 or direction > 1 or (flags & 4 and est._profile is None) \
-            or not (-1e6 < anchor < 1e6 and -1e6 < ext < 1e6 and 1 <= ext_n <= 255):
+            or not (-1e6 < anchor < 1e6 and 1 <= ext_n <= 255) \
+            or not -_LIMIT < ext_sy // ext_n < _LIMIT:
         return bl.BLOB_VALUES
     est.reset()
     for part in parts(est):
@@ -110,7 +113,8 @@ def _unpack(est, blob):
     est._profile_on = bool(flags & 4)
     est._dir = direction
     est._anchor = anchor
-    est._ext = ext
+    est._ext = ext_sy / (ext_n * SCALE)  # (as the block's mean was worked out: exact)
+    est._ext_sy = ext_sy
     est._ext_n = ext_n
     est._ahead = ahead
     est._known = bool(flags & 32)

@@ -314,9 +314,19 @@ def test_corrupted_blobs_are_rejected_with_a_fresh_start():
     assert est.restore(bl.seal(other)) == bl.BLOB_VERSION
     # written by a differently configured estimator
     assert ThermalEstimator(heater=True).restore(blob) == bl.BLOB_SETTINGS
+    # the header's extreme (its block's sum, readings) and the settle part's reading out of range
+    settle_at = bl.PAYLOAD_OFFSET + state.HEAD_SIZE + sum(
+        part.STATE_SIZE for part in state.parts(est) if part is not est.settle)
+    for fmt, offset, bad_value in (("<i", 18, 0x7FFFFFFF), ("<i", 18, -0x7FFFFFFF),
+                                   ("<B", 22, 0), ("<i", settle_at, 0x7FFFFFFF)):
+        poisoned = bytearray(blob)
+        struct.pack_into(fmt, poisoned, offset if offset > 30 else bl.PAYLOAD_OFFSET + offset,
+                         bad_value)
+        assert est.restore(bl.seal(poisoned)) == bl.BLOB_VALUES, offset
+        assert est.readings == 0
     # a NaN, an infinity or a huge value in any float field of a sealed payload:
-    # the header's two, then the regression's and the audits' (each part packs its own)
-    offsets = [bl.PAYLOAD_OFFSET + 10, bl.PAYLOAD_OFFSET + 18]
+    # the header's anchor, then the regression's and the audits' (each part packs its own)
+    offsets = [bl.PAYLOAD_OFFSET + 10]
     at = bl.PAYLOAD_OFFSET + state.HEAD_SIZE
     for part in state.parts(est):
         if part is est.reg:
