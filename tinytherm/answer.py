@@ -193,7 +193,7 @@ def predict(self, target_c, approach=0):
         m = self._arrive_dir
         a = self._arrive_c
         reached = m != 0 and ((b.c >= a and b.cq >= a) if m > 0 else (b.c <= a and b.cq <= a))
-        if reached and (b.c - self._hold_c) * m < 0:
+        if reached and ((b.c - self._hold_c) * m < 0 or _held_back(self, m)):
             reached = False  # back beyond the turn threshold: a top-up, not an arrival
         if self.status == st.ARRIVED:
             if reached:
@@ -365,7 +365,7 @@ def _arrived(est, target, m, approach, age_ms):
         (ext - target) m >= Z sd / sqrt(n_ext)   or   (level - target) m >= Z sd_level
         and (target - level) m <= tol
     """
-    if age_ms < _ARRIVE_MIN_MS or (est.blocks.c - est._hold_c) * m < 0:
+    if age_ms < _ARRIVE_MIN_MS or (est.blocks.c - est._hold_c) * m < 0 or _held_back(est, m):
         return False  # (young, or back beyond the turn threshold: a top-up's probe rising)
     if m > 0 and approach == 0 and not (est.heater and est.blocks.uc > 0) and (
             age_ms < _RISE_ARRIVE_MIN_MS or not est._slope > 0.0
@@ -392,6 +392,13 @@ def _arrived(est, target, m, approach, age_ms):
         return True
     var = reg.var_level()
     return (level - target) * m >= ARRIVE_Z * math.sqrt(var if var > 0.0 else 0.0)
+
+
+def _held_back(est, m):
+    """True when the guard holds the latest reading as a possible spike and it lies back
+    beyond the turn threshold: a top-up's first reading, until the next confirms it."""
+    x = est.guard.held_c()
+    return x is not None and (to_counts(x) - est._hold_c) * m < 0
 
 
 def eta_rel_var(gap, slope, k, eta, reg, gk):

@@ -270,6 +270,11 @@ class ReadingGuard:
         self.consecutive_rejections = rej
         return True
 
+    def held_c(self):
+        """The latest reading when it was held back as a possible spike (a jump not yet
+        confirmed), deg C; else None."""
+        return self._win[0] if self.consecutive_rejections and self._win_n else None
+
     def _reject(self, verdict):
         self.rejected += 1
         self.consecutive_rejections += 1
