@@ -16,16 +16,17 @@ ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 if ROOT not in sys.path:
     sys.path.insert(0, ROOT)
 
-from tinytherm import answer, estimator  # noqa: E402
+from tinytherm import answer, estimator, settle  # noqa: E402
 from tinytherm.estimator import ThermalEstimator  # noqa: E402
 
 # keyword -> (module, constant)
 KNOBS = {
-    "rise_bend": (answer, "RISE_BEND"),
-    "rise_drop_sd": (answer, "RISE_DROP_SD"),
-    "rise_arrive_min_s": (answer, "RISE_ARRIVE_MIN_S"),
+    "rise_bend": (settle, "RISE_BEND"),
+    "rise_drop_sd": (settle, "RISE_DROP_SD"),
+    "rise_arrive_min_s": (settle, "RISE_ARRIVE_MIN_S"),
     "turn_c": (estimator, "TURN_C"),
-    "settle_s": (answer, "SETTLE_S"),
+    "settle_s": (settle, "SETTLE_S"),
+    "settle_bend": (settle, "SETTLE_BEND"),
 }
 
 
@@ -76,5 +77,5 @@ class _Applied:
 
 def _derived():
     """The millisecond copies of the constants set (the core reads those)."""
-    answer._RISE_ARRIVE_MIN_MS = int(answer.RISE_ARRIVE_MIN_S * 1000)
-    answer.SETTLE_MS = int(answer.SETTLE_S * 1000)
+    settle.RISE_ARRIVE_MIN_MS = int(settle.RISE_ARRIVE_MIN_S * 1000)
+    settle.SETTLE_MS = int(settle.SETTLE_S * 1000)

@@ -47,16 +47,8 @@ INF = math.inf
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
 ARRIVE_MIN_S = 30.0       # s: no arrival in a fit younger than this
 ARRIVE_Z = 2.0            # sd by which a block mean or the level must pass the target
-RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival without a direction before this (probe lag)
-SETTLE_S = 300.0          # s: no direction given, a probe may take this long to meet the liquid
-#   (tinytherm.settle; 300 and 600 tie by leave-one-family-out, 900 does worse)
 EQUILIBRIUM_SLACK = 0.1  # share of the distance to the fitted equilibrium it may be off
 #   (the families, all reachable, chose 0.4; 0.2 already answers a mug below a warm room)
-RISE_BEND = 3.0           # no rising arrival without a direction in a fit whose curve has bent
-#   through more than this many of its own time constants (k x age): it levels off, as a
-#   probe warming to a poured drink does (leave-one-family-out choice, docs/benchmarks.md)
-RISE_DROP_SD = 3.0        # ... nor once the latest reading is this many noise sd below the
-#   extreme of the block means (a probe past its peak while the fit still rises)
 MAX_REL_SD = 5.0          # an answer whose fit's own ln-time sd exceeds this stays SETTLING
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
 PROFILE_LAG_TIMES = 1.5   # a heated fit younger than this many profile lags shows no time
@@ -64,8 +56,6 @@ _INV = 1.0 / SCALE
 _IX_TO_CS = 1.0 / (2000 * SCALE)  # doubled count ms -> deg C s
 _IV_TO_S = 1.0 / (1000 * DUTY_SCALE)  # duty-count ms -> s at full duty
 _ARRIVE_MIN_MS = int(ARRIVE_MIN_S * 1000)
-_RISE_ARRIVE_MIN_MS = int(RISE_ARRIVE_MIN_S * 1000)
-SETTLE_MS = int(SETTLE_S * 1000)
 
 
 
@@ -161,10 +151,9 @@ def predict(self, target_c, approach=0):
 
     ``ThermalEstimator.predict`` (this function is that method). ``approach``:
     -1 the product cools to its target (a drink), +1 heats to it (a kettle, a
-    bath), 0 not given (the direction of travel decides; a rise with no heater
-    on is an arrival only in a fit older than ``RISE_ARRIVE_MIN_S`` that still
-    rises). With -1 or +1 a liquid moving the other way is never ``ARRIVED``
-    and gets no time.
+    bath), 0 not given (the direction of travel decides, with the rules of
+    :mod:`tinytherm.settle`). With -1 or +1 a liquid moving the other way is
+    never ``ARRIVED`` and gets no time.
 
     Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds after
     the latest reading; ``None`` without an estimate), ``eta_rel_sd``,
@@ -347,34 +336,22 @@ def _work_out(est, target, approach):
         est.status = st.TRACKING
 
 def _arrived(est, target, m, approach, age_ms):
-    """Arrival, the reading being on the line: the liquid has passed the target
-    in the direction ``m`` beyond the noise, in a fit old enough (and, rising
-    with no direction given and no heater on, old enough to be no probe
-    warming up, still rising by the fit and by the latest reading (at most
-    ``RISE_DROP_SD`` noise sd below the extreme), and not levelling off: a
-    probe that has warmed to the drink, bent through more than ``RISE_BEND``
-    time constants of its fit, or begun to fall is no arrival).
+    """Arrival, the reading being on the line: the liquid has passed the target in the
+    direction ``m`` beyond the noise, in a fit old enough; with no direction given, not
+    a probe still meeting the liquid (:meth:`tinytherm.settle.Settle.allows`).
 
-    Passed means the extreme of the block means beyond the target by
-    :data:`ARRIVE_Z` sd of that block's mean, or the fitted level at the
-    latest reading beyond it by :data:`ARRIVE_Z` sd of the level; and the
-    fitted level now not back short of the target by more than the line's
-    tolerance (a drink hovering at its target while the fridge cycles
-    passes it by noise and then drifts back: that is no arrival)::
+    Passed: the extreme block mean beyond the target by :data:`ARRIVE_Z` sd of its mean,
+    or the fitted level at the latest reading by as many of its sd; and that level not
+    back short by more than the line's tolerance (a drink hovering at its target while
+    the fridge cycles)::
 
         (ext - target) m >= Z sd / sqrt(n_ext)   or   (level - target) m >= Z sd_level
         and (target - level) m <= tol
     """
     if age_ms < _ARRIVE_MIN_MS or (est.blocks.c - est._hold_c) * m < 0 or _held_back(est, m):
         return False  # (young, or back beyond the turn threshold: a top-up's probe rising)
-    if m > 0 and approach == 0 and not (est.heater and est.blocks.uc > 0) and (
-            age_ms < _RISE_ARRIVE_MIN_MS or not est._slope > 0.0
-            or est.reg.k * age_ms > RISE_BEND * 1000.0
-            or est.blocks.c * _INV < est._ext - RISE_DROP_SD * est.noise.sd):
-        return False  # (a rise the heater drives is a real one)
-    if approach == 0 and not (est.heater and est.blocks.uc > 0) and not est.settle.allows(
-            to_counts(target), m, est.blocks.c, est.noise.sd, ARRIVE_TOL_C):
-        return False  # (the probe may still be settling to the liquid: tinytherm.settle)
+    if approach == 0 and not est.settle.allows(est, target, m, age_ms):
+        return False  # (no direction given: a probe still meeting the liquid, tinytherm.settle)
     reg = est.reg
     b = est.blocks
     # the fitted level at the latest reading (the fit's coordinates moved on)

@@ -6,12 +6,7 @@ INF: float
 ARRIVE_TOL_C: float
 ARRIVE_MIN_S: float
 ARRIVE_Z: float
-RISE_ARRIVE_MIN_S: float
-SETTLE_S: float
-SETTLE_MS: int
 EQUILIBRIUM_SLACK: float
-RISE_BEND: float
-RISE_DROP_SD: float
 MAX_REL_SD: float
 FAULT_AFTER: int
 PROFILE_LAG_TIMES: float

@@ -345,7 +345,10 @@ class ThermalEstimator(Answer):
         self._block_sy = b.sy
         b.next_block()
         self._block_n = n
-        self.settle.block_closed(b.age_ms, answer.SETTLE_MS, b.cb)
+        if self.settle.block_closed(b.age_ms, b.cb, reg.k if reg.ok and not heater else 0.0):
+            self._begin_again(False)  # the probe was travelling to the liquid: the liquid's
+            self.settle.seeded()      # own approach starts here (tinytherm.settle)
+            return
         self._known = self.inputs.known()
         self._ahead = self.inputs.ahead_fine()
         self._pending = 1
@@ -430,13 +433,13 @@ class ThermalEstimator(Answer):
         if self._dir == 0:
             if yb - self._ext > cut:
                 self._dir = 1
-                self._extreme(yb)
+                self._ext, self._ext_n, self._ext_sy = yb, self._block_n, self._block_sy
             elif self._ext - yb > cut:
                 self._dir = -1
-                self._extreme(yb)
+                self._ext, self._ext_n, self._ext_sy = yb, self._block_n, self._block_sy
             return False
         if (yb > self._ext) if self._dir > 0 else (yb < self._ext):
-            self._extreme(yb)
+            self._ext, self._ext_n, self._ext_sy = yb, self._block_n, self._block_sy
             return False
         if (self._ext - yb) * self._dir <= cut:
             return False
@@ -445,14 +448,9 @@ class ThermalEstimator(Answer):
             # once the fitted slope (duty included) agrees; before, it is a spike or noise
             if self._slope * self._dir < 0.0:
                 self._dir = -self._dir
-                self._extreme(yb)
+                self._ext, self._ext_n, self._ext_sy = yb, self._block_n, self._block_sy
             return False
         return True
-
-    def _extreme(self, yb):
-        self._ext = yb  # (the block's mean: its sum over its readings, kept exactly)
-        self._ext_n = self._block_n
-        self._ext_sy = self._block_sy
 
     def _toward_profile_e(self, direction):
         """True when moving in ``direction`` (+1 / -1) goes towards the passive profile's

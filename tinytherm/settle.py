@@ -1,29 +1,50 @@
-"""Whether the probe has met the liquid: the part that keeps a settling probe from arriving.
+"""Arrivals with no direction given: the part that keeps a probe still meeting the liquid from arriving.
 
-A strap-on or clip-on probe attached at the air's temperature (or a cold probe
-put in a warm drink) travels to the liquid's temperature over a few of its own
-time constants, and may cross the target on the way while the liquid is still
-far from it. With no direction given and no heater on, an arrival needs the
-probe to have met the liquid, which :class:`Settle` judges from one reading:
+A product that does not tell ``predict`` how it reaches its target (``approach``
+0) leaves the direction to the readings, and the readings' first minutes may be
+the probe's, not the liquid's. With no heater on, an arrival also needs:
 
-- while settling (the fit younger than ``answer.SETTLE_S``), its reference is
-  the fit's first reading: an arrival only when that was already past the
-  target (the probe never showed the liquid short of it);
-- settled (the first block closed ``SETTLE_S`` into the fit, or a fit seeded at
-  a turn, where the probe has met the liquid), the reference is that block's
-  closing reading: an arrival when it was short of the target (the crossing
-  came after it), or when the reading has since moved on past the target by
-  at least 4 noise sd (at least ``answer.ARRIVE_TOL_C``): a liquid past its
-  target when the probe met it, still going that way.
+- **the probe to have met the liquid.** A strap-on or clip-on probe attached at
+  the air's temperature (or a cold probe put in a hot drink) travels to the
+  liquid's temperature over a few of its own time constants and may cross the
+  target on the way. :class:`Settle` keeps one reading. For the fit's first
+  :data:`SETTLE_S` it is the fit's first reading, and an arrival needs it
+  already past the target (the probe never showed the liquid short of it).
+  Then (the first block closed ``SETTLE_S`` into the fit, or a fit seeded at a
+  turn, where the probe has met the liquid) it is that block's closing
+  reading: an arrival needs it short of the target (the crossing came after),
+  or the reading moved on past the target by 4 noise sd (at least
+  ``answer.ARRIVE_TOL_C``: a liquid past its target when the probe met it,
+  still going that way). A fit bent through :data:`SETTLE_BEND` of its time
+  constants by then was the probe travelling: the estimator restarts it there.
+- **a rise to be the liquid's** (a probe warming after a pour or a top-up passes
+  a drinking target on its way up while the drink is hotter): the fit at least
+  :data:`RISE_ARRIVE_MIN_S` old, still rising by its slope and by the latest
+  reading (at most :data:`RISE_DROP_SD` noise sd below the extreme), and bent
+  through at most :data:`RISE_BEND` of its time constants (``k x age``: a probe
+  warmed to the drink levels off).
 
-A clip-on probe reading partly the air and a probe's lag of tens of seconds
-are common practice, no source. Runs unchanged on CPython and MicroPython.
+The constants are leave-one-family-out choices on the tune seeds of
+``benchmarks/families.py`` (docs/benchmarks.md). A clip-on probe reading partly
+the air and a probe's lag of tens of seconds are common practice, no source.
+Runs unchanged on CPython and MicroPython.
 """
 import struct
 
-from tinytherm.fit import to_counts
+from tinytherm import answer
+from tinytherm.fit import SCALE, to_counts
 
-_LIMIT = 10001 * 256  # counts (1/256 deg C): beyond any reading (the guard's limits: 1e4 C)
+SETTLE_S = 300.0          # s: a probe may take this long to meet the liquid (300 and 600 tie,
+#   900 does worse)
+SETTLE_BEND = 1.0         # time constants (k x SETTLE_S): a fit bent through more was the
+#   probe travelling to the liquid (1, 2, 3 and 5 tried)
+RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival in a fit younger than this (probe lag)
+RISE_BEND = 3.0           # no rising arrival in a fit bent through more time constants
+RISE_DROP_SD = 3.0        # ... nor with the latest reading this many noise sd below the extreme
+SETTLE_MS = int(SETTLE_S * 1000)
+RISE_ARRIVE_MIN_MS = int(RISE_ARRIVE_MIN_S * 1000)
+_INV = 1.0 / SCALE
+_LIMIT = 10001 * SCALE    # counts: beyond any reading (the guard's limits are within 1e4 C)
 
 
 class Settle:
@@ -44,23 +65,36 @@ class Settle:
         """The fit was seeded at a turn: the probe has met the liquid there (its reference)."""
         self.settled = True
 
-    def block_closed(self, age_ms, settle_ms, cb):
-        """A block closed ``age_ms`` into the fit at reading ``cb`` (counts)."""
-        if not self.settled and age_ms >= settle_ms:
+    def block_closed(self, age_ms, cb, k):
+        """A block closed ``age_ms`` into the fit at reading ``cb`` (counts), its fitted rate
+        ``k`` (1/s). True when the probe is taken as settled with it and the fit bent through
+        more than :data:`SETTLE_BEND` time constants: restart the fit here."""
+        if not self.settled and age_ms >= SETTLE_MS:
             self.ref = cb
             self.settled = True
+            return k * age_ms > SETTLE_BEND * 1000.0
+        return False
 
-    def allows(self, target_counts, m, c, noise_sd_c, move_min_c):
-        """False when an arrival in direction ``m`` (+1 / -1) at reading ``c`` (counts) may be
-        the probe still settling; a liquid past the target when settled must have moved
-        on by 4 ``noise_sd_c``, at least ``move_min_c`` (deg C)."""
+    def allows(self, est, target_c, m, age_ms):
+        """False when an arrival at ``target_c`` (deg C) in direction ``m`` (+1 / -1), the
+        fit ``age_ms`` old, may be the probe's and not the liquid's (no direction given)."""
+        b = est.blocks
+        if est.heater and b.uc > 0:
+            return True  # (a move the heater drives is the liquid's)
         ref = self.ref
+        target = to_counts(target_c)
         if not self.settled:
-            return (ref - target_counts) * m >= 0
-        if (target_counts - ref) * m > 0:
-            return True
-        on = 4.0 * noise_sd_c
-        return (c - ref) * m >= to_counts(on if on > move_min_c else move_min_c)
+            if (ref - target) * m < 0:
+                return False
+        elif (target - ref) * m <= 0:
+            on = 4.0 * est.noise.sd
+            tol = answer.ARRIVE_TOL_C
+            if (b.c - ref) * m < to_counts(on if on > tol else tol):
+                return False
+        return m < 0 or not (
+            age_ms < RISE_ARRIVE_MIN_MS or not est._slope > 0.0
+            or est.reg.k * age_ms > RISE_BEND * 1000.0
+            or b.c * _INV < est._ext - RISE_DROP_SD * est.noise.sd)
 
     def pack_into(self, buf, offset):
         struct.pack_into("<i", buf, offset, self.ref * 2 + (0 if self.settled else 1))
