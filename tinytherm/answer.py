@@ -126,6 +126,7 @@ class Answer:
         self.eta_s = 0.0
         self.eta_low_s = 0.0
         self.eta_high_s = 0.0
+        self.eta_rel_sd = None  # (as when worked out: a restored run arrives the same)
 
     def count_down(self, age_ms, force=False):
         """Move the cached times on to a fit ``age_ms`` old.
@@ -261,7 +262,7 @@ def _work_out(est, target, approach):
         d = est._dir
     m = est._dir
     gap = target - level
-    age_s = b.age_ms * 0.001
+    age_s = est._for_age_ms * 0.001  # (the fit's age at the block close, as the answer)
     if m != 0 and d == m and (approach == 0 or m == approach):
         # (an arrival needs the fitted slope to agree with the block means: a spike or
         # a wrong turn of the means is no arrival while the fit says the other way)
