@@ -243,10 +243,9 @@ def _work_out(est, target, approach):
         e = level + slope / k
         if -1e300 < e < 1e300:  # (a vanishing k levels off nowhere in range)
             est.equilibrium_c = e
-    if est.inputs.known():
-        # the ambient the answer uses, as at the block close (a measured air: its
-        # mean ahead; the answer must not depend on the reading it is asked at)
-        est.ambient_est_c = est._ahead * (1.0 / 256) * _INV
+    ahead = est._ambient_ahead_c()  # the ambient as at the block close, or None
+    if ahead is not None:
+        est.ambient_est_c = ahead
     elif est.equilibrium_c is not None:
         # unknown ambient: where the liquid would level off without heat input
         r = est.equilibrium_c - reg.g * (b.uc / 1024) / k
@@ -308,9 +307,9 @@ def _work_out(est, target, approach):
         # reach when even a slow bend cannot reach the target
         to_e = slope / k if k > 0.0 else 0.0  # E - level, the sign of gap
         slack = EQUILIBRIUM_SLACK * (to_e if to_e > 0.0 else -to_e)
-        if est.inputs.known() and not est.heater:
+        if ahead is not None and not est.heater:
             # a passive liquid never passes a known ambient: the slack ends there
-            room = est.ambient_est_c - level - to_e  # R - E (R as at the block close)
+            room = ahead - level - to_e  # R - E (R as at the block close)
             room = room if gap > 0.0 else -room
             if slack > room:
                 slack = room

@@ -370,9 +370,7 @@ class ThermalEstimator(Answer):
             if self.heater:
                 res -= reg.g * reg.rv
             self._anchor += ANCHOR_GAIN * (res - self._anchor)
-            self._level = reg.level() + self._anchor
-            # slope at the level (the reference gap and duty are the closing reading's)
-            self._slope = reg.s - reg.k * (self._level - b.cb * _INV)
+            self._level_and_slope()
             if b.readings >= DETECT_MIN_BLOCKS:
                 self._disturbed = False  # established again after a jump
                 if self.audits.any_due((b.age_ms - b.it) * 0.001):
@@ -385,6 +383,14 @@ class ThermalEstimator(Answer):
         if self._turned(yb):
             self.turns += 1
             self._begin_again(False, b.readings == 3)
+
+    def _level_and_slope(self):
+        """The anchored level and the slope at it from the solution (at the latest block
+        close; also after a restore or a re-solve, so that those give the same)."""
+        reg = self.reg
+        self._level = reg.level() + self._anchor
+        # slope at the level (the reference gap and duty are the closing reading's)
+        self._slope = reg.s - reg.k * (self._level - self.blocks.cb * _INV)
 
     def _begin_again(self, disturbed, from_previous=False):
         """Restart the fit from the latest reading (a jump or a turn); ``from_previous``:
@@ -509,27 +515,31 @@ class ThermalEstimator(Answer):
     def _audit(self):
         age = (self.blocks.age_ms - self.blocks.it) * 0.001  # at the block close
         need = 4.0 * math.sqrt(self.reg.var_level()) + 0.5 * self.guard.quantum_c
-        if self._profile_on and not self.heater and self._slope != 0.0:
+        slope = self._slope_ahead()
+        if self._profile_on and not self.heater and slope != 0.0:
             # this liquid's rate against the profile's spread of rates (the fit is
             # established here: the audits run from DETECT_MIN_BLOCKS blocks on). The
             # audits' errors judge no profile: a probe catching up after a pour, or a
-            # heater's start-up, fails any law's short forecasts for a while.
+            # heater's start-up, fails any law's short forecasts for a while. (The
+            # slope and the reference both as ahead, as the answer's.)
             reg = self.reg
             gk = self.blocks.cb * _INV - self._level  # d slope / d k at the level
             var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
-            z = self._profile.rate_z(self._level, self._slope, self._profile_r(),
-                                     var_slope / (self._slope * self._slope))
+            z = self._profile.rate_z(self._level, slope, self._profile_r(),
+                                     var_slope / (slope * slope))
             if z is not None and z > PROFILE_MISMATCH_Z:
                 self._reject_profile()
                 return
         for a in self.audits.a:
-            a.check(self, age, self._level, self._slope_ahead(), self.reg.k, need)
+            a.check(self, age, self._level, slope, self.reg.k, need)
 
     def _reject_profile(self):
         """Its rate fails on this liquid (another vessel's profile)."""
         self._profile_on = False
         self.profile_reason = PROFILE_REJECTED
         self._solve()
+        if self.reg.ok:
+            self._level_and_slope()  # (as a restore derives them from the new solution)
 
     def _slope_ahead(self):
         """Slope at the fitted level under the air the future will see, deg C/s.
@@ -566,10 +576,19 @@ class ThermalEstimator(Answer):
         return self._profile.law_s(gap_c, level_c, slope_c_per_s, self._profile_r(),
                                    slope_rel_var)
 
+    def _ambient_ahead_c(self):
+        """The ambient the answer uses, deg C, as fixed at the latest block close (a
+        measured air: its mean ahead, as in :meth:`_slope_ahead`), or None when none was
+        known then. The one reference of the answer's ambient, the equilibrium slack and
+        the profile: an answer worked out after a restore, at a later reading of the
+        block, must be the one counted down since the block close."""
+        return self._ahead * (1.0 / 256) * _INV if self._known else None
+
     def _profile_r(self):
-        """The reference the profile's equilibrium is offset from, deg C (the known or
-        measured ambient, else the ambient prior)."""
-        return self.blocks.rc * _INV if self.inputs.known() else self._prior_r
+        """The reference the profile's equilibrium is offset from, deg C (the ambient at
+        the block close, :meth:`_ambient_ahead_c`, else the ambient prior)."""
+        r = self._ambient_ahead_c()
+        return self._prior_r if r is None else r
 
     # ------------------------------------------------------------ save/restore
     def save(self):

@@ -120,8 +120,7 @@ def _unpack(est, blob):
     est._solve()
     reg = est.reg
     if reg.ok:
-        est._level = reg.level() + anchor
-        est._slope = reg.s - reg.k * (est._level - b.cb * _INV)
+        est._level_and_slope()
     elif reg.nb >= 1.5:
         return bl.BLOB_VALUES
     return bl.RESTORED
