@@ -191,9 +191,9 @@ class ThermalEstimator(Answer):
         self._slope = 0.0
         self._blocks_done = 0               # blocks finished: the answer's cache key
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
-        self._known = False         # an ambient was known at the latest block close
         self._seeded = False        # the fit began with two readings at a turn (_begin_again)
-        self._ahead = 0             # the air ahead at the latest block close, counts * 2**8
+        self._ahead = None          # the ambient ahead at the latest block close, counts * 2**8
+        #   (a measured air's mean ahead, else the fixed ambient; None: none was known then)
         self.forget()
         self.clear(st.GATHERING)
 
@@ -345,8 +345,7 @@ class ThermalEstimator(Answer):
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
         b.next_block()
         self._block_n = n
-        self._known = self.inputs.known()
-        self._ahead = self.inputs.ahead_fine()
+        self._ahead = self.inputs.ahead_fine() if self.inputs.known() else None
         self._pending = 1
 
     def _next_step(self):
@@ -465,7 +464,7 @@ class ThermalEstimator(Answer):
     def _solve(self):
         """Priors for this block, then the regression's solve (see the module docstring).
 
-        The hint follows ``_known``: whether an ambient was known at the block
+        The hint follows ``_ahead``: whether an ambient was known at the block
         close (saved with the state; a measured one may arrive after it).
         """
         reg = self.reg
@@ -475,7 +474,7 @@ class ThermalEstimator(Answer):
         s2 = self.noise.var
         prof = self._profile if self._profile_on else None
         # the equilibrium hint E ~ N(e, sd^2) as a distance from the latest gap G0
-        if self._known:
+        if self._ahead is not None:
             dist = -self.blocks.g0 * _INV
             sd = KNOWN_AMBIENT_SD_C
         else:
@@ -552,7 +551,7 @@ class ThermalEstimator(Answer):
 
         Without a measured air it is the slope now.
         """
-        if not self.inputs.measured:
+        if not self.inputs.measured or self._ahead is None:
             return self._slope
         b = self.blocks
         # the reference at the block close: G0 = cb - rc
@@ -582,7 +581,7 @@ class ThermalEstimator(Answer):
         known then. The one reference of the answer's ambient, the equilibrium slack and
         the profile: an answer worked out after a restore, at a later reading of the
         block, must be the one counted down since the block close."""
-        return self._ahead * (1.0 / 256) * _INV if self._known else None
+        return None if self._ahead is None else self._ahead * (1.0 / 256) * _INV
 
     def _profile_r(self):
         """The reference the profile's equilibrium is offset from, deg C (the ambient at

@@ -46,10 +46,10 @@ def save(est):
     o = bl.PAYLOAD_OFFSET
     flags = ((1 if est._fresh else 0) | (2 if est._disturbed else 0)
              | (4 if est._profile_on else 0) | ((est._dir + 1) << 3)
-             | (32 if est._known else 0) | (64 if est._seeded else 0))
+             | (0 if est._ahead is None else 32) | (64 if est._seeded else 0))
     struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
                      est.turns & 0xFFFF, flags, est.profile_reason, est._anchor,
-                     est._ext, est._ext_n, est._ahead)
+                     est._ext, est._ext_n, est._ahead or 0)
     o += HEAD_SIZE
     for part in parts(est):
         part.pack_into(buf, o)
@@ -112,8 +112,7 @@ def _unpack(est, blob):
     est._anchor = anchor
     est._ext = ext
     est._ext_n = ext_n
-    est._ahead = ahead
-    est._known = bool(flags & 32)
+    est._ahead = ahead if flags & 32 else None
     est._seeded = bool(flags & 64)
     est._blocks_done = 1
     # the solution and what follows from it are derived: as at the last block close
