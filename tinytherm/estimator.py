@@ -185,7 +185,6 @@ class ThermalEstimator(Answer):
         self._dir = 0               # direction of the block means (+1, -1, 0)
         self._ext = 0.0             # first block mean while _dir == 0, then the extreme, deg C
         self._ext_n = 1             # readings in the block of that extreme (its noise)
-        self._block_n = 1           # readings in the latest closed block (not saved: used at once)
         self._anchor = 0.0          # smoothed residual of the latest blocks, deg C
         self._level = 0.0           # fitted level and slope at the latest block close
         self._slope = 0.0
@@ -344,7 +343,6 @@ class ThermalEstimator(Answer):
                       reg.v + b.iv / (1000 * 1024) if heater else 0.0,
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
         b.next_block()
-        self._block_n = n
         self._ahead = self.inputs.ahead_fine() if self.inputs.known() else None
         self._pending = 1
 
@@ -434,15 +432,15 @@ class ThermalEstimator(Answer):
             if yb - self._ext > cut:
                 self._dir = 1
                 self._ext = yb
-                self._ext_n = self._block_n
+                self._ext_n = self.blocks.np
             elif self._ext - yb > cut:
                 self._dir = -1
                 self._ext = yb
-                self._ext_n = self._block_n
+                self._ext_n = self.blocks.np
             return False
         if (yb > self._ext) if self._dir > 0 else (yb < self._ext):
             self._ext = yb
-            self._ext_n = self._block_n
+            self._ext_n = self.blocks.np
             return False
         if (self._ext - yb) * self._dir <= cut:
             return False
@@ -452,7 +450,7 @@ class ThermalEstimator(Answer):
             if self._slope * self._dir < 0.0:
                 self._dir = -self._dir
                 self._ext = yb
-                self._ext_n = self._block_n
+                self._ext_n = self.blocks.np
             return False
         return True
 

@@ -68,6 +68,7 @@ class BlockSums:
         # (not saved: used only by the block close's second half, which save() finishes)
         self.cp = 0         # the reading that closed the block before the latest, counts
         self.ip = 0         # the latest block's duration: ms from cp to cb
+        self.np = 1         # readings in the latest block
         self.age_ms = 0     # time since the fit's first reading, ms
         self.readings = 0   # readings in this fit (counted to 255)
         # noise: successive differences less the fitted slope, clipped
@@ -134,6 +135,7 @@ class BlockSums:
         """Zero the block sums; the latest reading becomes the new reference (exact)."""
         self.cp = self.cb
         self.ip = self.it
+        self.np = self.n
         self.n = 0
         self.it = self.ix = self.iv = 0
         self.st = self.sx = self.sv = self.sy = 0
