@@ -134,12 +134,12 @@ class ThermalEstimator(Answer):
         self.blocks = BlockSums()
         self.reg = Regression(heater)
         self.audits = Audits()
-        self._prior_r = float(ambient_prior_c)
-        self._prior_sd = float(ambient_prior_sd_c)
+        # the ambient prior: where the room usually is and its sd, deg C
+        self._prior = (float(ambient_prior_c), float(ambient_prior_sd_c))
         self._z = normal_quantile(0.5 + 0.5 * interval)  # the interval's half-width in sd
         # every setting that changes the state's meaning, for restore's check
         self._settings = crc32(("%r %r %r %r %r %r %r %r %r %r" % (
-            ambient_c, self._prior_r, self._prior_sd, heater, float(interval), self.guard.quantum_c,
+            ambient_c, self._prior[0], self._prior[1], heater, float(interval), self.guard.quantum_c,
             self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
             self._profile is not None)).encode())
         # save() writes into this one buffer, made while the heap is fresh
@@ -476,8 +476,8 @@ class ThermalEstimator(Answer):
             dist = -self.blocks.g0 * _INV
             sd = KNOWN_AMBIENT_SD_C
         else:
-            dist = self._prior_r - self.blocks.g0 * _INV
-            sd = self._prior_sd
+            r, sd = self._prior
+            dist = r - self.blocks.g0 * _INV
         if prof is None:
             kp = gp = 0.0
             lk = s2 / (RATE_PRIOR_PER_S * RATE_PRIOR_PER_S)
@@ -585,7 +585,7 @@ class ThermalEstimator(Answer):
         """The reference the profile's equilibrium is offset from, deg C (the ambient at
         the block close, :meth:`_ambient_ahead_c`, else the ambient prior)."""
         r = self._ambient_ahead_c()
-        return self._prior_r if r is None else r
+        return self._prior[0] if r is None else r
 
     # ------------------------------------------------------------ save/restore
     def save(self):
