@@ -137,13 +137,14 @@ class ThermalEstimator(Answer):
         # the ambient prior: where the room usually is and its sd, deg C
         self._prior = (float(ambient_prior_c), float(ambient_prior_sd_c))
         self._z = normal_quantile(0.5 + 0.5 * interval)  # the interval's half-width in sd
-        # every setting that changes the state's meaning, for restore's check
-        self._settings = crc32(("%r %r %r %r %r %r %r %r %r %r" % (
+        # every setting that changes the state's meaning, for restore's check (the
+        # frame's header keeps it: state.restore reads it there)
+        settings = crc32(("%r %r %r %r %r %r %r %r %r %r" % (
             ambient_c, self._prior[0], self._prior[1], heater, float(interval), self.guard.quantum_c,
             self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
             self._profile is not None)).encode())
         # save() writes into this one buffer, made while the heap is fresh
-        self._blob_buf = bl.new_frame(self._settings)
+        self._blob_buf = bl.new_frame(settings)
         self.reset()
 
     def _take_profile(self, profile):

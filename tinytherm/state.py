@@ -69,7 +69,8 @@ def restore(est, blob):
     slept, or :meth:`update_ticks` with ``slept_s``.
     """
     try:
-        code = bl.check(blob, est._settings)
+        # (the settings key, as the estimator's own frame holds it)
+        code = bl.check(blob, struct.unpack_from("<I", est._blob_buf, 4)[0])
         if code == bl.RESTORED:
             code = _unpack(est, blob)
     except MemoryError:
