@@ -227,7 +227,7 @@ def _work_out(est, target, approach):
     if (b.readings < (2 if est._seeded else 3) or not reg.ok or target is None
             or not -1e4 <= target <= 1e4):
         est.clear(st.GATHERING)
-        if est.readings and not est._fresh:
+        if est.readings and b.readings:  # (none in this fit: it starts at the next)
             est.temp_est_c = b.c * _INV
             if est._profile_on and est._dir != 0 and target is not None:
                 est._profile.first_answer(est, target, approach)

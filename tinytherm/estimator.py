@@ -178,7 +178,6 @@ class ThermalEstimator(Answer):
 
     def _restart_fit(self):
         """Zero the fit: the next accepted reading starts a new approach."""
-        self._fresh = True
         self.blocks.reset()
         self.reg.reset()
         self.audits.clear()
@@ -255,8 +254,8 @@ class ThermalEstimator(Answer):
         uc = self.inputs.duty_counts(duty) if self.heater else 0
         b = self.blocks
         try:
-            if self._fresh or self.guard.gap == GAP_RESTART:
-                dt_ms = 0 if self._fresh else self.guard.elapsed_ms  # (the air's cycle goes on)
+            if not b.readings or self.guard.gap == GAP_RESTART:  # (none: a new fit)
+                dt_ms = self.guard.elapsed_ms if b.readings else 0  # (the air's cycle goes on)
                 self._restart_fit()
                 self._first(c, self.inputs.reference(ambient_c, dt_ms, True), uc)
             else:
@@ -286,7 +285,6 @@ class ThermalEstimator(Answer):
 
     def _first(self, c, rc, uc):
         """The fit's first reading: the first block, closed at once."""
-        self._fresh = False
         self._ext = c * _INV
         self._ext_n = 1
         self.blocks.first(c, rc, uc)

@@ -44,7 +44,7 @@ def save(est):
         est._next_step()  # (as the next readings would: the blob holds no half-done block)
     buf = est._blob_buf
     o = bl.PAYLOAD_OFFSET
-    flags = ((1 if est._fresh else 0) | (2 if est._disturbed else 0)
+    flags = ((0 if est.blocks.readings else 1) | (2 if est._disturbed else 0)
              | (4 if est._profile_on else 0) | ((est._dir + 1) << 3)
              | (0 if est._ahead is None else 32) | (64 if est._seeded else 0))
     struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
@@ -100,13 +100,14 @@ def _unpack(est, blob):
             return bl.BLOB_VALUES
         o += part.STATE_SIZE
     b = est.blocks
-    if not (b.readings <= readings and est.guard.min_c <= b.c * _INV <= est.guard.max_c):
+    # (fresh: no reading in the fit yet, the next starts one)
+    if not (b.readings <= readings and bool(flags & 1) == (b.readings == 0)
+            and est.guard.min_c <= b.c * _INV <= est.guard.max_c):
         return bl.BLOB_VALUES
     est.readings = readings
     est.changes = changes
     est.turns = turns
     est.profile_reason = reason
-    est._fresh = bool(flags & 1)
     est._disturbed = bool(flags & 2)
     est._profile_on = bool(flags & 4)
     est._dir = direction
