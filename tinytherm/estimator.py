@@ -140,8 +140,8 @@ class ThermalEstimator(Answer):
         # every setting that changes the state's meaning, for restore's check (the
         # frame's header keeps it: state.restore reads it there)
         settings = crc32(("%r %r %r %r %r %r %r %r %r %r" % (
-            ambient_c, self._prior[0], self._prior[1], heater, float(interval), self.guard.quantum_c,
-            self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
+            ambient_c, self._prior[0], self._prior[1], heater, float(interval),
+            self.guard.quantum_c, self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
             self._profile is not None)).encode())
         # save() writes into this one buffer, made while the heap is fresh
         self._blob_buf = bl.new_frame(settings)
@@ -409,7 +409,7 @@ class ThermalEstimator(Answer):
         else:
             self._first(c, rc, uc)
         if (not disturbed and self._profile_on and not self.heater and turned_to != 0
-                and self._toward_profile_e(turned_to)):
+                and self._profile.toward_e(self, turned_to)):
             self._dir = turned_to  # the passive profile's direction: known from the turn on
 
     def _turned(self, yb):
@@ -421,7 +421,7 @@ class ThermalEstimator(Answer):
         cut = 4.0 * self.noise.sd
         if cut < TURN_C and not (self.blocks.readings == 3 and self._dir != 0) and not (
                 self._profile_on and not self.heater and self._dir != 0
-                and self._toward_profile_e(-self._dir)):
+                and self._profile.toward_e(self, -self._dir)):
             # at least TURN_C, but for the retreat right after the jump that set the
             # direction (a reading taken before a pour, then the drink cooling), and for
             # a passive profile's liquid, which only moves towards its E (a retreat that
@@ -452,11 +452,6 @@ class ThermalEstimator(Answer):
                 self._ext_n = self.blocks.np
             return False
         return True
-
-    def _toward_profile_e(self, direction):
-        """True when moving in ``direction`` (+1 / -1) goes towards the passive profile's
-        equilibrium (the reference, known or the prior, plus its offset)."""
-        return (self._profile_r() + self._profile.eq_offset_c - self._ext) * direction > 0.0
 
     def _solve(self):
         """Priors for this block, then the regression's solve (see the module docstring).
@@ -521,7 +516,7 @@ class ThermalEstimator(Answer):
             reg = self.reg
             gk = self.blocks.cb * _INV - self._level  # d slope / d k at the level
             var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
-            z = self._profile.rate_z(self._level, slope, self._profile_r(),
+            z = self._profile.rate_z(self._level, slope, self._profile.reference_c(self),
                                      var_slope / (slope * slope))
             if z is not None and z > PROFILE_MISMATCH_Z:
                 self._reject_profile()
@@ -569,7 +564,7 @@ class ThermalEstimator(Answer):
         :meth:`tinytherm.profile.VesselProfile.law_s` for ``slope_rel_var``."""
         if not self._profile_on or self.heater:
             return None
-        return self._profile.law_s(gap_c, level_c, slope_c_per_s, self._profile_r(),
+        return self._profile.law_s(gap_c, level_c, slope_c_per_s, self._profile.reference_c(self),
                                    slope_rel_var)
 
     def _ambient_ahead_c(self):
@@ -580,11 +575,6 @@ class ThermalEstimator(Answer):
         block, must be the one counted down since the block close."""
         return None if self._ahead is None else self._ahead * (1.0 / 256) * _INV
 
-    def _profile_r(self):
-        """The reference the profile's equilibrium is offset from, deg C (the ambient at
-        the block close, :meth:`_ambient_ahead_c`, else the ambient prior)."""
-        r = self._ambient_ahead_c()
-        return self._prior[0] if r is None else r
 
     # ------------------------------------------------------------ save/restore
     def save(self):

@@ -334,6 +334,18 @@ class VesselProfile:
         except (ValueError, OverflowError, ZeroDivisionError):
             return None
 
+    def reference_c(self, est):
+        """The reference ``est``'s equilibrium under this profile is offset from, deg C
+        (the ambient at the block close, ``est._ambient_ahead_c()``, else the ambient prior)."""
+        r = est._ambient_ahead_c()
+        return est._prior[0] if r is None else r
+
+    def toward_e(self, est, direction):
+        """True when moving in ``direction`` (+1 / -1) goes towards this (passive)
+        profile's equilibrium for ``est`` (its reference plus the offset) from the
+        extreme of its block means."""
+        return (self.reference_c(est) + self.eq_offset_c - est._ext) * direction > 0.0
+
     def log_sd(self, eta_s):
         """The sd of ln(actual / predicted) its table gives at ``eta_s`` seconds (>= 0.05)."""
         lo, hi = self.interval_log_bounds(eta_s)
