@@ -31,7 +31,7 @@ the saved state:
 A vessel profile (:mod:`tinytherm.profile`, imported only when given) sets
 the priors, the interval (its calibrated table) and, for a passive liquid,
 the answer's law; it is dropped (``PROFILE_REJECTED``) when the fitted rate
-lies more than :data:`PROFILE_MISMATCH_Z` sds from its own (the equations:
+lies more than :data:`tinytherm.profile.PROFILE_MISMATCH_Z` sds from its own (the equations:
 docs/design.md, "Vessel profile"). Fixed state, no
 per-reading containers; runs unchanged on CPython and MicroPython.
 """
@@ -66,7 +66,6 @@ MISMATCH_C = 0.03         # deg C: model-mismatch allowance of a block innovatio
 MAX_GAP_S = 900.0         # s: a longer gap is counted as a long gap (the guard's counts)
 PROFILE_HEATER_MISMATCH = 100  # profile_reason: a profile for the other heater mode
 PROFILE_REJECTED = 101    # profile_reason: dropped, this liquid's rate is another vessel's
-PROFILE_MISMATCH_Z = 4.0    # dropped when this liquid's rate lies this many sds from the profile's
 _INV = 1.0 / SCALE
 _SCALE_F = float(SCALE)
 _NAN = math.nan
@@ -507,30 +506,18 @@ class ThermalEstimator(Answer):
         age = (self.blocks.age_ms - self.blocks.it) * 0.001  # at the block close
         need = 4.0 * math.sqrt(self.reg.var_level()) + 0.5 * self.guard.quantum_c
         slope = self._slope_ahead()
-        if self._profile_on and not self.heater and slope != 0.0:
-            # this liquid's rate against the profile's spread of rates (the fit is
-            # established here: the audits run from DETECT_MIN_BLOCKS blocks on). The
-            # audits' errors judge no profile: a probe catching up after a pour, or a
-            # heater's start-up, fails any law's short forecasts for a while. (The
-            # slope and the reference both as ahead, as the answer's.)
-            reg = self.reg
-            gk = self.blocks.cb * _INV - self._level  # d slope / d k at the level
-            var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
-            z = self._profile.rate_z(self._level, slope, self._profile.reference_c(self),
-                                     var_slope / (slope * slope))
-            if z is not None and z > PROFILE_MISMATCH_Z:
-                self._reject_profile()
-                return
+        if (self._profile_on and not self.heater and slope != 0.0
+                and self._profile.rate_fails(self, slope)):
+            # another vessel's profile (the fit is established here: the audits run
+            # from DETECT_MIN_BLOCKS readings on): dropped, solved again without it
+            self._profile_on = False
+            self.profile_reason = PROFILE_REJECTED
+            self._solve()
+            if self.reg.ok:
+                self._level_and_slope()  # (as a restore derives them from the new solution)
+            return
         for a in self.audits.a:
             a.check(self, age, self._level, slope, self.reg.k, need)
-
-    def _reject_profile(self):
-        """Its rate fails on this liquid (another vessel's profile)."""
-        self._profile_on = False
-        self.profile_reason = PROFILE_REJECTED
-        self._solve()
-        if self.reg.ok:
-            self._level_and_slope()  # (as a restore derives them from the new solution)
 
     def _slope_ahead(self):
         """Slope at the fitted level under the air the future will see, deg C/s.

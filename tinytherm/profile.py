@@ -57,6 +57,8 @@ _CRC_AT = 50
 FLAG_HEATER = 1
 
 DIFF_REF_C = 10.0                 # K: the difference at which rate_per_s is the rate
+PROFILE_MISMATCH_Z = 4.0          # the estimator drops a profile whose rate this liquid's
+#   fitted rate lies this many sds from (:meth:`VesselProfile.rate_fails`)
 BIN_EDGES_S = (60.0, 300.0, 1200.0)
 # Where each bin's quantiles apply exactly (s); in between, linear in ln(eta).
 # Geometric middles of the inner bins, and 30 s / 2400 s for the outer ones.
@@ -345,6 +347,20 @@ class VesselProfile:
         profile's equilibrium for ``est`` (its reference plus the offset) from the
         extreme of its block means."""
         return (self.reference_c(est) + self.eq_offset_c - est._ext) * direction > 0.0
+
+    def rate_fails(self, est, slope_c_per_s):
+        """True when ``est``'s liquid is another vessel's: its fitted rate lies more
+        than :data:`PROFILE_MISMATCH_Z` sds from this profile's (:meth:`rate_z` with the
+        fitted slope's own variance at the level). ``slope_c_per_s``: the fitted slope
+        at the level, deg C/s, not 0, paired with :meth:`reference_c` (both as ahead, as
+        the answer's). The audits' errors judge no profile: a probe catching up after a
+        pour, or a heater's start-up, fails any law's short forecasts for a while."""
+        reg = est.reg
+        gk = est.blocks.cb * _INV - est._level  # d slope / d k at the level
+        var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
+        z = self.rate_z(est._level, slope_c_per_s, self.reference_c(est),
+                        var_slope / (slope_c_per_s * slope_c_per_s))
+        return z is not None and z > PROFILE_MISMATCH_Z
 
     def log_sd(self, eta_s):
         """The sd of ln(actual / predicted) its table gives at ``eta_s`` seconds (>= 0.05)."""
