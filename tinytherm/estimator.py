@@ -121,7 +121,10 @@ class ThermalEstimator(Answer):
         self.profile_reason = 0
         self._profile = None
         if profile is not None:
-            self._take_profile(profile)
+            # a bad blob or another heater mode is not used (the reason kept)
+            from tinytherm.profile import VesselProfile  # (only when used: it costs RAM)
+            self._profile, self.profile_reason = VesselProfile.given(
+                profile, heater, PROFILE_HEATER_MISMATCH)
         # the guard checks its own settings (ValueError naming them)
         self.guard = ReadingGuard(min_c=min_temp_c, max_c=max_temp_c, quantum_c=quantum_c,
                                   spike_window=spike_window, restart_gap_s=restart_gap_s,
@@ -145,19 +148,6 @@ class ThermalEstimator(Answer):
         # save() writes into this one buffer, made while the heap is fresh
         self._blob_buf = bl.new_frame(settings)
         self.reset()
-
-    def _take_profile(self, profile):
-        """A profile or its blob; a bad blob or another heater mode is not used (the reason kept)."""
-        from tinytherm.profile import VesselProfile  # (only when used: it costs RAM)
-        t = type(profile)
-        if t is bytes or t is bytearray or t is memoryview:
-            profile, self.profile_reason = VesselProfile.from_blob(profile)
-        elif not isinstance(profile, VesselProfile):
-            raise ValueError("profile must be a VesselProfile, its blob or None")
-        if profile is not None and profile.heater != self.heater:
-            profile = None
-            self.profile_reason = PROFILE_HEATER_MISMATCH
-        self._profile = profile
 
     # ------------------------------------------------------------------ state
     def reset(self):

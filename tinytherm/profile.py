@@ -442,6 +442,23 @@ class VesselProfile:
         return bytes(buf)
 
     @staticmethod
+    def given(profile, heater, mismatch_reason):
+        """``(profile, reason)`` for what a product passed as a profile: a
+        :class:`VesselProfile` or its device blob. A bad blob gives ``(None,
+        REASON_*)`` (:meth:`from_blob`), a profile for the other heater mode than
+        ``heater`` (bool) ``(None, mismatch_reason)``; anything else raises
+        ValueError."""
+        t = type(profile)
+        reason = REASON_OK
+        if t is bytes or t is bytearray or t is memoryview:
+            profile, reason = VesselProfile.from_blob(profile)
+        elif not isinstance(profile, VesselProfile):
+            raise ValueError("profile must be a VesselProfile, its blob or None")
+        if profile is not None and profile.heater != heater:
+            return None, mismatch_reason
+        return profile, reason
+
+    @staticmethod
     def from_blob(blob):
         """``(VesselProfile, REASON_OK)`` from a device blob, or ``(None, REASON_*)``.
 
