@@ -296,7 +296,9 @@ def _work_out(est, target, approach):
     if est._profile_on and est.heater and age_s < PROFILE_LAG_TIMES * est._profile.probe_lag_s:
         return  # the element's and the probe's lag still hide the heat-up's slope
     eta = time_to_target_from_slope_s(gap, slope, k)
-    eta_shape = est._profile_law_s(gap, level, slope, var_slope / (slope * slope))
+    eta_shape = None  # the time under the profile's law (passive liquids)
+    if est._profile_on:
+        eta_shape = est._profile.law_for(est, gap, level, slope, var_slope / (slope * slope))
     open_end = False
     if eta is None and eta_shape is None:
         # beyond the fitted equilibrium E = level + slope / k, by ``over``. E is an

@@ -531,18 +531,11 @@ class ThermalEstimator(Answer):
 
     def forecast_s(self, moved_c, level_c, slope_c_per_s, rate_per_s):
         """Seconds the answer's law takes to move ``moved_c`` from ``level_c`` (the audits)."""
-        t = self._profile_law_s(moved_c, level_c, slope_c_per_s)
-        if t is not None:
-            return t
+        if self._profile_on:
+            t = self._profile.law_for(self, moved_c, level_c, slope_c_per_s)
+            if t is not None:
+                return t
         return time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
-
-    def _profile_law_s(self, gap_c, level_c, slope_c_per_s, slope_rel_var=0.0):
-        """Seconds under the profile's power law (passive liquids), or None; see
-        :meth:`tinytherm.profile.VesselProfile.law_s` for ``slope_rel_var``."""
-        if not self._profile_on or self.heater:
-            return None
-        return self._profile.law_s(gap_c, level_c, slope_c_per_s, self._profile.reference_c(self),
-                                   slope_rel_var)
 
     def _ambient_ahead_c(self):
         """The ambient the answer uses, deg C, as fixed at the latest block close (a

@@ -317,6 +317,13 @@ class VesselProfile:
                 return t
         return t / ratio
 
+    def law_for(self, est, gap_c, level_c, slope_c_per_s, slope_rel_var=0.0):
+        """:meth:`law_s` for ``est``'s liquid (the reference :meth:`reference_c`), or
+        None with a heater (the law is a passive liquid's). Seconds."""
+        if est.heater:
+            return None
+        return self.law_s(gap_c, level_c, slope_c_per_s, self.reference_c(est), slope_rel_var)
+
     def rate_z(self, level_c, slope_c_per_s, ambient_c, slope_rel_var):
         """How far this liquid's rate lies from the profile's, in sds (>= 0), or None.
 
@@ -415,7 +422,7 @@ class VesselProfile:
         gap = target_c - y
         if gap * m <= 0.0 or not -1e4 <= target_c <= 1e4:
             return
-        eta = est._profile_law_s(gap, y, 0.0)
+        eta = self.law_for(est, gap, y, 0.0)
         if eta is None or not eta > 0.0:
             return
         self.interval_into(est, eta)
