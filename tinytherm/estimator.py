@@ -39,11 +39,11 @@ import math
 
 from tinytherm import blob as bl
 from tinytherm import status as st
-from tinytherm import answer, state
-from tinytherm.answer import Answer, Audits, normal_quantile, time_to_target_from_slope_s
+from tinytherm import answer, fit, state
+from tinytherm.answer import Answer, normal_quantile
 from tinytherm.change import ChangeDetector
 from tinytherm.crc import crc32
-from tinytherm.fit import MAX_BLOCK_READINGS, SCALE, BlockSums, Inputs, Noise, Regression
+from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.num import as_float, number
 
@@ -67,8 +67,6 @@ MAX_GAP_S = 900.0         # s: a longer gap is counted as a long gap (the guard'
 PROFILE_HEATER_MISMATCH = 100  # profile_reason: a profile for the other heater mode
 PROFILE_REJECTED = 101    # profile_reason: dropped, this liquid's rate is another vessel's
 _INV = 1.0 / SCALE
-_SCALE_F = float(SCALE)
-_NAN = math.nan
 
 
 class ThermalEstimator(Answer):
@@ -131,11 +129,13 @@ class ThermalEstimator(Answer):
                                   max_gap_s=MAX_GAP_S if MAX_GAP_S < restart_gap_s else restart_gap_s,
                                   probe_codes=probe_codes)
         self.detector = ChangeDetector(jump_z=12.0)
-        self.inputs = Inputs(ambient_c)
-        self.noise = Noise(self.guard.quantum_c)
-        self.blocks = BlockSums()
-        self.reg = Regression(heater)
-        self.audits = Audits()
+        # (the parts through their modules: each name imported here is a slot of this
+        # module's table on the device)
+        self.inputs = fit.Inputs(ambient_c)
+        self.noise = fit.Noise(self.guard.quantum_c)
+        self.blocks = fit.BlockSums()
+        self.reg = fit.Regression(heater)
+        self.audits = answer.Audits()
         # the ambient prior: where the room usually is and its sd, deg C
         self._prior = (float(ambient_prior_c), float(ambient_prior_sd_c))
         self._z = normal_quantile(0.5 + 0.5 * interval)  # the interval's half-width in sd
@@ -210,7 +210,7 @@ class ThermalEstimator(Answer):
             ok = True  # (the everyday call: no checks beyond these comparisons)
         else:
             ok = self._inputs_ok(ambient_c, duty)
-        verdict = self.guard.check(t, _NAN if dt is None else dt, self._slope, ok)
+        verdict = self.guard.check(t, math.nan if dt is None else dt, self._slope, ok)
         return self._after_guard(verdict, t, ambient_c, duty)
 
     def update_ticks(self, temp_c, ticks_ms, ambient_c=None, duty=0.0, slept_s=None):
@@ -239,7 +239,7 @@ class ThermalEstimator(Answer):
         if verdict:
             self.rejected += 1
             return verdict
-        c = math.floor(temp_c * _SCALE_F + 0.5)  # counts of 1/SCALE deg C (fit.to_counts)
+        c = math.floor(temp_c * SCALE + 0.5)  # counts of 1/SCALE deg C (fit.to_counts)
         uc = self.inputs.duty_counts(duty) if self.heater else 0
         b = self.blocks
         try:
@@ -535,7 +535,7 @@ class ThermalEstimator(Answer):
             t = self._profile.law_for(self, moved_c, level_c, slope_c_per_s)
             if t is not None:
                 return t
-        return time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
+        return answer.time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
 
     def _ambient_ahead_c(self):
         """The ambient the answer uses, deg C, as fixed at the latest block close (a
