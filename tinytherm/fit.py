@@ -34,7 +34,6 @@ NOISE_MAX_DT_MS = 120000  # successive differences further apart than this measu
 NOISE_PRIOR_C = 0.05      # deg C: reading noise sd assumed before it is measured
 NOISE_PRIOR_N = 4         # readings that prior is worth
 _INV_SCALE = 1.0 / SCALE
-_MS = 0.001
 
 
 class BlockSums:
