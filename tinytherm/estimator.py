@@ -39,7 +39,7 @@ import math
 
 from tinytherm import blob as bl
 from tinytherm import status as st
-from tinytherm import answer, fit, state
+from tinytherm import answer, fit
 from tinytherm.answer import Answer, normal_quantile
 from tinytherm.change import ChangeDetector
 from tinytherm.crc import crc32
@@ -556,6 +556,9 @@ class ThermalEstimator(Answer):
         counts and ``rejected`` count since the last restore. Layout:
         :mod:`tinytherm.state`.
         """
+        # (the saved-state part at the first save or restore: a product that never
+        # sleeps does not load it; it is installed with the core)
+        from tinytherm import state
         return state.save(self)
 
     def restore(self, blob):
@@ -566,6 +569,7 @@ class ThermalEstimator(Answer):
         raises (but a MemoryError). Then feed the next reading with
         :meth:`update` and the time slept, or :meth:`update_ticks` with ``slept_s``.
         """
+        from tinytherm import state  # (as in save)
         return state.restore(self, blob)
 
     def __repr__(self):
