@@ -57,8 +57,8 @@ _CRC_AT = 50
 FLAG_HEATER = 1
 
 DIFF_REF_C = 10.0                 # K: the difference at which rate_per_s is the rate
-PROFILE_MISMATCH_Z = 4.0          # the estimator drops a profile whose rate this liquid's
-#   fitted rate lies this many sds from (:meth:`VesselProfile.rate_fails`)
+PROFILE_MISMATCH_Z = 4.0          # sds between this liquid's fitted rate and the profile's
+#   beyond which the estimator drops the profile (:meth:`VesselProfile.rate_fails`)
 BIN_EDGES_S = (60.0, 300.0, 1200.0)
 # Where each bin's quantiles apply exactly (s); in between, linear in ln(eta).
 # Geometric middles of the inner bins, and 30 s / 2400 s for the outer ones.

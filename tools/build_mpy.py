@@ -24,10 +24,10 @@ package.json is the core every product needs (the estimator and what it
 imports); ``packages/<part>/package.json`` holds an optional part (profile,
 forecast, planner, sensors) together with the core modules it imports, so each
 installs on its own. Each lists exactly the module-level import closure of
-its entry module (``import_closure``) and of the modules it imports on first
-use but every product may call (``INSTALLED_LAZILY``: the estimator's
-saved-state module, loaded at the first save or restore), so a new module is
-listed as soon as something imports it. ``--write-package-json`` rewrites them all (urls
+its entry module (``import_closure``) and of the modules it imports at a first
+call any product may make (``INSTALLED_LAZILY``: the estimator's saved-state
+module, loaded at the first save or restore), so a new module is listed as
+soon as something imports it. ``--write-package-json`` rewrites them all (urls
 relative to each file, or under ``--url-base``, e.g.
 ``github:OWNER/REPO``, for a host that does not resolve ``..`` in a path);
 ``--check-package-json`` exits 1 when one is out of date.
