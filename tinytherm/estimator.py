@@ -67,6 +67,7 @@ MAX_GAP_S = 900.0         # s: a longer gap is counted as a long gap (the guard'
 PROFILE_HEATER_MISMATCH = 100  # profile_reason: a profile for the other heater mode
 PROFILE_REJECTED = 101    # profile_reason: dropped, this liquid's rate is another vessel's
 _INV = 1.0 / SCALE
+_FINE_INV = _INV / 256    # deg C per count * 2**8 (the air ahead; one multiplication, exact)
 
 
 class ThermalEstimator(Answer):
@@ -543,7 +544,7 @@ class ThermalEstimator(Answer):
         known then. The one reference of the answer's ambient, the equilibrium slack and
         the profile: an answer worked out after a restore, at a later reading of the
         block, must be the one counted down since the block close."""
-        return None if self._ahead is None else self._ahead * (1.0 / 256) * _INV
+        return None if self._ahead is None else self._ahead * _FINE_INV
 
 
     # ------------------------------------------------------------ save/restore
