@@ -5,8 +5,8 @@ they would be for a device with a small heap: compiling sources needs more
 heap than running them, and -O3 leaves the source line numbers out of the
 bytecode (tracebacks show no lines; the core validates with exceptions, never
 with ``assert``, so nothing else changes). Measured with the estimator in
-parts: the smallest heap in 1K steps that runs this test is 77K with the
-library in a short folder path and 78K in a path as long as pytest's tmp path
+parts: the smallest heap in 1K steps that runs this test is 78K, with the
+library in a short folder path and in one as long as pytest's tmp path
 (80K at a3dfd7f, after the air, sparse-reading and profile work of issue 17;
 76K before it: the import closure takes about 50K of bytecode and tables on
 this 64-bit port, and the saved-state module is loaded at the first save;
