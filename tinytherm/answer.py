@@ -119,6 +119,7 @@ class Answer:
         self.eta_s = 0.0
         self.eta_low_s = 0.0
         self.eta_high_s = 0.0
+        self.eta_rel_sd = None  # (as when worked out: a restored run arrives the same)
 
     def count_down(self, age_ms, force=False):
         """Move the cached times on to a fit ``age_ms`` old.
@@ -218,7 +219,7 @@ def _work_out(est, target, approach):
     if (b.readings < (2 if est._seeded else 3) or not reg.ok or target is None
             or not -1e4 <= target <= 1e4):
         est.clear(st.GATHERING)
-        if est.readings and not est._fresh:
+        if est.readings and b.readings:  # (none in this fit: it starts at the next)
             est.temp_est_c = b.c * _INV
             if est._profile_on and est._dir != 0 and target is not None:
                 est._profile.first_answer(est, target, approach)
@@ -234,10 +235,9 @@ def _work_out(est, target, approach):
         e = level + slope / k
         if -1e300 < e < 1e300:  # (a vanishing k levels off nowhere in range)
             est.equilibrium_c = e
-    if est.inputs.known():
-        # the ambient the answer uses, as at the block close (a measured air: its
-        # mean ahead; the answer must not depend on the reading it is asked at)
-        est.ambient_est_c = est._ahead * (1.0 / 256) * _INV
+    ahead = est._ambient_ahead_c()  # the ambient as at the block close, or None
+    if ahead is not None:
+        est.ambient_est_c = ahead
     elif est.equilibrium_c is not None:
         # unknown ambient: where the liquid would level off without heat input
         r = est.equilibrium_c - reg.g * (b.uc / 1024) / k
@@ -253,7 +253,7 @@ def _work_out(est, target, approach):
         d = est._dir
     m = est._dir
     gap = target - level
-    age_s = b.age_ms * 0.001
+    age_s = est._for_age_ms * 0.001  # (the fit's age at the block close, as the answer)
     if m != 0 and d == m and (approach == 0 or m == approach):
         # (an arrival needs the fitted slope to agree with the block means: a spike or
         # a wrong turn of the means is no arrival while the fit says the other way)
@@ -288,7 +288,9 @@ def _work_out(est, target, approach):
     if est._profile_on and est.heater and age_s < PROFILE_LAG_TIMES * est._profile.probe_lag_s:
         return  # the element's and the probe's lag still hide the heat-up's slope
     eta = time_to_target_from_slope_s(gap, slope, k)
-    eta_shape = est._profile_law_s(gap, level, slope, var_slope / (slope * slope))
+    eta_shape = None  # the time under the profile's law (passive liquids)
+    if est._profile_on:
+        eta_shape = est._profile.law_for(est, gap, level, slope, var_slope / (slope * slope))
     open_end = False
     if eta is None and eta_shape is None:
         # beyond the fitted equilibrium E = level + slope / k, by ``over``. E is an
@@ -299,9 +301,9 @@ def _work_out(est, target, approach):
         # reach when even a slow bend cannot reach the target
         to_e = slope / k if k > 0.0 else 0.0  # E - level, the sign of gap
         slack = EQUILIBRIUM_SLACK * (to_e if to_e > 0.0 else -to_e)
-        if est.inputs.known() and not est.heater:
+        if ahead is not None and not est.heater:
             # a passive liquid never passes a known ambient: the slack ends there
-            room = est.ambient_est_c - level - to_e  # R - E (R as at the block close)
+            room = ahead - level - to_e  # R - E (R as at the block close)
             room = room if gap > 0.0 else -room
             if slack > room:
                 slack = room

@@ -28,18 +28,18 @@ the saved state:
 
 A vessel profile (:mod:`tinytherm.profile`, imported only when given) sets the
 priors, the interval and a passive liquid's law; it is dropped when the fitted
-rate lies :data:`PROFILE_MISMATCH_Z` sds from its own (docs/design.md). Fixed
+rate lies :data:`tinytherm.profile.PROFILE_MISMATCH_Z` sds from its own (docs/design.md). Fixed
 state, no per-reading containers; runs unchanged on CPython and MicroPython.
 """
 import math
 
 from tinytherm import blob as bl
 from tinytherm import status as st
-from tinytherm import answer, state
-from tinytherm.answer import Answer, Audits, normal_quantile, time_to_target_from_slope_s
+from tinytherm import answer, fit
+from tinytherm.answer import Answer, normal_quantile
 from tinytherm.change import ChangeDetector
 from tinytherm.crc import crc32
-from tinytherm.fit import MAX_BLOCK_READINGS, SCALE, BlockSums, Inputs, Noise, Regression
+from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.num import as_float, number
 from tinytherm.settle import Settle
@@ -63,10 +63,8 @@ MISMATCH_C = 0.03         # deg C: model-mismatch allowance of a block innovatio
 MAX_GAP_S = 900.0         # s: a longer gap is counted as a long gap (the guard's counts)
 PROFILE_HEATER_MISMATCH = 100  # profile_reason: a profile for the other heater mode
 PROFILE_REJECTED = 101    # profile_reason: dropped, this liquid's rate is another vessel's
-PROFILE_MISMATCH_Z = 4.0    # dropped when this liquid's rate lies this many sds from the profile's
 _INV = 1.0 / SCALE
-_SCALE_F = float(SCALE)
-_NAN = math.nan
+_FINE_INV = _INV / 256    # deg C per count * 2**8 (the air ahead; one multiplication, exact)
 
 
 class ThermalEstimator(Answer):
@@ -119,43 +117,36 @@ class ThermalEstimator(Answer):
         self.profile_reason = 0
         self._profile = None
         if profile is not None:
-            self._take_profile(profile)
+            # a bad blob or another heater mode is not used (the reason kept)
+            from tinytherm.profile import VesselProfile  # (only when used: it costs RAM)
+            self._profile, self.profile_reason = VesselProfile.given(
+                profile, heater, PROFILE_HEATER_MISMATCH)
         # the guard checks its own settings (ValueError naming them)
         self.guard = ReadingGuard(min_c=min_temp_c, max_c=max_temp_c, quantum_c=quantum_c,
                                   spike_window=spike_window, restart_gap_s=restart_gap_s,
                                   max_gap_s=MAX_GAP_S if MAX_GAP_S < restart_gap_s else restart_gap_s,
                                   probe_codes=probe_codes)
         self.detector = ChangeDetector(jump_z=12.0)
-        self.inputs = Inputs(ambient_c)
-        self.noise = Noise(self.guard.quantum_c)
-        self.blocks = BlockSums()
-        self.reg = Regression(heater)
-        self.audits = Audits()
+        # (the parts through their modules: each name imported here is a slot of this
+        # module's table on the device)
+        self.inputs = fit.Inputs(ambient_c)
+        self.noise = fit.Noise(self.guard.quantum_c)
+        self.blocks = fit.BlockSums()
+        self.reg = fit.Regression(heater)
+        self.audits = answer.Audits()
+        # the ambient prior: where the room usually is and its sd, deg C
+        self._prior = (float(ambient_prior_c), float(ambient_prior_sd_c))
         self.settle = Settle()  # whether the probe has met the liquid (no direction given)
-        self._prior_r = float(ambient_prior_c)
-        self._prior_sd = float(ambient_prior_sd_c)
         self._z = normal_quantile(0.5 + 0.5 * interval)  # the interval's half-width in sd
-        # every setting that changes the state's meaning, for restore's check
-        self._settings = crc32(("%r %r %r %r %r %r %r %r %r %r" % (
-            ambient_c, self._prior_r, self._prior_sd, heater, float(interval), self.guard.quantum_c,
-            self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
+        # every setting that changes the state's meaning, for restore's check (the
+        # frame's header keeps it: state.restore reads it there)
+        settings = crc32(("%r %r %r %r %r %r %r %r %r %r" % (
+            ambient_c, self._prior[0], self._prior[1], heater, float(interval),
+            self.guard.quantum_c, self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
             self._profile is not None)).encode())
         # save() writes into this one buffer, made while the heap is fresh
-        self._blob_buf = bl.new_frame(self._settings)
+        self._blob_buf = bl.new_frame(settings)
         self.reset()
-
-    def _take_profile(self, profile):
-        """A profile or its blob; a bad blob or another heater mode is not used (the reason kept)."""
-        from tinytherm.profile import VesselProfile  # (only when used: it costs RAM)
-        t = type(profile)
-        if t is bytes or t is bytearray or t is memoryview:
-            profile, self.profile_reason = VesselProfile.from_blob(profile)
-        elif not isinstance(profile, VesselProfile):
-            raise ValueError("profile must be a VesselProfile, its blob or None")
-        if profile is not None and profile.heater != self.heater:
-            profile = None
-            self.profile_reason = PROFILE_HEATER_MISMATCH
-        self._profile = profile
 
     # ------------------------------------------------------------------ state
     def reset(self):
@@ -175,22 +166,21 @@ class ThermalEstimator(Answer):
 
     def _restart_fit(self):
         """Zero the fit: the next accepted reading starts a new approach."""
-        self._fresh = True
         self.blocks.reset()
         self.reg.reset()
         self.audits.clear()
         self.detector.reset()
         self._dir = 0               # direction of the block means (+1, -1, 0)
         self._ext = 0.0             # first block mean while _dir == 0, then the extreme, deg C
-        self._ext_n = self._block_n = 1  # readings in that block / the latest closed one
-        self._ext_sy = self._block_sy = 0  # their sums of readings, counts (exact)
+        self._ext_n = 1             # readings in the block of that extreme (its noise)
+        self._ext_sy = 0            # and their sum, counts (exact)
         self._anchor = 0.0          # smoothed residual of the latest blocks, deg C
         self._level = self._slope = 0.0  # fitted level and slope at the latest block close
         self._blocks_done = 0               # blocks finished: the answer's cache key
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
-        self._known = False         # an ambient was known at the latest block close
         self._seeded = False        # the fit began with two readings at a turn (_begin_again)
-        self._ahead = 0             # the air ahead at the latest block close, counts * 2**8
+        self._ahead = None          # the ambient ahead at the latest block close, counts * 2**8
+        #   (a measured air's mean ahead, else the fixed ambient; None: none was known then)
         self.forget()
         self.clear(st.GATHERING)
 
@@ -219,7 +209,7 @@ class ThermalEstimator(Answer):
             ok = True  # (the everyday call: no checks beyond these comparisons)
         else:
             ok = self._inputs_ok(ambient_c, duty)
-        verdict = self.guard.check(t, _NAN if dt is None else dt, self._slope, ok)
+        verdict = self.guard.check(t, math.nan if dt is None else dt, self._slope, ok)
         return self._after_guard(verdict, t, ambient_c, duty)
 
     def update_ticks(self, temp_c, ticks_ms, ambient_c=None, duty=0.0, slept_s=None):
@@ -248,12 +238,12 @@ class ThermalEstimator(Answer):
         if verdict:
             self.rejected += 1
             return verdict
-        c = math.floor(temp_c * _SCALE_F + 0.5)  # counts of 1/SCALE deg C (fit.to_counts)
+        c = math.floor(temp_c * SCALE + 0.5)  # counts of 1/SCALE deg C (fit.to_counts)
         uc = self.inputs.duty_counts(duty) if self.heater else 0
         b = self.blocks
         try:
-            if self._fresh or self.guard.gap == GAP_RESTART:
-                dt_ms = 0 if self._fresh else self.guard.elapsed_ms  # (the air's cycle goes on)
+            if not b.readings or self.guard.gap == GAP_RESTART:  # (none: a new fit)
+                dt_ms = self.guard.elapsed_ms if b.readings else 0  # (the air's cycle goes on)
                 self._restart_fit()
                 self._first(c, self.inputs.reference(ambient_c, dt_ms, True), uc)
             else:
@@ -283,7 +273,6 @@ class ThermalEstimator(Answer):
 
     def _first(self, c, rc, uc):
         """The fit's first reading: the first block, closed at once."""
-        self._fresh = False
         self._ext = c * _INV
         self._ext_n = 1
         self._ext_sy = c
@@ -342,15 +331,12 @@ class ThermalEstimator(Answer):
                       reg.x + b.ix / (2000 * SCALE),
                       reg.v + b.iv / (1000 * 1024) if heater else 0.0,
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
-        self._block_sy = b.sy
         b.next_block()
-        self._block_n = n
         if self.settle.block_closed(b.age_ms, b.cb, reg.k if reg.ok and not heater else 0.0):
             self._begin_again(False)  # the probe was travelling to the liquid: the liquid's
             self.settle.seeded()      # own approach starts here (tinytherm.settle)
             return
-        self._known = self.inputs.known()
-        self._ahead = self.inputs.ahead_fine()
+        self._ahead = self.inputs.ahead_fine() if self.inputs.known() else None
         self._pending = 1
 
     def _next_step(self):
@@ -374,9 +360,7 @@ class ThermalEstimator(Answer):
             if self.heater:
                 res -= reg.g * reg.rv
             self._anchor += ANCHOR_GAIN * (res - self._anchor)
-            self._level = reg.level() + self._anchor
-            # slope at the level (the reference gap and duty are the closing reading's)
-            self._slope = reg.s - reg.k * (self._level - b.cb * _INV)
+            self._level_and_slope()
             if b.readings >= DETECT_MIN_BLOCKS:
                 self._disturbed = False  # established again after a jump
                 if self.audits.any_due((b.age_ms - b.it) * 0.001):
@@ -389,6 +373,14 @@ class ThermalEstimator(Answer):
         if self._turned(yb):
             self.turns += 1
             self._begin_again(False, b.readings == 3)
+
+    def _level_and_slope(self):
+        """The anchored level and the slope at it from the solution (at the latest block
+        close; also after a restore or a re-solve, so that those give the same)."""
+        reg = self.reg
+        self._level = reg.level() + self._anchor
+        # slope at the level (the reference gap and duty are the closing reading's)
+        self._slope = reg.s - reg.k * (self._level - self.blocks.cb * _INV)
 
     def _begin_again(self, disturbed, from_previous=False):
         """Restart the fit from the latest reading (a jump or a turn); ``from_previous``:
@@ -412,7 +404,7 @@ class ThermalEstimator(Answer):
         else:
             self._first(c, rc, uc)
         if (not disturbed and self._profile_on and not self.heater and turned_to != 0
-                and self._toward_profile_e(turned_to)):
+                and self._profile.toward_e(self, turned_to)):
             self._dir = turned_to  # the passive profile's direction: known from the turn on
 
     def _turned(self, yb):
@@ -424,7 +416,7 @@ class ThermalEstimator(Answer):
         cut = 4.0 * self.noise.sd
         if cut < TURN_C and not (self.blocks.readings == 3 and self._dir != 0) and not (
                 self._profile_on and not self.heater and self._dir != 0
-                and self._toward_profile_e(-self._dir)):
+                and self._profile.toward_e(self, -self._dir)):
             # at least TURN_C, but for the retreat right after the jump that set the
             # direction (a reading taken before a pour, then the drink cooling), and for
             # a passive profile's liquid, which only moves towards its E (a retreat that
@@ -433,13 +425,13 @@ class ThermalEstimator(Answer):
         if self._dir == 0:
             if yb - self._ext > cut:
                 self._dir = 1
-                self._ext, self._ext_n, self._ext_sy = yb, self._block_n, self._block_sy
+                self._ext, self._ext_n, self._ext_sy = yb, self.blocks.np, self.blocks.sp
             elif self._ext - yb > cut:
                 self._dir = -1
-                self._ext, self._ext_n, self._ext_sy = yb, self._block_n, self._block_sy
+                self._ext, self._ext_n, self._ext_sy = yb, self.blocks.np, self.blocks.sp
             return False
         if (yb > self._ext) if self._dir > 0 else (yb < self._ext):
-            self._ext, self._ext_n, self._ext_sy = yb, self._block_n, self._block_sy
+            self._ext, self._ext_n, self._ext_sy = yb, self.blocks.np, self.blocks.sp
             return False
         if (self._ext - yb) * self._dir <= cut:
             return False
@@ -448,19 +440,14 @@ class ThermalEstimator(Answer):
             # once the fitted slope (duty included) agrees; before, it is a spike or noise
             if self._slope * self._dir < 0.0:
                 self._dir = -self._dir
-                self._ext, self._ext_n, self._ext_sy = yb, self._block_n, self._block_sy
+                self._ext, self._ext_n, self._ext_sy = yb, self.blocks.np, self.blocks.sp
             return False
         return True
-
-    def _toward_profile_e(self, direction):
-        """True when moving in ``direction`` (+1 / -1) goes towards the passive profile's
-        equilibrium (the reference, known or the prior, plus its offset)."""
-        return (self._profile_r() + self._profile.eq_offset_c - self._ext) * direction > 0.0
 
     def _solve(self):
         """Priors for this block, then the regression's solve (see the module docstring).
 
-        The hint follows ``_known``: whether an ambient was known at the block
+        The hint follows ``_ahead``: whether an ambient was known at the block
         close (saved with the state; a measured one may arrive after it).
         """
         reg = self.reg
@@ -470,12 +457,12 @@ class ThermalEstimator(Answer):
         s2 = self.noise.var
         prof = self._profile if self._profile_on else None
         # the equilibrium hint E ~ N(e, sd^2) as a distance from the latest gap G0
-        if self._known:
+        if self._ahead is not None:
             dist = -self.blocks.g0 * _INV
             sd = KNOWN_AMBIENT_SD_C
         else:
-            dist = self._prior_r - self.blocks.g0 * _INV
-            sd = self._prior_sd
+            r, sd = self._prior
+            dist = r - self.blocks.g0 * _INV
         if prof is None:
             kp = gp = 0.0
             lk = s2 / (RATE_PRIOR_PER_S * RATE_PRIOR_PER_S)
@@ -510,27 +497,19 @@ class ThermalEstimator(Answer):
     def _audit(self):
         age = (self.blocks.age_ms - self.blocks.it) * 0.001  # at the block close
         need = 4.0 * math.sqrt(self.reg.var_level()) + 0.5 * self.guard.quantum_c
-        if self._profile_on and not self.heater and self._slope != 0.0:
-            # this liquid's rate against the profile's spread of rates (the fit is
-            # established here: the audits run from DETECT_MIN_BLOCKS blocks on). The
-            # audits' errors judge no profile: a probe catching up after a pour, or a
-            # heater's start-up, fails any law's short forecasts for a while.
-            reg = self.reg
-            gk = self.blocks.cb * _INV - self._level  # d slope / d k at the level
-            var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
-            z = self._profile.rate_z(self._level, self._slope, self._profile_r(),
-                                     var_slope / (self._slope * self._slope))
-            if z is not None and z > PROFILE_MISMATCH_Z:
-                self._reject_profile()
-                return
+        slope = self._slope_ahead()
+        if (self._profile_on and not self.heater and slope != 0.0
+                and self._profile.rate_fails(self, slope)):
+            # another vessel's profile (the fit is established here: the audits run
+            # from DETECT_MIN_BLOCKS readings on): dropped, solved again without it
+            self._profile_on = False
+            self.profile_reason = PROFILE_REJECTED
+            self._solve()
+            if self.reg.ok:
+                self._level_and_slope()  # (as a restore derives them from the new solution)
+            return
         for a in self.audits.a:
-            a.check(self, age, self._level, self._slope_ahead(), self.reg.k, need)
-
-    def _reject_profile(self):
-        """Its rate fails on this liquid (another vessel's profile)."""
-        self._profile_on = False
-        self.profile_reason = PROFILE_REJECTED
-        self._solve()
+            a.check(self, age, self._level, slope, self.reg.k, need)
 
     def _slope_ahead(self):
         """Slope at the fitted level under the air the future will see, deg C/s.
@@ -543,7 +522,7 @@ class ThermalEstimator(Answer):
 
         Without a measured air it is the slope now.
         """
-        if not self.inputs.measured:
+        if not self.inputs.measured or self._ahead is None:
             return self._slope
         b = self.blocks
         # the reference at the block close: G0 = cb - rc
@@ -554,23 +533,20 @@ class ThermalEstimator(Answer):
 
     def forecast_s(self, moved_c, level_c, slope_c_per_s, rate_per_s):
         """Seconds the answer's law takes to move ``moved_c`` from ``level_c`` (the audits)."""
-        t = self._profile_law_s(moved_c, level_c, slope_c_per_s)
-        if t is not None:
-            return t
-        return time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
+        if self._profile_on:
+            t = self._profile.law_for(self, moved_c, level_c, slope_c_per_s)
+            if t is not None:
+                return t
+        return answer.time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
 
-    def _profile_law_s(self, gap_c, level_c, slope_c_per_s, slope_rel_var=0.0):
-        """Seconds under the profile's power law (passive liquids), or None; see
-        :meth:`tinytherm.profile.VesselProfile.law_s` for ``slope_rel_var``."""
-        if not self._profile_on or self.heater:
-            return None
-        return self._profile.law_s(gap_c, level_c, slope_c_per_s, self._profile_r(),
-                                   slope_rel_var)
+    def _ambient_ahead_c(self):
+        """The ambient the answer uses, deg C, as fixed at the latest block close (a
+        measured air: its mean ahead, as in :meth:`_slope_ahead`), or None when none was
+        known then. The one reference of the answer's ambient, the equilibrium slack and
+        the profile: an answer worked out after a restore, at a later reading of the
+        block, must be the one counted down since the block close."""
+        return None if self._ahead is None else self._ahead * _FINE_INV
 
-    def _profile_r(self):
-        """The reference the profile's equilibrium is offset from, deg C (the known or
-        measured ambient, else the ambient prior)."""
-        return self.blocks.rc * _INV if self.inputs.known() else self._prior_r
 
     # ------------------------------------------------------------ save/restore
     def save(self):
@@ -582,6 +558,9 @@ class ThermalEstimator(Answer):
         counts and ``rejected`` count since the last restore. Layout:
         :mod:`tinytherm.state`.
         """
+        # (the saved-state part at the first save or restore: a product that never
+        # sleeps does not load it; it is installed with the core)
+        from tinytherm import state
         return state.save(self)
 
     def restore(self, blob):
@@ -592,6 +571,7 @@ class ThermalEstimator(Answer):
         raises (but a MemoryError). Then feed the next reading with
         :meth:`update` and the time slept, or :meth:`update_ticks` with ``slept_s``.
         """
+        from tinytherm import state  # (as in save)
         return state.restore(self, blob)
 
     def __repr__(self):

@@ -24,7 +24,6 @@ MISMATCH_C: float
 MAX_GAP_S: float
 PROFILE_HEATER_MISMATCH: int
 PROFILE_REJECTED: int
-PROFILE_MISMATCH_Z: float
 
 
 class ThermalEstimator(Answer):

@@ -34,7 +34,6 @@ NOISE_MAX_DT_MS = 120000  # successive differences further apart than this measu
 NOISE_PRIOR_C = 0.05      # deg C: reading noise sd assumed before it is measured
 NOISE_PRIOR_N = 4         # readings that prior is worth
 _INV_SCALE = 1.0 / SCALE
-_MS = 0.001
 
 
 class BlockSums:
@@ -68,6 +67,8 @@ class BlockSums:
         # (not saved: used only by the block close's second half, which save() finishes)
         self.cp = 0         # the reading that closed the block before the latest, counts
         self.ip = 0         # the latest block's duration: ms from cp to cb
+        self.np = 1         # readings in the latest block
+        self.sp = 0         # and their sum, counts (not saved: used by the block's second half)
         self.age_ms = 0     # time since the fit's first reading, ms
         self.readings = 0   # readings in this fit (counted to 255)
         # noise: successive differences less the fitted slope, clipped
@@ -134,6 +135,8 @@ class BlockSums:
         """Zero the block sums; the latest reading becomes the new reference (exact)."""
         self.cp = self.cb
         self.ip = self.it
+        self.np = self.n
+        self.sp = self.sy
         self.n = 0
         self.it = self.ix = self.iv = 0
         self.st = self.sx = self.sv = self.sy = 0

@@ -57,6 +57,8 @@ _CRC_AT = 50
 FLAG_HEATER = 1
 
 DIFF_REF_C = 10.0                 # K: the difference at which rate_per_s is the rate
+PROFILE_MISMATCH_Z = 4.0          # sds between this liquid's fitted rate and the profile's
+#   beyond which the estimator drops the profile (:meth:`VesselProfile.rate_fails`)
 BIN_EDGES_S = (60.0, 300.0, 1200.0)
 # Where each bin's quantiles apply exactly (s); in between, linear in ln(eta).
 # Geometric middles of the inner bins, and 30 s / 2400 s for the outer ones.
@@ -315,6 +317,13 @@ class VesselProfile:
                 return t
         return t / ratio
 
+    def law_for(self, est, gap_c, level_c, slope_c_per_s, slope_rel_var=0.0):
+        """:meth:`law_s` for ``est``'s liquid (the reference :meth:`reference_c`), or
+        None with a heater (the law is a passive liquid's). Seconds."""
+        if est.heater:
+            return None
+        return self.law_s(gap_c, level_c, slope_c_per_s, self.reference_c(est), slope_rel_var)
+
     def rate_z(self, level_c, slope_c_per_s, ambient_c, slope_rel_var):
         """How far this liquid's rate lies from the profile's, in sds (>= 0), or None.
 
@@ -333,6 +342,32 @@ class VesselProfile:
                 sd * sd + slope_rel_var)
         except (ValueError, OverflowError, ZeroDivisionError):
             return None
+
+    def reference_c(self, est):
+        """The reference ``est``'s equilibrium under this profile is offset from, deg C
+        (the ambient at the block close, ``est._ambient_ahead_c()``, else the ambient prior)."""
+        r = est._ambient_ahead_c()
+        return est._prior[0] if r is None else r
+
+    def toward_e(self, est, direction):
+        """True when moving in ``direction`` (+1 / -1) goes towards this (passive)
+        profile's equilibrium for ``est`` (its reference plus the offset) from the
+        extreme of its block means."""
+        return (self.reference_c(est) + self.eq_offset_c - est._ext) * direction > 0.0
+
+    def rate_fails(self, est, slope_c_per_s):
+        """True when ``est``'s liquid is another vessel's: its fitted rate lies more
+        than :data:`PROFILE_MISMATCH_Z` sds from this profile's (:meth:`rate_z` with the
+        fitted slope's own variance at the level). ``slope_c_per_s``: the fitted slope
+        at the level, deg C/s, not 0, paired with :meth:`reference_c` (both as ahead, as
+        the answer's). The audits' errors judge no profile: a probe catching up after a
+        pour, or a heater's start-up, fails any law's short forecasts for a while."""
+        reg = est.reg
+        gk = est.blocks.cb * _INV - est._level  # d slope / d k at the level
+        var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
+        z = self.rate_z(est._level, slope_c_per_s, self.reference_c(est),
+                        var_slope / (slope_c_per_s * slope_c_per_s))
+        return z is not None and z > PROFILE_MISMATCH_Z
 
     def log_sd(self, eta_s):
         """The sd of ln(actual / predicted) its table gives at ``eta_s`` seconds (>= 0.05)."""
@@ -387,7 +422,7 @@ class VesselProfile:
         gap = target_c - y
         if gap * m <= 0.0 or not -1e4 <= target_c <= 1e4:
             return
-        eta = est._profile_law_s(gap, y, 0.0)
+        eta = self.law_for(est, gap, y, 0.0)
         if eta is None or not eta > 0.0:
             return
         self.interval_into(est, eta)
@@ -412,6 +447,23 @@ class VesselProfile:
                          _milli(r[0]), _milli(r[1]), _milli(r[2]), _milli(r[3]))
         struct.pack_into("<I", buf, _CRC_AT, crc32(buf, 0, 0, _CRC_AT))
         return bytes(buf)
+
+    @staticmethod
+    def given(profile, heater, mismatch_reason):
+        """``(profile, reason)`` for what a product passed as a profile: a
+        :class:`VesselProfile` or its device blob. A bad blob gives ``(None,
+        REASON_*)`` (:meth:`from_blob`), a profile for the other heater mode than
+        ``heater`` (bool) ``(None, mismatch_reason)``; anything else raises
+        ValueError."""
+        t = type(profile)
+        reason = REASON_OK
+        if t is bytes or t is bytearray or t is memoryview:
+            profile, reason = VesselProfile.from_blob(profile)
+        elif not isinstance(profile, VesselProfile):
+            raise ValueError("profile must be a VesselProfile, its blob or None")
+        if profile is not None and profile.heater != heater:
+            return None, mismatch_reason
+        return profile, reason
 
     @staticmethod
     def from_blob(blob):

@@ -46,12 +46,12 @@ def save(est):
         est._next_step()  # (as the next readings would: the blob holds no half-done block)
     buf = est._blob_buf
     o = bl.PAYLOAD_OFFSET
-    flags = ((1 if est._fresh else 0) | (2 if est._disturbed else 0)
+    flags = ((0 if est.blocks.readings else 1) | (2 if est._disturbed else 0)
              | (4 if est._profile_on else 0) | ((est._dir + 1) << 3)
-             | (32 if est._known else 0) | (64 if est._seeded else 0))
+             | (0 if est._ahead is None else 32) | (64 if est._seeded else 0))
     struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
                      est.turns & 0xFFFF, flags, est.profile_reason, est._anchor,
-                     est._ext_sy, est._ext_n, est._ahead)
+                     est._ext_sy, est._ext_n, est._ahead or 0)
     o += HEAD_SIZE
     for part in parts(est):
         part.pack_into(buf, o)
@@ -71,7 +71,8 @@ def restore(est, blob):
     slept, or :meth:`update_ticks` with ``slept_s``.
     """
     try:
-        code = bl.check(blob, est._settings)
+        # (the settings key, as the estimator's own frame holds it)
+        code = bl.check(blob, struct.unpack_from("<I", est._blob_buf, 4)[0])
         if code == bl.RESTORED:
             code = _unpack(est, blob)
     except MemoryError:
@@ -102,13 +103,14 @@ def _unpack(est, blob):
             return bl.BLOB_VALUES
         o += part.STATE_SIZE
     b = est.blocks
-    if not (b.readings <= readings and est.guard.min_c <= b.c * _INV <= est.guard.max_c):
+    # (fresh: no reading in the fit yet, the next starts one)
+    if not (b.readings <= readings and bool(flags & 1) == (b.readings == 0)
+            and est.guard.min_c <= b.c * _INV <= est.guard.max_c):
         return bl.BLOB_VALUES
     est.readings = readings
     est.changes = changes
     est.turns = turns
     est.profile_reason = reason
-    est._fresh = bool(flags & 1)
     est._disturbed = bool(flags & 2)
     est._profile_on = bool(flags & 4)
     est._dir = direction
@@ -116,16 +118,14 @@ def _unpack(est, blob):
     est._ext = ext_sy / (ext_n * SCALE)  # (as the block's mean was worked out: exact)
     est._ext_sy = ext_sy
     est._ext_n = ext_n
-    est._ahead = ahead
-    est._known = bool(flags & 32)
+    est._ahead = ahead if flags & 32 else None
     est._seeded = bool(flags & 64)
     est._blocks_done = 1
     # the solution and what follows from it are derived: as at the last block close
     est._solve()
     reg = est.reg
     if reg.ok:
-        est._level = reg.level() + anchor
-        est._slope = reg.s - reg.k * (est._level - b.cb * _INV)
+        est._level_and_slope()
     elif reg.nb >= 1.5:
         return bl.BLOB_VALUES
     return bl.RESTORED

@@ -24,8 +24,10 @@ package.json is the core every product needs (the estimator and what it
 imports); ``packages/<part>/package.json`` holds an optional part (profile,
 forecast, planner, sensors) together with the core modules it imports, so each
 installs on its own. Each lists exactly the module-level import closure of
-its entry module (``import_closure``), so a new module is listed as soon as
-something imports it. ``--write-package-json`` rewrites them all (urls
+its entry module (``import_closure``) and of the modules it imports at a first
+call any product may make (``INSTALLED_LAZILY``: the estimator's saved-state
+module, loaded at the first save or restore), so a new module is listed as
+soon as something imports it. ``--write-package-json`` rewrites them all (urls
 relative to each file, or under ``--url-base``, e.g.
 ``github:OWNER/REPO``, for a host that does not resolve ``..`` in a path);
 ``--check-package-json`` exits 1 when one is out of date.
@@ -51,6 +53,12 @@ PARTS = (
     ("planner", "packages/planner/package.json", "planner"),
     ("sensors", "packages/sensors/package.json", "sensors"),
 )
+
+
+# Modules a part installs beyond what its entry loads at import: imported inside
+# a function at the first call, which any product may make (a product that never
+# sleeps does not load the saved-state module, one that sleeps needs it installed).
+INSTALLED_LAZILY = {"estimator": ("state",)}
 
 
 def find_mpy_cross():
@@ -88,7 +96,7 @@ def package_json_data(path, entry, url_base=None):
     folder = os.path.dirname(os.path.join(ROOT, path))
     rel = os.path.relpath(PKG, folder).replace(os.sep, "/")
     urls = []
-    for mod in import_closure(entry):
+    for mod in install_closure(entry):
         dest = "tinytherm/%s.py" % mod
         src = url_base.rstrip("/") + "/" + dest if url_base else rel + "/" + mod + ".py"
         urls.append([dest, src])
@@ -103,7 +111,7 @@ def part_owners():
     forecast's modules, which the forecast owns). A module that no part's
     import closure reaches is owned by none.
     """
-    closures = {name: set(import_closure(entry)) for name, _, entry in PARTS}
+    closures = {name: set(install_closure(entry)) for name, _, entry in PARTS}
     core = closures["core"]
     owners = {f[:-3]: [] for f in core_sources()}
     for name, _, entry in PARTS:
@@ -182,6 +190,15 @@ def import_closure(name, root=ROOT):
         seen.add(mod)
         todo.extend(module_imports(mod, root) - seen)
     return sorted(seen)
+
+
+def install_closure(name, root=ROOT):
+    """Sorted module names a part with entry ``name`` installs: the import closure of
+    ``name`` and of the modules it imports lazily (:data:`INSTALLED_LAZILY`)."""
+    mods = set(import_closure(name, root))
+    for lazy in INSTALLED_LAZILY.get(name, ()):
+        mods.update(import_closure(lazy, root))
+    return sorted(mods)
 
 
 def heap_after_import(lib_dir, module, micropython=None):

@@ -128,3 +128,34 @@ def test_a_huge_int_reading_gets_the_same_verdict_on_both_runtimes():
     assert est.update(10 ** 400, 1.0) == st.BAD_INPUT
     assert est.update(-10 ** 400, 1.0) == st.BAD_INPUT
     assert est.update(60.0, 1.0) == st.ACCEPTED
+
+
+def test_a_device_asleep_between_readings_shows_the_same_interval():
+    # was: the answer's interval took the fit's age at the reading it was worked
+    # out at, not at the block close it is for; an uninterrupted run works it out
+    # at the close and counts it down, a woken device (restored before every
+    # reading) at a later reading of the block: another interval. And an arrival
+    # kept the sd of the answer before it (worked out afresh: none).
+    fields = ("status", "eta_s", "eta_low_s", "eta_high_s", "eta_rel_sd", "rate_per_s",
+              "equilibrium_c", "ambient_est_c", "temp_est_c")
+    steady = ThermalEstimator(ambient_c=21.0)
+    rng = XorShift(8)
+    saved = None
+    t = 0.0
+    compared = arrived = 0
+    while t <= 2400.0:
+        y = math.floor((21.0 + 59.0 * math.exp(-t / 900.0) + rng.gauss(0.03)) * 16.0 + 0.5) / 16.0
+        woken = ThermalEstimator(ambient_c=21.0)
+        if saved is not None:
+            assert woken.restore(saved) == bl.RESTORED
+        for est in (steady, woken):
+            est.update(y, 0.0 if t == 0.0 else 5.0)
+            est.predict(40.0)
+        for name in fields:
+            assert getattr(steady, name) == getattr(woken, name), (t, name)
+        if steady.status == st.TRACKING and steady.blocks.it > 0:
+            compared += 1
+        arrived += steady.status == st.ARRIVED
+        saved = bytes(woken.save())
+        t += 5.0
+    assert compared > 100 and arrived > 10, (compared, arrived)
