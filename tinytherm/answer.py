@@ -216,7 +216,7 @@ def _work_out(est, target, approach):
     est._arrive_dir = 0
     # three readings, or two that began the fit at a turn (the first reading of the
     # approach was taken before it: the probe in the air before a pour)
-    if (b.readings < (2 if est._seeded else 3) or not reg.ok or target is None
+    if (b.readings < (2 if est.settle.turn else 3) or not reg.ok or target is None
             or not -1e4 <= target <= 1e4):
         est.clear(st.GATHERING)
         if est.readings and b.readings:  # (none in this fit: it starts at the next)
@@ -266,7 +266,8 @@ def _work_out(est, target, approach):
         # a reading back beyond the extreme by 4 noise sd (at least ARRIVE_TOL_C) ends an
         # arrival before the fit sees a turn: the lagging probe rising after a top-up
         hold = 4.0 * est.noise.sd
-        est._hold_c = to_counts(est._ext - m * (hold if hold > ARRIVE_TOL_C else ARRIVE_TOL_C))
+        hold = hold if hold > ARRIVE_TOL_C else ARRIVE_TOL_C
+        est._hold_c = to_counts(est._extreme_c() - m * hold)
         if (b.c - est._arrive_c) * m >= 0 and _arrived(est, target, m, approach, b.age_ms):
             if (b.cq - est._arrive_c) * m >= 0:
                 est.arrive()
@@ -367,7 +368,7 @@ def _arrived(est, target, m, approach, age_ms):
         tol = ARRIVE_TOL_C
     if (target - level) * m > tol:
         return False  # the level is back short: a retreat, no arrival
-    if (est._ext - target) * m >= ARRIVE_Z * sd / math.sqrt(est._ext_n):
+    if (est._extreme_c() - target) * m >= ARRIVE_Z * sd / math.sqrt(est._ext_n):
         return True
     var = reg.var_level()
     return (level - target) * m >= ARRIVE_Z * math.sqrt(var if var > 0.0 else 0.0)

@@ -171,14 +171,12 @@ class ThermalEstimator(Answer):
         self.audits.clear()
         self.detector.reset()
         self._dir = 0               # direction of the block means (+1, -1, 0)
-        self._ext = 0.0             # first block mean while _dir == 0, then the extreme, deg C
-        self._ext_n = 1             # readings in the block of that extreme (its noise)
-        self._ext_sy = 0            # and their sum, counts (exact)
+        self._ext_sy = 0            # first block mean while _dir == 0, then the extreme: its
+        self._ext_n = 1             # block's sum (counts) and readings (its noise): _extreme_c
         self._anchor = 0.0          # smoothed residual of the latest blocks, deg C
         self._level = self._slope = 0.0  # fitted level and slope at the latest block close
         self._blocks_done = 0               # blocks finished: the answer's cache key
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
-        self._seeded = False        # the fit began with two readings at a turn (_begin_again)
         self._ahead = None          # the ambient ahead at the latest block close, counts * 2**8
         #   (a measured air's mean ahead, else the fixed ambient; None: none was known then)
         self.forget()
@@ -273,9 +271,8 @@ class ThermalEstimator(Answer):
 
     def _first(self, c, rc, uc):
         """The fit's first reading: the first block, closed at once."""
-        self._ext = c * _INV
-        self._ext_n = 1
         self._ext_sy = c
+        self._ext_n = 1
         self.settle.first(c)
         self.blocks.first(c, rc, uc)
         self._close_block()
@@ -334,7 +331,7 @@ class ThermalEstimator(Answer):
         b.next_block()
         if self.settle.block_closed(b.age_ms, b.cb, reg.k if reg.ok and not heater else 0.0):
             self._begin_again(False)  # the probe was travelling to the liquid: the liquid's
-            self.settle.seeded()      # own approach starts here (tinytherm.settle)
+            self.settle.seeded(False)  # own approach starts here (tinytherm.settle)
             return
         self._ahead = self.inputs.ahead_fine() if self.inputs.known() else None
         self._pending = 1
@@ -396,9 +393,8 @@ class ThermalEstimator(Answer):
             self._disturbed = True
         if from_previous and ip > 0:
             # (no heater: a turn with one restarts nothing; the reference over ip taken as now)
-            self._seeded = True
             self._first(cp, rc, uc)
-            self.settle.seeded()  # (a turn: the probe has met the liquid)
+            self.settle.seeded(True)  # (a turn: the probe has met the liquid)
             b.add(c, rc, uc, ip, 0, self.noise.clip)
             self._close_block()
         else:
@@ -422,27 +418,32 @@ class ThermalEstimator(Answer):
             # a passive profile's liquid, which only moves towards its E (a retreat that
             # way is the probe caught up, seen at 4 noise sd)
             cut = TURN_C
+        ext = self._extreme_c()
         if self._dir == 0:
-            if yb - self._ext > cut:
+            if yb - ext > cut:
                 self._dir = 1
-                self._ext, self._ext_n, self._ext_sy = yb, self.blocks.np, self.blocks.sp
-            elif self._ext - yb > cut:
+                self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
+            elif ext - yb > cut:
                 self._dir = -1
-                self._ext, self._ext_n, self._ext_sy = yb, self.blocks.np, self.blocks.sp
+                self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
             return False
-        if (yb > self._ext) if self._dir > 0 else (yb < self._ext):
-            self._ext, self._ext_n, self._ext_sy = yb, self.blocks.np, self.blocks.sp
+        if (yb > ext) if self._dir > 0 else (yb < ext):
+            self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
             return False
-        if (self._ext - yb) * self._dir <= cut:
+        if (ext - yb) * self._dir <= cut:
             return False
         if self.heater:
             # the heater turned it: a new direction, the same fit (it explains the turn),
             # once the fitted slope (duty included) agrees; before, it is a spike or noise
             if self._slope * self._dir < 0.0:
                 self._dir = -self._dir
-                self._ext, self._ext_n, self._ext_sy = yb, self.blocks.np, self.blocks.sp
+                self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
             return False
         return True
+
+    def _extreme_c(self):
+        """The extreme block mean, deg C (worked out as when its block closed: exact)."""
+        return self._ext_sy / (self._ext_n * SCALE)
 
     def _solve(self):
         """Priors for this block, then the regression's solve (see the module docstring).

@@ -353,7 +353,7 @@ class VesselProfile:
         """True when moving in ``direction`` (+1 / -1) goes towards this (passive)
         profile's equilibrium for ``est`` (its reference plus the offset) from the
         extreme of its block means."""
-        return (self.reference_c(est) + self.eq_offset_c - est._ext) * direction > 0.0
+        return (self.reference_c(est) + self.eq_offset_c - est._extreme_c()) * direction > 0.0
 
     def rate_fails(self, est, slope_c_per_s):
         """True when ``est``'s liquid is another vessel's: its fitted rate lies more

@@ -55,15 +55,19 @@ class Settle:
     def __init__(self):
         self.ref = 0          # counts: the fit's first reading, then the settle reading
         self.settled = False
+        self.turn = False     # the fit began with two readings at a turn (saved by the header)
 
     def first(self, c):
         """The fit's first reading (counts): settling, with it as the reference."""
         self.ref = c
         self.settled = False
+        self.turn = False
 
-    def seeded(self):
-        """The fit was seeded at a turn: the probe has met the liquid there (its reference)."""
+    def seeded(self, turn):
+        """The fit starts where the probe has met the liquid (its reference): at a turn,
+        seeded with the two readings there (``turn``), or after the probe's travel."""
         self.settled = True
+        self.turn = turn
 
     def block_closed(self, age_ms, cb, k):
         """A block closed ``age_ms`` into the fit at reading ``cb`` (counts), its fitted rate
@@ -94,7 +98,7 @@ class Settle:
         return m < 0 or not (
             age_ms < RISE_ARRIVE_MIN_MS or not est._slope > 0.0
             or est.reg.k * age_ms > RISE_BEND * 1000.0
-            or b.c * _INV < est._ext - RISE_DROP_SD * est.noise.sd)
+            or b.c * _INV < est._extreme_c() - RISE_DROP_SD * est.noise.sd)
 
     def pack_into(self, buf, offset):
         struct.pack_into("<i", buf, offset, self.ref * 2 + (0 if self.settled else 1))

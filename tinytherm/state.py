@@ -48,7 +48,7 @@ def save(est):
     o = bl.PAYLOAD_OFFSET
     flags = ((0 if est.blocks.readings else 1) | (2 if est._disturbed else 0)
              | (4 if est._profile_on else 0) | ((est._dir + 1) << 3)
-             | (0 if est._ahead is None else 32) | (64 if est._seeded else 0))
+             | (0 if est._ahead is None else 32) | (64 if est.settle.turn else 0))
     struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
                      est.turns & 0xFFFF, flags, est.profile_reason, est._anchor,
                      est._ext_sy, est._ext_n, est._ahead or 0)
@@ -115,11 +115,10 @@ def _unpack(est, blob):
     est._profile_on = bool(flags & 4)
     est._dir = direction
     est._anchor = anchor
-    est._ext = ext_sy / (ext_n * SCALE)  # (as the block's mean was worked out: exact)
     est._ext_sy = ext_sy
     est._ext_n = ext_n
     est._ahead = ahead if flags & 32 else None
-    est._seeded = bool(flags & 64)
+    est.settle.turn = bool(flags & 64)
     est._blocks_done = 1
     # the solution and what follows from it are derived: as at the last block close
     est._solve()
