@@ -110,7 +110,10 @@ class BlockSums:
         self.sv += self.iv
         self.sy += c
         self.cq = self.c
-        if dt_ms <= NOISE_MAX_DT_MS:
+        if dt_ms <= NOISE_MAX_DT_MS and -clip <= expect <= clip:
+            # (a step the fit expects beyond the clip tells noise from the fit's own
+            # misfit only if forecast to a few per cent: readings a minute apart on a
+            # bending curve taught a noise of two to three times the probe's)
             e = c - self.c - expect
             if e > clip:
                 e = clip
@@ -174,7 +177,8 @@ class Noise:
     sensor step (``q^2 / 12``), and moves towards each block's estimate with
     weight ``en / n`` (``n`` <= 100 readings). A difference counts at most
     sqrt(8) sd from what the fit expects (2 sd of the halved square), so a
-    misfit cannot pass for noise. ``expect``/``clip`` (counts) are what
+    misfit cannot pass for noise, and a difference counts only when the step
+    the fit expects is within that clip. ``expect``/``clip`` (counts) are what
     :meth:`BlockSums.add` needs, refreshed when the step length changes.
     """
 
