@@ -1,9 +1,11 @@
 """Leave-one-family-out choice of an interval setting by the goals' order.
 
-    python benchmarks/lofo_coverage.py tune.csv [--method iv]
+    python benchmarks/families.py --seeds tune --no-real --out tune.csv \\
+        --candidate knobs=benchmarks.estimator_knobs:Knobs --grid delta_var_factor=1,4
+    python benchmarks/lofo_coverage.py tune.csv [--method knobs]
 
 Reads the per-trace CSV of ``benchmarks/families.py --out`` (tune seeds) with
-a grid of settings for one method (labels ``iv[key=value,...]``). For each
+a grid of settings for one method (labels ``knobs[key=value,...]``). For each
 family, the setting is chosen on the tune traces of the *other* families by
 the order of issue 17's goals: fewest traces with an early arrival, then the
 fewest families with 80 % coverage outside 0.75-0.85 (ties: the smallest
@@ -69,7 +71,7 @@ def main(argv=None):
     ap = argparse.ArgumentParser(description="Leave-one-family-out choice of an interval setting "
                                              "(early arrivals, coverage, no estimate, median).")
     ap.add_argument("csv", help="per-trace CSV of benchmarks/families.py --out (tune seeds)")
-    ap.add_argument("--method", default="iv", help="the grid method's name (default iv)")
+    ap.add_argument("--method", default="knobs", help="the grid method's name (default knobs)")
     args = ap.parse_args(argv)
     data = read(args.csv, args.method)
     if not data:

@@ -9,21 +9,23 @@ in the core; :mod:`tinytherm.model` re-exports it).
 
 The interval is ``eta * exp(+-z sd)`` with ``sd`` the sd of ln(eta). Its
 variance: what the fit's own forecasts measured (:class:`Audits`), with the
-fit's delta-method variance over its covariance as the prior worth one
-check. The delta method counts only white reading noise; a bent rate, a
-lagging probe and quantised readings make the forecasts err by about twice
-that sd, so the prior is :data:`DELTA_VAR_FACTOR` times it (at least
-:data:`AUDIT_PRIOR_VAR`)::
+fit's delta-method variance (times :data:`DELTA_VAR_FACTOR`, at least
+:data:`AUDIT_PRIOR_VAR`) as the prior worth one check; plus the model error
+the audits' short horizons cannot see: the fitted rate k off by
+:data:`RATE_MODEL_SD` of itself (a slow second mode, a warming coolant), which
+weighs most near the fitted equilibrium (q = k gap / slope near 1)::
 
     prior = max(F var_delta(ln eta), AUDIT_PRIOR_VAR)
-    var = (prior + n var_audits) / (1 + n)
+    var = (prior + n var_audits) / (1 + n) + (RATE_MODEL_SD d ln eta / d ln k)^2
 
 The interval's evidence (:class:`Audits`): the fit checks its forecasts
 against what happened. Three audits watch horizons of 1/8, 1/4 and 1/2 of the
 fit's age (at least 10, 20 and 40 s). Each records the fitted level,
 slope and rate when it starts; once its horizon has passed and the level has
 moved clearly, it compares the time the fit's law predicted for the observed
-change with the time it took::
+change with the time it took (not when the horizon exceeded
+:data:`AUDIT_YOUNG` times the age of the fit that made it: an extrapolated
+start-up, an element warming, says nothing of the grown fit)::
 
     e = ln(took / predicted),  |e| <= ln 8
     var_audits <- (n var_audits + e^2) / (n + 1),  then n <- min(n + 1, AUDIT_MEMORY)
@@ -323,10 +325,15 @@ def _work_out(est, target, approach):
     rel2 = DELTA_VAR_FACTOR * own2
     if rel2 < AUDIT_PRIOR_VAR:
         rel2 = AUDIT_PRIOR_VAR
+    # model error: k off by RATE_MODEL_SD of itself moves ln(eta) by that times
+    # d ln(eta) / d ln(k) at the measured slope, q / ((1 - q) k eta) - 1 (q = k gap / slope)
+    q = k * gap / slope
+    b = 0.0 if eta is None else RATE_MODEL_SD * (
+        q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * eta) - 1.0)
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
     est.eta_s = eta
-    rel = math.sqrt(est.audits.var_at(eta, age_s, rel2))
+    rel = math.sqrt(est.audits.var_at(eta, age_s, rel2) + b * b)
     if est._profile_on:
         est._profile.interval_into(est, eta)  # the profile's calibrated interval
     else:
@@ -452,8 +459,10 @@ def time_to_target_from_slope_s(gap_c, slope_c_per_s, rate_per_s):
 AUDIT_FRACTIONS = (0.125, 0.25, 0.5)  # audit horizons, fractions of the fit's age
 AUDIT_MIN_S = (10.0, 20.0, 40.0)      # s: shortest audit horizons
 AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before any audit (2 % sd)
-DELTA_VAR_FACTOR = 4.0    # the fit's delta-method variance of ln(eta) times this: the audits' prior
-#   (leave-one-family-out choice, benchmarks/lofo_coverage.py)
+DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times this: the audits' prior
+RATE_MODEL_SD = 0.2       # relative sd of the fitted rate k from model error (a bend it cannot see)
+AUDIT_YOUNG = 4.0         # an audit learns only when its horizon was at most this times the fit's age
+#   (the three: leave-one-family-out choices, benchmarks/lofo_coverage.py)
 AUDIT_MEMORY = 8        # audits in the running mean of squared log errors
 AUDIT_STRETCH = 4.0     # most the longest audit's variance is stretched beyond it
 AUDIT_LOG_CAP = 2.0794  # ln 8: one audit counts at most a factor 8
@@ -496,7 +505,7 @@ class Audit:
             if took < self.horizon_s(self.age):
                 return
             moved = level - self.level
-            if moved > need_c or moved < -need_c:
+            if (moved > need_c or moved < -need_c) and took <= AUDIT_YOUNG * self.age:
                 pred = law.forecast_s(moved, self.level, self.slope, self.rate)
                 err = AUDIT_LOG_CAP
                 if pred is not None and pred > 0.0:

@@ -44,6 +44,8 @@ AUDIT_MEMORY: int
 AUDIT_STRETCH: float
 AUDIT_LOG_CAP: float
 DELTA_VAR_FACTOR: float
+RATE_MODEL_SD: float
+AUDIT_YOUNG: float
 
 class Audit:
     fraction: float
