@@ -1,11 +1,9 @@
 """The answer: status, time to the target and its interval, from a solved fit.
 
-Worked out once per block close (and when the target changes), then counted
-down between blocks (:meth:`Answer.count_down`), so a product that asks
-every reading pays a few float operations, not a solve.
-
-The time is the closed form :func:`time_to_target_from_slope_s` (the one copy
-in the core; :mod:`tinytherm.model` re-exports it).
+Worked out once per block close (and target), then counted down between
+blocks (:meth:`Answer.count_down`): asking every reading costs a few float
+operations. The time is the closed form :func:`time_to_target_from_slope_s`
+(the one copy in the core; :mod:`tinytherm.model` re-exports it).
 
 The interval is ``eta * exp(+-z sd)`` with ``sd`` the sd of ln(eta). Its
 variance: what the fit's own forecasts measured (:class:`Audits`), with the
