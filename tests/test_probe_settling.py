@@ -53,11 +53,15 @@ def _first_arrival(t, readings, target_c, step_s, **kwargs):
     # hot drink (70 C) in a 20 C room; the probe rises from 20 C through 45 C
     dict(liquid0_c=70.0, air_c=20.0, tau_liquid_s=5400.0, probe_lag_s=30.0, w_air=0.05,
          target_c=45.0),
+    # a fast probe (17 s) read every second falls from 26 C to a 3.5 C drink: the fit
+    # restarts at the jump it sees on the way, its first reading already past 15 C
+    dict(liquid0_c=3.5, air_c=26.0, tau_liquid_s=3000.0, probe_lag_s=17.0, w_air=0.15,
+         target_c=15.0, step_s=1.0),
 ])
 def test_a_settling_probe_is_no_arrival(case, seed):
     case = dict(case)
     target = case.pop("target_c")
-    step = 5.0
+    step = case.pop("step_s", 5.0)
     t, readings, liquid, probe = _trace(duration_s=5400.0, step_s=step, seed=seed, **case)
     # the probe's truth crosses the target within its first minutes (the trap)
     crossing = np.nonzero(np.diff(np.sign(probe - target)))[0]

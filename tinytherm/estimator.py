@@ -399,6 +399,8 @@ class ThermalEstimator(Answer):
             self._close_block()
         else:
             self._first(c, rc, uc)
+            if disturbed:
+                self.settle.jumped()  # (the probe travels to the new liquid again)
         if (not disturbed and self._profile_on and not self.heater and turned_to != 0
                 and self._profile.toward_e(self, turned_to)):
             self._dir = turned_to  # the passive profile's direction: known from the turn on

@@ -45,6 +45,7 @@ SETTLE_MS = int(SETTLE_S * 1000)
 RISE_ARRIVE_MIN_MS = int(RISE_ARRIVE_MIN_S * 1000)
 _INV = 1.0 / SCALE
 _LIMIT = 10001 * SCALE    # counts: beyond any reading (the guard's limits are within 1e4 C)
+_NO_REF = _LIMIT - 1      # settling after a jump: no reading shows the liquid yet
 
 
 class Settle:
@@ -62,6 +63,11 @@ class Settle:
         self.ref = c
         self.settled = False
         self.turn = False
+
+    def jumped(self):
+        """The fit restarted at a jump (a pour, a top-up): its first reading may be the
+        probe on its way to the new liquid, no reference until it settles."""
+        self.ref = _NO_REF
 
     def seeded(self, turn):
         """The fit starts where the probe has met the liquid (its reference): at a turn,
@@ -88,7 +94,7 @@ class Settle:
         ref = self.ref
         target = to_counts(target_c)
         if not self.settled:
-            if (ref - target) * m < 0:
+            if ref == _NO_REF or (ref - target) * m < 0:
                 return False
         elif (target - ref) * m <= 0:
             on = 4.0 * est.noise.sd
