@@ -97,6 +97,8 @@ class Settle:
             if ref == _NO_REF or (ref - target) * m < 0:
                 return False
         elif (target - ref) * m <= 0:
+            if m > 0:
+                return False  # (a rise past the target before the probe settled: a pour's)
             on = 4.0 * est.noise.sd
             tol = answer.ARRIVE_TOL_C
             if (b.c - ref) * m < to_counts(on if on > tol else tol):
