@@ -13,10 +13,12 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   Then (the first block closed ``SETTLE_S`` into the fit, or a fit seeded at a
   turn, where the probe has met the liquid) it is that block's closing
   reading: an arrival needs it short of the target (the crossing came after),
-  or the reading moved on past the target by 4 noise sd (at least
+  or, falling, the reading moved on past the target by 4 noise sd (at least
   ``answer.ARRIVE_TOL_C``: a liquid past its target when the probe met it,
-  still going that way). A fit bent through :data:`SETTLE_BEND` of its time
-  constants by then was the probe travelling: the estimator restarts it there.
+  still going that way; a rise past it then is a probe still rising after a
+  pour). A fit bent through :data:`SETTLE_BEND` of its time constants by then
+  was the probe travelling: the estimator restarts it there. A fit restarted
+  at a jump has no reference until the probe settles.
 - **a rise to be the liquid's** (a probe warming after a pour or a top-up passes
   a drinking target on its way up while the drink is hotter): the fit at least
   :data:`RISE_ARRIVE_MIN_S` old, still rising by its slope and by the latest
