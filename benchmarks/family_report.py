@@ -104,8 +104,6 @@ def worse_than_baseline(results, method):
 
 def target_marks(results, method, real=None):
     """Lines marking issue 9's targets met / MISSED for one estimator method."""
-    def mark(ok):
-        return "met" if ok else "MISSED"
     lines = []
     s = summary_of(results, method)
     bb = best_baseline(results)
@@ -113,33 +111,33 @@ def target_marks(results, method, real=None):
     ok = med is not None and bb is not None and med <= TARGET_MEDIAN_RATIO * bb[1]
     lines.append("- median rel err %s <= %.1f x best baseline %s (%s) = %s: **%s**" % (
         _f(med), TARGET_MEDIAN_RATIO, _f(bb[1] if bb else None), bb[0] if bb else "-",
-        _f(TARGET_MEDIAN_RATIO * bb[1] if bb else None), mark(ok)))
+        _f(TARGET_MEDIAN_RATIO * bb[1] if bb else None), _mark(ok)))
     worse = worse_than_baseline(results, method)
     lines.append("- no family worse than its best baseline: **%s**%s" % (
-        mark(not worse), (" (" + "; ".join(worse) + ")") if worse else ""))
+        _mark(not worse), (" (" + "; ".join(worse) + ")") if worse else ""))
     ne = s["no_estimate_fraction"]
     over = ["%s %s" % (f, _f(summary_of(results, method, f)["no_estimate_fraction"], "%.2f"))
             for f in fam.FAMILIES
             if (summary_of(results, method, f)["no_estimate_fraction"] or 0.0) > TARGET_NO_ESTIMATE]
     lines.append("- no estimate %s <= %.2f overall: **%s**%s" % (
-        _f(ne, "%.2f"), TARGET_NO_ESTIMATE, mark(ne is not None and ne <= TARGET_NO_ESTIMATE),
+        _f(ne, "%.2f"), TARGET_NO_ESTIMATE, _mark(ne is not None and ne <= TARGET_NO_ESTIMATE),
         (" (families over: " + ", ".join(over) + ")") if over else ""))
     cov = s["coverage"]
     lines.append("- coverage %s in %.2f..%.2f overall: **%s**" % (
         _f(cov, "%.2f"), TARGET_COVERAGE[0], TARGET_COVERAGE[1],
-        mark(cov is not None and TARGET_COVERAGE[0] <= cov <= TARGET_COVERAGE[1])))
+        _mark(cov is not None and TARGET_COVERAGE[0] <= cov <= TARGET_COVERAGE[1])))
     bad = []
     for f in fam.FAMILIES:
         c = summary_of(results, method, f)["coverage"]
         if c is None or not TARGET_COVERAGE_FAMILY[0] <= c <= TARGET_COVERAGE_FAMILY[1]:
             bad.append("%s %s" % (f, _f(c, "%.2f")))
     lines.append("- coverage per family in %.2f..%.2f: **%s**%s" % (
-        TARGET_COVERAGE_FAMILY[0], TARGET_COVERAGE_FAMILY[1], mark(not bad),
+        TARGET_COVERAGE_FAMILY[0], TARGET_COVERAGE_FAMILY[1], _mark(not bad),
         (" (" + ", ".join(bad) + ")") if bad else ""))
     early_traces = sum(1 for r in results if (r["metrics"][method]["early_arrival"] or 0) > 0)
     early_rows = sum(r["metrics"][method]["early_arrival"] or 0 for r in results)
     lines.append("- zero early arrivals on every trace: %d rows on %d of %d traces: **%s**" % (
-        early_rows, early_traces, len(results), mark(early_traces == 0)))
+        early_rows, early_traces, len(results), _mark(early_traces == 0)))
     if real is not None:
         worse = []
         for target, per in real:
@@ -149,7 +147,7 @@ def target_marks(results, method, real=None):
             if base and (mine is None or mine > min(base)):
                 worse.append("%g C: %s > %s" % (target, _f(mine), _f(min(base))))
         lines.append("- real recording at or below the best baseline at every target: **%s**%s"
-                     % (mark(not worse), (" (" + "; ".join(worse) + ")") if worse else ""))
+                     % (_mark(not worse), (" (" + "; ".join(worse) + ")") if worse else ""))
     return lines
 
 

@@ -5,25 +5,22 @@ blocks (:meth:`Answer.count_down`): asking every reading costs a few float
 operations. The time is the closed form :func:`time_to_target_from_slope_s`
 (the one copy in the core; :mod:`tinytherm.model` re-exports it).
 
-The interval is ``eta * exp(+-z sd)`` with ``sd`` the sd of ln(eta). Its
-variance: what the fit's own forecasts measured (:class:`Audits`), with the
-fit's delta-method variance (times :data:`DELTA_VAR_FACTOR`, at least
-:data:`AUDIT_PRIOR_VAR`) as the prior worth one check; plus the model error
-the audits' short horizons cannot see: the fitted rate k off by
-:data:`RATE_MODEL_SD` of itself (a slow second mode, a warming coolant), which
-weighs most near the fitted equilibrium (q = k gap / slope near 1)::
+The interval is ``eta * exp(+-z sd)``, ``sd`` the sd of ln(eta): what the fit's
+own forecasts measured (:class:`Audits`), the fit's delta-method variance (times
+:data:`DELTA_VAR_FACTOR`, at least :data:`AUDIT_PRIOR_VAR`) the prior worth one
+check; plus the model error the audits' short horizons cannot see, the rate k
+off by :data:`RATE_MODEL_SD` of itself (most near the equilibrium, q near 1)::
 
     prior = max(F var_delta(ln eta), AUDIT_PRIOR_VAR)
     var = (prior + n var_audits) / (1 + n) + (RATE_MODEL_SD d ln eta / d ln k)^2
 
 The interval's evidence (:class:`Audits`): the fit checks its forecasts
 against what happened. Three audits watch horizons of 1/8, 1/4 and 1/2 of the
-fit's age (at least 10, 20 and 40 s). Each records the fitted level,
-slope and rate when it starts; once its horizon has passed and the level has
-moved clearly, it compares the time the fit's law predicted for the observed
-change with the time it took (not when the horizon exceeded
-:data:`AUDIT_YOUNG` times the age of the fit that made it: an extrapolated
-start-up, an element warming, says nothing of the grown fit)::
+fit's age (at least 10, 20 and 40 s). Each records the fitted level, slope and
+rate when it starts; once its horizon has passed and the level has moved
+clearly, it compares the time the fit's law predicted for the observed change
+with the time it took (not when the horizon exceeded :data:`AUDIT_YOUNG` times
+the age of the fit that made it: a start-up extrapolated says nothing of it)::
 
     e = ln(took / predicted),  |e| <= ln 8
     var_audits <- (n var_audits + e^2) / (n + 1),  then n <- min(n + 1, AUDIT_MEMORY)
@@ -32,9 +29,8 @@ start-up, an element warming, says nothing of the grown fit)::
 longest audit the variance grows with the horizon, at most
 :data:`AUDIT_STRETCH` times).
 
-A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`) gets
-a time with no upper bound, not "out of reach" (the why: at its code). Runs
-unchanged on CPython and MicroPython; the audits run only at block closes.
+A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`) gets an
+open-ended time (why: at its code). Runs on CPython and MicroPython.
 """
 import math
 import struct
@@ -56,7 +52,6 @@ _INV = 1.0 / SCALE
 _IX_TO_CS = 1.0 / (2000 * SCALE)  # doubled count ms -> deg C s
 _IV_TO_S = 1.0 / (1000 * DUTY_SCALE)  # duty-count ms -> s at full duty
 _ARRIVE_MIN_MS = int(ARRIVE_MIN_S * 1000)
-
 
 
 def normal_quantile(p):
@@ -146,7 +141,6 @@ class Answer:
         return True
 
 
-
 def predict(self, target_c, approach=0):
     """Work out the time until ``target_c`` (deg C); return the status code.
 
@@ -183,7 +177,7 @@ def predict(self, target_c, approach=0):
         m = self._arrive_dir
         a = self._arrive_c
         reached = m != 0 and ((b.c >= a and b.cq >= a) if m > 0 else (b.c <= a and b.cq <= a))
-        if reached and ((b.c - self._hold_c) * m < 0 or _held_back(self, m)):
+        if reached and _backed_off(self, m):
             reached = False  # back beyond the turn threshold: a top-up, not an arrival
         if self.status == st.ARRIVED:
             if reached:
@@ -263,11 +257,9 @@ def _work_out(est, target, approach):
             tol = ARRIVE_TOL_C
         est._arrive_dir = m
         est._arrive_c = to_counts(target - m * tol)
-        # a reading back beyond the extreme by 4 noise sd (at least ARRIVE_TOL_C) ends an
-        # arrival before the fit sees a turn: the lagging probe rising after a top-up
-        hold = 4.0 * est.noise.sd
-        hold = hold if hold > ARRIVE_TOL_C else ARRIVE_TOL_C
-        est._hold_c = to_counts(est._extreme_c() - m * hold)
+        # a reading back beyond the extreme by move_c ends an arrival before the fit
+        # sees a turn: the lagging probe rising after a top-up
+        est._hold_c = to_counts(est._extreme_c() - m * move_c(est.noise.sd))
         if (b.c - est._arrive_c) * m >= 0 and _arrived(est, target, m, approach, b.age_ms):
             if (b.cq - est._arrive_c) * m >= 0:
                 est.arrive()
@@ -356,7 +348,7 @@ def _arrived(est, target, m, approach, age_ms):
         (ext - target) m >= Z sd / sqrt(n_ext)   or   (level - target) m >= Z sd_level
         and (target - level) m <= tol
     """
-    if age_ms < _ARRIVE_MIN_MS or (est.blocks.c - est._hold_c) * m < 0 or _held_back(est, m):
+    if age_ms < _ARRIVE_MIN_MS or _backed_off(est, m):
         return False  # (young, or back beyond the turn threshold: a top-up's probe rising)
     if approach == 0 and not est.settle.allows(est, target, m, age_ms):
         return False  # (no direction given: a probe still meeting the liquid, tinytherm.settle)
@@ -379,9 +371,17 @@ def _arrived(est, target, m, approach, age_ms):
     return (level - target) * m >= ARRIVE_Z * math.sqrt(var if var > 0.0 else 0.0)
 
 
-def _held_back(est, m):
-    """True when the guard holds the latest reading as a possible spike and it lies back
-    beyond the turn threshold: a top-up's first reading, until the next confirms it."""
+def move_c(noise_sd_c):
+    """deg C a reading must move to be no noise: 4 noise sd, at least ``ARRIVE_TOL_C``."""
+    on = 4.0 * noise_sd_c
+    return on if on > ARRIVE_TOL_C else ARRIVE_TOL_C
+
+
+def _backed_off(est, m):
+    """The latest reading, or one the guard holds as a possible spike (a top-up's first,
+    until the next confirms it), back beyond the hold line ``_hold_c`` against ``m``."""
+    if (est.blocks.c - est._hold_c) * m < 0:
+        return True
     x = est.guard.held_c()
     return x is not None and (to_counts(x) - est._hold_c) * m < 0
 

@@ -46,8 +46,8 @@ RISE_DROP_SD = 3.0        # ... nor with the latest reading this many noise sd b
 SETTLE_MS = int(SETTLE_S * 1000)
 RISE_ARRIVE_MIN_MS = int(RISE_ARRIVE_MIN_S * 1000)
 _INV = 1.0 / SCALE
-_LIMIT = 10001 * SCALE    # counts: beyond any reading (the guard's limits are within 1e4 C)
-_NO_REF = _LIMIT - 1      # settling after a jump: no reading shows the liquid yet
+LIMIT_COUNTS = 10001 * SCALE  # beyond any reading (the guard's limits are within 1e4 C)
+_NO_REF = LIMIT_COUNTS - 1  # settling after a jump: no reading shows the liquid yet
 
 
 class Settle:
@@ -101,9 +101,7 @@ class Settle:
         elif (target - ref) * m <= 0:
             if m > 0:
                 return False  # (a rise past the target before the probe settled: a pour's)
-            on = 4.0 * est.noise.sd
-            tol = answer.ARRIVE_TOL_C
-            if (b.c - ref) * m < to_counts(on if on > tol else tol):
+            if (b.c - ref) * m < to_counts(answer.move_c(est.noise.sd)):
                 return False
         return m < 0 or not (
             age_ms < RISE_ARRIVE_MIN_MS or not est._slope > 0.0
@@ -116,7 +114,7 @@ class Settle:
     def unpack_from(self, buf, offset):
         """Load the state; False when the value is impossible (the caller resets)."""
         v = struct.unpack_from("<i", buf, offset)[0]
-        if not -2 * _LIMIT < v < 2 * _LIMIT:
+        if not -2 * LIMIT_COUNTS < v < 2 * LIMIT_COUNTS:
             return False
         self.ref = v >> 1
         self.settled = not v & 1

@@ -8,6 +8,7 @@ RISE_DROP_SD: float
 SETTLE_MS: int
 RISE_ARRIVE_MIN_MS: int
 SCALE: int
+LIMIT_COUNTS: int
 
 class Settle:
     STATE_SIZE: int

@@ -26,12 +26,12 @@ import struct
 
 from tinytherm import blob as bl
 from tinytherm.fit import SCALE
+from tinytherm.settle import LIMIT_COUNTS
 
 # readings, changes, turns, flags, profile reason, anchor, extreme's sum, its n, air ahead
 _HEAD = "<IHHBBdiBi"
 HEAD_SIZE = 27
 _INV = 1.0 / SCALE
-_LIMIT = 10001 * SCALE  # counts: beyond any reading (the guard's limits are within 1e4 C)
 
 
 def save(est):
@@ -91,7 +91,7 @@ def _unpack(est, blob):
     direction = ((flags >> 3) & 3) - 1
     if flags & 0x80 or direction > 1 or (flags & 4 and est._profile is None) \
             or not (-1e6 < anchor < 1e6 and 1 <= ext_n <= 255) \
-            or not -_LIMIT < ext_sy // ext_n < _LIMIT:
+            or not -LIMIT_COUNTS < ext_sy // ext_n < LIMIT_COUNTS:
         return bl.BLOB_VALUES
     est.reset()
     for part in parts(est):

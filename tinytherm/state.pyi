@@ -1,6 +1,7 @@
 from typing import Any, Union
 
 SCALE: int
+LIMIT_COUNTS: int
 HEAD_SIZE: int
 
 def save(est: Any) -> bytearray: ...
