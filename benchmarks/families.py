@@ -202,18 +202,22 @@ def replay_baseline(base, time_s, temp_c, target_c):
 
 def score_all(time_s, temp_c, target_c, crossing_s, clean_c, noise_sd_c, direction,
               plan, heater=None, ambient_c=None, quantum_c=0.0625, liquid_c=None,
-              liquid_at_crossing_c=None, approach_start_s=None):
+              liquid_at_crossing_c=None, approach_start_s=None, pours_s=None):
     """Metrics per method label, and CPU seconds (process time) per label.
 
     Early arrivals are judged by ``liquid_c`` (the liquid per row, deg C)
     against ``liquid_at_crossing_c`` when given, else by ``clean_c`` against
     the target (see :mod:`host_sim.replay.metrics`); ``approach_start_s``:
-    where the approach starts (the last top-up), default the first row.
+    where the approach starts (the last top-up), default the first row;
+    ``pours_s``: the top-ups' times (s): early rows the lagging probe could not
+    yet show are counted apart (``early_unseen``, :func:`host_sim.replay.metrics.unseen_rows`).
     """
     judge = dict(true_signal_c=clean_c, target_c=target_c, noise_sd_c=noise_sd_c,
                  direction=direction, approach_start_s=approach_start_s)
     if liquid_c is not None and liquid_at_crossing_c is not None:
         judge.update(true_signal_c=liquid_c, target_c=liquid_at_crossing_c)
+    if pours_s:
+        judge.update(probe_c=clean_c, jumps_s=pours_s)
     out, cost = {}, {}
     for label, _name, spec, setting in plan:
         cls = load_class(spec)
@@ -250,7 +254,8 @@ def run_job(job):
                               heater=ft.heater, ambient_c=ft.ambient_c,
                               quantum_c=tr["quantum_c"], liquid_c=ft.liquid_c,
                               liquid_at_crossing_c=tr["liquid_at_crossing_c"],
-                              approach_start_s=tr["approach_start_s"])
+                              approach_start_s=tr["approach_start_s"],
+                              pours_s=[p["time_s"] for p in tr.get("pours", ())])
     return {"seed_set": seed_set, "family": family, "seed": seed, "sampling": sampling,
             "rows": len(ft),
             "interval_s": tr["sample_interval_s"], "quantum_c": tr["quantum_c"],
@@ -324,7 +329,7 @@ def real_recording(plan):
 def write_csv(path, results, real):
     keys = ("median_rel_error", "p90_rel_error", "no_estimate_fraction", "coverage",
             "early_arrival", "first_answer_s", "time_to_trust", "evaluated_rows",
-            "no_estimate_from_third", "first_answer_reading")
+            "no_estimate_from_third", "first_answer_reading", "early_unseen")
     with open(path, "w", newline="") as handle:
         w = csv.writer(handle, lineterminator="\n")
         w.writerow(("seed_set", "family", "seed", "interval_s", "quantum_c", "heater_column",

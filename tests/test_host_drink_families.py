@@ -12,7 +12,7 @@ import pytest
 
 from host_sim.sim import drink_families, families as F, family_tables
 from host_sim.sim.physics import crossing_by_brentq
-from host_sim.replay.metrics import early_arrivals, trace_metrics
+from host_sim.replay.metrics import early_arrivals, trace_metrics, unseen_rows
 
 ORIGINAL = ("mug", "pot", "bath", "kettle", "wort", "fridge")
 
@@ -283,3 +283,35 @@ def test_answers_by_reading_counts_from_the_third_reading_of_the_approach():
     m = trace_metrics(t, [None] * 10, 1000.0, status=status, approach_start_s=480.0)
     assert m["first_answer_reading"] == 2
     assert m["no_estimate_from_third"] == 0.0
+
+
+def test_unseen_rows_end_at_the_second_reading_past_the_margin():
+    # a pour at t = 3 s: the lagging probe moves 0.1, 0.5, 0.2 (back: a spike-like
+    # single reading), 0.6, 0.9 C from its last value before it; margin 0.3 C
+    t = np.arange(0.0, 9.0)
+    probe = np.array([20.0, 20.0, 20.0, 20.1, 20.5, 20.2, 20.6, 20.9, 21.5])
+    unseen = unseen_rows(t, probe, [3.0], 0.3)
+    # rows 3.. are after the pour; 20.6 and 20.9 are the first two consecutive readings beyond
+    assert unseen.tolist() == [False, False, False, True, True, True, True, False, False]
+    assert not unseen_rows(t, probe, [], 0.3).any()
+    assert not unseen_rows(t, probe, [0.0], 0.3).any()     # no reading before the jump
+
+
+def test_early_rows_after_a_pour_split_into_seen_and_unseen(monkeypatch, families_bench):
+    ft = _topup_with_rising_probe()
+    tr = ft.truth
+    spec = "naive:Arrival"
+    monkeypatch.setitem(families_bench._CLASS_CACHE, spec, _NaiveArrival)
+    plan = [("naive", "naive", spec, {})]
+    args = (ft.time_s, ft.temp_c, tr["target_c"], tr["crossing_time_s"], ft.clean_c,
+            tr["noise_sd_c"], tr["direction"], plan)
+    judge = dict(liquid_c=ft.liquid_c, liquid_at_crossing_c=tr["liquid_at_crossing_c"],
+                 approach_start_s=tr["approach_start_s"])
+    whole, _ = families_bench.score_all(*args, **judge)
+    split, _ = families_bench.score_all(*args, pours_s=[p["time_s"] for p in tr["pours"]], **judge)
+    seen, unseen = split["naive"]["early_arrival"], split["naive"]["early_unseen"]
+    # the naive arrival stays "arrived" after the pour until the probe reads above
+    # the target: the first rows are unseen, the rest (probe visibly rising) are early
+    assert unseen >= 1 and seen >= 1
+    assert seen + unseen == whole["naive"]["early_arrival"]
+    assert whole["naive"].get("early_unseen") is None

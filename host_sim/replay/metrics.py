@@ -38,7 +38,14 @@ and, for the first, the scenario's truth:
   reads the target). The probe's noise-free signal is the wrong judge where
   it lags a jump: after a top-up the probe rises through the target while
   the drink is far hotter, and a probe-only judge calls that arrival honest.
-  Recordings without the liquid's temperature pass the smoothed reading;
+  Recordings without the liquid's temperature pass the smoothed reading.
+  Where the truth knows the pours, an early row that no reading could yet
+  show (until two consecutive readings since the last pour have the
+  noise-free probe beyond the same margin of its value before it: the
+  lagging probe has not moved, or one reading cannot be told from a spike)
+  is counted apart, in ``early_unseen``: such a row is an arrival shown
+  correctly before the pour and not yet withdrawn, and no estimator fed by
+  that probe can withdraw it sooner;
 - ``first_answer_s``: seconds from the first row to the first row whose status
   is ``"tracking"`` (an ETA shown); None when no row is;
 - ``no_estimate_from_third``: fraction of the approach's rows from its third
@@ -108,6 +115,54 @@ def _status_name(s):
     return status_name(int(s))
 
 
+def early_margin_c(noise_sd_c):
+    """The early-arrival margin, deg C: ``max(0.3 C, 3 x noise_sd_c)`` (issue 9)."""
+    return max(EARLY_MARGIN_C, EARLY_SD_FACTOR * float(noise_sd_c))
+
+
+def unseen_rows(time_s, probe_c, jumps_s, margin_c):
+    """Rows no reading could yet tell from before a jump: a bool array.
+
+    ``time_s``: per-row seconds; ``probe_c``: the noise-free probe signal per
+    row, deg C; ``jumps_s``: times (s) at which the liquid jumped (a pour);
+    ``margin_c``: deg C. A row at or after a jump is unseen until two
+    consecutive readings since the jump have a noise-free probe value beyond
+    ``margin_c`` of the last reading before the jump: until then the probe,
+    lagging, has not shown the pour, or has shown it in one reading only,
+    which no estimator can tell from a spike (the guard holds one reading
+    back for that reason), so none fed by that probe can know of it.
+    """
+    t = np.asarray(time_s, dtype=float)
+    probe = np.asarray(probe_c, dtype=float)
+    out = np.zeros(len(t), dtype=bool)
+    for jump in jumps_s or ():
+        after = np.nonzero(t >= jump)[0]
+        if len(after) == 0 or after[0] == 0:
+            continue
+        first = after[0]
+        moved = np.abs(probe[first:] - probe[first - 1]) > margin_c
+        seen_at = np.nonzero(moved[1:] & moved[:-1])[0] + 1   # the second reading beyond
+        stop = first + (seen_at[0] if len(seen_at) else len(moved))
+        out[first:stop] = True
+    return out
+
+
+def early_rows(status, true_signal_c, target_c, noise_sd_c, direction=None):
+    """Bool array: rows reported ``"arrived"`` while the true signal is clearly short of target.
+
+    Arguments as :func:`early_arrivals`.
+    """
+    sig = np.asarray(true_signal_c, dtype=float)
+    if direction is None:
+        direction = -1 if sig[0] > target_c else 1
+    elif isinstance(direction, str):
+        direction = -1 if direction == "cooling" else 1
+    # cooling: short of the target means still above it; heating: below it
+    short = (sig - target_c) * -direction > early_margin_c(noise_sd_c)
+    arrived = np.array([_status_name(s) == "arrived" for s in status], dtype=bool)
+    return arrived & short
+
+
 def early_arrivals(status, true_signal_c, target_c, noise_sd_c, direction=None):
     """Rows reported ``"arrived"`` while the true signal is clearly short of target.
 
@@ -117,16 +172,8 @@ def early_arrivals(status, true_signal_c, target_c, noise_sd_c, direction=None):
     ``direction``: ``"cooling"``/``-1`` or ``"heating"``/``+1``, by default
     from the side of the target the first true value lies on. Returns an int.
     """
-    sig = np.asarray(true_signal_c, dtype=float)
-    if direction is None:
-        direction = -1 if sig[0] > target_c else 1
-    elif isinstance(direction, str):
-        direction = -1 if direction == "cooling" else 1
-    margin = max(EARLY_MARGIN_C, EARLY_SD_FACTOR * float(noise_sd_c))
-    # cooling: short of the target means still above it; heating: below it
-    short = (sig - target_c) * -direction > margin
-    arrived = np.array([_status_name(s) == "arrived" for s in status], dtype=bool)
-    return int(np.count_nonzero(arrived & short))
+    return int(np.count_nonzero(early_rows(status, true_signal_c, target_c, noise_sd_c,
+                                           direction)))
 
 
 def first_answer_s(time_s, status):
@@ -161,7 +208,7 @@ def answers_by_reading(time_s, status, crossing_s, approach_start_s=None,
 def trace_metrics(time_s, eta_s, crossing_s, eta_low_s=None, eta_high_s=None,
                   warmup_s=WARMUP_S, floor_s=FLOOR_S, tolerance=TRUST_TOLERANCE,
                   status=None, true_signal_c=None, target_c=None, noise_sd_c=None,
-                  direction=None, approach_start_s=None):
+                  direction=None, approach_start_s=None, probe_c=None, jumps_s=None):
     """Metrics of one trace (see module docstring); dict of floats or None.
 
     ``time_s``: per-row seconds; ``eta_s``, ``eta_low_s``, ``eta_high_s``:
@@ -176,19 +223,27 @@ def trace_metrics(time_s, eta_s, crossing_s, eta_low_s=None, eta_high_s=None,
     ``first_answer_reading`` and, with ``crossing_s``, ``no_estimate_from_third``
     (:func:`answers_by_reading`). Without them these figures are None.
     ``approach_start_s``: where the approach starts (seconds; default the
-    first row), e.g. the last top-up.
+    first row), e.g. the last top-up. ``jumps_s`` (times of pours, s) with
+    ``probe_c`` (the noise-free probe per row, deg C): early rows a reading
+    could not yet show (:func:`unseen_rows`) are counted apart, as
+    ``early_unseen``, and not in ``early_arrival``.
     """
     keys = ("median_rel_error", "p90_rel_error", "time_to_trust", "coverage",
             "no_estimate_fraction", "early_arrival", "first_answer_s",
-            "no_estimate_from_third", "first_answer_reading")
+            "no_estimate_from_third", "first_answer_reading", "early_unseen")
     out = dict.fromkeys(keys)
     out["evaluated_rows"] = 0
     out["status_given"] = status is not None
     if status is not None:
         out["first_answer_s"] = first_answer_s(time_s, status)
         if true_signal_c is not None and target_c is not None and noise_sd_c is not None:
-            out["early_arrival"] = early_arrivals(status, true_signal_c, target_c,
-                                                  noise_sd_c, direction)
+            early = early_rows(status, true_signal_c, target_c, noise_sd_c, direction)
+            if jumps_s:
+                unseen = early & unseen_rows(time_s, probe_c, jumps_s,
+                                             early_margin_c(noise_sd_c))
+                out["early_unseen"] = int(np.count_nonzero(unseen))
+                early = early & ~unseen
+            out["early_arrival"] = int(np.count_nonzero(early))
     if status is not None:
         out["no_estimate_from_third"], out["first_answer_reading"] = answers_by_reading(
             time_s, status, crossing_s, approach_start_s)
