@@ -305,12 +305,16 @@ def _dense_goals(dense, pair):
                             for r in dense if r["family"] == f)]
         unseen = sum(r["metrics"][label].get("early_unseen") or 0 for r in dense)
         unseen_traces = sum(1 for r in dense if (r["metrics"][label].get("early_unseen") or 0) > 0)
-        lines.append("- zero early arrivals, %s: %d rows on %d of %d traces: **%s**%s; apart: "
-                     "%d rows on %d traces no reading could yet show (after a pour, before two "
-                     "readings of the lagging probe moved past the margin)" % (
-                         what, rows, traces, len(dense), _mark(rows == 0),
-                         (" (rows by family: " + ", ".join(by_family) + ")") if by_family else "",
-                         unseen, unseen_traces))
+        apart = []
+        if by_family:
+            apart.append("rows by family: " + ", ".join(by_family))
+        if unseen:
+            apart.append("apart: %d rows on %d traces no reading could yet show, after a pour "
+                         "before two readings of the lagging probe moved past the margin"
+                         % (unseen, unseen_traces))
+        lines.append("- zero early arrivals, %s: %d rows on %d of %d traces: **%s**%s" % (
+            what, rows, traces, len(dense), _mark(rows == 0),
+            (" (" + "; ".join(apart) + ")") if apart else ""))
     return lines
 
 

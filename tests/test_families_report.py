@@ -75,6 +75,17 @@ def test_each_goal_missed_names_its_family(families_bench):
     assert "not run" in families_bench.issue17_goals(dense, None, ("core[approach=0]", None))[-1]
 
 
+def test_unseen_early_rows_are_named_apart_and_miss_nothing(families_bench):
+    def core(f):
+        m = _metric(0.1)
+        m["early_unseen"] = 3 if f == "topup" else 0
+        return m
+    dense = _results(F.FAMILIES, core, lambda f: _metric(0.1))
+    lines = families_bench.issue17_goals(dense, None, ("core[approach=0]", "core[approach=1]"))
+    line = [x for x in lines if "zero early arrivals, default" in x][0]
+    assert "0 rows on 0 of 8 traces: **met** (apart: 3 rows on 1 traces no reading" in line
+
+
 def test_tables_show_default_beside_approach_and_the_sparse_figures(families_bench):
     dense = _results(F.FAMILIES, lambda f: _metric(0.2), lambda f: _metric(0.1, early=2))
     lines = families_bench.default_and_approach_table(dense, ("core[approach=0]", "core[approach=1]"),
