@@ -513,13 +513,14 @@ class Regression:
             lv += self.g * self.v
         return lv
 
-    def var_level(self):
-        """Variance of :meth:`level`, deg C^2."""
-        t = self.t
-        x = -self.x   # d level / d k
+    def var_level(self, dt=0.0, dx=0.0, dv=0.0):
+        """Variance of :meth:`level`, deg C^2; moved on by ``dt`` (s), ``dx`` (deg C s) and
+        ``dv`` (s) past the block close: the level at a later reading."""
+        t = self.t + dt
+        x = -(self.x + dx)   # d level / d k
         var = self.var_my + t * t * self.pss + x * x * self.pkk + 2.0 * t * x * self.psk
         if self.heater:
-            v = self.v
+            v = self.v + dv
             var += v * v * self.pgg + 2.0 * (t * v * self.psg + x * v * self.pkg)
         return var
 
