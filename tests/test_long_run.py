@@ -5,14 +5,16 @@ they would be for a device with a small heap: compiling sources needs more
 heap than running them, and -O3 leaves the source line numbers out of the
 bytecode (tracebacks show no lines; the core validates with exceptions, never
 with ``assert``, so nothing else changes). Measured with the estimator in
-parts: the smallest heap in 1K steps that runs this test is 78K, with the
-library in a short folder path and in one as long as pytest's tmp path
-(80K at a3dfd7f, after the air, sparse-reading and profile work of issue 17;
-76K before it: the import closure takes about 50K of bytecode and tables on
-this 64-bit port, and the saved-state module is loaded at the first save;
-benchmarks/device_budget.py prints the figures), so 82K leaves a 4K margin
-for such differences. A MemoryError in restore() is
-raised, never taken for a damaged blob.
+parts: the smallest heap in 1K steps that runs this test is 81K at c4310b4,
+with the library in a short folder path and in one as long as pytest's tmp
+path (81K and 82K at 04deed4, after the settle part; 78K at b1556f1; 80K at
+a3dfd7f, after the air, sparse-reading and profile work of issue 17; 76K
+before it: the import closure takes about 50K of bytecode and tables on this
+64-bit port; the saved-state module, and the frame's modules blob and crc,
+are loaded at the first save, and this script imports blob at its start;
+benchmarks/device_budget.py prints the figures of a product that never
+saves), so 82K leaves a 1K margin for such differences. A MemoryError in
+restore() is raised, never taken for a damaged blob.
 The trace is generated inside MicroPython (tests/long_run_mp.py). Figures are
 printed; the assertions check: no MemoryError, every reading processed, every
 save/restore cycle accepted, and no retained heap growth beyond the scatter of

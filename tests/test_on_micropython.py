@@ -67,3 +67,42 @@ def test_core_compiles_with_mpy_cross(tmp_path):
         )
         assert proc.returncode == 0, proc.stderr
         assert out.stat().st_size > 0
+
+
+LAZY_SAVE = r'''
+import sys
+sys.path.insert(0, ".")
+from tinytherm.estimator import ThermalEstimator
+from tinytherm.guard import ReadingGuard
+est = ThermalEstimator(ambient_c=21, interval=0.9)
+for i in range(300):
+    est.update(80.0 - 0.05 * i, 0.0 if i == 0 else 2.0)
+    est.predict(60.0)
+print("BEFORE", sorted(m for m in sys.modules if m.startswith("tinytherm.")))
+blob = bytes(est.save())
+print("AFTER", sorted(m for m in sys.modules if m.startswith("tinytherm.")))
+from tinytherm import blob as bl
+from tinytherm.crc import crc32
+# the header as the estimator wrote it at construction before (04deed4)
+key = crc32(("%r %r %r %r %r %r %r %r %r %r" % (
+    21, 21.0, 8.0, False, 0.9, 0.0625, -55.0, 150.0, ReadingGuard().settings_key(),
+    False)).encode())
+print("HEADER", bytes(bl.new_frame(key)[:8]) == blob[:8], est.save() is est.save())
+'''
+
+
+def test_a_product_that_never_sleeps_loads_no_saved_state_modules(tmp_path):
+    """Updates and answers load neither the saved-state module nor the frame's (blob,
+    crc): the estimator keeps its settings' text beside the buffer until the first save,
+    whose header is the one the estimator wrote at construction before (the same
+    settings key: saved blobs stay compatible); later saves reuse that buffer."""
+    script = tmp_path / "lazy_save.py"
+    script.write_text(LAZY_SAVE)
+    proc = run_micropython([str(script)])
+    out = proc.stdout + proc.stderr
+    assert proc.returncode == 0, out
+    before = re.search(r"^BEFORE (.*)$", proc.stdout, re.M).group(1)
+    after = re.search(r"^AFTER (.*)$", proc.stdout, re.M).group(1)
+    for name in ("tinytherm.state", "tinytherm.blob", "tinytherm.crc"):
+        assert name not in before and name in after, out
+    assert "HEADER True True" in proc.stdout, out

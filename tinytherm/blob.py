@@ -56,9 +56,14 @@ def restore_name(code):
     return "unknown"
 
 
-def new_frame(settings):
-    """A zeroed ``bytearray`` of BLOB_SIZE with magic, version and the 32-bit settings key."""
-    buf = bytearray(BLOB_SIZE)
+def new_frame(settings, buf=None):
+    """A zeroed ``bytearray`` of BLOB_SIZE with magic, version and the 32-bit settings key.
+
+    ``buf``: a zeroed ``bytearray`` of BLOB_SIZE to write the header into (made
+    earlier, while the heap was fresh); None: a new one.
+    """
+    if buf is None:
+        buf = bytearray(BLOB_SIZE)
     buf[0] = MAGIC[0]
     buf[1] = MAGIC[1]
     buf[2] = LAYOUT_VERSION

@@ -33,12 +33,10 @@ state, no per-reading containers; runs unchanged on CPython and MicroPython.
 """
 import math
 
-from tinytherm import blob as bl
 from tinytherm import status as st
 from tinytherm import answer, fit
 from tinytherm.answer import Answer, normal_quantile
 from tinytherm.change import ChangeDetector
-from tinytherm.crc import crc32
 from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.num import as_float, number
@@ -138,14 +136,14 @@ class ThermalEstimator(Answer):
         self._prior = (float(ambient_prior_c), float(ambient_prior_sd_c))
         self.settle = Settle()  # whether the probe has met the liquid (no direction given)
         self._z = normal_quantile(0.5 + 0.5 * interval)  # the interval's half-width in sd
-        # every setting that changes the state's meaning, for restore's check (the
-        # frame's header keeps it: state.restore reads it there)
-        settings = crc32(("%r %r %r %r %r %r %r %r %r %r" % (
+        # save() writes into this one buffer (blob.BLOB_SIZE bytes), made while the heap is
+        # fresh, beside the text of every setting that changes the state's meaning: the first
+        # save or restore writes the frame's header with its CRC-32 (state.frame: a product
+        # that never sleeps loads neither blob nor crc)
+        self._blob_buf = (bytearray(512), "%r %r %r %r %r %r %r %r %r %r" % (
             ambient_c, self._prior[0], self._prior[1], heater, float(interval),
             self.guard.quantum_c, self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
-            self._profile is not None)).encode())
-        # save() writes into this one buffer, made while the heap is fresh
-        self._blob_buf = bl.new_frame(settings)
+            self._profile is not None))
         self.reset()
 
     # ------------------------------------------------------------------ state

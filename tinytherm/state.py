@@ -25,6 +25,7 @@ give the same answers to the last bit. Runs unchanged on CPython and MicroPython
 import struct
 
 from tinytherm import blob as bl
+from tinytherm.crc import crc32
 from tinytherm.fit import SCALE
 from tinytherm.settle import LIMIT_COUNTS
 
@@ -44,7 +45,7 @@ def save(est):
     """
     while est._pending:
         est._next_step()  # (as the next readings would: the blob holds no half-done block)
-    buf = est._blob_buf
+    buf = frame(est)
     o = bl.PAYLOAD_OFFSET
     flags = ((0 if est.blocks.readings else 1) | (2 if est._disturbed else 0)
              | (4 if est._profile_on else 0) | ((est._dir + 1) << 3)
@@ -57,6 +58,15 @@ def save(est):
         part.pack_into(buf, o)
         o += part.STATE_SIZE
     return bl.seal(buf)
+
+def frame(est):
+    """The estimator's own frame (:func:`tinytherm.blob.new_frame`), its header written at
+    the first save or restore: until then the estimator keeps the buffer beside the text
+    of its settings, whose CRC-32 the header keeps (restore refuses other settings)."""
+    buf = est._blob_buf
+    if type(buf) is tuple:
+        buf = est._blob_buf = bl.new_frame(crc32(buf[1].encode()), buf[0])
+    return buf
 
 def parts(est):
     return (est.guard, est.detector, est.inputs, est.noise, est.blocks, est.reg,
@@ -72,7 +82,7 @@ def restore(est, blob):
     """
     try:
         # (the settings key, as the estimator's own frame holds it)
-        code = bl.check(blob, struct.unpack_from("<I", est._blob_buf, 4)[0])
+        code = bl.check(blob, struct.unpack_from("<I", frame(est), 4)[0])
         if code == bl.RESTORED:
             code = _unpack(est, blob)
     except MemoryError:

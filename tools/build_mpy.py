@@ -26,7 +26,8 @@ forecast, planner, sensors) together with the core modules it imports, so each
 installs on its own. Each lists exactly the module-level import closure of
 its entry module (``import_closure``) and of the modules it imports at a first
 call any product may make (``INSTALLED_LAZILY``: the estimator's saved-state
-module, loaded at the first save or restore), so a new module is listed as
+module and the frame it writes, blob and crc, loaded at the first save or
+restore), so a new module is listed as
 soon as something imports it. ``--write-package-json`` rewrites them all (urls
 relative to each file, or under ``--url-base``, e.g.
 ``github:OWNER/REPO``, for a host that does not resolve ``..`` in a path);
@@ -57,7 +58,8 @@ PARTS = (
 
 # Modules a part installs beyond what its entry loads at import: imported inside
 # a function at the first call, which any product may make (a product that never
-# sleeps does not load the saved-state module, one that sleeps needs it installed).
+# sleeps does not load the saved-state module nor its frame's, blob and crc; one that
+# sleeps needs them installed).
 INSTALLED_LAZILY = {"estimator": ("state",)}
 
 
