@@ -63,6 +63,10 @@ PROFILE_MISMATCH_Z = 4.0          # sds between this liquid's fitted rate and th
 PROFILE_JUDGE_LAGS = 3.0          # a heated fit is judged from this many profile lags on: a
 #   ramp seen through a first-order lag has 95 % of its slope by then (1 - e^-3)
 _JUDGE_MS_PER_S = 1000.0 * PROFILE_JUDGE_LAGS  # ms of fit age per s of profile lag
+PROFILE_YOUNG_S = 180.0           # s: a passive fit younger than this answers with the law at
+#   its typical rate (60-240 tried on the tune uses of the mug and the flask: each vessel's
+#   best setting lowers the other's error too; 180 the best of both)
+_YOUNG_MS = int(PROFILE_YOUNG_S * 1000)
 BIN_EDGES_S = (60.0, 300.0, 1200.0)
 # Where each bin's quantiles apply exactly (s); in between, linear in ln(eta).
 # Geometric middles of the inner bins, and 30 s / 2400 s for the outer ones.
@@ -323,9 +327,15 @@ class VesselProfile:
 
     def law_for(self, est, gap_c, level_c, slope_c_per_s, slope_rel_var=0.0):
         """:meth:`law_s` for ``est``'s liquid (the reference :meth:`reference_c`), or
-        None with a heater (the law is a passive liquid's). Seconds."""
+        None with a heater (the law is a passive liquid's). Seconds. A fit younger than
+        :data:`PROFILE_YOUNG_S` (at its latest block close) gets the law at its typical
+        rate: the slope of the first minutes after a pour is the cold wall's and the
+        probe's catching up as much as the liquid's, which its variance does not show."""
         if est.heater:
             return None
+        b = est.blocks
+        if b.age_ms - b.it < _YOUNG_MS:
+            slope_c_per_s = 0.0
         return self.law_s(gap_c, level_c, slope_c_per_s, self.reference_c(est), slope_rel_var)
 
     def rate_z(self, level_c, slope_c_per_s, ambient_c, slope_rel_var, duty=0.0):
