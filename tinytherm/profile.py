@@ -16,7 +16,7 @@ order, 1.25 ~ natural convection). ``q`` is the heater duty; ``g``
 (:attr:`VesselProfile.gain_k_per_s`) the heating rate at full duty.
 
 The interval table holds the 10 % and 90 % points of
-``ln(actual / predicted remaining time)`` of the estimator without a profile,
+``ln(actual / predicted remaining time)`` of the estimator with the profile,
 in four bins of the predicted remaining time (edges :data:`BIN_EDGES_S`:
 60, 300, 1200 s), calibrated split-conformally on held-out uses.
 
