@@ -384,22 +384,27 @@ class VesselProfile:
         ``slope_c_per_s``: the fitted slope at the level, deg C/s, not 0, paired with
         :meth:`reference_c` (both as ahead, as the answer's). The audits' errors judge
         no profile: a probe catching up after a pour, or a heater's start-up, fails any
-        law's short forecasts for a while. A heated fit younger than the answer's
-        ``PROFILE_LAG_TIMES`` profile lags is not judged (its slope still lags the heat)."""
+        law's short forecasts for a while. A heated fit younger than
+        :data:`PROFILE_JUDGE_LAGS` profile lags is not judged (its slope still lags the
+        heat); a passive fit younger than :data:`PROFILE_YOUNG_S` only for a gross
+        mismatch, beyond twice :data:`PROFILE_MISMATCH_Z` (its slope is the pour's as
+        much as the liquid's: the mug's own profile lay up to 4.1 sds off then)."""
         reg = est.reg
         b = est.blocks
+        age_ms = b.age_ms - b.it
+        z_max = PROFILE_MISMATCH_Z
         duty = 0.0
         if est.heater:
-            if b.age_ms - b.it < _JUDGE_MS_PER_S * self.probe_lag_s:
+            if age_ms < _JUDGE_MS_PER_S * self.probe_lag_s:
                 return False
             duty = b.u0 / _DUTY_SCALE
-        elif not est.settle.settled:
-            return False
+        elif age_ms < _YOUNG_MS:
+            z_max = 2.0 * PROFILE_MISMATCH_Z
         gk = b.cb * _INV - est._level  # d slope / d k at the level
         var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
         z = self.rate_z(est._level, slope_c_per_s, self.reference_c(est),
                         var_slope / (slope_c_per_s * slope_c_per_s), duty)
-        return z is not None and z > PROFILE_MISMATCH_Z
+        return z is not None and z > z_max
 
     def log_sd(self, eta_s):
         """The sd of ln(actual / predicted) its table gives at ``eta_s`` seconds (>= 0.05)."""
