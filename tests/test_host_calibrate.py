@@ -111,6 +111,47 @@ def test_conformal_table_recovers_known_quantiles_and_covers_held_out_pairs():
     assert coverage(pairs(100), prof) == pytest.approx(0.8, abs=0.03)
 
 
+def _counted_down_pair(rng, actual0, block_s=40.0, row_s=5.0):
+    """A device's answers as replayed: worked out every ``block_s`` s with ln(actual /
+    eta) ~ N(0.1, 0.2^2) at the work-out, counted down between (``eta + t`` constant);
+    also the device's counted-down 80 % bounds from the table given later."""
+    t = np.arange(0.0, actual0 - 10.0, row_s)
+    actual = actual0 - t
+    eta = np.empty(len(t))
+    close = np.empty(len(t))
+    for i in range(len(t)):
+        if i % int(block_s / row_s) == 0:
+            c = i
+            eta_c = actual[i] * math.exp(-rng.normal(0.1, 0.2))
+        close[i] = c
+        eta[i] = eta_c - (t[i] - t[c])
+    p = Pair(trace=None, target=0.0, crossing=actual0, t=t, actual=actual, eta=eta,
+             low=np.full(len(t), np.nan), high=np.full(len(t), np.nan),
+             shown=np.ones(len(t), bool), frac=t / actual0, prep=None)
+    p.close = close.astype(int)
+    return p
+
+
+def test_conformal_table_is_the_work_outs_and_the_counted_down_rows_cover_80_percent():
+    # The device looks its table up when it works an answer out and counts the bounds
+    # down with the answer until the next block: a row is covered exactly when its
+    # work-out's ln(actual / eta) lies within the table at the work-out's eta. Taken at
+    # every counted-down row (ln((A - t) / (E - t)) spreads as t grows) the table was
+    # wider than that, and the device covered more than the 80 % asked for.
+    rng = np.random.default_rng(11)
+    train = [_counted_down_pair(rng, rng.uniform(150.0, 600.0)) for _ in range(300)]
+    low, high, _ = conformal_table(train)
+    prof = VesselProfile(log_q_low=low, log_q_high=high)
+    shares = []
+    for p in [_counted_down_pair(rng, rng.uniform(150.0, 600.0)) for _ in range(200)]:
+        el = p.t - p.t[p.close]
+        bounds = np.array([prof.interval_log_bounds(float(e)) for e in p.eta[p.close]])
+        lo = p.eta[p.close] * np.exp(bounds[:, 0]) - el
+        hi = p.eta[p.close] * np.exp(bounds[:, 1]) - el
+        shares.append(np.mean((p.actual >= lo) & (p.actual <= hi)))
+    assert np.mean(shares) == pytest.approx(0.8, abs=0.03)
+
+
 def test_cli_calibrate_writes_profile_blob_and_plots(tmp_path, capsys):
     paths = []
     fills = []

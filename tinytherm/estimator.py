@@ -499,8 +499,7 @@ class ThermalEstimator(Answer):
         age = (self.blocks.age_ms - self.blocks.it) * 0.001  # at the block close
         need = 4.0 * math.sqrt(self.reg.var_level()) + 0.5 * self.guard.quantum_c
         slope = self._slope_ahead()
-        if (self._profile_on and not self.heater and slope != 0.0
-                and self._profile.rate_fails(self, slope)):
+        if self._profile_on and slope != 0.0 and self._profile.rate_fails(self, slope):
             # another vessel's profile (the fit is established here: the audits run
             # from DETECT_MIN_BLOCKS readings on): dropped, solved again without it
             self._profile_on = False

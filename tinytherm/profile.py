@@ -16,7 +16,7 @@ order, 1.25 ~ natural convection). ``q`` is the heater duty; ``g``
 (:attr:`VesselProfile.gain_k_per_s`) the heating rate at full duty.
 
 The interval table holds the 10 % and 90 % points of
-``ln(actual / predicted remaining time)`` of the estimator without a profile,
+``ln(actual / predicted remaining time)`` of the estimator with the profile,
 in four bins of the predicted remaining time (edges :data:`BIN_EDGES_S`:
 60, 300, 1200 s), calibrated split-conformally on held-out uses.
 
@@ -42,6 +42,7 @@ import struct
 from tinytherm import status as _st
 from tinytherm.answer import spread as _spread
 from tinytherm.crc import crc32
+from tinytherm.fit import DUTY_SCALE as _DUTY_SCALE
 from tinytherm.fit import SCALE as _SCALE
 from tinytherm.num import as_float, finite, number
 
@@ -59,6 +60,13 @@ FLAG_HEATER = 1
 DIFF_REF_C = 10.0                 # K: the difference at which rate_per_s is the rate
 PROFILE_MISMATCH_Z = 4.0          # sds between this liquid's fitted rate and the profile's
 #   beyond which the estimator drops the profile (:meth:`VesselProfile.rate_fails`)
+PROFILE_JUDGE_LAGS = 3.0          # a heated fit is judged from this many profile lags on: a
+#   ramp seen through a first-order lag has 95 % of its slope by then (1 - e^-3)
+_JUDGE_MS_PER_S = 1000.0 * PROFILE_JUDGE_LAGS  # ms of fit age per s of profile lag
+PROFILE_YOUNG_S = 180.0           # s: a passive fit younger than this answers with the law at
+#   its typical rate (60-240 tried on the tune uses of the mug and the flask: each vessel's
+#   best setting lowers the other's error too; 180 the best of both)
+_YOUNG_MS = int(PROFILE_YOUNG_S * 1000)
 BIN_EDGES_S = (60.0, 300.0, 1200.0)
 # Where each bin's quantiles apply exactly (s); in between, linear in ln(eta).
 # Geometric middles of the inner bins, and 30 s / 2400 s for the outer ones.
@@ -319,27 +327,41 @@ class VesselProfile:
 
     def law_for(self, est, gap_c, level_c, slope_c_per_s, slope_rel_var=0.0):
         """:meth:`law_s` for ``est``'s liquid (the reference :meth:`reference_c`), or
-        None with a heater (the law is a passive liquid's). Seconds."""
+        None with a heater (the law is a passive liquid's). Seconds. A fit younger than
+        :data:`PROFILE_YOUNG_S` (at its latest block close) gets the law at its typical
+        rate: the slope of the first minutes after a pour is the cold wall's and the
+        probe's catching up as much as the liquid's, which its variance does not show."""
         if est.heater:
             return None
+        b = est.blocks
+        if b.age_ms - b.it < _YOUNG_MS:
+            slope_c_per_s = 0.0
         return self.law_s(gap_c, level_c, slope_c_per_s, self.reference_c(est), slope_rel_var)
 
-    def rate_z(self, level_c, slope_c_per_s, ambient_c, slope_rel_var):
+    def rate_z(self, level_c, slope_c_per_s, ambient_c, slope_rel_var, duty=0.0):
         """How far this liquid's rate lies from the profile's, in sds (>= 0), or None.
 
-        ``|ln r| / sqrt(rate_log_sd^2 + slope_rel_var)`` with ``r`` the ratio
-        of the fitted ``slope_c_per_s`` (deg C/s, relative variance
-        ``slope_rel_var``) at ``level_c`` to the typical law's slope there
-        (E = ``ambient_c`` + eq_offset_c); None when the liquid moves away from
-        E (or sits on it).
+        ``|ln r| / sqrt(var_law + slope_rel_var)`` with ``r`` the ratio of the
+        fitted ``slope_c_per_s`` (deg C/s, relative variance ``slope_rel_var``)
+        at ``level_c`` to the law's slope there at the heater ``duty`` (0..1),
+        ``g duty - a |d|^n sign(d)`` (``d = level_c - E``, E = ``ambient_c`` +
+        eq_offset_c), whose relative variance ``var_law`` comes from
+        rate_log_sd and gain_rel_sd (passive: rate_log_sd^2). None when the
+        liquid moves against the law's slope (or the law's slope is 0).
         """
         d0 = level_c - (ambient_c + self.eq_offset_c)
-        if d0 == 0.0 or slope_c_per_s * d0 >= 0.0:
+        loss = self.rate_at(d0) * d0        # deg C/s the law loses at the level
+        heat = self.gain_k_per_s * duty     # deg C/s the heater adds at that duty
+        law = heat - loss
+        if law == 0.0 or slope_c_per_s * law <= 0.0:
             return None
         sd = self.rate_log_sd if self.rate_log_sd > 0.02 else 0.02
+        var = sd * sd
+        if heat != 0.0:
+            sd_g = self.gain_rel_sd if self.gain_rel_sd > 0.02 else 0.02
+            var = (loss * loss * var + heat * heat * sd_g * sd_g) / (law * law)
         try:
-            return abs(math.log(-slope_c_per_s / (self.rate_at(d0) * d0))) / math.sqrt(
-                sd * sd + slope_rel_var)
+            return abs(math.log(slope_c_per_s / law)) / math.sqrt(var + slope_rel_var)
         except (ValueError, OverflowError, ZeroDivisionError):
             return None
 
@@ -356,18 +378,33 @@ class VesselProfile:
         return (self.reference_c(est) + self.eq_offset_c - est._extreme_c()) * direction > 0.0
 
     def rate_fails(self, est, slope_c_per_s):
-        """True when ``est``'s liquid is another vessel's: its fitted rate lies more
-        than :data:`PROFILE_MISMATCH_Z` sds from this profile's (:meth:`rate_z` with the
-        fitted slope's own variance at the level). ``slope_c_per_s``: the fitted slope
-        at the level, deg C/s, not 0, paired with :meth:`reference_c` (both as ahead, as
-        the answer's). The audits' errors judge no profile: a probe catching up after a
-        pour, or a heater's start-up, fails any law's short forecasts for a while."""
+        """True when ``est``'s liquid is another vessel's: its fitted slope lies more
+        than :data:`PROFILE_MISMATCH_Z` sds from this profile's law at the level and the
+        latest duty (:meth:`rate_z` with the fitted slope's own variance at the level).
+        ``slope_c_per_s``: the fitted slope at the level, deg C/s, not 0, paired with
+        :meth:`reference_c` (both as ahead, as the answer's). The audits' errors judge
+        no profile: a probe catching up after a pour, or a heater's start-up, fails any
+        law's short forecasts for a while. A heated fit younger than
+        :data:`PROFILE_JUDGE_LAGS` profile lags is not judged (its slope still lags the
+        heat); a passive fit younger than :data:`PROFILE_YOUNG_S` only for a gross
+        mismatch, beyond twice :data:`PROFILE_MISMATCH_Z` (its slope is the pour's as
+        much as the liquid's: the mug's own profile lay up to 4.1 sds off then)."""
         reg = est.reg
-        gk = est.blocks.cb * _INV - est._level  # d slope / d k at the level
+        b = est.blocks
+        age_ms = b.age_ms - b.it
+        z_max = PROFILE_MISMATCH_Z
+        duty = 0.0
+        if est.heater:
+            if age_ms < _JUDGE_MS_PER_S * self.probe_lag_s:
+                return False
+            duty = b.u0 / _DUTY_SCALE
+        elif age_ms < _YOUNG_MS:
+            z_max = 2.0 * PROFILE_MISMATCH_Z
+        gk = b.cb * _INV - est._level  # d slope / d k at the level
         var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
         z = self.rate_z(est._level, slope_c_per_s, self.reference_c(est),
-                        var_slope / (slope_c_per_s * slope_c_per_s))
-        return z is not None and z > PROFILE_MISMATCH_Z
+                        var_slope / (slope_c_per_s * slope_c_per_s), duty)
+        return z is not None and z > z_max
 
     def log_sd(self, eta_s):
         """The sd of ln(actual / predicted) its table gives at ``eta_s`` seconds (>= 0.05)."""

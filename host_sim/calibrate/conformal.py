@@ -47,15 +47,42 @@ def replay_pairs(prep, use_heater, settings=None, fractions=TARGET_FRACTIONS, pr
     return pairs
 
 
+def _at_work_out(p, ok):
+    """``(actual, eta)`` per row as at the device's latest work-out of its answer (s).
+
+    Between block closes the device counts its answer down: ``eta_s``,
+    ``eta_low_s`` and ``eta_high_s`` each lose the elapsed time, so ``eta + t``
+    stays constant and a row is inside its interval exactly when the work-out's
+    ``ln(actual / eta)`` is inside the table's bounds for the work-out's ``eta``
+    (the table is looked up then, not at the counted-down time). A run of
+    consecutive shown rows with the same ``eta + t`` is one work-out, dated at
+    its first row.
+    """
+    idx = np.nonzero(ok)[0]
+    act = p.actual.copy()
+    eta = p.eta.copy()
+    key = p.eta + p.t
+    first = -1
+    for j, i in enumerate(idx):
+        if j == 0 or i != idx[j - 1] + 1 or abs(key[i] - key[idx[j - 1]]) > 1e-6 * (
+                1.0 + abs(key[i])):
+            first = i
+        act[i] = p.actual[first]
+        eta[i] = p.eta[first]
+    return act, eta
+
+
 def _ratio_rows(pairs):
-    """(r, eta, weight, pair index) over the shown rows with a positive ETA."""
+    """(r, eta, weight, pair index) over the shown rows with a positive ETA, each row
+    as at the device's work-out of its answer (:func:`_at_work_out`)."""
     rs, etas, ws, idx = [], [], [], []
     for j, p in enumerate(pairs):
         ok = p.shown & np.isfinite(p.eta) & (p.eta > 0.0) & (p.actual > 0.0)
         if not np.any(ok):
             continue
-        rs.append(np.log(p.actual[ok] / p.eta[ok]))
-        etas.append(p.eta[ok])
+        act, eta = _at_work_out(p, ok)
+        rs.append(np.log(act[ok] / eta[ok]))
+        etas.append(eta[ok])
         ws.append(np.full(int(np.sum(ok)), 1.0 / np.sum(ok)))
         idx.append(np.full(int(np.sum(ok)), j))
     if not rs:

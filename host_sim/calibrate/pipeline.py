@@ -31,8 +31,10 @@
    known, so the default ``+-1.28 rate_log_sd``, which the answer uses only
    to reject a failing profile) towards three targets along its approach
    (30 %, 55 %, 80 % of the way), and ``r = ln(actual / predicted remaining
-   time)`` is collected on every row the device shows an answer: the table
-   describes the answers the device gives with the profile. The 10 % and 90 %
+   time)`` is collected on every row the device shows an answer, as at the
+   answer's work-out (the device looks the table up then and counts the bounds
+   down with the answer until the next block): the table describes the answers
+   the device gives with the profile. The 10 % and 90 %
    points of ``r`` per horizon bin (predicted remaining time below 60 s,
    60-300 s, 300-1200 s, above) are split-conformal quantiles: each
    (trace, target) pair weighs the same, the levels are widened by the

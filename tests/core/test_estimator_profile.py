@@ -141,13 +141,31 @@ def test_the_right_profile_with_a_narrow_table_is_kept_on_its_own_liquid():
     assert fast.profile_reason == 0
 
 
-def test_another_vessels_rate_is_rejected_early():
-    # the same law's shape at three times the rate: the liquid's fitted rate lies
-    # far outside the profile's spread of rates (rate_log_sd 0.12)
-    fast = dict(MUG, rate_per_s=3.0 / 1400.0)
-    est = ThermalEstimator(profile=VesselProfile(**fast))
-    mug_use(est, 40.0, 300.0)
-    assert est.profile_reason == PROFILE_REJECTED
+def rejected_at_s(rate_factor, seconds):
+    """When the mug's law at ``rate_factor`` times its rate is dropped on the mug's liquid
+    (s after the pour), or None."""
+    other = dict(MUG, rate_per_s=rate_factor / 1400.0)
+    est = ThermalEstimator(profile=VesselProfile(**other))
+    seen = [None]
+
+    def row(t, liquid, code):
+        if seen[0] is None and est.profile_reason == PROFILE_REJECTED:
+            seen[0] = t
+    mug_use(est, 40.0, seconds, on_row=row)
+    return seen[0]
+
+
+def test_another_vessels_rate_is_rejected_young_only_when_it_is_far_off():
+    # The same law's shape at another rate: the liquid's fitted rate lies outside the
+    # profile's spread of rates (rate_log_sd 0.12). Three times the rate (ln 3 / 0.12 =
+    # 9 sds) is dropped in the first minutes; 1.8 times (4.9 sds) only once the fit is
+    # PROFILE_YOUNG_S old (a young fit's slope carries the pour's transient); the
+    # profile's own rate never.
+    gross = rejected_at_s(3.0, 400.0)
+    assert gross is not None and gross <= 120.0, gross
+    mild = rejected_at_s(1.8, 600.0)
+    assert mild is not None and 180.0 <= mild <= 400.0, mild
+    assert rejected_at_s(1.0, 600.0) is None
 
 
 def heat_up(est, seconds, on_row, dt=5.0, seed=9):
@@ -187,6 +205,25 @@ def test_a_heated_profile_answers_in_the_first_minute_and_is_kept():
     assert t >= BATH["probe_lag_s"]  # (no time while the lags hide the slope)
     assert est.profile_reason == 0
 
+
+
+def test_another_vessels_heater_is_rejected_after_three_profile_lags():
+    # The bath's law with a heater ten times as strong (another vessel's): the fitted
+    # slope lies far outside the spread of the profile's law at the duty (gain_rel_sd
+    # 0.15); judged from 3 profile lags on (a ramp seen through a lag has 95 % of its
+    # slope), when the answer falls back to the fit's own. The bath's own is kept.
+    strong = dict(BATH, gain_k_per_s=0.5)
+    est = ThermalEstimator(heater=True, profile=VesselProfile(**strong))
+    when = [None]
+
+    def row(t, temp, code):
+        if est.profile_reason == PROFILE_REJECTED and when[0] is None:
+            when[0] = t
+    heat_up(est, 400.0, row)
+    assert when[0] is not None and 3.0 * BATH["probe_lag_s"] <= when[0] <= 60.0, when
+    own = ThermalEstimator(heater=True, profile=VesselProfile(**BATH))
+    heat_up(own, 1200.0, lambda t, temp, code: None)
+    assert own.profile_reason == 0
 
 
 ANSWER_FIELDS = ("status", "eta_s", "eta_low_s", "eta_high_s", "eta_rel_sd", "rate_per_s",
