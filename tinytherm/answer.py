@@ -36,6 +36,7 @@ import math
 import struct
 
 from tinytherm import status as st
+from tinytherm.drift import DRIFT_SD, Drift, time_to_target_drift_s
 from tinytherm.fit import DUTY_SCALE, SCALE, to_counts
 from tinytherm.num import as_float
 
@@ -280,10 +281,16 @@ def _work_out(est, target, approach):
         return  # not moving, or turning: no honest time
     if est._profile_on and est.heater and age_s < PROFILE_LAG_TIMES * est._profile.probe_lag_s:
         return  # the element's and the probe's lag still hide the heat-up's slope
-    eta = time_to_target_from_slope_s(gap, slope, k)
+    eta = eta0 = time_to_target_from_slope_s(gap, slope, k)
     eta_shape = None  # the time under the profile's law (passive liquids)
     if est._profile_on:
         eta_shape = est._profile.law_for(est, gap, level, slope, var_slope / (slope * slope))
+    # the equilibrium drifting as the audits measured (tinytherm.drift); not with a heater,
+    # a profile or an ambient (the duty, the vessel's law, the air known move it)
+    bd = 0.0 if (est.heater or est._profile_on or est.inputs.known()
+                 or not k > 0.0) else est.audits.drift.rate()
+    if bd != 0.0:
+        eta = time_to_target_drift_s(gap, slope, k, bd)
     open_end = False
     if eta is None and eta_shape is None:
         # beyond the fitted equilibrium E = level + slope / k, by ``over``. E is an
@@ -311,15 +318,23 @@ def _work_out(est, target, approach):
         open_end = True
     # the fit's own variance of ln(eta), times the share model error adds to it,
     # is the prior of what the audits measured
-    own2 = 0.0 if eta is None else eta_rel_var(gap, slope, k, eta, reg, gk)
+    own2 = 0.0 if eta0 is None else eta_rel_var(gap, slope, k, eta0, reg, gk)
     rel2 = DELTA_VAR_FACTOR * own2
     if rel2 < AUDIT_PRIOR_VAR:
         rel2 = AUDIT_PRIOR_VAR
     # model error: k off by RATE_MODEL_SD of itself moves ln(eta) by that times
     # d ln(eta) / d ln(k) at the measured slope, q / ((1 - q) k eta) - 1 (q = k gap / slope)
     q = k * gap / slope
-    b = 0.0 if eta is None else RATE_MODEL_SD * (
-        q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * eta) - 1.0)
+    b = 0.0 if eta0 is None else RATE_MODEL_SD * (
+        q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * eta0) - 1.0)
+    if bd != 0.0:
+        # the drift off by DRIFT_SD of itself either way: half that log-range, one sd more
+        fast = time_to_target_drift_s(gap, slope, k, bd * (1.0 + DRIFT_SD))
+        slow = time_to_target_drift_s(gap, slope, k, bd * (1.0 - DRIFT_SD))
+        if fast is None or slow is None or not fast > 0.0 or not slow > 0.0:
+            open_end = True
+        else:
+            b = math.sqrt(b * b + 0.25 * math.log(fast / slow) ** 2)
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
     est.eta_s = eta
@@ -492,11 +507,12 @@ class Audit:
     def due(self, age_s):
         return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
 
-    def check(self, law, age_s, level, slope, rate, need_c):
+    def check(self, law, age_s, level, slope, rate, need_c, drift=None):
         """Learn from the waiting forecast if due, then start a new one.
 
         ``law.forecast_s(moved_c, level_c, slope, rate)`` gives the seconds the
-        answer's law takes for a change (the estimator's own law).
+        answer's law takes for a change (the estimator's own law); ``drift``: the
+        :class:`tinytherm.drift.Drift` that learns the equilibrium's move, or None.
         """
         if self.age >= 0.0:
             took = age_s - self.age
@@ -519,6 +535,9 @@ class Audit:
                 if old < AUDIT_MEMORY:
                     self.n = old + 1
                 self.var = (old * self.var + err * err) / (old + 1.0)
+                if drift is not None:
+                    drift.learn(self.age, self.level, self.slope, self.rate, level, slope, rate,
+                                took)
         self.age = age_s
         self.level = level
         self.slope = slope
@@ -531,6 +550,7 @@ class Audits:
     STATE_SIZE = 3 * (5 * 8 + 1)
 
     def __init__(self):
+        self.drift = Drift()  # the equilibrium's drift the checks measured (saved on its own)
         self.a = (Audit(AUDIT_FRACTIONS[0], AUDIT_MIN_S[0]),
                   Audit(AUDIT_FRACTIONS[1], AUDIT_MIN_S[1]),
                   Audit(AUDIT_FRACTIONS[2], AUDIT_MIN_S[2]))
@@ -539,12 +559,13 @@ class Audits:
         for a in self.a:
             a.var = 0.0
             a.n = 0
-            a.clear()
+        self.clear()
 
     def clear(self):
-        """Drop the waiting forecasts (the duty changed, or the fit restarted)."""
+        """Drop the waiting forecasts and the drift (the duty changed, or the fit restarted)."""
         for a in self.a:
             a.clear()
+        self.drift.reset()
 
     def any_due(self, age_s):
         """True when at least one audit would act at this age (most blocks: none)."""

@@ -511,8 +511,9 @@ class ThermalEstimator(Answer):
             if self.reg.ok:
                 self._level_and_slope()  # (as a restore derives them from the new solution)
             return
+        drift = None if self.heater else self.audits.drift
         for a in self.audits.a:
-            a.check(self, age, self._level, slope, self.reg.k, need)
+            a.check(self, age, self._level, slope, self.reg.k, need, drift)
 
     def _slope_ahead(self):
         """Slope at the fitted level under the air the future will see, deg C/s.
