@@ -289,9 +289,14 @@ def _work_out(est, target, approach):
     # a profile or an ambient (the duty, the vessel's law, the air known move it)
     bd = 0.0 if (est.heater or est._profile_on or est.inputs.known()
                  or not k > 0.0) else est.audits.drift.rate()
+    open_end = False
     if bd != 0.0:
         eta = time_to_target_drift_s(gap, slope, k, bd)
-    open_end = False
+        if eta is None:
+            bd = 0.0
+            if eta0 is not None:
+                eta = eta0  # never at the drift measured, at a slower one in time: no upper bound
+                open_end = True
     if eta is None and eta_shape is None:
         # beyond the fitted equilibrium E = level + slope / k, by ``over``. E is an
         # extrapolation: a rate that bends on the way (a coolant warming, a slow
@@ -318,15 +323,16 @@ def _work_out(est, target, approach):
         open_end = True
     # the fit's own variance of ln(eta), times the share model error adds to it,
     # is the prior of what the audits measured
-    own2 = 0.0 if eta0 is None else eta_rel_var(gap, slope, k, eta0, reg, gk)
+    law = eta if bd == 0.0 else eta0  # the time under the fitted law (a fixed equilibrium)
+    own2 = 0.0 if law is None else eta_rel_var(gap, slope, k, law, reg, gk)
     rel2 = DELTA_VAR_FACTOR * own2
     if rel2 < AUDIT_PRIOR_VAR:
         rel2 = AUDIT_PRIOR_VAR
     # model error: k off by RATE_MODEL_SD of itself moves ln(eta) by that times
     # d ln(eta) / d ln(k) at the measured slope, q / ((1 - q) k eta) - 1 (q = k gap / slope)
     q = k * gap / slope
-    b = 0.0 if eta0 is None else RATE_MODEL_SD * (
-        q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * eta0) - 1.0)
+    b = 0.0 if law is None else RATE_MODEL_SD * (
+        q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * law) - 1.0)
     if bd != 0.0:
         # the drift off by DRIFT_SD of itself either way: half that log-range, one sd more
         fast = time_to_target_drift_s(gap, slope, k, bd * (1.0 + DRIFT_SD))
