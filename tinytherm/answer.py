@@ -36,7 +36,7 @@ import math
 import struct
 
 from tinytherm import status as st
-from tinytherm.drift import DRIFT_SD, Drift, time_to_target_drift_s
+from tinytherm import drift
 from tinytherm.fit import DUTY_SCALE, SCALE, to_counts
 from tinytherm.num import as_float
 
@@ -291,7 +291,7 @@ def _work_out(est, target, approach):
                  or not k > 0.0) else est.audits.drift.rate()
     open_end = False
     if bd != 0.0:
-        eta = time_to_target_drift_s(gap, slope, k, bd)
+        eta = drift.time_to_target_drift_s(gap, slope, k, bd)
         if eta is None:
             bd = 0.0
             if eta0 is not None:
@@ -335,8 +335,8 @@ def _work_out(est, target, approach):
         q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * law) - 1.0)
     if bd != 0.0:
         # the drift off by DRIFT_SD of itself either way: half that log-range, one sd more
-        fast = time_to_target_drift_s(gap, slope, k, bd * (1.0 + DRIFT_SD))
-        slow = time_to_target_drift_s(gap, slope, k, bd * (1.0 - DRIFT_SD))
+        fast = drift.time_to_target_drift_s(gap, slope, k, bd * (1.0 + drift.DRIFT_SD))
+        slow = drift.time_to_target_drift_s(gap, slope, k, bd * (1.0 - drift.DRIFT_SD))
         if fast is None or slow is None or not fast > 0.0 or not slow > 0.0:
             open_end = True
         else:
@@ -513,11 +513,11 @@ class Audit:
     def due(self, age_s):
         return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
 
-    def check(self, law, age_s, level, slope, rate, need_c, drift=None):
+    def check(self, law, age_s, level, slope, rate, need_c, moves=None):
         """Learn from the waiting forecast if due, then start a new one.
 
         ``law.forecast_s(moved_c, level_c, slope, rate)`` gives the seconds the
-        answer's law takes for a change (the estimator's own law); ``drift``: the
+        answer's law takes for a change (the estimator's own law); ``moves``: the
         :class:`tinytherm.drift.Drift` that learns the equilibrium's move, or None.
         """
         if self.age >= 0.0:
@@ -541,8 +541,8 @@ class Audit:
                 if old < AUDIT_MEMORY:
                     self.n = old + 1
                 self.var = (old * self.var + err * err) / (old + 1.0)
-                if drift is not None:
-                    drift.learn(self.age, self.level, self.slope, self.rate, level, slope, rate,
+                if moves is not None:
+                    moves.learn(self.age, self.level, self.slope, self.rate, level, slope, rate,
                                 took)
         self.age = age_s
         self.level = level
@@ -556,7 +556,7 @@ class Audits:
     STATE_SIZE = 3 * (5 * 8 + 1)
 
     def __init__(self):
-        self.drift = Drift()  # the equilibrium's drift the checks measured (saved on its own)
+        self.drift = drift.Drift()  # the equilibrium's drift the checks measured (saved on its own)
         self.a = (Audit(AUDIT_FRACTIONS[0], AUDIT_MIN_S[0]),
                   Audit(AUDIT_FRACTIONS[1], AUDIT_MIN_S[1]),
                   Audit(AUDIT_FRACTIONS[2], AUDIT_MIN_S[2]))
