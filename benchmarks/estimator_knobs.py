@@ -25,10 +25,10 @@ ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 if ROOT not in sys.path:
     sys.path.insert(0, ROOT)
 
-from tinytherm import answer, drift, estimator, settle  # noqa: E402
+from tinytherm import answer, estimator, settle  # noqa: E402
 from tinytherm.estimator import ThermalEstimator  # noqa: E402
 
-MODULES = (answer, estimator, settle, drift)  # where a knob's constant is looked up, in this order
+MODULES = (answer, estimator, settle)  # where a knob's constant is looked up, in this order
 
 # constants the core derives from a knob at import: (module, derived, knob, function)
 DERIVED = (

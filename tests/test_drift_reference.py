@@ -1,4 +1,4 @@
-"""The equilibrium's drift (tinytherm.drift) against outside references (CPython only).
+"""The equilibrium's drift (tinytherm.answer) against outside references (CPython only).
 
 References: scipy.integrate.solve_ivp (DOP853, rtol = atol = 1e-10) integrates
 the law with a drifting equilibrium, ``dT/dt = -k (T - E0 - b t)``, and
@@ -13,9 +13,9 @@ import pytest
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
-from tinytherm import drift
+from tinytherm import answer as drift
 from tinytherm import status as st
-from tinytherm.drift import time_to_target_drift_s
+from tinytherm.answer import time_to_target_drift_s
 from tinytherm.estimator import ThermalEstimator
 
 

@@ -29,6 +29,15 @@ the age of the fit that made it: a start-up extrapolated says nothing of it)::
 longest audit the variance grows with the horizon, at most
 :data:`AUDIT_STRETCH` times).
 
+The equilibrium's drift (no heater, profile or ambient: what moves ``E`` is then
+unknown, an immersion coil's coolant warming, a tub and its wort cooling together):
+the audits also see the fitted ``E = level + slope / k`` at each start and check,
+once the fit then had bent through :data:`DRIFT_BEND` time constants, and keep
+``b = sum (E_now - E_then) / sum took``, each sum kept :data:`DRIFT_KEEP` per check.
+The time is then that of ``dT/dt = -k (T - E(t))``, ``E(t) = E + DRIFT_SHARE b t``
+(:func:`time_to_target_drift_s`), and the drift :data:`DRIFT_SD` of itself smaller
+gives one more sd of ln(eta) (never arriving so: no upper bound).
+
 A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`) gets an
 open-ended time (why: at its code). Runs on CPython and MicroPython.
 """
@@ -36,7 +45,6 @@ import math
 import struct
 
 from tinytherm import status as st
-from tinytherm import drift
 from tinytherm.fit import DUTY_SCALE, SCALE, to_counts
 from tinytherm.num import as_float
 
@@ -53,93 +61,6 @@ _INV = 1.0 / SCALE
 _IX_TO_CS = 1.0 / (2000 * SCALE)  # doubled count ms -> deg C s
 _IV_TO_S = 1.0 / (1000 * DUTY_SCALE)  # duty-count ms -> s at full duty
 _ARRIVE_MIN_MS = int(ARRIVE_MIN_S * 1000)
-
-
-def normal_quantile(p):
-    """Standard normal quantile ``z`` with ``P(Z <= z) = p``, for 0 < p < 1.
-
-    Rational approximation of Abramowitz & Stegun, Handbook of Mathematical
-    Functions, formula 26.2.23 (absolute error < 4.5e-4); exactly 0 at 0.5.
-    Raises ValueError outside (0, 1).
-    """
-    if not 0.0 < p < 1.0:
-        raise ValueError("p must be in (0, 1)")
-    if p == 0.5:
-        return 0.0
-    q = p if p < 0.5 else 1.0 - p
-    t = math.sqrt(-2.0 * math.log(q))
-    z = t - (2.515517 + 0.802853 * t + 0.010328 * t * t) / (
-        1.0 + 1.432788 * t + 0.189269 * t * t + 0.001308 * t * t * t)
-    return -z if p < 0.5 else z
-
-
-class Answer:
-    """What ``predict`` tells the product: a base class of the estimator, which
-    carries these fields itself (all ``None`` when unknown):
-
-    ``status`` (a :mod:`tinytherm.status` code), ``eta_s``, ``eta_low_s``,
-    ``eta_high_s`` (seconds after the latest reading; ``eta_high_s`` may be
-    ``inf``), ``eta_rel_sd`` (sd of ln eta), ``rate_per_s`` (1/s),
-    ``equilibrium_c``, ``ambient_est_c``, ``temp_est_c`` (deg C) and
-    ``gain_k_per_s`` (K/s at full duty).
-
-    The cache: the fit generation, target and approach it was worked out
-    for, the fit's age then (ms), and the reading (counts) at or beyond
-    which it becomes an arrival.
-    """
-
-    def forget(self):
-        """Invalidate the cache (the next ``predict`` works the answer out)."""
-        self._for_gen = -1
-        self._for_target = None
-        self._for_approach = 0
-        self._for_age_ms = 0
-        self._arrive_dir = 0    # +1 / -1: arrival once the reading is >= / <= arrive_c
-        self._arrive_c = 0      # counts
-        self._hold_c = 0        # counts: a reading back beyond it (a top-up) ends an arrival
-
-    def clear(self, code):
-        self.status = code
-        self.eta_s = None
-        self.eta_low_s = None
-        self.eta_high_s = None
-        self.eta_rel_sd = None
-        self.rate_per_s = None
-        self.equilibrium_c = None
-        self.ambient_est_c = None
-        self.gain_k_per_s = 0.0
-        self.temp_est_c = None
-
-    def arrive(self):
-        self.status = st.ARRIVED
-        self.eta_s = 0.0
-        self.eta_low_s = 0.0
-        self.eta_high_s = 0.0
-        self.eta_rel_sd = None  # (as when worked out: a restored run arrives the same)
-
-    def count_down(self, age_ms, force=False):
-        """Move the cached times on to a fit ``age_ms`` old.
-
-        False when the time would pass 0 (the answer must be worked out
-        again), unless ``force``: then it stops at 0.
-        """
-        if self.eta_s is None or self.status == st.ARRIVED:
-            return True
-        el = (age_ms - self._for_age_ms) * 0.001
-        if el <= 0.0:
-            return True
-        eta = self.eta_s - el
-        if not eta > 0.0:
-            if not force:
-                return False
-            eta = 0.0
-        self.eta_s = eta
-        low = self.eta_low_s - el
-        self.eta_low_s = low if low > 0.0 else 0.0
-        high = self.eta_high_s - el
-        self.eta_high_s = high if high > eta else eta
-        self._for_age_ms = age_ms
-        return True
 
 
 def predict(self, target_c, approach=0):
@@ -285,13 +206,13 @@ def _work_out(est, target, approach):
     eta_shape = None  # the time under the profile's law (passive liquids)
     if est._profile_on:
         eta_shape = est._profile.law_for(est, gap, level, slope, var_slope / (slope * slope))
-    # the equilibrium drifting as the audits measured (tinytherm.drift); not with a heater,
-    # a profile or an ambient (the duty, the vessel's law, the air known move it)
+    # the equilibrium drifting as the audits measured; not with a heater, a profile or an
+    # ambient (the duty, the vessel's law, the air known move it)
     bd = 0.0 if (est.heater or est._profile_on or est.inputs.known()
-                 or not k > 0.0) else est.audits.drift.rate()
+                 or not k > 0.0) else est.audits.drift_rate()
     open_end = False
     if bd != 0.0:
-        eta = drift.time_to_target_drift_s(gap, slope, k, bd)
+        eta = time_to_target_drift_s(gap, slope, k, bd)
         if eta is None:
             bd = 0.0
             if eta0 is not None:
@@ -324,7 +245,7 @@ def _work_out(est, target, approach):
     # the fit's own variance of ln(eta), times the share model error adds to it,
     # is the prior of what the audits measured
     law = eta if bd == 0.0 else eta0  # the time under the fitted law (a fixed equilibrium)
-    own2 = 0.0 if law is None else eta_rel_var(gap, slope, k, law, reg, gk)
+    own2 = 0.0 if law is None else reg.eta_rel_var(gap, slope, k, law, gk)
     rel2 = DELTA_VAR_FACTOR * own2
     if rel2 < AUDIT_PRIOR_VAR:
         rel2 = AUDIT_PRIOR_VAR
@@ -334,13 +255,14 @@ def _work_out(est, target, approach):
     b = 0.0 if law is None else RATE_MODEL_SD * (
         q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * law) - 1.0)
     if bd != 0.0:
-        # the drift off by DRIFT_SD of itself either way: half that log-range, one sd more
-        fast = drift.time_to_target_drift_s(gap, slope, k, bd * (1.0 + drift.DRIFT_SD))
-        slow = drift.time_to_target_drift_s(gap, slope, k, bd * (1.0 - drift.DRIFT_SD))
-        if fast is None or slow is None or not fast > 0.0 or not slow > 0.0:
+        # the drift DRIFT_SD of itself smaller moves ln(eta) by one sd more; when it never
+        # arrives so, no upper bound, and the drift as much larger gives that sd
+        other = time_to_target_drift_s(gap, slope, k, bd * (1.0 - DRIFT_SD))
+        if other is None:
             open_end = True
-        else:
-            b = math.sqrt(b * b + 0.25 * math.log(fast / slow) ** 2)
+            other = time_to_target_drift_s(gap, slope, k, bd * (1.0 + DRIFT_SD))
+        if other is not None and other > 0.0:
+            b = math.sqrt(b * b + math.log(other / eta) ** 2)
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
     est.eta_s = eta
@@ -407,32 +329,6 @@ def _backed_off(est, m):
     return x is not None and (to_counts(x) - est._hold_c) * m < 0
 
 
-def eta_rel_var(gap, slope, k, eta, reg, gk):
-    """Delta-method variance of ln(eta), eta = time_to_target_from_slope_s(gap, slope, k).
-
-    ``gap`` (deg C) is the distance from the fitted level; the level and the
-    slope are linear in the fit's (mean, s, k, g): d level = (1, t, -x, v),
-    d slope = (0, 1, gk, 0). ``reg``: the :class:`tinytherm.fit.Regression`.
-    """
-    q = k * gap / slope
-    if -1e-4 < q < 1e-4:
-        de_dk = gap * gap / (slope * slope) * (0.5 + q / 1.5)
-    else:
-        de_dk = (math.log(1.0 - q) + q / (1.0 - q)) / (k * k)
-    de_dl = -1.0 / (slope * (1.0 - q))      # d eta / d level
-    de_ds = gap * de_dl / slope             # d eta / d slope
-    a_s = de_dl * reg.t + de_ds
-    a_k = -de_dl * reg.x + de_ds * gk + de_dk
-    var = (de_dl * de_dl * reg.var_my + a_s * a_s * reg.pss + a_k * a_k * reg.pkk
-           + 2.0 * a_s * a_k * reg.psk)
-    if reg.heater:
-        a_g = de_dl * reg.v
-        var += a_g * (a_g * reg.pgg + 2.0 * (a_s * reg.psg + a_k * reg.pkg))
-    if not var > 0.0 or not eta > 0.0:
-        return 0.0
-    return var / (eta * eta)
-
-
 def spread(z_sd):
     """exp(z_sd), inf beyond exp(50) (dimensionless)."""
     return math.exp(z_sd) if z_sd < 50.0 else INF
@@ -475,6 +371,37 @@ def time_to_target_from_slope_s(gap_c, slope_c_per_s, rate_per_s):
         return None
 
 
+def time_to_target_drift_s(gap_c, slope_c_per_s, rate_per_s, drift_c_per_s):
+    """Seconds until the liquid has moved ``gap_c`` deg C, its equilibrium drifting.
+
+    As :func:`time_to_target_from_slope_s` with ``E(t) = E0 + b t``, ``b =
+    drift_c_per_s`` (deg C/s), ``k = rate_per_s`` > 0 (1/s). With ``d = sign(gap)``,
+    ``g(t) = d (b t - A (1 - exp(-k t))) - |gap|``, ``A = (b - slope) / k``, rises from
+    ``-|gap|`` at ``|slope|``; ``g'`` moves monotonically to ``d b``, so ``g`` is convex
+    or concave and Newton's method from 0 converges. None when never reached (``g``
+    peaks below 0, or the slope is away from the target) or for bad input.
+    """
+    k = rate_per_s
+    d = 1.0 if gap_c > 0.0 else -1.0
+    s = slope_c_per_s * d   # towards the target when > 0
+    bd = drift_c_per_s * d
+    if not (k > 0.0 and s > 0.0 and -1e300 < bd < 1e300):
+        return None
+    t = 0.0
+    for _ in range(40):
+        e = math.exp(-k * t)  # (t >= 0: no overflow)
+        dg = bd - (bd - s) * e
+        if not dg > 0.0:
+            return None     # past the peak short of the target: never reached
+        step = (bd * t - (bd - s) * (1.0 - e) / k - gap_c * d) / dg
+        t -= step
+        if t < 0.0 or t > 1e12:
+            return None
+        if -1e-9 * (t + 1.0) < step < 1e-9 * (t + 1.0):
+            return t
+    return None
+
+
 AUDIT_FRACTIONS = (0.125, 0.25, 0.5)  # audit horizons, fractions of the fit's age
 AUDIT_MIN_S = (10.0, 20.0, 40.0)      # s: shortest audit horizons
 AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before any audit (2 % sd)
@@ -482,6 +409,12 @@ DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times thi
 RATE_MODEL_SD = 0.2       # relative sd of the fitted rate k from model error (a bend it cannot see)
 AUDIT_YOUNG = 4.0         # an audit learns only when its horizon was at most this times the fit's age
 #   (the three: leave-one-family-out choices, benchmarks/lofo_coverage.py)
+DRIFT_SHARE = 1.0   # share of the equilibrium's measured drift the answer uses (0: fixed)
+DRIFT_SD = 0.5      # relative sd of that drift (the interval: one sd more at it this much smaller)
+DRIFT_KEEP = 0.75   # weight an older check's move keeps at each new one
+DRIFT_MIN_S = 120.0  # s: horizons summed before the drift is used
+DRIFT_BEND = 1.0    # time constants (k x age) a fit bent through before its E's moves count
+#   (the two above and DRIFT_SD: leave-one-family-out choices)
 AUDIT_MEMORY = 8        # audits in the running mean of squared log errors
 AUDIT_STRETCH = 4.0     # most the longest audit's variance is stretched beyond it
 AUDIT_LOG_CAP = 2.0794  # ln 8: one audit counts at most a factor 8
@@ -513,12 +446,12 @@ class Audit:
     def due(self, age_s):
         return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
 
-    def check(self, law, age_s, level, slope, rate, need_c, moves=None):
+    def check(self, law, age_s, level, slope, rate, need_c, sums=None):
         """Learn from the waiting forecast if due, then start a new one.
 
         ``law.forecast_s(moved_c, level_c, slope, rate)`` gives the seconds the
-        answer's law takes for a change (the estimator's own law); ``moves``: the
-        :class:`tinytherm.drift.Drift` that learns the equilibrium's move, or None.
+        answer's law takes for a change (the estimator's own law); ``sums``: the
+        :class:`Audits` that learn the equilibrium's drift, or None (a heater).
         """
         if self.age >= 0.0:
             took = age_s - self.age
@@ -541,9 +474,14 @@ class Audit:
                 if old < AUDIT_MEMORY:
                     self.n = old + 1
                 self.var = (old * self.var + err * err) / (old + 1.0)
-                if moves is not None:
-                    moves.learn(self.age, self.level, self.slope, self.rate, level, slope, rate,
-                                took)
+                r = self.rate
+                if sums is not None and r > 0.0 and rate > 0.0 and r * self.age >= DRIFT_BEND:
+                    # the equilibrium's move, from a fit bent through DRIFT_BEND time constants
+                    # (before, its E is an extrapolation still converging)
+                    e = level + slope / rate - self.level - self.slope / r
+                    if -1e6 < e < 1e6:
+                        sums.moved = DRIFT_KEEP * sums.moved + e
+                        sums.took = DRIFT_KEEP * sums.took + took
         self.age = age_s
         self.level = level
         self.slope = slope
@@ -551,12 +489,11 @@ class Audit:
 
 
 class Audits:
-    """The three audits; packs their 15 floats and 3 counts."""
+    """The three audits (their 15 floats and 3 counts) and, without a ``heater``, the
+    equilibrium's drift they measured: its weighted sums (:meth:`drift_rate`)."""
 
-    STATE_SIZE = 3 * (5 * 8 + 1)
-
-    def __init__(self):
-        self.drift = drift.Drift()  # the equilibrium's drift the checks measured (saved on its own)
+    def __init__(self, heater=False):
+        self.STATE_SIZE = 3 * (5 * 8 + 1) + (0 if heater else 16)
         self.a = (Audit(AUDIT_FRACTIONS[0], AUDIT_MIN_S[0]),
                   Audit(AUDIT_FRACTIONS[1], AUDIT_MIN_S[1]),
                   Audit(AUDIT_FRACTIONS[2], AUDIT_MIN_S[2]))
@@ -571,7 +508,15 @@ class Audits:
         """Drop the waiting forecasts and the drift (the duty changed, or the fit restarted)."""
         for a in self.a:
             a.clear()
-        self.drift.reset()
+        self.moved = 0.0   # deg C: weighted sum of the fitted equilibrium's moves
+        self.took = 0.0    # s: weighted sum of the horizons they took
+
+    def drift_rate(self):
+        """The equilibrium's drift the answer uses, deg C/s (module docstring): 0.0 until
+        the checks span :data:`DRIFT_MIN_S`."""
+        if self.took < DRIFT_MIN_S:
+            return 0.0
+        return DRIFT_SHARE * self.moved / self.took
 
     def any_due(self, age_s):
         """True when at least one audit would act at this age (most blocks: none)."""
@@ -613,6 +558,8 @@ class Audits:
         for a in self.a:
             struct.pack_into("<5dB", buf, offset, a.age, a.level, a.slope, a.rate, a.var, a.n)
             offset += 41
+        if self.STATE_SIZE > 123:
+            struct.pack_into("<2d", buf, offset, self.moved, self.took)
 
     def unpack_from(self, buf, offset, age_s):
         """Load; False when a value is impossible (the caller resets)."""
@@ -624,4 +571,9 @@ class Audits:
                     and -1e6 < level < 1e6 and -1e6 < slope < 1e6 and -1e6 < rate < 1e6):
                 return False
             a.age, a.level, a.slope, a.rate, a.var, a.n = age, level, slope, rate, var, n
+        if self.STATE_SIZE > 123:
+            moved, took = struct.unpack_from("<2d", buf, offset)
+            if not (-1e9 < moved < 1e9 and 0.0 <= took < 1e12):
+                return False
+            self.moved, self.took = moved, took
         return True

@@ -36,12 +36,12 @@ import math
 from tinytherm import blob as bl
 from tinytherm import status as st
 from tinytherm import answer, fit
-from tinytherm.answer import Answer, normal_quantile
+from tinytherm.status import Answer
 from tinytherm.change import ChangeDetector
 from tinytherm.crc import crc32
 from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
-from tinytherm.num import as_float, number
+from tinytherm.num import as_float, normal_quantile, number
 from tinytherm.settle import Settle
 
 # Fixed choices (module constants, not arguments: no product needs another value).
@@ -133,7 +133,7 @@ class ThermalEstimator(Answer):
         self.noise = fit.Noise(self.guard.quantum_c)
         self.blocks = fit.BlockSums()
         self.reg = fit.Regression(heater)
-        self.audits = answer.Audits()
+        self.audits = answer.Audits(heater)
         # the ambient prior: where the room usually is and its sd, deg C
         self._prior = (float(ambient_prior_c), float(ambient_prior_sd_c))
         self.settle = Settle()  # whether the probe has met the liquid (no direction given)
@@ -511,9 +511,9 @@ class ThermalEstimator(Answer):
             if self.reg.ok:
                 self._level_and_slope()  # (as a restore derives them from the new solution)
             return
-        drift = None if self.heater else self.audits.drift
+        sums = None if self.heater else self.audits
         for a in self.audits.a:
-            a.check(self, age, self._level, slope, self.reg.k, need, drift)
+            a.check(self, age, self._level, slope, self.reg.k, need, sums)
 
     def _slope_ahead(self):
         """Slope at the fitted level under the air the future will see, deg C/s.

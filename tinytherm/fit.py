@@ -523,6 +523,31 @@ class Regression:
             var += v * v * self.pgg + 2.0 * (t * v * self.psg + x * v * self.pkg)
         return var
 
+    def eta_rel_var(self, gap, slope, k, eta, gk):
+        """Delta-method variance of ln(eta), eta = the answer's time to move ``gap`` deg C
+        from the fitted level at ``slope`` (deg C/s) and rate ``k`` (1/s), first order.
+
+        The level and the slope are linear in the fit's (mean, s, k, g): d level =
+        (1, t, -x, v), d slope = (0, 1, gk, 0).
+        """
+        q = k * gap / slope
+        if -1e-4 < q < 1e-4:
+            de_dk = gap * gap / (slope * slope) * (0.5 + q / 1.5)
+        else:
+            de_dk = (math.log(1.0 - q) + q / (1.0 - q)) / (k * k)
+        de_dl = -1.0 / (slope * (1.0 - q))      # d eta / d level
+        de_ds = gap * de_dl / slope             # d eta / d slope
+        a_s = de_dl * self.t + de_ds
+        a_k = -de_dl * self.x + de_ds * gk + de_dk
+        var = (de_dl * de_dl * self.var_my + a_s * a_s * self.pss + a_k * a_k * self.pkk
+               + 2.0 * a_s * a_k * self.psk)
+        if self.heater:
+            a_g = de_dl * self.v
+            var += a_g * (a_g * self.pgg + 2.0 * (a_s * self.psg + a_k * self.pkg))
+        if not var > 0.0 or not eta > 0.0:
+            return 0.0
+        return var / (eta * eta)
+
     def pack_into(self, buf, offset):
         for i in range(self._saved):
             struct.pack_into("<d", buf, offset, getattr(self, self._NAMES[i]))

@@ -16,8 +16,7 @@ Payload (little-endian), after the frame's 8-byte header::
     22      1     readings in the block of that extreme (uint8)
     23      4     the air ahead at the last block close, 1/65536 deg C (int32)
     27      ...   the parts in turn, each ``STATE_SIZE`` bytes: guard,
-                  change detector, inputs, noise, block sums, regression, audits, settle,
-                  and without a heater the equilibrium's drift (tinytherm.drift)
+                  change detector, inputs, noise, block sums, regression, audits, settle
 
 The fit's solution is derived: ``restore`` solves again as at the last block
 close, so an uninterrupted run and one saved and restored on every reading
@@ -60,11 +59,8 @@ def save(est):
     return bl.seal(buf)
 
 def parts(est):
-    if est.heater:  # (the equilibrium's drift is not used with a heater: no room for it)
-        return (est.guard, est.detector, est.inputs, est.noise, est.blocks, est.reg,
-                est.audits, est.settle)
     return (est.guard, est.detector, est.inputs, est.noise, est.blocks, est.reg,
-            est.audits, est.settle, est.audits.drift)
+            est.audits, est.settle)
 
 def restore(est, blob):
     """Load a blob written by :meth:`save`; returns a ``tinytherm.blob`` code.
