@@ -31,12 +31,13 @@ longest audit the variance grows with the horizon, at most
 
 The equilibrium's drift (no heater, profile or ambient: what moves ``E`` is then
 unknown, an immersion coil's coolant warming, a tub and its wort cooling together):
-the audits also see the fitted ``E = level + slope / k`` at each start and check,
-once the fit then had bent through :data:`DRIFT_BEND` time constants, and keep
-``b = sum (E_now - E_then) / sum took``, each sum kept :data:`DRIFT_KEEP` per check.
-The time is then that of ``dT/dt = -k (T - E(t))``, ``E(t) = E + DRIFT_SHARE b t``
-(:func:`time_to_target_drift_s`), and the drift :data:`DRIFT_SD` of itself smaller
-gives one more sd of ln(eta) (never arriving so: no upper bound).
+the longest audit's waiting forecast holds the fit when it started, so its fitted
+``E = level + slope / k`` then and now give ``b = (E_now - E_then) / (age_now -
+age_then)`` (once the fit then had bent through :data:`DRIFT_BEND` time constants,
+over at least :data:`DRIFT_MIN_S`). The time is then that of ``dT/dt = -k (T -
+E(t))``, ``E(t) = E + b t`` (:func:`tinytherm.fit.time_to_target_drift_s`), and the drift
+:data:`DRIFT_SD` of itself smaller gives one more sd of ln(eta) (never arriving
+so: no upper bound).
 
 A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`) gets an
 open-ended time (why: at its code). Runs on CPython and MicroPython.
@@ -46,7 +47,8 @@ import struct
 
 from tinytherm import status as st
 from tinytherm.fit import DUTY_SCALE, SCALE, to_counts
-from tinytherm.num import as_float
+from tinytherm.num import as_float, spread
+from tinytherm.fit import time_to_target_drift_s  # (its own line: merged above, the 24 h run at 82K failed, measured)
 
 INF = math.inf
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
@@ -206,10 +208,15 @@ def _work_out(est, target, approach):
     eta_shape = None  # the time under the profile's law (passive liquids)
     if est._profile_on:
         eta_shape = est._profile.law_for(est, gap, level, slope, var_slope / (slope * slope))
-    # the equilibrium drifting as the audits measured; not with a heater, a profile or an
-    # ambient (the duty, the vessel's law, the air known move it)
-    bd = 0.0 if (est.heater or est._profile_on or est.inputs.known()
-                 or not k > 0.0) else est.audits.drift_rate()
+    # the equilibrium's drift since the longest audit started (its waiting forecast holds
+    # the fit then); not with a heater, a profile or an ambient (the duty, the vessel's law,
+    # the air known move it)
+    bd = 0.0
+    a = est.audits.a[2]
+    r = a.rate
+    if not (est.heater or est._profile_on or est.inputs.known()) and k > 0.0 and r > 0.0 \
+            and r * a.age >= DRIFT_BEND and age_s - a.age >= DRIFT_MIN_S:
+        bd = (level + slope / k - a.level - a.slope / r) / (age_s - a.age)
     open_end = False
     if bd != 0.0:
         eta = time_to_target_drift_s(gap, slope, k, bd)
@@ -255,13 +262,12 @@ def _work_out(est, target, approach):
     b = 0.0 if law is None else RATE_MODEL_SD * (
         q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * law) - 1.0)
     if bd != 0.0:
-        # the drift DRIFT_SD of itself smaller moves ln(eta) by one sd more; when it never
-        # arrives so, no upper bound, and the drift as much larger gives that sd
+        # the drift DRIFT_SD of itself smaller moves ln(eta) by one sd more (when it never
+        # arrives so: no upper bound)
         other = time_to_target_drift_s(gap, slope, k, bd * (1.0 - DRIFT_SD))
         if other is None:
             open_end = True
-            other = time_to_target_drift_s(gap, slope, k, bd * (1.0 + DRIFT_SD))
-        if other is not None and other > 0.0:
+        elif other > 0.0:
             b = math.sqrt(b * b + math.log(other / eta) ** 2)
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
@@ -329,11 +335,6 @@ def _backed_off(est, m):
     return x is not None and (to_counts(x) - est._hold_c) * m < 0
 
 
-def spread(z_sd):
-    """exp(z_sd), inf beyond exp(50) (dimensionless)."""
-    return math.exp(z_sd) if z_sd < 50.0 else INF
-
-
 def time_to_target_from_slope_s(gap_c, slope_c_per_s, rate_per_s):
     """Seconds until the liquid has moved ``gap_c`` deg C (target minus now).
 
@@ -371,37 +372,6 @@ def time_to_target_from_slope_s(gap_c, slope_c_per_s, rate_per_s):
         return None
 
 
-def time_to_target_drift_s(gap_c, slope_c_per_s, rate_per_s, drift_c_per_s):
-    """Seconds until the liquid has moved ``gap_c`` deg C, its equilibrium drifting.
-
-    As :func:`time_to_target_from_slope_s` with ``E(t) = E0 + b t``, ``b =
-    drift_c_per_s`` (deg C/s), ``k = rate_per_s`` > 0 (1/s). With ``d = sign(gap)``,
-    ``g(t) = d (b t - A (1 - exp(-k t))) - |gap|``, ``A = (b - slope) / k``, rises from
-    ``-|gap|`` at ``|slope|``; ``g'`` moves monotonically to ``d b``, so ``g`` is convex
-    or concave and Newton's method from 0 converges. None when never reached (``g``
-    peaks below 0, or the slope is away from the target) or for bad input.
-    """
-    k = rate_per_s
-    d = 1.0 if gap_c > 0.0 else -1.0
-    s = slope_c_per_s * d   # towards the target when > 0
-    bd = drift_c_per_s * d
-    if not (k > 0.0 and s > 0.0 and -1e300 < bd < 1e300):
-        return None
-    t = 0.0
-    for _ in range(40):
-        e = math.exp(-k * t)  # (t >= 0: no overflow)
-        dg = bd - (bd - s) * e
-        if not dg > 0.0:
-            return None     # past the peak short of the target: never reached
-        step = (bd * t - (bd - s) * (1.0 - e) / k - gap_c * d) / dg
-        t -= step
-        if t < 0.0 or t > 1e12:
-            return None
-        if -1e-9 * (t + 1.0) < step < 1e-9 * (t + 1.0):
-            return t
-    return None
-
-
 AUDIT_FRACTIONS = (0.125, 0.25, 0.5)  # audit horizons, fractions of the fit's age
 AUDIT_MIN_S = (10.0, 20.0, 40.0)      # s: shortest audit horizons
 AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before any audit (2 % sd)
@@ -409,12 +379,10 @@ DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times thi
 RATE_MODEL_SD = 0.2       # relative sd of the fitted rate k from model error (a bend it cannot see)
 AUDIT_YOUNG = 4.0         # an audit learns only when its horizon was at most this times the fit's age
 #   (the three: leave-one-family-out choices, benchmarks/lofo_coverage.py)
-DRIFT_SHARE = 1.0   # share of the equilibrium's measured drift the answer uses (0: fixed)
-DRIFT_SD = 0.5      # relative sd of that drift (the interval: one sd more at it this much smaller)
-DRIFT_KEEP = 0.75   # weight an older check's move keeps at each new one
-DRIFT_MIN_S = 120.0  # s: horizons summed before the drift is used
-DRIFT_BEND = 1.0    # time constants (k x age) a fit bent through before its E's moves count
-#   (the two above and DRIFT_SD: leave-one-family-out choices)
+DRIFT_SD = 0.5      # relative sd of the equilibrium's drift (one sd more at it this much smaller)
+DRIFT_MIN_S = 120.0  # s: least time the drift is measured over
+DRIFT_BEND = 1.0    # time constants (k x age) the fit had bent through at the drift's start
+#   (before, its E is an extrapolation still converging; the three: leave-one-family-out)
 AUDIT_MEMORY = 8        # audits in the running mean of squared log errors
 AUDIT_STRETCH = 4.0     # most the longest audit's variance is stretched beyond it
 AUDIT_LOG_CAP = 2.0794  # ln 8: one audit counts at most a factor 8
@@ -446,12 +414,11 @@ class Audit:
     def due(self, age_s):
         return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
 
-    def check(self, law, age_s, level, slope, rate, need_c, sums=None):
+    def check(self, law, age_s, level, slope, rate, need_c):
         """Learn from the waiting forecast if due, then start a new one.
 
         ``law.forecast_s(moved_c, level_c, slope, rate)`` gives the seconds the
-        answer's law takes for a change (the estimator's own law); ``sums``: the
-        :class:`Audits` that learn the equilibrium's drift, or None (a heater).
+        answer's law takes for a change (the estimator's own law).
         """
         if self.age >= 0.0:
             took = age_s - self.age
@@ -474,14 +441,6 @@ class Audit:
                 if old < AUDIT_MEMORY:
                     self.n = old + 1
                 self.var = (old * self.var + err * err) / (old + 1.0)
-                r = self.rate
-                if sums is not None and r > 0.0 and rate > 0.0 and r * self.age >= DRIFT_BEND:
-                    # the equilibrium's move, from a fit bent through DRIFT_BEND time constants
-                    # (before, its E is an extrapolation still converging)
-                    e = level + slope / rate - self.level - self.slope / r
-                    if -1e6 < e < 1e6:
-                        sums.moved = DRIFT_KEEP * sums.moved + e
-                        sums.took = DRIFT_KEEP * sums.took + took
         self.age = age_s
         self.level = level
         self.slope = slope
@@ -489,11 +448,11 @@ class Audit:
 
 
 class Audits:
-    """The three audits (their 15 floats and 3 counts) and, without a ``heater``, the
-    equilibrium's drift they measured: its weighted sums (:meth:`drift_rate`)."""
+    """The three audits; packs their 15 floats and 3 counts."""
 
-    def __init__(self, heater=False):
-        self.STATE_SIZE = 3 * (5 * 8 + 1) + (0 if heater else 16)
+    STATE_SIZE = 3 * (5 * 8 + 1)
+
+    def __init__(self):
         self.a = (Audit(AUDIT_FRACTIONS[0], AUDIT_MIN_S[0]),
                   Audit(AUDIT_FRACTIONS[1], AUDIT_MIN_S[1]),
                   Audit(AUDIT_FRACTIONS[2], AUDIT_MIN_S[2]))
@@ -502,21 +461,12 @@ class Audits:
         for a in self.a:
             a.var = 0.0
             a.n = 0
-        self.clear()
+            a.clear()
 
     def clear(self):
-        """Drop the waiting forecasts and the drift (the duty changed, or the fit restarted)."""
+        """Drop the waiting forecasts (the duty changed, or the fit restarted)."""
         for a in self.a:
             a.clear()
-        self.moved = 0.0   # deg C: weighted sum of the fitted equilibrium's moves
-        self.took = 0.0    # s: weighted sum of the horizons they took
-
-    def drift_rate(self):
-        """The equilibrium's drift the answer uses, deg C/s (module docstring): 0.0 until
-        the checks span :data:`DRIFT_MIN_S`."""
-        if self.took < DRIFT_MIN_S:
-            return 0.0
-        return DRIFT_SHARE * self.moved / self.took
 
     def any_due(self, age_s):
         """True when at least one audit would act at this age (most blocks: none)."""
@@ -558,8 +508,6 @@ class Audits:
         for a in self.a:
             struct.pack_into("<5dB", buf, offset, a.age, a.level, a.slope, a.rate, a.var, a.n)
             offset += 41
-        if self.STATE_SIZE > 123:
-            struct.pack_into("<2d", buf, offset, self.moved, self.took)
 
     def unpack_from(self, buf, offset, age_s):
         """Load; False when a value is impossible (the caller resets)."""
@@ -571,9 +519,4 @@ class Audits:
                     and -1e6 < level < 1e6 and -1e6 < slope < 1e6 and -1e6 < rate < 1e6):
                 return False
             a.age, a.level, a.slope, a.rate, a.var, a.n = age, level, slope, rate, var, n
-        if self.STATE_SIZE > 123:
-            moved, took = struct.unpack_from("<2d", buf, offset)
-            if not (-1e9 < moved < 1e9 and 0.0 <= took < 1e12):
-                return False
-            self.moved, self.took = moved, took
         return True

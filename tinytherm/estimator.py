@@ -133,7 +133,7 @@ class ThermalEstimator(Answer):
         self.noise = fit.Noise(self.guard.quantum_c)
         self.blocks = fit.BlockSums()
         self.reg = fit.Regression(heater)
-        self.audits = answer.Audits(heater)
+        self.audits = answer.Audits()
         # the ambient prior: where the room usually is and its sd, deg C
         self._prior = (float(ambient_prior_c), float(ambient_prior_sd_c))
         self.settle = Settle()  # whether the probe has met the liquid (no direction given)
@@ -511,9 +511,8 @@ class ThermalEstimator(Answer):
             if self.reg.ok:
                 self._level_and_slope()  # (as a restore derives them from the new solution)
             return
-        sums = None if self.heater else self.audits
         for a in self.audits.a:
-            a.check(self, age, self._level, slope, self.reg.k, need, sums)
+            a.check(self, age, self._level, slope, self.reg.k, need)
 
     def _slope_ahead(self):
         """Slope at the fitted level under the air the future will see, deg C/s.

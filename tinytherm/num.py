@@ -8,7 +8,8 @@
   (a numpy scalar) except ``str``, ``bytes``, ``bytearray`` and ``bool``.
 - :func:`exp`: ``math.exp`` that saturates to 0 or ``inf`` instead of raising
   (MicroPython raises ValueError where CPython raises OverflowError).
-- :func:`normal_quantile`: the standard normal quantile (an interval's half-width in sd).
+- :func:`normal_quantile`: the standard normal quantile (an interval's half-width in sd);
+  :func:`spread`: ``exp`` of that many sd, ``inf`` beyond ``exp(50)``.
 
 Runs unchanged on CPython and MicroPython.
 """
@@ -84,3 +85,8 @@ def normal_quantile(p):
     z = t - (2.515517 + 0.802853 * t + 0.010328 * t * t) / (
         1.0 + 1.432788 * t + 0.189269 * t * t + 0.001308 * t * t * t)
     return -z if p < 0.5 else z
+
+
+def spread(z_sd):
+    """exp(z_sd), inf beyond exp(50) (dimensionless)."""
+    return math.exp(z_sd) if z_sd < 50.0 else INF
