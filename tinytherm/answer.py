@@ -381,7 +381,7 @@ AUDIT_YOUNG = 4.0         # an audit learns only when its horizon was at most th
 #   (the three: leave-one-family-out choices, benchmarks/lofo_coverage.py)
 DRIFT_SD = 0.5      # relative sd of the equilibrium's drift (one sd more at it this much smaller)
 DRIFT_MIN_S = 120.0  # s: least time the drift is measured over
-DRIFT_BEND = 1.0    # time constants (k x age) the fit had bent through at the drift's start
+DRIFT_BEND = 2.0    # time constants (k x age) the fit had bent through at the drift's start
 #   (before, its E is an extrapolation still converging; the three: leave-one-family-out)
 AUDIT_MEMORY = 8        # audits in the running mean of squared log errors
 AUDIT_STRETCH = 4.0     # most the longest audit's variance is stretched beyond it
