@@ -29,6 +29,16 @@ the age of the fit that made it: a start-up extrapolated says nothing of it)::
 longest audit the variance grows with the horizon, at most
 :data:`AUDIT_STRETCH` times).
 
+The equilibrium's drift (no heater, profile or ambient: what moves ``E`` is then
+unknown, an immersion coil's coolant warming, a tub and its wort cooling together):
+the longest audit's waiting forecast holds the fit when it started, so its fitted
+``E = level + slope / k`` then and now give ``b = (E_now - E_then) / (age_now -
+age_then)`` (once the fit then had bent through :data:`DRIFT_BEND` time constants,
+over at least :data:`DRIFT_MIN_S`). The time is then that of ``dT/dt = -k (T -
+E(t))``, ``E(t) = E + b t`` (:func:`tinytherm.fit.time_to_target_drift_s`), and the drift
+:data:`DRIFT_SD` of itself smaller gives one more sd of ln(eta) (never arriving
+so: no upper bound).
+
 A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`) gets an
 open-ended time (why: at its code). Runs on CPython and MicroPython.
 """
@@ -37,7 +47,8 @@ import struct
 
 from tinytherm import status as st
 from tinytherm.fit import DUTY_SCALE, SCALE, to_counts
-from tinytherm.num import as_float
+from tinytherm.num import as_float, spread
+from tinytherm.fit import time_to_target_drift_s  # (its own line: merged above, the 24 h run at 82K failed, measured)
 
 INF = math.inf
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
@@ -52,93 +63,6 @@ _INV = 1.0 / SCALE
 _IX_TO_CS = 1.0 / (2000 * SCALE)  # doubled count ms -> deg C s
 _IV_TO_S = 1.0 / (1000 * DUTY_SCALE)  # duty-count ms -> s at full duty
 _ARRIVE_MIN_MS = int(ARRIVE_MIN_S * 1000)
-
-
-def normal_quantile(p):
-    """Standard normal quantile ``z`` with ``P(Z <= z) = p``, for 0 < p < 1.
-
-    Rational approximation of Abramowitz & Stegun, Handbook of Mathematical
-    Functions, formula 26.2.23 (absolute error < 4.5e-4); exactly 0 at 0.5.
-    Raises ValueError outside (0, 1).
-    """
-    if not 0.0 < p < 1.0:
-        raise ValueError("p must be in (0, 1)")
-    if p == 0.5:
-        return 0.0
-    q = p if p < 0.5 else 1.0 - p
-    t = math.sqrt(-2.0 * math.log(q))
-    z = t - (2.515517 + 0.802853 * t + 0.010328 * t * t) / (
-        1.0 + 1.432788 * t + 0.189269 * t * t + 0.001308 * t * t * t)
-    return -z if p < 0.5 else z
-
-
-class Answer:
-    """What ``predict`` tells the product: a base class of the estimator, which
-    carries these fields itself (all ``None`` when unknown):
-
-    ``status`` (a :mod:`tinytherm.status` code), ``eta_s``, ``eta_low_s``,
-    ``eta_high_s`` (seconds after the latest reading; ``eta_high_s`` may be
-    ``inf``), ``eta_rel_sd`` (sd of ln eta), ``rate_per_s`` (1/s),
-    ``equilibrium_c``, ``ambient_est_c``, ``temp_est_c`` (deg C) and
-    ``gain_k_per_s`` (K/s at full duty).
-
-    The cache: the fit generation, target and approach it was worked out
-    for, the fit's age then (ms), and the reading (counts) at or beyond
-    which it becomes an arrival.
-    """
-
-    def forget(self):
-        """Invalidate the cache (the next ``predict`` works the answer out)."""
-        self._for_gen = -1
-        self._for_target = None
-        self._for_approach = 0
-        self._for_age_ms = 0
-        self._arrive_dir = 0    # +1 / -1: arrival once the reading is >= / <= arrive_c
-        self._arrive_c = 0      # counts
-        self._hold_c = 0        # counts: a reading back beyond it (a top-up) ends an arrival
-
-    def clear(self, code):
-        self.status = code
-        self.eta_s = None
-        self.eta_low_s = None
-        self.eta_high_s = None
-        self.eta_rel_sd = None
-        self.rate_per_s = None
-        self.equilibrium_c = None
-        self.ambient_est_c = None
-        self.gain_k_per_s = 0.0
-        self.temp_est_c = None
-
-    def arrive(self):
-        self.status = st.ARRIVED
-        self.eta_s = 0.0
-        self.eta_low_s = 0.0
-        self.eta_high_s = 0.0
-        self.eta_rel_sd = None  # (as when worked out: a restored run arrives the same)
-
-    def count_down(self, age_ms, force=False):
-        """Move the cached times on to a fit ``age_ms`` old.
-
-        False when the time would pass 0 (the answer must be worked out
-        again), unless ``force``: then it stops at 0.
-        """
-        if self.eta_s is None or self.status == st.ARRIVED:
-            return True
-        el = (age_ms - self._for_age_ms) * 0.001
-        if el <= 0.0:
-            return True
-        eta = self.eta_s - el
-        if not eta > 0.0:
-            if not force:
-                return False
-            eta = 0.0
-        self.eta_s = eta
-        low = self.eta_low_s - el
-        self.eta_low_s = low if low > 0.0 else 0.0
-        high = self.eta_high_s - el
-        self.eta_high_s = high if high > eta else eta
-        self._for_age_ms = age_ms
-        return True
 
 
 def predict(self, target_c, approach=0):
@@ -280,11 +204,27 @@ def _work_out(est, target, approach):
         return  # not moving, or turning: no honest time
     if est._profile_on and est.heater and age_s < PROFILE_LAG_TIMES * est._profile.probe_lag_s:
         return  # the element's and the probe's lag still hide the heat-up's slope
-    eta = time_to_target_from_slope_s(gap, slope, k)
+    eta = eta0 = time_to_target_from_slope_s(gap, slope, k)
     eta_shape = None  # the time under the profile's law (passive liquids)
     if est._profile_on:
         eta_shape = est._profile.law_for(est, gap, level, slope, var_slope / (slope * slope))
+    # the equilibrium's drift since the longest audit started (its waiting forecast holds
+    # the fit then); not with a heater, a profile or an ambient (the duty, the vessel's law,
+    # the air known move it)
+    bd = 0.0
+    a = est.audits.a[2]
+    r = a.rate
+    if not (est.heater or est._profile_on or est.inputs.known()) and k > 0.0 and r > 0.0 \
+            and r * a.age >= DRIFT_BEND and age_s - a.age >= DRIFT_MIN_S:
+        bd = (level + slope / k - a.level - a.slope / r) / (age_s - a.age)
     open_end = False
+    if bd != 0.0:
+        eta = time_to_target_drift_s(gap, slope, k, bd)
+        if eta is None:
+            bd = 0.0
+            if eta0 is not None:
+                eta = eta0  # never at the drift measured, at a slower one in time: no upper bound
+                open_end = True
     if eta is None and eta_shape is None:
         # beyond the fitted equilibrium E = level + slope / k, by ``over``. E is an
         # extrapolation: a rate that bends on the way (a coolant warming, a slow
@@ -311,15 +251,24 @@ def _work_out(est, target, approach):
         open_end = True
     # the fit's own variance of ln(eta), times the share model error adds to it,
     # is the prior of what the audits measured
-    own2 = 0.0 if eta is None else eta_rel_var(gap, slope, k, eta, reg, gk)
+    law = eta if bd == 0.0 else eta0  # the time under the fitted law (a fixed equilibrium)
+    own2 = 0.0 if law is None else reg.eta_rel_var(gap, slope, k, law, gk)
     rel2 = DELTA_VAR_FACTOR * own2
     if rel2 < AUDIT_PRIOR_VAR:
         rel2 = AUDIT_PRIOR_VAR
     # model error: k off by RATE_MODEL_SD of itself moves ln(eta) by that times
     # d ln(eta) / d ln(k) at the measured slope, q / ((1 - q) k eta) - 1 (q = k gap / slope)
     q = k * gap / slope
-    b = 0.0 if eta is None else RATE_MODEL_SD * (
-        q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * eta) - 1.0)
+    b = 0.0 if law is None else RATE_MODEL_SD * (
+        q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * law) - 1.0)
+    if bd != 0.0:
+        # the drift DRIFT_SD of itself smaller moves ln(eta) by one sd more (when it never
+        # arrives so: no upper bound)
+        other = time_to_target_drift_s(gap, slope, k, bd * (1.0 - DRIFT_SD))
+        if other is None:
+            open_end = True
+        elif other > 0.0:
+            b = math.sqrt(b * b + math.log(other / eta) ** 2)
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
     est.eta_s = eta
@@ -386,37 +335,6 @@ def _backed_off(est, m):
     return x is not None and (to_counts(x) - est._hold_c) * m < 0
 
 
-def eta_rel_var(gap, slope, k, eta, reg, gk):
-    """Delta-method variance of ln(eta), eta = time_to_target_from_slope_s(gap, slope, k).
-
-    ``gap`` (deg C) is the distance from the fitted level; the level and the
-    slope are linear in the fit's (mean, s, k, g): d level = (1, t, -x, v),
-    d slope = (0, 1, gk, 0). ``reg``: the :class:`tinytherm.fit.Regression`.
-    """
-    q = k * gap / slope
-    if -1e-4 < q < 1e-4:
-        de_dk = gap * gap / (slope * slope) * (0.5 + q / 1.5)
-    else:
-        de_dk = (math.log(1.0 - q) + q / (1.0 - q)) / (k * k)
-    de_dl = -1.0 / (slope * (1.0 - q))      # d eta / d level
-    de_ds = gap * de_dl / slope             # d eta / d slope
-    a_s = de_dl * reg.t + de_ds
-    a_k = -de_dl * reg.x + de_ds * gk + de_dk
-    var = (de_dl * de_dl * reg.var_my + a_s * a_s * reg.pss + a_k * a_k * reg.pkk
-           + 2.0 * a_s * a_k * reg.psk)
-    if reg.heater:
-        a_g = de_dl * reg.v
-        var += a_g * (a_g * reg.pgg + 2.0 * (a_s * reg.psg + a_k * reg.pkg))
-    if not var > 0.0 or not eta > 0.0:
-        return 0.0
-    return var / (eta * eta)
-
-
-def spread(z_sd):
-    """exp(z_sd), inf beyond exp(50) (dimensionless)."""
-    return math.exp(z_sd) if z_sd < 50.0 else INF
-
-
 def time_to_target_from_slope_s(gap_c, slope_c_per_s, rate_per_s):
     """Seconds until the liquid has moved ``gap_c`` deg C (target minus now).
 
@@ -461,6 +379,10 @@ DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times thi
 RATE_MODEL_SD = 0.2       # relative sd of the fitted rate k from model error (a bend it cannot see)
 AUDIT_YOUNG = 4.0         # an audit learns only when its horizon was at most this times the fit's age
 #   (the three: leave-one-family-out choices, benchmarks/lofo_coverage.py)
+DRIFT_SD = 0.5      # relative sd of the equilibrium's drift (one sd more at it this much smaller)
+DRIFT_MIN_S = 120.0  # s: least time the drift is measured over
+DRIFT_BEND = 2.0    # time constants (k x age) the fit had bent through at the drift's start
+#   (before, its E is an extrapolation still converging; the three: leave-one-family-out)
 AUDIT_MEMORY = 8        # audits in the running mean of squared log errors
 AUDIT_STRETCH = 4.0     # most the longest audit's variance is stretched beyond it
 AUDIT_LOG_CAP = 2.0794  # ln 8: one audit counts at most a factor 8

@@ -1,7 +1,5 @@
 from typing import Any, Optional, Union
 
-from tinytherm.fit import Regression
-
 INF: float
 ARRIVE_TOL_C: float
 ARRIVE_MIN_S: float
@@ -13,28 +11,7 @@ PROFILE_LAG_TIMES: float
 SCALE: int
 DUTY_SCALE: int
 
-def normal_quantile(p: float) -> float: ...
-
-class Answer:
-    status: int
-    eta_s: Optional[float]
-    eta_low_s: Optional[float]
-    eta_high_s: Optional[float]
-    eta_rel_sd: Optional[float]
-    rate_per_s: Optional[float]
-    equilibrium_c: Optional[float]
-    ambient_est_c: Optional[float]
-    temp_est_c: Optional[float]
-    gain_k_per_s: float
-    def forget(self) -> None: ...
-    def clear(self, code: int) -> None: ...
-    def arrive(self) -> None: ...
-    def count_down(self, age_ms: int, force: bool = False) -> bool: ...
-
-def eta_rel_var(gap: float, slope: float, k: float, eta: float, reg: Regression,
-                gk: float) -> float: ...
 def move_c(noise_sd_c: float) -> float: ...
-def spread(z_sd: float) -> float: ...
 def time_to_target_from_slope_s(gap_c: float, slope_c_per_s: float,
                                 rate_per_s: float) -> Optional[float]: ...
 
@@ -47,6 +24,9 @@ AUDIT_LOG_CAP: float
 DELTA_VAR_FACTOR: float
 RATE_MODEL_SD: float
 AUDIT_YOUNG: float
+DRIFT_SD: float
+DRIFT_MIN_S: float
+DRIFT_BEND: float
 
 class Audit:
     fraction: float

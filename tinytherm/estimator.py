@@ -35,11 +35,11 @@ import math
 
 from tinytherm import status as st
 from tinytherm import answer, fit
-from tinytherm.answer import Answer, normal_quantile
+from tinytherm.status import Answer
 from tinytherm.change import ChangeDetector
 from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
-from tinytherm.num import as_float, number
+from tinytherm.num import as_float, normal_quantile, number
 from tinytherm.settle import Settle
 
 # Fixed choices (module constants, not arguments: no product needs another value).

@@ -1,11 +1,12 @@
 from typing import Optional, Union
 
-from tinytherm.answer import Answer, Audits
+from tinytherm.answer import Audits
 from tinytherm.change import ChangeDetector
 from tinytherm.fit import BlockSums, Inputs, Noise, Regression
 from tinytherm.guard import ReadingGuard
 from tinytherm.profile import VesselProfile
 from tinytherm.settle import Settle
+from tinytherm.status import Answer
 
 SCALE: int
 MAX_BLOCK_READINGS: int

@@ -524,6 +524,31 @@ class Regression:
             var += v * v * self.pgg + 2.0 * (t * v * self.psg + x * v * self.pkg)
         return var
 
+    def eta_rel_var(self, gap, slope, k, eta, gk):
+        """Delta-method variance of ln(eta), eta = the answer's time to move ``gap`` deg C
+        from the fitted level at ``slope`` (deg C/s) and rate ``k`` (1/s), first order.
+
+        The level and the slope are linear in the fit's (mean, s, k, g): d level =
+        (1, t, -x, v), d slope = (0, 1, gk, 0).
+        """
+        q = k * gap / slope
+        if -1e-4 < q < 1e-4:
+            de_dk = gap * gap / (slope * slope) * (0.5 + q / 1.5)
+        else:
+            de_dk = (math.log(1.0 - q) + q / (1.0 - q)) / (k * k)
+        de_dl = -1.0 / (slope * (1.0 - q))      # d eta / d level
+        de_ds = gap * de_dl / slope             # d eta / d slope
+        a_s = de_dl * self.t + de_ds
+        a_k = -de_dl * self.x + de_ds * gk + de_dk
+        var = (de_dl * de_dl * self.var_my + a_s * a_s * self.pss + a_k * a_k * self.pkk
+               + 2.0 * a_s * a_k * self.psk)
+        if self.heater:
+            a_g = de_dl * self.v
+            var += a_g * (a_g * self.pgg + 2.0 * (a_s * self.psg + a_k * self.pkg))
+        if not var > 0.0 or not eta > 0.0:
+            return 0.0
+        return var / (eta * eta)
+
     def pack_into(self, buf, offset):
         for i in range(self._saved):
             struct.pack_into("<d", buf, offset, getattr(self, self._NAMES[i]))
@@ -549,3 +574,34 @@ def _ok(x):
 def to_counts(temp_c):
     """A temperature as counts of 1/SCALE deg C (int), rounded to nearest."""
     return int(math.floor(temp_c * SCALE + 0.5))
+
+
+def time_to_target_drift_s(gap_c, slope_c_per_s, rate_per_s, drift_c_per_s):
+    """Seconds until the liquid has moved ``gap_c`` deg C, its equilibrium drifting.
+
+    As :func:`tinytherm.answer.time_to_target_from_slope_s` (the answer's law) with ``E(t) = E0 + b t``, ``b =
+    drift_c_per_s`` (deg C/s), ``k = rate_per_s`` > 0 (1/s). With ``d = sign(gap)``,
+    ``g(t) = d (b t - A (1 - exp(-k t))) - |gap|``, ``A = (b - slope) / k``, rises from
+    ``-|gap|`` at ``|slope|``; ``g'`` moves monotonically to ``d b``, so ``g`` is convex
+    or concave and Newton's method from 0 converges. None when never reached (``g``
+    peaks below 0, or the slope is away from the target) or for bad input.
+    """
+    k = rate_per_s
+    d = 1.0 if gap_c > 0.0 else -1.0
+    s = slope_c_per_s * d   # towards the target when > 0
+    bd = drift_c_per_s * d
+    if not (k > 0.0 and s > 0.0 and -1e300 < bd < 1e300):
+        return None
+    t = 0.0
+    for _ in range(40):
+        e = math.exp(-k * t)  # (t >= 0: no overflow)
+        dg = bd - (bd - s) * e
+        if not dg > 0.0:
+            return None     # past the peak short of the target: never reached
+        step = (bd * t - (bd - s) * (1.0 - e) / k - gap_c * d) / dg
+        t -= step
+        if t < 0.0 or t > 1e12:
+            return None
+        if -1e-9 * (t + 1.0) < step < 1e-9 * (t + 1.0):
+            return t
+    return None

@@ -40,7 +40,7 @@ import math
 import struct
 
 from tinytherm import status as _st
-from tinytherm.answer import spread as _spread
+from tinytherm.num import spread as _spread
 from tinytherm.crc import crc32
 from tinytherm.fit import DUTY_SCALE as _DUTY_SCALE
 from tinytherm.fit import SCALE as _SCALE

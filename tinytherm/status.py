@@ -1,4 +1,4 @@
-"""Status codes of the estimator's answer and verdicts on each reading.
+"""Status codes of the estimator's answer and verdicts on each reading, and the answer's fields.
 
 Small integers so that firmware can compare and store them without
 allocating; ``STATUS_NAMES`` and ``VERDICT_NAMES`` give the lower-case names
@@ -65,3 +65,72 @@ def verdict_name(code):
     if 0 <= code < len(VERDICT_NAMES):
         return VERDICT_NAMES[code]
     return "unknown"
+
+
+class Answer:
+    """What ``predict`` tells the product: a base class of the estimator, which
+    carries these fields itself (all ``None`` when unknown):
+
+    ``status`` (a :mod:`tinytherm.status` code), ``eta_s``, ``eta_low_s``,
+    ``eta_high_s`` (seconds after the latest reading; ``eta_high_s`` may be
+    ``inf``), ``eta_rel_sd`` (sd of ln eta), ``rate_per_s`` (1/s),
+    ``equilibrium_c``, ``ambient_est_c``, ``temp_est_c`` (deg C) and
+    ``gain_k_per_s`` (K/s at full duty).
+
+    The cache: the fit generation, target and approach it was worked out
+    for, the fit's age then (ms), and the reading (counts) at or beyond
+    which it becomes an arrival.
+    """
+
+    def forget(self):
+        """Invalidate the cache (the next ``predict`` works the answer out)."""
+        self._for_gen = -1
+        self._for_target = None
+        self._for_approach = 0
+        self._for_age_ms = 0
+        self._arrive_dir = 0    # +1 / -1: arrival once the reading is >= / <= arrive_c
+        self._arrive_c = 0      # counts
+        self._hold_c = 0        # counts: a reading back beyond it (a top-up) ends an arrival
+
+    def clear(self, code):
+        self.status = code
+        self.eta_s = None
+        self.eta_low_s = None
+        self.eta_high_s = None
+        self.eta_rel_sd = None
+        self.rate_per_s = None
+        self.equilibrium_c = None
+        self.ambient_est_c = None
+        self.gain_k_per_s = 0.0
+        self.temp_est_c = None
+
+    def arrive(self):
+        self.status = ARRIVED
+        self.eta_s = 0.0
+        self.eta_low_s = 0.0
+        self.eta_high_s = 0.0
+        self.eta_rel_sd = None  # (as when worked out: a restored run arrives the same)
+
+    def count_down(self, age_ms, force=False):
+        """Move the cached times on to a fit ``age_ms`` old.
+
+        False when the time would pass 0 (the answer must be worked out
+        again), unless ``force``: then it stops at 0.
+        """
+        if self.eta_s is None or self.status == ARRIVED:
+            return True
+        el = (age_ms - self._for_age_ms) * 0.001
+        if el <= 0.0:
+            return True
+        eta = self.eta_s - el
+        if not eta > 0.0:
+            if not force:
+                return False
+            eta = 0.0
+        self.eta_s = eta
+        low = self.eta_low_s - el
+        self.eta_low_s = low if low > 0.0 else 0.0
+        high = self.eta_high_s - el
+        self.eta_high_s = high if high > eta else eta
+        self._for_age_ms = age_ms
+        return True

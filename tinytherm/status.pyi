@@ -1,4 +1,4 @@
-from typing import Final, Tuple
+from typing import Final, Optional, Tuple
 
 def const(x: int) -> int: ...
 
@@ -24,3 +24,19 @@ VERDICT_NAMES: Final[Tuple[str, ...]]
 
 def status_name(code: int) -> str: ...
 def verdict_name(code: int) -> str: ...
+
+class Answer:
+    status: int
+    eta_s: Optional[float]
+    eta_low_s: Optional[float]
+    eta_high_s: Optional[float]
+    eta_rel_sd: Optional[float]
+    rate_per_s: Optional[float]
+    equilibrium_c: Optional[float]
+    ambient_est_c: Optional[float]
+    temp_est_c: Optional[float]
+    gain_k_per_s: float
+    def forget(self) -> None: ...
+    def clear(self, code: int) -> None: ...
+    def arrive(self) -> None: ...
+    def count_down(self, age_ms: int, force: bool = False) -> bool: ...
