@@ -1,11 +1,13 @@
-"""24 hours at 1 Hz under ``micropython -X heapsize=82K``.
+"""24 hours at 1 Hz under ``micropython -X heapsize=84K``.
 
 The core and the trace generator are precompiled with ``mpy-cross -O3``, as
 they would be for a device with a small heap: compiling sources needs more
 heap than running them, and -O3 leaves the source line numbers out of the
 bytecode (tracebacks show no lines; the core validates with exceptions, never
 with ``assert``, so nothing else changes). Measured with the estimator in
-parts: the smallest heap in 1K steps that runs this test is 81K at c4310b4,
+parts: the smallest heap in 1K steps that runs this test is 83K after the
+equilibrium's drift and the profile's young-fit law were merged (a 2 h run, the
+library in a path as long as pytest's tmp path); 81K at c4310b4,
 with the library in a short folder path and in one as long as pytest's tmp
 path (81K and 82K at 04deed4, after the settle part; 78K at b1556f1; 80K at
 a3dfd7f, after the air, sparse-reading and profile work of issue 17; 76K
@@ -13,7 +15,7 @@ before it: the import closure takes about 50K of bytecode and tables on this
 64-bit port; the saved-state module, and the frame's modules blob and crc,
 are loaded at the first save, and this script imports blob at its start;
 benchmarks/device_budget.py prints the figures of a product that never
-saves), so 82K leaves a 1K margin for such differences. A MemoryError in
+saves), so 84K leaves a 1K margin for such differences. A MemoryError in
 restore() is raised, never taken for a damaged blob.
 The trace is generated inside MicroPython (tests/long_run_mp.py). Figures are
 printed; the assertions check: no MemoryError, every reading processed, every
@@ -46,7 +48,7 @@ def _build(lib):
         subprocess.run([cross, "-O3", "-o", os.path.join(lib, name + ".mpy"), src], check=True)
 
 
-@pytest.mark.parametrize("heap", ["82K"])
+@pytest.mark.parametrize("heap", ["84K"])
 def test_day_at_one_hertz_in_small_heap(tmp_path, heap):
     lib = str(tmp_path / "lib")
     _build(lib)
