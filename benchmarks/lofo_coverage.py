@@ -14,9 +14,12 @@ out: one fold) by the order of issue 17's goals: fewest traces with an early
 arrival, then the fewest blocks with 80 % coverage outside 0.75-0.85 (ties:
 the smallest total distance outside), then the lowest mean no-estimate share
 (on the sparse grid: from the third reading), then the lowest median error;
-the chosen setting is then reported on the left-out family's blocks. The
-holdout seeds never choose: give this script tune rows only. Figures only;
-nothing passes or fails.
+the chosen setting is then reported on the left-out family's blocks. With
+``--reference METHOD`` (rows of another method in the same CSV, e.g. the
+core at main) a setting is eligible only when its dense blocks score no worse
+than the reference's on the same families (the dense goals may not get worse
+while the sparse ones are chosen for). The holdout seeds never choose: give
+this script tune rows only. Figures only; nothing passes or fails.
 """
 import argparse
 import csv
@@ -88,10 +91,23 @@ def main(argv=None):
                                              "(early arrivals, coverage, no estimate, median).")
     ap.add_argument("csv", help="per-trace CSV of benchmarks/families.py --out (tune seeds)")
     ap.add_argument("--method", default="knobs", help="the grid method's name (default knobs)")
+    ap.add_argument("--reference", default=None,
+                    help="a method whose dense blocks a setting may not score worse than")
     args = ap.parse_args(argv)
     data = read(args.csv, args.method)
     if not data:
         ap.error("no tune rows of method %r in %s" % (args.method, args.csv))
+    ref = read(args.csv, args.reference).get(args.reference) if args.reference else None
+    if args.reference and ref is None:
+        ap.error("no tune rows of method %r in %s" % (args.reference, args.csv))
+
+    def eligible(labs, blocks):
+        """The settings whose dense blocks among ``blocks`` score no worse than the reference's."""
+        dense = [b for b in blocks if " " not in b]
+        if ref is None or not dense:
+            return labs
+        bar = score(ref, dense)
+        return [lab for lab in labs if score(data[lab], dense) <= bar] or labs
     labels = sorted(data)
     families = sorted({f for lab in labels for f in data[lab]})  # the blocks
     folds = sorted({family_of(f) for f in families})
@@ -110,12 +126,12 @@ def main(argv=None):
     print("|---|---|---|---|---|---|")
     for fold in folds:
         others = [g for g in families if family_of(g) != fold]
-        choice = min(labels, key=lambda lab: score(data[lab], others))
+        choice = min(eligible(labels, others), key=lambda lab: score(data[lab], others))
         for f in families:
             if family_of(f) == fold:
                 cov, ne, med, early = family_figures(data[choice][f])
                 print("| %s | `%s` | %.2f | %.2f | %.3f | %d |" % (f, choice, cov, ne, med, early))
-    best = min(labels, key=lambda lab: score(data[lab], families))
+    best = min(eligible(labels, families), key=lambda lab: score(data[lab], families))
     print("\nsetting chosen on all families' tune traces: `%s`" % best)
     return 0
 

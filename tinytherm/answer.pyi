@@ -46,6 +46,7 @@ AUDIT_STRETCH: float
 AUDIT_LOG_CAP: float
 DELTA_VAR_FACTOR: float
 RATE_MODEL_SD: float
+REACH_SD: float
 AUDIT_YOUNG: float
 
 class Audit:
