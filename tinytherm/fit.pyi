@@ -104,6 +104,7 @@ class Regression:
     pss: float
     psk: float
     pkk: float
+    kmove: float
     psg: float
     pkg: float
     pgg: float
