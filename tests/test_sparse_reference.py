@@ -17,7 +17,6 @@ import os
 import sys
 
 import numpy as np
-import pytest
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
@@ -25,7 +24,6 @@ sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "cor
 
 from sparse_trace import SparseTrace  # noqa: E402
 
-from tinytherm import answer  # noqa: E402
 from tinytherm import status as st  # noqa: E402
 from tinytherm.estimator import ThermalEstimator  # noqa: E402
 
@@ -201,74 +199,3 @@ def test_a_drink_in_a_drifting_room_read_minutes_apart_is_answered_from_the_thir
     assert rows >= 300, rows
     assert answered >= 0.95 * rows, (answered, rows)
 
-
-def test_a_heat_up_read_minutes_apart_while_the_element_warms_is_covered(monkeypatch):
-    monkeypatch.setattr(answer, "PIN_K", 1.0)  # (the knob, chosen off on the families)
-    # water heated by an element with its own heat capacity (its rate rises over the first
-    # minutes), read every 1-5 minutes: the first fits are lines pinned at k = 0 (the curve
-    # accelerates) and had no variance of k at all, so their 80 % intervals spanned +-2 %
-    # and covered 0.58 of the rows from the third reading (the prior's line term: 0.97).
-    # Our own invented vessels; reference: scipy solve_ivp (Radau) and brentq
-    def heat_up(rng):
-        water = rng.uniform(8.0, 20.0) * 4186.0       # J/K: 8-20 L
-        element = rng.uniform(800.0, 2500.0)          # J/K
-        contact = rng.uniform(8.0, 25.0)              # W/K: element lag 30-300 s
-        power = rng.uniform(1200.0, 2000.0)           # W
-        loss = rng.uniform(1.0, 4.0)                  # W/K to a 20 C room
-        lag = rng.uniform(5.0, 30.0)                  # s: the probe's
-        w0 = rng.uniform(12.0, 20.0)
-
-        def rhs(_t, y):
-            flow = contact * (y[0] - y[1])
-            return [(power - flow) / element, (flow - loss * (y[1] - 20.0)) / water,
-                    (y[1] - y[2]) / lag]
-        return solve_ivp(rhs, (0.0, 40000.0), [w0, w0, w0], method="Radau", rtol=1e-10,
-                         atol=1e-10, dense_output=True)
-    inside = shown = 0
-    widths = []
-    for seed in range(12):
-        rng = np.random.default_rng(seed)
-        for status, eta, low, high, remaining in _sparse_rows(
-                heat_up(rng), 2, 60.0, 1, seed, {"heater": True}, 60.0, 300.0, duty=1.0):
-            if status == st.TRACKING and eta > 0.0:
-                shown += 1
-                inside += low <= remaining <= high
-                widths.append(high / low)
-    assert shown >= 100, shown
-    assert 0.75 <= inside / shown, (inside, shown)
-    # and no union of everything: high / low at most 4 in the median
-    assert float(np.median(widths)) <= 4.0, float(np.median(widths))
-
-
-def test_a_pinned_line_keeps_the_free_systems_rate_variance_numpy_reference():
-    # a line pinned at k = 0 used to carry no variance of k at all; it keeps the k variance
-    # of the free system (the data and the loose prior of weight lk), as numpy.linalg.inv of
-    # the normal matrix gives it, times the residual variance per reading (the pinned fit's)
-    from tinytherm.fit import Regression
-    rng = np.random.default_rng(7)
-    for heater in (False, True):
-        for _ in range(20):
-            reg = Regression(heater)
-            x = rng.normal(size=(6, 3))
-            m = x.T @ x  # (t, x, u) co-moments of a few blocks: positive definite
-            reg.ctt, reg.ctx, reg.cxx = m[0, 0], m[0, 1], m[1, 1]
-            reg.ctu, reg.cxu, reg.cuu = m[0, 2], m[1, 2], m[2, 2]
-            y = rng.normal(size=6)
-            reg.cty, reg.cxy, reg.cuy = x[:, 0] @ y, x[:, 1] @ y, x[:, 2] @ y
-            reg.cyy = y @ y
-            reg.nb, reg.w, reg.w2 = 6.0, 6.0, 6.0
-            s2, lk, lg = 0.01, float(rng.uniform(0.1, 5.0)), 0.5
-            assert reg.solve(s2, -lk, 0.0, 0.0, 0.0, lg, 0.0)
-            assert reg.k == 0.0 and reg.pkk == 0.0
-            if heater:
-                pinned = np.array([[m[0, 0], m[0, 2]], [m[0, 2], m[2, 2] + lg]])
-                s, g = np.linalg.solve(pinned, [reg.cty, reg.cuy])
-                ssr, dof = reg.cyy - s * reg.cty - g * reg.cuy, 3.0
-                free = m + np.diag([0.0, lk, lg])
-            else:
-                s = reg.cty / m[0, 0]
-                ssr, dof = reg.cyy - s * reg.cty, 4.0
-                free = m[:2, :2] + np.diag([0.0, lk])
-            per_reading = max(ssr / dof, s2)
-            want = np.linalg.inv(free)[1, 1] * per_reading  # (w2 / w = 1 here)
-            assert reg.kmove == pytest.approx(want, rel=1e-9), (heater, reg.kmove, want)

@@ -306,9 +306,7 @@ def _work_out(est, target, approach):
         open_end = True
     # the fit's own variance of ln(eta), times the share model error adds to it,
     # is the prior of what the audits measured
-    # (a line pinned at k = 0 hides k's spread: PIN_K of it counts until a forecast is checked)
-    own2 = 0.0 if eta is None else eta_rel_var(gap, slope, k, eta, reg, gk,
-                                               0.0 if est.audits.a[0].n else PIN_K * reg.kmove)
+    own2 = 0.0 if eta is None else eta_rel_var(gap, slope, k, eta, reg, gk)
     rel2 = DELTA_VAR_FACTOR * own2
     if rel2 < AUDIT_PRIOR_VAR:
         rel2 = AUDIT_PRIOR_VAR
@@ -383,13 +381,12 @@ def _backed_off(est, m):
     return x is not None and (to_counts(x) - est._hold_c) * m < 0
 
 
-def eta_rel_var(gap, slope, k, eta, reg, gk, kmove=0.0):
+def eta_rel_var(gap, slope, k, eta, reg, gk):
     """Delta-method variance of ln(eta), eta = time_to_target_from_slope_s(gap, slope, k).
 
     ``gap`` (deg C) is the distance from the fitted level; the level and the
     slope are linear in the fit's (mean, s, k, g): d level = (1, t, -x, v),
-    d slope = (0, 1, gk, 0). ``reg``: the :class:`tinytherm.fit.Regression`;
-    ``kmove``: variance added to k's, 1/s^2.
+    d slope = (0, 1, gk, 0). ``reg``: the :class:`tinytherm.fit.Regression`.
     """
     q = k * gap / slope
     if -1e-4 < q < 1e-4:
@@ -400,7 +397,7 @@ def eta_rel_var(gap, slope, k, eta, reg, gk, kmove=0.0):
     de_ds = gap * de_dl / slope             # d eta / d slope
     a_s = de_dl * reg.t + de_ds
     a_k = -de_dl * reg.x + de_ds * gk + de_dk
-    var = (de_dl * de_dl * reg.var_my + a_s * a_s * reg.pss + a_k * a_k * (reg.pkk + kmove)
+    var = (de_dl * de_dl * reg.var_my + a_s * a_s * reg.pss + a_k * a_k * reg.pkk
            + 2.0 * a_s * a_k * reg.psk)
     if reg.heater:
         a_g = de_dl * reg.v
@@ -457,7 +454,6 @@ AUDIT_MIN_S = (10.0, 20.0, 40.0)      # s: shortest audit horizons
 AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before any audit (2 % sd)
 DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times this: the audits' prior
 RATE_MODEL_SD = 0.2       # relative sd of the fitted rate k from model error (a bend it cannot see)
-PIN_K = 0.0               # share of a pinned line's hidden k variance in the prior (chosen: off)
 REACH_SD = 2.0            # sd of k by which a target beyond the fitted equilibrium may be reached
 #   (leave-one-family-out on dense and sparse, 32 tune traces per family and grid)
 AUDIT_YOUNG = 4.0         # an audit learns only when its horizon was at most this times the fit's age

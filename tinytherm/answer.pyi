@@ -32,7 +32,7 @@ class Answer:
     def count_down(self, age_ms: int, force: bool = False) -> bool: ...
 
 def eta_rel_var(gap: float, slope: float, k: float, eta: float, reg: Regression,
-                gk: float, kmove: float = ...) -> float: ...
+                gk: float) -> float: ...
 def move_c(noise_sd_c: float) -> float: ...
 def spread(z_sd: float) -> float: ...
 def time_to_target_from_slope_s(gap_c: float, slope_c_per_s: float,
@@ -46,7 +46,6 @@ AUDIT_STRETCH: float
 AUDIT_LOG_CAP: float
 DELTA_VAR_FACTOR: float
 RATE_MODEL_SD: float
-PIN_K: float
 REACH_SD: float
 AUDIT_YOUNG: float
 

@@ -494,9 +494,8 @@ class ThermalEstimator(Answer):
                 solved = True  # (without a profile the hint replaces the loose prior)
         if not solved and not reg.solve(s2, lk, kp, 0.0, 0.0, lg, gp):
             return
-        k = reg.k
-        if k < 0.0 and reg.solve(s2, -lk, 0.0, 0.0, 0.0, lg, gp):  # accelerating: the exact line
-            reg.kmove += k * k  # (k hidden by the pin: the data's spread and the move to 0)
+        if reg.k < 0.0:
+            reg.solve(s2, -1.0, 0.0, 0.0, 0.0, lg, gp)  # accelerating: the exact line
 
     def _audit(self):
         age = (self.blocks.age_ms - self.blocks.it) * 0.001  # at the block close

@@ -347,7 +347,6 @@ class Regression:
         self.ok = False
         self.s = self.k = self.g = 0.0
         self.pss = self.psk = self.pkk = self.psg = self.pkg = self.pgg = 0.0
-        self.kmove = 0.0   # 1/s^2: what a line pinned at k = 0 hides of k (else 0)
         self.var_my = 0.0
 
     def add_block(self, n, tb, xb, vb, yb, lam, t_end, x_end, v_end, dg, du):
@@ -430,8 +429,7 @@ class Regression:
         """Solve for (s, -k, g) with priors; True when the solution is usable.
 
         Priors: ``k ~ N(kp, s2 / lk)`` (``lk < 0`` pins k = 0, the exact
-        straight line; ``kmove``: the variance of k the data and a prior of weight
-        ``-lk`` give, 1/s^2), ``g ~ N(gp, s2 / lg)``, and weight ``lh`` on the
+        straight line), ``g ~ N(gp, s2 / lg)``, and weight ``lh`` on the
         pseudo-observation ``0 = s + dist m`` with ``m = -k`` (the equilibrium hint). ``s2``:
         the reading noise variance, deg C^2.
         """
@@ -499,18 +497,7 @@ class Regression:
             self.psk = -c12 * scale
             self.pkk = c22 * scale
         else:
-            # pinned: no spread in the solution, but the free system's k variance (the
-            # data's: a few readings minutes apart leave k open) is kept as ``kmove``
-            self.psk = self.pkk = 0.0
-            a22 = self.cxx - lk
-            if self.heater:
-                a23 = self.cxu
-                d3 = (a11 * (a22 * a33 - a23 * a23) - self.ctx * (self.ctx * a33 - a13 * a23)
-                      + a13 * (self.ctx * a23 - a13 * a22))
-                self.kmove = c22 / d3 * scale * det if d3 > 0.0 else 0.0
-            else:
-                d2 = a11 * a22 - self.ctx * self.ctx
-                self.kmove = a11 / d2 * scale * det if d2 > 0.0 else 0.0
+            self.psk = self.pkk = 0.0  # pinned: no spread
         if self.heater:
             self.psg = c13 * scale
             self.pkg = -c23 * scale

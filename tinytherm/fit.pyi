@@ -104,7 +104,6 @@ class Regression:
     pss: float
     psk: float
     pkk: float
-    kmove: float
     psg: float
     pkg: float
     pgg: float
