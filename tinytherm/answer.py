@@ -29,8 +29,9 @@ the age of the fit that made it: a start-up extrapolated says nothing of it)::
 longest audit the variance grows with the horizon, at most
 :data:`AUDIT_STRETCH` times).
 
-A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`) gets an
-open-ended time (why: at its code). Runs on CPython and MicroPython.
+A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`, or one k
+:data:`REACH_SD` sd lower reaches) gets an open-ended time (why: at its code).
+Runs on CPython and MicroPython.
 """
 import math
 import struct
@@ -282,7 +283,7 @@ def _work_out(est, target, approach):
         # it by a share of the distance still to go, and k REACH_SD sd lower moves it
         # too (no end at k <= 0). Within that slack the answer is the time under the
         # law levelling off the rest of the slack past the target, with no upper
-        # bound; beyond it, out of reach when even a slow bend cannot reach the target
+        # bound; beyond it, out of reach when even that k cannot reach the target
         to_e = slope / k if k > 0.0 else 0.0  # E - level, the sign of gap
         slack = EQUILIBRIUM_SLACK * (to_e if to_e > 0.0 else -to_e)
         k2 = k - REACH_SD * math.sqrt(reg.pkk)
