@@ -39,8 +39,9 @@ E(t))``, ``E(t) = E + b t`` (:func:`tinytherm.fit.time_to_target_drift_s`), and 
 :data:`DRIFT_SD` of itself smaller gives one more sd of ln(eta) (never arriving
 so: no upper bound).
 
-A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`) gets an
-open-ended time (why: at its code). Runs on CPython and MicroPython.
+A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`, or one k
+:data:`REACH_SD` sd lower reaches) gets an open-ended time (why: at its code).
+Runs on CPython and MicroPython.
 """
 import math
 import struct
@@ -190,8 +191,7 @@ def _work_out(est, target, approach):
                 return
             # one reading on the line may be a spike: arriving now, confirmed by the next
             est.status = st.TRACKING
-            est.eta_s = 0.0
-            est.eta_low_s = 0.0
+            est.eta_s = est.eta_low_s = 0.0
             est.eta_high_s = tol / (slope if slope > 0.0 else -slope) if slope != 0.0 else INF
             est._for_gen = -2  # (from the latest reading: not counted down)
             return
@@ -227,13 +227,17 @@ def _work_out(est, target, approach):
                 open_end = True
     if eta is None and eta_shape is None:
         # beyond the fitted equilibrium E = level + slope / k, by ``over``. E is an
-        # extrapolation: a rate that bends on the way (a coolant warming, a slow
-        # second mode) moves it by a share of the distance still to go. Within
-        # that slack the answer is the time under the law levelling off the rest
-        # of the slack past the target, with no upper bound; beyond it, out of
-        # reach when even a slow bend cannot reach the target
+        # extrapolation: a bending rate (a coolant warming, a slow second mode) moves
+        # it by a share of the distance still to go, and k REACH_SD sd lower moves it
+        # too (no end at k <= 0). Within that slack the answer is the time under the
+        # law levelling off the rest of the slack past the target, with no upper
+        # bound; beyond it, out of reach when even that k cannot reach the target
         to_e = slope / k if k > 0.0 else 0.0  # E - level, the sign of gap
         slack = EQUILIBRIUM_SLACK * (to_e if to_e > 0.0 else -to_e)
+        k2 = k - REACH_SD * math.sqrt(reg.pkk)
+        reach = INF if k2 <= 0.0 else (slope / k2 - to_e) * (1.0 if gap > 0.0 else -1.0)
+        if reach > slack:
+            slack = reach
         if ahead is not None and not est.heater:
             # a passive liquid never passes a known ambient: the slack ends there
             room = ahead - level - to_e  # R - E (R as at the block close)
@@ -245,7 +249,7 @@ def _work_out(est, target, approach):
             k = slope / (gap + (slack - over) * (1.0 if gap > 0.0 else -1.0))
             eta = time_to_target_from_slope_s(gap, slope, k)
         if eta is None:
-            if (k - 2.0 * math.sqrt(reg.pkk)) * gap / slope >= 1.0:
+            if k2 * gap / slope >= 1.0:  # (not even k REACH_SD sd lower reaches it)
                 est.status = st.OUT_OF_REACH
             return
         open_end = True
@@ -377,6 +381,8 @@ AUDIT_MIN_S = (10.0, 20.0, 40.0)      # s: shortest audit horizons
 AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before any audit (2 % sd)
 DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times this: the audits' prior
 RATE_MODEL_SD = 0.2       # relative sd of the fitted rate k from model error (a bend it cannot see)
+REACH_SD = 2.0            # sd of k by which a target beyond the fitted equilibrium may be reached
+#   (leave-one-family-out on dense and sparse, 32 tune traces per family and grid)
 AUDIT_YOUNG = 4.0         # an audit learns only when its horizon was at most this times the fit's age
 #   (the three: leave-one-family-out choices, benchmarks/lofo_coverage.py)
 DRIFT_SD = 0.5      # relative sd of the equilibrium's drift (one sd more at it this much smaller)

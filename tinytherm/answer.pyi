@@ -23,6 +23,7 @@ AUDIT_STRETCH: float
 AUDIT_LOG_CAP: float
 DELTA_VAR_FACTOR: float
 RATE_MODEL_SD: float
+REACH_SD: float
 AUDIT_YOUNG: float
 DRIFT_SD: float
 DRIFT_MIN_S: float
