@@ -1,13 +1,15 @@
-"""24 hours at 1 Hz under ``micropython -X heapsize=84K``.
+"""24 hours at 1 Hz under ``micropython -X heapsize=86K``.
 
 The core and the trace generator are precompiled with ``mpy-cross -O3``, as
 they would be for a device with a small heap: compiling sources needs more
 heap than running them, and -O3 leaves the source line numbers out of the
 bytecode (tracebacks show no lines; the core validates with exceptions, never
 with ``assert``, so nothing else changes). Measured with the estimator in
-parts: the smallest heap in 1K steps that runs this test is 83K after the
-equilibrium's drift and the profile's young-fit law were merged (a 2 h run, the
-library in a path as long as pytest's tmp path); 81K at c4310b4,
+parts: the smallest heap in 1K steps that runs this test is 84K after the
+equilibrium's drift, the reach and the profile's young-fit law were merged (a
+2 h run, the library in a path as long as pytest's tmp path; under pytest the
+24 h run at 84K failed importing the saved-state module: the threshold moves
+with the path and the heap's fragmentation); 81K at c4310b4,
 with the library in a short folder path and in one as long as pytest's tmp
 path (81K and 82K at 04deed4, after the settle part; 78K at b1556f1; 80K at
 a3dfd7f, after the air, sparse-reading and profile work of issue 17; 76K
@@ -15,7 +17,7 @@ before it: the import closure takes about 50K of bytecode and tables on this
 64-bit port; the saved-state module, and the frame's modules blob and crc,
 are loaded at the first save, and this script imports blob at its start;
 benchmarks/device_budget.py prints the figures of a product that never
-saves), so 84K leaves a 1K margin for such differences. A MemoryError in
+saves), so 86K leaves a 2K margin for such differences. A MemoryError in
 restore() is raised, never taken for a damaged blob.
 The trace is generated inside MicroPython (tests/long_run_mp.py). Figures are
 printed; the assertions check: no MemoryError, every reading processed, every
@@ -48,7 +50,7 @@ def _build(lib):
         subprocess.run([cross, "-O3", "-o", os.path.join(lib, name + ".mpy"), src], check=True)
 
 
-@pytest.mark.parametrize("heap", ["84K"])
+@pytest.mark.parametrize("heap", ["86K"])
 def test_day_at_one_hertz_in_small_heap(tmp_path, heap):
     lib = str(tmp_path / "lib")
     _build(lib)
