@@ -55,6 +55,8 @@ INF = math.inf
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
 ARRIVE_MIN_S = 30.0       # s: no arrival in a fit younger than this
 ARRIVE_Z = 2.0            # sd by which a block mean or the level must pass the target
+HOLD_OPEN_N = 4           # readings in the open block before its mean moves the hold line
+#   (a noise guard, not chosen: four readings average to half a reading's sd)
 EQUILIBRIUM_SLACK = 0.1  # share of the distance to the fitted equilibrium it may be off
 #   (the families, all reachable, chose 0.4; 0.2 already answers a mug below a warm room)
 MAX_REL_SD = 5.0          # an answer whose fit's own ln-time sd exceeds this stays SETTLING
@@ -332,11 +334,19 @@ def move_c(noise_sd_c):
 
 def _backed_off(est, m):
     """The latest reading, or one the guard holds as a possible spike (a top-up's first,
-    until the next confirms it), back beyond the hold line ``_hold_c`` against ``m``."""
-    if (est.blocks.c - est._hold_c) * m < 0:
+    until the next confirms it), back beyond the hold line ``_hold_c`` against ``m``; the
+    line as far from the open block's mean when that is further on (the drink went on
+    past the extreme since the last block closed: a line from the extreme alone is late)."""
+    b = est.blocks
+    hold = est._hold_c
+    if b.n >= HOLD_OPEN_N:
+        line = b.sy // b.n + hold - est._ext_sy // est._ext_n  # (integer counts: no heap)
+        if (line - hold) * m > 0:
+            hold = line
+    if (b.c - hold) * m < 0:
         return True
     x = est.guard.held_c()
-    return x is not None and (to_counts(x) - est._hold_c) * m < 0
+    return x is not None and (to_counts(x) - hold) * m < 0
 
 
 def time_to_target_from_slope_s(gap_c, slope_c_per_s, rate_per_s):

@@ -4,6 +4,7 @@ INF: float
 ARRIVE_TOL_C: float
 ARRIVE_MIN_S: float
 ARRIVE_Z: float
+HOLD_OPEN_N: int
 EQUILIBRIUM_SLACK: float
 MAX_REL_SD: float
 FAULT_AFTER: int
