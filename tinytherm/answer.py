@@ -322,6 +322,8 @@ def _arrived(est, target, m, approach, age_ms):
         return False  # the level is back short: a retreat, no arrival
     if (est._extreme_c() - target) * m >= ARRIVE_Z * sd / math.sqrt(est._ext_n):
         return True
+    if not (est.heater or reg.pkk > 0.0):
+        return False  # (no heater, k pinned at 0: the level is a line run on, no crossing seen)
     var = reg.var_level(b.it * 0.001, b.ix * _IX_TO_CS, b.iv * _IV_TO_S)  # (at that reading)
     return (level - target) * m >= ARRIVE_Z * math.sqrt(var if var > 0.0 else 0.0)
 
