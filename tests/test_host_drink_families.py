@@ -190,7 +190,8 @@ class _NaiveArrival:
         self.eta_low_s, self.eta_high_s = self.eta_s, self.eta_s
 
 
-def test_early_arrival_after_a_pour_is_judged_by_the_liquid(monkeypatch, families_bench):
+def _naive_on_a_topup(monkeypatch, families_bench):
+    """A top-up trace, its truth and score_all's positional arguments for _NaiveArrival."""
     ft = _topup_with_rising_probe()
     tr = ft.truth
     spec = "naive:Arrival"
@@ -198,6 +199,11 @@ def test_early_arrival_after_a_pour_is_judged_by_the_liquid(monkeypatch, familie
     plan = [("naive", "naive", spec, {})]
     args = (ft.time_s, ft.temp_c, tr["target_c"], tr["crossing_time_s"], ft.clean_c,
             tr["noise_sd_c"], tr["direction"], plan)
+    return ft, tr, args
+
+
+def test_early_arrival_after_a_pour_is_judged_by_the_liquid(monkeypatch, families_bench):
+    ft, tr, args = _naive_on_a_topup(monkeypatch, families_bench)
     by_liquid, _ = families_bench.score_all(*args, liquid_c=ft.liquid_c,
                                    liquid_at_crossing_c=tr["liquid_at_crossing_c"],
                                    approach_start_s=tr["approach_start_s"])
@@ -298,13 +304,7 @@ def test_unseen_rows_end_at_the_second_reading_past_the_margin():
 
 
 def test_early_rows_after_a_pour_split_into_seen_and_unseen(monkeypatch, families_bench):
-    ft = _topup_with_rising_probe()
-    tr = ft.truth
-    spec = "naive:Arrival"
-    monkeypatch.setitem(families_bench._CLASS_CACHE, spec, _NaiveArrival)
-    plan = [("naive", "naive", spec, {})]
-    args = (ft.time_s, ft.temp_c, tr["target_c"], tr["crossing_time_s"], ft.clean_c,
-            tr["noise_sd_c"], tr["direction"], plan)
+    ft, tr, args = _naive_on_a_topup(monkeypatch, families_bench)
     judge = dict(liquid_c=ft.liquid_c, liquid_at_crossing_c=tr["liquid_at_crossing_c"],
                  approach_start_s=tr["approach_start_s"])
     whole, _ = families_bench.score_all(*args, **judge)

@@ -12,6 +12,7 @@ import pytest
 from scipy.integrate import solve_ivp
 
 from host_sim.replay.metrics import early_margin_c, early_rows, unseen_rows
+from tinytherm import status as st
 from tinytherm.estimator import ThermalEstimator
 
 
@@ -39,7 +40,7 @@ def test_an_arrival_before_a_pour_is_withdrawn_once_readings_show_it(pour_s):
     for i, y in enumerate(readings):
         est.update(float(y), 0.0 if i == 0 else 1.0)
         est.predict(target)
-        status.append("arrived" if est.status == 3 else "other")
+        status.append("arrived" if est.status == st.ARRIVED else "other")
     assert "arrived" in status[:int(pour_s)]        # it had arrived before the pour
     # the judge: the drink against its value when the probe reads the target
     crossing = np.nonzero(probe <= target)[0][0]
