@@ -434,8 +434,12 @@ class ThermalEstimator(Answer):
             return False
         if self.heater:
             # the heater turned it: a new direction, the same fit (it explains the turn),
-            # once the fitted slope (duty included) agrees; before, it is a spike or noise
-            if self._slope * self._dir < 0.0:
+            # once the fitted slope (duty included) agrees and the reading before the
+            # latest retreated too; before, it is a spike or noise (readings a minute
+            # apart on a steep heat-up: the guard's window of three is wide there, and
+            # one reading is the whole block)
+            if self._slope * self._dir < 0.0 and (
+                    ext - self.blocks.cq * _INV) * self._dir > cut:
                 self._dir = -self._dir
                 self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
             return False
