@@ -302,6 +302,9 @@ def _arrived(est, target, m, approach, age_ms):
 
         (ext - target) m >= Z sd / sqrt(n_ext)   or   (level - target) m >= Z sd_level
         and (target - level) m <= tol
+
+    ``sd``: the noise's, the prior's share of its variance replaced by the fit's residual
+    variance per reading when that is larger (docs/design.md, "Honest arrival").
     """
     if age_ms < _ARRIVE_MIN_MS or _backed_off(est, m):
         return False  # (young, or back beyond the turn threshold: a top-up's probe rising)
