@@ -47,7 +47,7 @@ import math
 import struct
 
 from tinytherm import status as st
-from tinytherm.fit import DUTY_SCALE, SCALE, to_counts
+from tinytherm.fit import DUTY_SCALE, NOISE_PRIOR_N, SCALE, to_counts
 from tinytherm.num import as_float, spread
 from tinytherm.fit import time_to_target_drift_s  # (its own line: merged above, the 24 h run at 82K failed, measured)
 
@@ -302,6 +302,9 @@ def _arrived(est, target, m, approach, age_ms):
 
         (ext - target) m >= Z sd / sqrt(n_ext)   or   (level - target) m >= Z sd_level
         and (target - level) m <= tol
+
+    ``sd``: the noise's, the prior's share of its variance replaced by the fit's residual
+    variance per reading when that is larger (docs/design.md, "Honest arrival").
     """
     if age_ms < _ARRIVE_MIN_MS or _backed_off(est, m):
         return False  # (young, or back beyond the turn threshold: a top-up's probe rising)
@@ -320,7 +323,14 @@ def _arrived(est, target, m, approach, age_ms):
         tol = ARRIVE_TOL_C
     if (target - level) * m > tol:
         return False  # the level is back short: a retreat, no arrival
-    if (est._extreme_c() - target) * m >= ARRIVE_Z * sd / math.sqrt(est._ext_n):
+    # the extreme block's scatter: the noise, but the share of it that is still the prior
+    # (readings minutes apart never measure it) the fit's residual variance per reading
+    # instead, as in the level's below (there the misfit of a probe on an air cycle)
+    nz = est.noise
+    s2 = nz.var
+    if reg.s2r > s2:
+        s2 += (reg.s2r - s2) * (1.0 if nz.n <= NOISE_PRIOR_N else NOISE_PRIOR_N / nz.n)
+    if (est._extreme_c() - target) * m >= ARRIVE_Z * math.sqrt(s2 / est._ext_n):
         return True
     if not (est.heater or reg.pkk > 0.0):
         return False  # (no heater, k pinned at 0: the level is a line run on, no crossing seen)

@@ -11,6 +11,7 @@ FAULT_AFTER: int
 PROFILE_LAG_TIMES: float
 SCALE: int
 DUTY_SCALE: int
+NOISE_PRIOR_N: int
 
 def move_c(noise_sd_c: float) -> float: ...
 def time_to_target_from_slope_s(gap_c: float, slope_c_per_s: float,

@@ -321,7 +321,7 @@ class Regression:
     latest reading's coordinates relative to those means (s, deg C s, s).
     Solved (never saved: :meth:`solve` rebuilds it): slope ``s`` (deg C/s),
     rate ``k`` (1/s), heater gain ``g`` (K/s) and their covariance ``p..``;
-    ``var_my``, the variance of the fitted mean level.
+    ``var_my``, the fitted mean level's variance; ``s2r``, the residual one per reading (C^2).
     """
 
     _NAMES = ("w", "w2", "nb", "my", "ctt", "ctx", "cty", "cxx", "cxy", "cyy", "t", "x",
@@ -347,7 +347,7 @@ class Regression:
         self.ok = False
         self.s = self.k = self.g = 0.0
         self.pss = self.psk = self.pkk = self.psg = self.pkg = self.pgg = 0.0
-        self.var_my = 0.0
+        self.var_my = self.s2r = 0.0
 
     def add_block(self, n, tb, xb, vb, yb, lam, t_end, x_end, v_end, dg, du):
         """Add one block mean (``n`` readings at ``tb, xb, vb``, mean reading ``yb``).
@@ -502,7 +502,7 @@ class Regression:
             self.psg = c13 * scale
             self.pkg = -c23 * scale
             self.pgg = c33 * scale
-        self.var_my = s2r * self.w2 / (self.w * self.w)
+        self.s2r, self.var_my = s2r, s2r * self.w2 / (self.w * self.w)
         self.ok = True
         return True
 
