@@ -197,6 +197,11 @@ def _work_out(est, target, approach):
             est.eta_high_s = tol / (slope if slope > 0.0 else -slope) if slope != 0.0 else INF
             est._for_gen = -2  # (from the latest reading: not counted down)
             return
+    slow = d == 0 and slope * gap > 0.0
+    if slow:
+        # no direction yet (the slope within 2 sd of 0, the block means not moved): the
+        # time at the fitted slope, with no upper bound (it may not be moving at all)
+        d = 1 if slope > 0.0 else -1
     if approach != 0 and ((m if m != 0 else d) != approach or d == -approach):
         return  # moving away from how this product reaches its target
     if gap * d <= 0.0:
@@ -219,7 +224,7 @@ def _work_out(est, target, approach):
     if not (est.heater or est._profile_on or est.inputs.known()) and k > 0.0 and r > 0.0 \
             and r * a.age >= DRIFT_BEND and age_s - a.age >= DRIFT_MIN_S:
         bd = (level + slope / k - a.level - a.slope / r) / (age_s - a.age)
-    open_end = False
+    open_end = slow
     if bd != 0.0:
         eta = time_to_target_drift_s(gap, slope, k, bd)
         if eta is None:
