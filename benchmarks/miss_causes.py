@@ -1,0 +1,128 @@
+"""Why the 80 % intervals miss, and which statuses make the rows without an estimate.
+
+    python benchmarks/miss_causes.py --family wort --sampling dense
+    python benchmarks/miss_causes.py --family wort --family mug --sampling sparse --per-family 32
+
+For each family trace of the tune (or holdout) seeds this replays the core
+estimator and sorts every evaluated row of the approach (after the first
+minute, before the true crossing, as :mod:`host_sim.replay.metrics` evaluates
+them) by its cause:
+
+- a shown time (``tracking``): whether the equilibrium's drift was in the
+  answer (:mod:`tinytherm.answer`, watched by wrapping
+  ``answer.time_to_target_drift_s`` and ``answer._work_out`` for the run), whether the time reached
+  beyond twice the fit's age (an extrapolation over more than the fit has seen),
+  and, when the interval missed the true remaining time, whether the point was
+  short (the liquid took longer) or long;
+- no estimate: the status shown instead (gathering, settling, out of reach,
+  sensor fault, disturbed).
+
+Each trace weighs one (its rows' shares are averaged over the traces, as the
+per-trace coverage and no-estimate figures of ``benchmarks/families.py`` are),
+so one trace read every second does not outweigh one read every five minutes.
+A missed share mostly ``short`` says the point is biased, not the interval
+narrow. Figures only.
+"""
+import argparse
+import math
+import os
+import sys
+from collections import Counter
+
+ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+for p in (ROOT, os.path.join(ROOT, "benchmarks")):
+    if p not in sys.path:
+        sys.path.insert(0, p)
+
+import families as F  # noqa: E402
+from host_sim.sim import families as fam  # noqa: E402
+from tinytherm import answer  # noqa: E402
+from tinytherm import status as st  # noqa: E402
+from tinytherm.estimator import ThermalEstimator  # noqa: E402
+
+WARM_UP_S = 60.0  # s: rows evaluated after this much of the approach (replay.metrics)
+
+
+def trace_causes(family, seed, sampling):
+    """Counter of the causes of one trace's evaluated rows (keys: the module docstring's)."""
+    ft = fam.load_or_generate(family, seed, sensor_faults=True, sampling=sampling)
+    tr = ft.truth
+    drift = {"on": False}
+    original, original_work_out = answer.time_to_target_drift_s, answer._work_out
+
+    def watched(gap, slope, k, bd):
+        drift["on"] = True  # (called only with a drift in the answer)
+        return original(gap, slope, k, bd)
+
+    def work_out(est, target, approach):
+        drift["on"] = False
+        return original_work_out(est, target, approach)
+
+    answer.time_to_target_drift_s = watched
+    answer._work_out = work_out
+    out = Counter()
+    try:
+        est = ThermalEstimator(**F.device_kwargs(ThermalEstimator, ft.heater is not None,
+                                                 tr["quantum_c"]))
+        start = float(tr.get("approach_start_s") or ft.time_s[0])
+        prev = None
+        for i in range(len(ft.time_s)):
+            t = float(ft.time_s[i])
+            dt, prev = (0.0 if prev is None else t - prev), t
+            amb = None
+            if ft.ambient_c is not None and math.isfinite(ft.ambient_c[i]):
+                amb = float(ft.ambient_c[i])
+            duty = float(ft.heater[i]) if ft.heater is not None else 0.0
+            est.update(float(ft.temp_c[i]), dt, ambient_c=amb, duty=duty)
+            est.predict(tr["target_c"])  # (between block closes: the answer counted down)
+            remaining = tr["crossing_time_s"] - t
+            if t - start < WARM_UP_S or remaining <= 0.0:
+                continue
+            if est.status == st.ARRIVED:
+                out["shown: arrived"] += 1
+            elif est.status != st.TRACKING or est.eta_s is None:
+                out["none: " + st.status_name(est.status)] += 1
+            else:
+                age = max(est._for_age_ms * 0.001, 1.0)
+                key = "shown: drift %s, eta %s 2 x fit age" % (
+                    "on" if drift["on"] else "off", ">" if est.eta_s > 2.0 * age else "<=")
+                out[key] += 1
+                if not est.eta_low_s <= remaining <= est.eta_high_s:
+                    out["missed: " + key[7:] + (", short" if est.eta_s < remaining else ", long")] += 1
+    finally:
+        answer.time_to_target_drift_s = original
+        answer._work_out = original_work_out
+    return out
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description="Why intervals miss and which statuses give no "
+                                             "estimate, per family (per-trace shares).")
+    ap.add_argument("--family", action="append", help="family (repeatable; default all)")
+    ap.add_argument("--sampling", choices=("dense", "sparse"), default="dense")
+    ap.add_argument("--seeds", choices=("tune", "holdout"), default="tune")
+    ap.add_argument("--per-family", type=int, default=16, help="traces per family (default 16)")
+    args = ap.parse_args(argv)
+    names = fam.FAMILIES if args.sampling == "dense" else fam.sparse_families()
+    names = [f for f in names if not args.family or f in args.family]
+    if not names:
+        ap.error("no such family on the %s grid" % args.sampling)
+    print("| family | cause | share of evaluated rows (mean over traces) |")
+    print("|---|---|---|")
+    for f in names:
+        shares, n = Counter(), 0
+        for i in range(args.per_family):
+            c = trace_causes(f, F.SEED_BASE[args.seeds] + i, args.sampling)
+            rows = sum(v for k, v in c.items() if not k.startswith("missed"))
+            if not rows:
+                continue
+            n += 1
+            for k, v in c.items():
+                shares[k] += v / rows
+        for k in sorted(shares):
+            print("| %s | %s | %.3f |" % (f, k, shares[k] / n))
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
