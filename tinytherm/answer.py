@@ -35,7 +35,7 @@ the longest audit's waiting forecast holds the fit when it started, so its fitte
 ``E = level + slope / k`` then and now give ``b = (E_now - E_then) / (age_now -
 age_then)`` (once the fit then had bent through :data:`DRIFT_BEND` time constants,
 over at least :data:`DRIFT_MIN_S`). The time is then that of ``dT/dt = -k (T -
-E(t))``, ``E(t) = E + b t`` (:func:`tinytherm.fit.time_to_target_drift_s`), and the drift
+E(t))``, ``E(t) = E + b t`` (:func:`time_to_target_drift_s`), and the drift
 :data:`DRIFT_SD` of itself smaller gives one more sd of ln(eta) (never arriving
 so: no upper bound).
 
@@ -49,7 +49,6 @@ import struct
 from tinytherm import status as st
 from tinytherm.fit import DUTY_SCALE, NOISE_PRIOR_N, SCALE, to_counts
 from tinytherm.num import as_float, spread
-from tinytherm.fit import time_to_target_drift_s  # (its own line: merged above, the 24 h run at 82K failed, measured)
 
 INF = math.inf
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
@@ -401,6 +400,37 @@ def time_to_target_from_slope_s(gap_c, slope_c_per_s, rate_per_s):
         return -math.log(1.0 - q) / rate_per_s
     except (ValueError, OverflowError, ZeroDivisionError):
         return None
+
+
+def time_to_target_drift_s(gap_c, slope_c_per_s, rate_per_s, drift_c_per_s):
+    """Seconds until the liquid has moved ``gap_c`` deg C, its equilibrium drifting.
+
+    As :func:`time_to_target_from_slope_s` (the answer's law) with ``E(t) = E0 + b t``,
+    ``b = drift_c_per_s`` (deg C/s), ``k = rate_per_s`` > 0 (1/s). With ``d = sign(gap)``,
+    ``g(t) = d (b t - A (1 - exp(-k t))) - |gap|``, ``A = (b - slope) / k``, rises from
+    ``-|gap|`` at ``|slope|``; ``g'`` moves monotonically to ``d b``, so ``g`` is convex
+    or concave and Newton's method from 0 converges. None when never reached (``g``
+    peaks below 0, or the slope is away from the target) or for bad input.
+    """
+    k = rate_per_s
+    d = 1.0 if gap_c > 0.0 else -1.0
+    s = slope_c_per_s * d   # towards the target when > 0
+    bd = drift_c_per_s * d
+    if not (k > 0.0 and s > 0.0 and -1e300 < bd < 1e300):
+        return None
+    t = 0.0
+    for _ in range(40):
+        e = math.exp(-k * t)  # (t >= 0: no overflow)
+        dg = bd - (bd - s) * e
+        if not dg > 0.0:
+            return None     # past the peak short of the target: never reached
+        step = (bd * t - (bd - s) * (1.0 - e) / k - gap_c * d) / dg
+        t -= step
+        if t < 0.0 or t > 1e12:
+            return None
+        if -1e-9 * (t + 1.0) < step < 1e-9 * (t + 1.0):
+            return t
+    return None
 
 
 AUDIT_FRACTIONS = (0.125, 0.25, 0.5)  # audit horizons, fractions of the fit's age

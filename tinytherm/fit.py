@@ -575,33 +575,3 @@ def to_counts(temp_c):
     """A temperature as counts of 1/SCALE deg C (int), rounded to nearest."""
     return int(math.floor(temp_c * SCALE + 0.5))
 
-
-def time_to_target_drift_s(gap_c, slope_c_per_s, rate_per_s, drift_c_per_s):
-    """Seconds until the liquid has moved ``gap_c`` deg C, its equilibrium drifting.
-
-    As :func:`tinytherm.answer.time_to_target_from_slope_s` (the answer's law) with ``E(t) = E0 + b t``, ``b =
-    drift_c_per_s`` (deg C/s), ``k = rate_per_s`` > 0 (1/s). With ``d = sign(gap)``,
-    ``g(t) = d (b t - A (1 - exp(-k t))) - |gap|``, ``A = (b - slope) / k``, rises from
-    ``-|gap|`` at ``|slope|``; ``g'`` moves monotonically to ``d b``, so ``g`` is convex
-    or concave and Newton's method from 0 converges. None when never reached (``g``
-    peaks below 0, or the slope is away from the target) or for bad input.
-    """
-    k = rate_per_s
-    d = 1.0 if gap_c > 0.0 else -1.0
-    s = slope_c_per_s * d   # towards the target when > 0
-    bd = drift_c_per_s * d
-    if not (k > 0.0 and s > 0.0 and -1e300 < bd < 1e300):
-        return None
-    t = 0.0
-    for _ in range(40):
-        e = math.exp(-k * t)  # (t >= 0: no overflow)
-        dg = bd - (bd - s) * e
-        if not dg > 0.0:
-            return None     # past the peak short of the target: never reached
-        step = (bd * t - (bd - s) * (1.0 - e) / k - gap_c * d) / dg
-        t -= step
-        if t < 0.0 or t > 1e12:
-            return None
-        if -1e-9 * (t + 1.0) < step < 1e-9 * (t + 1.0):
-            return t
-    return None
