@@ -22,8 +22,11 @@ clearly, it compares the time the fit's law predicted for the observed change
 with the time it took (not when the horizon exceeded :data:`AUDIT_YOUNG` times
 the age of the fit that made it: a start-up extrapolated says nothing of it)::
 
-    e = ln(took / predicted),  |e| <= ln 8
-    var_audits <- (n var_audits + e^2) / (n + 1),  then n <- min(n + 1, AUDIT_MEMORY)
+    e = ln(took / predicted),  |e| <= ln 8,  w = n (age_then / age_now)^AUDIT_FORGET
+    var_audits <- (w var_audits + e^2) / (w + 1),  then n <- min(round(w + 1), AUDIT_MEMORY)
+
+(the older checks weigh less as the fit grows: the first minute's misses do not
+set a grown fit's interval; unbiased while the errors hold steady).
 
 :meth:`Audits.var_at` interpolates the three in log horizon (beyond the
 longest audit the variance grows with the horizon, at most
@@ -447,6 +450,8 @@ DRIFT_MIN_S = 120.0  # s: least time the drift is measured over
 DRIFT_BEND = 2.0    # time constants (k x age) the fit had bent through at the drift's start
 #   (before, its E is an extrapolation still converging; the three: leave-one-family-out)
 AUDIT_MEMORY = 8        # audits in the running mean of squared log errors
+AUDIT_FORGET = 2.0      # an older check's weight falls as (its age / the age now)^this
+#   (leave-one-family-out, 16 tune traces per family dense and sparse: 0, 1, 2, 3, 4)
 AUDIT_STRETCH = 4.0     # most the longest audit's variance is stretched beyond it
 AUDIT_LOG_CAP = 2.0794  # ln 8: one audit counts at most a factor 8
 _LN4 = math.log(4.0)
@@ -500,10 +505,13 @@ class Audit:
                         err = AUDIT_LOG_CAP
                     elif err < -AUDIT_LOG_CAP:
                         err = -AUDIT_LOG_CAP
-                old = self.n
-                if old < AUDIT_MEMORY:
-                    self.n = old + 1
+                # the older checks weigh (age then / age now)^AUDIT_FORGET less: a mean
+                # over recent errors, unbiased (n stays a whole count: no new byte)
+                # (age_s >= took > 0; a whole count as before, AUDIT_FORGET 0 the plain mean)
+                old = self.n * (self.age / age_s) ** AUDIT_FORGET
                 self.var = (old * self.var + err * err) / (old + 1.0)
+                n = int(old + 1.5)
+                self.n = n if n < AUDIT_MEMORY else AUDIT_MEMORY
         self.age = age_s
         self.level = level
         self.slope = slope

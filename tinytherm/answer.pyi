@@ -23,6 +23,7 @@ AUDIT_FRACTIONS: tuple[float, float, float]
 AUDIT_MIN_S: tuple[float, float, float]
 AUDIT_PRIOR_VAR: float
 AUDIT_MEMORY: int
+AUDIT_FORGET: float
 AUDIT_STRETCH: float
 AUDIT_LOG_CAP: float
 DELTA_VAR_FACTOR: float
