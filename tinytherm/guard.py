@@ -40,15 +40,21 @@ check the dynamic state (``STATE_SIZE`` bytes); the counts are not saved.
 """
 import struct
 
+try:
+    from micropython import const
+except ImportError:  # CPython
+    def const(x):
+        return x
+
 from tinytherm import status
 from tinytherm.num import INF as _INF, as_float, finite
 
 _NEG_INF = -_INF  # a constant: negating at run time would allocate
-_TICKS_PERIOD = 1 << 30          # ticks wrap at 2**30 (MicroPython ticks_ms)
-_TICKS_MASK = _TICKS_PERIOD - 1
-_TICKS_HALF = _TICKS_PERIOD >> 1  # a difference beyond half a period is negative
-_STEP_CAP_MS = _TICKS_HALF        # a longer step is counted as this (a small int)
-_STEP_CAP_S = _STEP_CAP_MS / 1000.0
+_TICKS_PERIOD = const(1 << 30)          # ticks wrap at 2**30 (MicroPython ticks_ms)
+_TICKS_MASK = const(_TICKS_PERIOD - 1)
+_TICKS_HALF = const(_TICKS_PERIOD >> 1)  # a difference beyond half a period is negative
+_STEP_CAP_MS = const(_TICKS_HALF)        # a longer step is counted as this (a small int)
+_STEP_CAP_S = const(_STEP_CAP_MS / 1000.0)
 
 # Gap codes: what the caller should do about the time since the last accepted reading.
 GAP_NONE = 0      # normal spacing
@@ -59,12 +65,12 @@ GAP_RESTART = 2   # longer than restart_gap_s: start the fit afresh
 POWER_UP_CODE_C = 85.0
 DISCONNECTED_CODE_C = -127.0
 
-_MAD_TO_SIGMA = 1.4826  # MAD of a normal sample x 1.4826 = its standard deviation
+_MAD_TO_SIGMA = const(1.4826)  # MAD of a normal sample x 1.4826 = its standard deviation
 _N_VERDICTS = len(status.VERDICT_NAMES)
 # saved state: 4 window values, last accepted value, held rate (float64);
 # pending and repeat-run time (uint32 ms); window fill | accepted flag; rejections
-_STATE_FMT = "<ddddddIIBB"
-_HAS_ACCEPTED = 8  # flag bit beside the window fill (0..4) in the flags byte
+_STATE_FMT = const("<ddddddIIBB")
+_HAS_ACCEPTED = const(8)  # flag bit beside the window fill (0..4) in the flags byte
 
 
 def _median3(a, b, c):

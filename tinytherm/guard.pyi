@@ -1,5 +1,7 @@
 from typing import Any, Optional, Union
 
+def const(x: Any) -> Any: ...
+
 DISCONNECTED_CODE_C: float
 POWER_UP_CODE_C: float
 GAP_NONE: int
