@@ -5,7 +5,8 @@
         [--updates 3000] [--heap-run 20000]
 
 For the working tree's core and (optionally) a commit's core, each compiled
-with ``mpy-cross -O3`` and loaded from ``.mpy`` files by the unix
+with ``mpy-cross -O3`` (source names ``tinytherm/<module>.py``, as
+``tools/build_mpy.py`` builds them) and loaded from ``.mpy`` files by the unix
 ``micropython`` binary (64-bit: a float box takes one 32-byte GC block; a
 32-bit board uses 16), prints one markdown table:
 
@@ -115,8 +116,10 @@ def build(src_root, out):
     for name in sorted(os.listdir(os.path.join(src_root, "tinytherm"))):
         if name.endswith(".py"):
             dst = os.path.join(out, "tinytherm", name[:-3] + ".mpy")
-            subprocess.run([cross, "-O3", "-o", dst, os.path.join(src_root, "tinytherm", name)],
-                           check=True)
+            # the source name as tools/build_mpy.py embeds it (each .mpy carries it, loaded
+            # on import: the checkout's path would move the figures between worktrees)
+            subprocess.run([cross, "-O3", "-o", dst, "-s", "tinytherm/" + name,
+                            os.path.join(src_root, "tinytherm", name)], check=True)
             sizes[name[:-3]] = os.path.getsize(dst)
     return sizes
 
