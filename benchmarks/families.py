@@ -156,15 +156,13 @@ def device_kwargs(cls, heater, quantum_c):
     return kw
 
 
-def replay_estimator(cls, kwargs, time_s, temp_c, target_c, ambient_c=None, heater=None,
-                     approach=0):
-    """Feed readings to a fresh estimator; per-row ``eta_s``, ``low``, ``high``, ``status`` lists.
+def feed(est, time_s, temp_c, ambient_c=None, heater=None):
+    """Feed each row to ``est.update`` as a device would; yield the row's time (s) after it.
 
-    ``approach`` (-1 cools to the target, +1 heats to it, 0 not given) is passed
-    to ``predict`` when nonzero: what firmware that knows its product would say.
+    ``time_s`` (s), ``temp_c`` (deg C), ``ambient_c`` (deg C, NaN where not
+    measured) and ``heater`` (duty 0..1) per row; ``dt`` is the step from the
+    row before (0 at the first).
     """
-    est = cls(**kwargs)
-    eta, low, high, status = [], [], [], []
     prev = None
     for i in range(len(time_s)):
         t = float(time_s[i])
@@ -175,6 +173,36 @@ def replay_estimator(cls, kwargs, time_s, temp_c, target_c, ambient_c=None, heat
             amb = float(ambient_c[i])
         duty = float(heater[i]) if heater is not None else 0.0
         est.update(float(temp_c[i]), dt, ambient_c=amb, duty=duty)
+        yield t
+
+
+def add_family_arguments(ap):
+    """``--family``, ``--sampling``, ``--seeds``, ``--per-family`` of the per-family diagnosis tools."""
+    ap.add_argument("--family", action="append", help="family (repeatable; default all)")
+    ap.add_argument("--sampling", choices=("dense", "sparse"), default="dense")
+    ap.add_argument("--seeds", choices=("tune", "holdout"), default="tune")
+    ap.add_argument("--per-family", type=int, default=16, help="traces per family (default 16)")
+
+
+def chosen_families(ap, args):
+    """The families of ``args.sampling``'s grid named by ``--family`` (all by default)."""
+    names = fam.FAMILIES if args.sampling == "dense" else fam.sparse_families()
+    names = [f for f in names if not args.family or f in args.family]
+    if not names:
+        ap.error("no such family on the %s grid" % args.sampling)
+    return names
+
+
+def replay_estimator(cls, kwargs, time_s, temp_c, target_c, ambient_c=None, heater=None,
+                     approach=0):
+    """Feed readings to a fresh estimator; per-row ``eta_s``, ``low``, ``high``, ``status`` lists.
+
+    ``approach`` (-1 cools to the target, +1 heats to it, 0 not given) is passed
+    to ``predict`` when nonzero: what firmware that knows its product would say.
+    """
+    est = cls(**kwargs)
+    eta, low, high, status = [], [], [], []
+    for _t in feed(est, time_s, temp_c, ambient_c, heater):
         if approach:
             est.predict(target_c, approach)
         else:

@@ -59,15 +59,8 @@ def trace_terms(family, seed, sampling):
     try:
         est = ThermalEstimator(**F.device_kwargs(ThermalEstimator, ft.heater is not None,
                                                  tr["quantum_c"]))
-        rows, prev = [], None
-        for i in range(len(ft.time_s)):
-            t = float(ft.time_s[i])
-            dt, prev = (0.0 if prev is None else t - prev), t
-            amb = None
-            if ft.ambient_c is not None and math.isfinite(ft.ambient_c[i]):
-                amb = float(ft.ambient_c[i])
-            duty = float(ft.heater[i]) if ft.heater is not None else 0.0
-            est.update(float(ft.temp_c[i]), dt, ambient_c=amb, duty=duty)
+        rows = []
+        for t in F.feed(est, ft.time_s, ft.temp_c, ft.ambient_c, ft.heater):
             est.predict(tr["target_c"])  # (between block closes: the answer repeated)
             remaining = tr["crossing_time_s"] - t
             if (est.status != st.TRACKING or not seen or est.eta_rel_sd is None
@@ -86,16 +79,10 @@ def trace_terms(family, seed, sampling):
 def main(argv=None):
     ap = argparse.ArgumentParser(description="The interval's terms (prior, audits, model) "
                                              "against the true log error, per family and interval.")
-    ap.add_argument("--family", action="append", help="family (repeatable; default all)")
-    ap.add_argument("--sampling", choices=("dense", "sparse"), default="dense")
-    ap.add_argument("--seeds", choices=("tune", "holdout"), default="tune")
-    ap.add_argument("--per-family", type=int, default=16, help="traces per family (default 16)")
+    F.add_family_arguments(ap)
     ap.add_argument("--out", help="write one row per shown reading to this CSV")
     args = ap.parse_args(argv)
-    names = fam.FAMILIES if args.sampling == "dense" else fam.sparse_families()
-    names = [f for f in names if not args.family or f in args.family]
-    if not names:
-        ap.error("no such family on the %s grid" % args.sampling)
+    names = F.chosen_families(ap, args)
     groups = defaultdict(list)
     for f in tqdm(names, desc="families", file=sys.stderr):
         for i in range(args.per_family):

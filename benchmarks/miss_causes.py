@@ -24,7 +24,6 @@ A missed share mostly ``short`` says the point is biased, not the interval
 narrow. Figures only.
 """
 import argparse
-import math
 import os
 import sys
 from collections import Counter
@@ -35,13 +34,11 @@ for p in (ROOT, os.path.join(ROOT, "benchmarks")):
         sys.path.insert(0, p)
 
 import families as F  # noqa: E402
+from host_sim.replay.metrics import WARMUP_S  # noqa: E402  (rows evaluated after this much of the approach)
 from host_sim.sim import families as fam  # noqa: E402
 from tinytherm import answer  # noqa: E402
 from tinytherm import status as st  # noqa: E402
 from tinytherm.estimator import ThermalEstimator  # noqa: E402
-
-WARM_UP_S = 60.0  # s: rows evaluated after this much of the approach (replay.metrics)
-
 
 def trace_causes(family, seed, sampling):
     """Counter of the causes of one trace's evaluated rows (keys: the module docstring's)."""
@@ -65,18 +62,10 @@ def trace_causes(family, seed, sampling):
         est = ThermalEstimator(**F.device_kwargs(ThermalEstimator, ft.heater is not None,
                                                  tr["quantum_c"]))
         start = float(tr.get("approach_start_s") or ft.time_s[0])
-        prev = None
-        for i in range(len(ft.time_s)):
-            t = float(ft.time_s[i])
-            dt, prev = (0.0 if prev is None else t - prev), t
-            amb = None
-            if ft.ambient_c is not None and math.isfinite(ft.ambient_c[i]):
-                amb = float(ft.ambient_c[i])
-            duty = float(ft.heater[i]) if ft.heater is not None else 0.0
-            est.update(float(ft.temp_c[i]), dt, ambient_c=amb, duty=duty)
+        for t in F.feed(est, ft.time_s, ft.temp_c, ft.ambient_c, ft.heater):
             est.predict(tr["target_c"])  # (between block closes: the answer counted down)
             remaining = tr["crossing_time_s"] - t
-            if t - start < WARM_UP_S or remaining <= 0.0:
+            if t - start < WARMUP_S or remaining <= 0.0:
                 continue
             if est.status == st.ARRIVED:
                 out["shown: arrived"] += 1
@@ -98,15 +87,9 @@ def trace_causes(family, seed, sampling):
 def main(argv=None):
     ap = argparse.ArgumentParser(description="Why intervals miss and which statuses give no "
                                              "estimate, per family (per-trace shares).")
-    ap.add_argument("--family", action="append", help="family (repeatable; default all)")
-    ap.add_argument("--sampling", choices=("dense", "sparse"), default="dense")
-    ap.add_argument("--seeds", choices=("tune", "holdout"), default="tune")
-    ap.add_argument("--per-family", type=int, default=16, help="traces per family (default 16)")
+    F.add_family_arguments(ap)
     args = ap.parse_args(argv)
-    names = fam.FAMILIES if args.sampling == "dense" else fam.sparse_families()
-    names = [f for f in names if not args.family or f in args.family]
-    if not names:
-        ap.error("no such family on the %s grid" % args.sampling)
+    names = F.chosen_families(ap, args)
     print("| family | cause | share of evaluated rows (mean over traces) |")
     print("|---|---|---|")
     for f in names:
