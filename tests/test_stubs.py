@@ -199,11 +199,42 @@ def test_stub_instance_attributes_exist_at_runtime():
     for mod, obj in (("estimator", ThermalEstimator()), ("planner", ReadyByPlanner()),
                      ("forecast", Forecast()), ("sensors", LagCompensator(10.0)),
                      ("guard", ReadingGuard()), ("change", ChangeDetector())):
-        _, classes, _ = _stub_tree(mod)
         # (class-level names such as STATE_SIZE and properties are not instance attributes)
-        attrs = classes[type(obj).__name__]["__attrs__"] - set(vars(type(obj)))
+        attrs = _stub_instance_attrs(mod, type(obj).__name__) - set(dir(type(obj)))
         public = {k for k in vars(obj) if not k.startswith("_")}
         assert attrs == public, (mod, attrs ^ public)
+
+
+def _stub_base_module(mod, base):
+    """The stub module a base class named in ``mod``'s stub is imported from (or ``mod``)."""
+    with open(os.path.join(PKG, mod + ".pyi")) as fh:
+        tree = ast.parse(fh.read())
+    for node in tree.body:
+        if isinstance(node, ast.ImportFrom) and node.module.startswith("tinytherm."):
+            if any((a.asname or a.name) == base for a in node.names):
+                return node.module.split(".", 1)[1], dict((a.asname or a.name, a.name)
+                                                          for a in node.names)[base]
+    return mod, base
+
+
+def _stub_instance_attrs(mod, cls):
+    """The annotated attributes of a stub class and of its stub base classes, in turn."""
+    with open(os.path.join(PKG, mod + ".pyi")) as fh:
+        tree = ast.parse(fh.read())
+    node = [n for n in tree.body if isinstance(n, ast.ClassDef) and n.name == cls][0]
+    attrs = _stub_tree(mod)[1][cls]["__attrs__"]
+    for base in node.bases:
+        if isinstance(base, ast.Name):
+            attrs = attrs | _stub_instance_attrs(*_stub_base_module(mod, base.id))
+    return attrs
+
+
+def test_stub_instance_attrs_follow_base_classes():
+    # The estimator's stub inherits the answer fields from status.Answer's stub; the check
+    # must see them, or a field dropped from both the runtime and status.pyi would pass.
+    inherited = _stub_instance_attrs("estimator", "ThermalEstimator")
+    assert "eta_s" in inherited and "guard" in inherited
+    assert _stub_base_module("estimator", "Answer") == ("status", "Answer")
 
 
 def mypy(args, cwd, mypypath=None):

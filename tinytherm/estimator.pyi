@@ -43,16 +43,6 @@ class ThermalEstimator(Answer):
     last_verdict: int
     changes: int
     turns: int
-    status: int
-    eta_s: Optional[float]
-    eta_low_s: Optional[float]
-    eta_high_s: Optional[float]
-    eta_rel_sd: Optional[float]
-    rate_per_s: Optional[float]
-    equilibrium_c: Optional[float]
-    ambient_est_c: Optional[float]
-    temp_est_c: Optional[float]
-    gain_k_per_s: float
     def __init__(self, ambient_c: Optional[float] = None, ambient_prior_c: float = 21.0,
                  ambient_prior_sd_c: float = 8.0, heater: bool = False, interval: float = 0.8, quantum_c: float = 0.0625,
                  min_temp_c: float = -55.0, max_temp_c: float = 150.0, spike_window: int = 3,
