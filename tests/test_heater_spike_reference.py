@@ -21,7 +21,6 @@ from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
 from host_sim.replay.metrics import early_rows
-from host_sim.sim import families as F
 from tinytherm.estimator import ThermalEstimator
 
 K_PER_S = 1.0 / 2400.0   # loss rate, 1/s
@@ -63,15 +62,7 @@ def test_one_low_reading_on_a_heat_up_is_no_arrival(families_bench, spike_at):
         assert "arrived" in status[int(crossing // 60) + 1:]  # it arrives once there
 
 
-def test_the_pot_trace_it_was_found_on(families_bench):
+def test_the_pot_trace_it_was_found_on(family_replay):
     """The tune trace itself (the pot family's physics: host_sim.sim, solve_ivp)."""
-    ft = F.generate("pot", 1014)
-    tr = ft.truth
-    kw = families_bench.device_kwargs(ThermalEstimator, True, tr["quantum_c"])
-    _eta, _low, _high, status = families_bench.replay_estimator(
-        ThermalEstimator, kw, ft.time_s, ft.temp_c, tr["target_c"],
-        ambient_c=ft.ambient_c, heater=ft.heater)
-    signal = ft.liquid_c if ft.liquid_c is not None else ft.clean_c
-    target = tr["liquid_at_crossing_c"] if ft.liquid_c is not None else tr["target_c"]
-    early = early_rows(status, signal, target, tr["noise_sd_c"], tr["direction"])
-    assert not early.any(), ft.time_s[early]
+    status, early, time_s = family_replay("pot", 1014)
+    assert not early.any(), time_s[early]

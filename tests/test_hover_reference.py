@@ -10,10 +10,6 @@ judges (host_sim.replay.metrics.early_rows).
 """
 import pytest
 
-from host_sim.replay.metrics import early_rows
-from host_sim.sim import families as F
-from tinytherm.estimator import ThermalEstimator
-
 
 # (seed, sampling) of the fridge family:
 # - 5072, dense: a straight-line fit (k pinned at 0) through the probe's hover ran the
@@ -28,16 +24,8 @@ CASES = [pytest.param(5072, "dense", id="hovering-drink"),
 
 
 @pytest.mark.parametrize("seed, sampling", CASES)
-def test_a_drink_near_its_target_is_no_early_arrival(families_bench, seed, sampling):
-    bench = families_bench
-    ft = F.generate("fridge", seed, sampling=sampling)
-    tr = ft.truth
-    kw = bench.device_kwargs(ThermalEstimator, False, tr["quantum_c"])
+def test_a_drink_near_its_target_is_no_early_arrival(family_replay, seed, sampling):
     for approach in (0, -1):
-        _eta, _low, _high, status = bench.replay_estimator(
-            ThermalEstimator, kw, ft.time_s, ft.temp_c, tr["target_c"],
-            ambient_c=ft.ambient_c, approach=approach)
+        status, early, time_s = family_replay("fridge", seed, sampling, approach)
         assert "arrived" in status               # it does arrive, after the crossing
-        early = early_rows(status, ft.liquid_c, tr["liquid_at_crossing_c"], tr["noise_sd_c"],
-                           tr["direction"])
-        assert not early.any(), ft.time_s[early]
+        assert not early.any(), time_s[early]
