@@ -40,7 +40,7 @@ from tinytherm.change import ChangeDetector
 from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.num import as_float, normal_quantile, number
-from tinytherm.settle import Settle
+from tinytherm.settle import _NO_REF, Settle
 
 # Fixed choices (module constants, not arguments: no product needs another value).
 BLOCK_S = 40.0            # s: longest block averaged into one observation (the device budget: 20 s
@@ -358,7 +358,10 @@ class ThermalEstimator(Answer):
             self._level_and_slope()
             if b.readings >= DETECT_MIN_BLOCKS:
                 self._disturbed = False  # established again after a jump
-                if self.audits.any_due((b.age_ms - b.it) * 0.001):
+                if self.audits.any_due((b.age_ms - b.it) * 0.001) and (
+                        self.heater or self.settle.ref != _NO_REF):
+                    # (none while the probe travels to the liquid after a jump: those
+                    # forecasts are the probe's, their errors not the liquid's)
                     self._pending = 2  # the audits with the next reading
         else:
             self._slope = 0.0
@@ -367,7 +370,8 @@ class ThermalEstimator(Answer):
         self.noise.expect_ms = -1
         if self._turned(yb):
             self.turns += 1
-            self._begin_again(False, b.readings == 3)
+            # (from the reading before it, the peak, also when the probe travelled after a jump)
+            self._begin_again(False, b.readings == 3 or self.settle.ref == _NO_REF)
 
     def _level_and_slope(self):
         """The anchored level and the slope at it from the solution (at the latest block
@@ -410,7 +414,11 @@ class ThermalEstimator(Answer):
         explains it), never a restart.
         """
         cut = 4.0 * self.noise.sd
-        if cut < TURN_C and not (self.blocks.readings == 3 and self._dir != 0) and not (
+        if self.settle.ref == _NO_REF and not self.heater:
+            # a probe travelling to the liquid after a jump moves one way until it meets
+            # it: back from its extreme by a move beyond the noise is the liquid's turn
+            cut = answer.move_c(self.noise.sd)
+        elif cut < TURN_C and not (self.blocks.readings == 3 and self._dir != 0) and not (
                 self._profile_on and not self.heater and self._dir != 0
                 and self._profile.toward_e(self, -self._dir)):
             # at least TURN_C, but for the retreat right after the jump that set the
