@@ -61,7 +61,7 @@ HOLD_OPEN_N = 4           # readings in the open block before its mean moves the
 #   (a noise guard, not chosen: four readings average to half a reading's sd)
 EQUILIBRIUM_SLACK = 0.1  # share of the distance to the fitted equilibrium it may be off
 #   (the families, all reachable, chose 0.4; 0.2 already answers a mug below a warm room)
-MAX_REL_SD = 5.0          # an answer whose fit's own ln-time sd exceeds this stays SETTLING
+MAX_REL_SD = 5.0          # an answer whose ln-time forecast sd (var_at) over this stays SETTLING
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
 PROFILE_LAG_TIMES = 1.5   # a heated fit younger than this many profile lags shows no time
 _INV = 1.0 / SCALE
@@ -285,16 +285,18 @@ def _work_out(est, target, approach):
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
     est.eta_s = eta
-    rel = math.sqrt(est.audits.var_at(eta, age_s, rel2) + b * b)
+    v = est.audits.var_at(eta, age_s, rel2)
     if est._profile_on:
         est._profile.interval_into(est, eta)  # the profile's calibrated interval
     else:
+        rel = math.sqrt(v + b * b)
         f = spread(est._z * rel)
         est.eta_low_s = eta / f
         est.eta_high_s = INF if open_end else eta * f
         est.eta_rel_sd = rel
-    if own2 <= MAX_REL_SD * MAX_REL_SD:
-        # (the fit's own evidence decides whether to show it; model error widens it)
+    if v <= MAX_REL_SD * MAX_REL_SD:
+        # (the fit's forecast-error variance at this horizon decides whether to show it: its
+        # own delta-method variance the prior of what its audits measured; model error widens it)
         est.status = st.TRACKING
 
 def _arrived(est, target, m, approach, age_ms):
