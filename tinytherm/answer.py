@@ -1,7 +1,7 @@
 """The answer: status, time to the target and its interval, from a solved fit.
 
 Worked out once per block close (and target), then counted down between
-blocks (:meth:`Answer.count_down`): asking every reading costs a few float
+blocks (:meth:`tinytherm.status.Cache.count_down`): asking every reading costs a few float
 operations. The time is the closed form :func:`time_to_target_from_slope_s`
 (the one copy in the core; :mod:`tinytherm.model` re-exports it).
 
@@ -94,17 +94,17 @@ def predict(self, target_c, approach=0):
     if approach != 1 and approach != -1:
         approach = 0  # (a bad value: as if not given, never an exception)
     if self.guard.consecutive_rejections >= FAULT_AFTER:
-        self.forget()
+        self._cache.forget()
         self.clear(st.SENSOR_FAULT)
         return self.status
     b = self.blocks
     age = b.age_ms
-    if (self._for_gen == self._blocks_done and self._for_target == target
-            and self._for_approach == approach):
+    c = self._cache
+    if c.gen == c.done and c.target == target and c.approach == approach:
         # the same block and question: count the answer down, unless the
         # latest reading has reached the arrival line
-        m = self._arrive_dir
-        a = self._arrive_c
+        m = c.arrive_dir
+        a = c.arrive_c
         reached = m != 0 and ((b.c >= a and b.cq >= a) if m > 0 else (b.c <= a and b.cq <= a))
         if reached and _backed_off(self, m):
             reached = False  # back beyond the turn threshold: a top-up, not an arrival
@@ -114,29 +114,30 @@ def predict(self, target_c, approach=0):
         elif reached and _arrived(self, target, m, approach, age):
             self.arrive()
             return self.status
-        elif self.count_down(age):
+        elif c.count_down(self, age):
             return self.status
-    self._for_gen = -1
+    c.gen = -1
     try:
         _work_out(self, target, approach)
     except (ValueError, OverflowError, ZeroDivisionError, TypeError):
         self.clear(st.SETTLING)
-        self._arrive_dir = 0
+        c.arrive_dir = 0
     if self._disturbed and (self.status == st.SETTLING or self.status == st.GATHERING):
         self.status = st.DISTURBED  # re-learning after a jump
-    if self._for_gen != -2:
-        self._for_gen = self._blocks_done
-    self._for_target = target
-    self._for_approach = approach
-    self.count_down(age, True)
+    if c.gen != -2:
+        c.gen = c.done
+    c.target = target
+    c.approach = approach
+    c.count_down(self, age, True)
     return self.status
 
 def _work_out(est, target, approach):
     """The full answer for the latest block close (cached by ``predict``)."""
     reg = est.reg
     b = est.blocks
-    est._for_age_ms = b.age_ms - b.it  # the answer is for the block close
-    est._arrive_dir = 0
+    c = est._cache
+    c.age_ms = b.age_ms - b.it  # the answer is for the block close
+    c.arrive_dir = 0
     # three readings, or two that began the fit at a turn (the first reading of the
     # approach was taken before it: the probe in the air before a pour)
     if (b.readings < (2 if est.settle.turn else 3) or not reg.ok or target is None
@@ -176,7 +177,7 @@ def _work_out(est, target, approach):
         d = est._dir
     m = est._dir
     gap = target - level
-    age_s = est._for_age_ms * 0.001  # (the fit's age at the block close, as the answer)
+    age_s = c.age_ms * 0.001  # (the fit's age at the block close, as the answer)
     if m != 0 and d == m and (approach == 0 or m == approach):
         # (an arrival needs the fitted slope to agree with the block means: a spike or
         # a wrong turn of the means is no arrival while the fit says the other way)
@@ -184,20 +185,20 @@ def _work_out(est, target, approach):
         tol = 3.0 * est.noise.sd
         if tol > ARRIVE_TOL_C:
             tol = ARRIVE_TOL_C
-        est._arrive_dir = m
-        est._arrive_c = to_counts(target - m * tol)
+        c.arrive_dir = m
+        c.arrive_c = to_counts(target - m * tol)
         # a reading back beyond the extreme by move_c ends an arrival before the fit
         # sees a turn: the lagging probe rising after a top-up
-        est._hold_c = to_counts(est._extreme_c() - m * move_c(est.noise.sd))
-        if (b.c - est._arrive_c) * m >= 0 and _arrived(est, target, m, approach, b.age_ms):
-            if (b.cq - est._arrive_c) * m >= 0:
+        c.hold_c = to_counts(est._extreme_c() - m * move_c(est.noise.sd))
+        if (b.c - c.arrive_c) * m >= 0 and _arrived(est, target, m, approach, b.age_ms):
+            if (b.cq - c.arrive_c) * m >= 0:
                 est.arrive()
                 return
             # one reading on the line may be a spike: arriving now, confirmed by the next
             est.status = st.TRACKING
             est.eta_s = est.eta_low_s = 0.0
             est.eta_high_s = tol / (slope if slope > 0.0 else -slope) if slope != 0.0 else INF
-            est._for_gen = -2  # (from the latest reading: not counted down)
+            c.gen = -2  # (from the latest reading: not counted down)
             return
     slow = d == 0 and slope * gap > 0.0
     if slow:
@@ -208,7 +209,7 @@ def _work_out(est, target, approach):
         return  # moving away from how this product reaches its target
     if gap * d <= 0.0:
         gap = target - y  # the level crossed, the readings not yet
-        est._for_gen = -2  # (an answer from the latest reading: not counted down)
+        c.gen = -2  # (an answer from the latest reading: not counted down)
     if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
         return  # not moving, or turning: no honest time
     if est._profile_on and est.heater and age_s < PROFILE_LAG_TIMES * est._profile.probe_lag_s:
@@ -289,7 +290,7 @@ def _work_out(est, target, approach):
     if est._profile_on:
         est._profile.interval_into(est, eta)  # the profile's calibrated interval
     else:
-        f = spread(est._z * rel)
+        f = spread(c.z * rel)
         est.eta_low_s = eta / f
         est.eta_high_s = INF if open_end else eta * f
         est.eta_rel_sd = rel
@@ -321,7 +322,7 @@ def _arrived(est, target, m, approach, age_ms):
     b = est.blocks
     # the fitted level at the latest reading (the fit's coordinates moved on)
     level = (reg.my + reg.s * (reg.t + b.it * 0.001) - reg.k * (reg.x + b.ix * _IX_TO_CS)
-             + est._anchor)
+             + est.reg.anchor)
     if est.heater:
         level += reg.g * (reg.v + b.iv * _IV_TO_S)
     sd = est.noise.sd
@@ -353,11 +354,11 @@ def move_c(noise_sd_c):
 
 def _backed_off(est, m):
     """The latest reading, or one the guard holds as a possible spike (a top-up's first,
-    until the next confirms it), back beyond the hold line ``_hold_c`` against ``m``; the
+    until the next confirms it), back beyond the hold line (the cache's ``hold_c``) against ``m``; the
     line as far from the open block's mean when that is further on (the drink went on
     past the extreme since the last block closed: a line from the extreme alone is late)."""
     b = est.blocks
-    hold = est._hold_c
+    hold = est._cache.hold_c
     if b.n >= HOLD_OPEN_N:
         line = b.sy // b.n + hold - est._ext_sy // est._ext_n  # (integer counts: no heap)
         if (line - hold) * m > 0:

@@ -111,6 +111,9 @@ class ThermalEstimator(Answer):
             raise ValueError("quantum_c must be in [1e-6, 10] deg C")
         if not number(restart_gap_s, 1.0, 5e5):
             raise ValueError("restart_gap_s must be in [1, 5e5] seconds")
+        # save() writes into this one buffer (blob.BLOB_SIZE bytes), made first, while the heap
+        # is fresh (the largest piece of the estimator: later, smaller ones fill the gaps)
+        buf = bytearray(512)
         self.heater = heater
         self.profile_reason = 0
         self._profile = None
@@ -127,21 +130,19 @@ class ThermalEstimator(Answer):
         self.detector = ChangeDetector(jump_z=12.0)
         # (the parts through their modules: each name imported here is a slot of this
         # module's table on the device)
-        self.inputs = fit.Inputs(ambient_c)
+        self.inputs = fit.Inputs(ambient_c, ambient_prior_c, ambient_prior_sd_c)
         self.noise = fit.Noise(self.guard.quantum_c)
         self.blocks = fit.BlockSums()
         self.reg = fit.Regression(heater)
         self.audits = answer.Audits()
-        # the ambient prior: where the room usually is and its sd, deg C
-        self._prior = (float(ambient_prior_c), float(ambient_prior_sd_c))
         self.settle = Settle()  # whether the probe has met the liquid (no direction given)
-        self._z = normal_quantile(0.5 + 0.5 * interval)  # the interval's half-width in sd
-        # save() writes into this one buffer (blob.BLOB_SIZE bytes), made while the heap is
-        # fresh, beside the text of every setting that changes the state's meaning: the first
-        # save or restore writes the frame's header with its CRC-32 (state.frame: a product
-        # that never sleeps loads neither blob nor crc)
-        self._blob_buf = (bytearray(512), "%r %r %r %r %r %r %r %r %r %r" % (
-            ambient_c, self._prior[0], self._prior[1], heater, float(interval),
+        # the answer's cache, and the interval's half-width in sd
+        self._cache = st.Cache(normal_quantile(0.5 + 0.5 * interval))
+        # the blob's buffer beside the text of every setting that changes the state's
+        # meaning: the first save or restore writes the frame's header with its CRC-32
+        # (state.frame: a product that never sleeps loads neither blob nor crc)
+        self._blob_buf = (buf, "%r %r %r %r %r %r %r %r %r %r" % (
+            ambient_c, self.inputs.prior[0], self.inputs.prior[1], heater, float(interval),
             self.guard.quantum_c, self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
             self._profile is not None))
         self.reset()
@@ -171,13 +172,12 @@ class ThermalEstimator(Answer):
         self._dir = 0               # direction of the block means (+1, -1, 0)
         self._ext_sy = 0            # first block mean while _dir == 0, then the extreme: its
         self._ext_n = 1             # block's sum (counts) and readings (its noise): _extreme_c
-        self._anchor = 0.0          # smoothed residual of the latest blocks, deg C
         self._level = self._slope = 0.0  # fitted level and slope at the latest block close
-        self._blocks_done = 0               # blocks finished: the answer's cache key
+        self._cache.done = 0        # blocks finished: the answer's cache key
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
         self._ahead = None          # the ambient ahead at the latest block close, counts * 2**8
         #   (a measured air's mean ahead, else the fixed ambient; None: none was known then)
-        self.forget()
+        self._cache.forget()
         self.clear(st.GATHERING)
 
     # ---------------------------------------------------------------- readings
@@ -298,7 +298,7 @@ class ThermalEstimator(Answer):
             if reg.nb >= DETECT_MIN_BLOCKS:
                 # innovation of the block mean against the fit's forecast (weighted blocks:
                 # a sparse fit's forecast over minutes is no test of a jump)
-                pred = reg.my + reg.s * tb - reg.k * xb + self._anchor
+                pred = reg.my + reg.s * tb - reg.k * xb + reg.anchor
                 if heater:
                     pred += reg.g * vb
                 sd = math.sqrt(self.noise.var / n + 4.0 * reg.var_my + MISMATCH_C * MISMATCH_C)
@@ -346,7 +346,7 @@ class ThermalEstimator(Answer):
         self._pending = 0
         reg = self.reg
         b = self.blocks
-        self._blocks_done += 1
+        self._cache.done += 1
         self._solve()
         yb = reg.yb
         if reg.ok:
@@ -354,7 +354,7 @@ class ThermalEstimator(Answer):
             res = yb - (reg.my + reg.s * reg.rt - reg.k * reg.rx)
             if self.heater:
                 res -= reg.g * reg.rv
-            self._anchor += ANCHOR_GAIN * (res - self._anchor)
+            reg.anchor += ANCHOR_GAIN * (res - reg.anchor)
             self._level_and_slope()
             if b.readings >= DETECT_MIN_BLOCKS:
                 self._disturbed = False  # established again after a jump
@@ -373,7 +373,7 @@ class ThermalEstimator(Answer):
         """The anchored level and the slope at it from the solution (at the latest block
         close; also after a restore or a re-solve, so that those give the same)."""
         reg = self.reg
-        self._level = reg.level() + self._anchor
+        self._level = reg.level() + reg.anchor
         # slope at the level (the reference gap and duty are the closing reading's)
         self._slope = reg.s - reg.k * (self._level - self.blocks.cb * _INV)
 
@@ -466,7 +466,7 @@ class ThermalEstimator(Answer):
             dist = -self.blocks.g0 * _INV
             sd = KNOWN_AMBIENT_SD_C
         else:
-            r, sd = self._prior
+            r, sd = self.inputs.prior
             dist = r - self.blocks.g0 * _INV
         if prof is None:
             kp = gp = 0.0

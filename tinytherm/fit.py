@@ -246,8 +246,11 @@ class Inputs:
 
     STATE_SIZE = 29   # the air's bytes (zeros while none was measured)
 
-    def __init__(self, fixed_c):
+    def __init__(self, fixed_c, prior_c=21.0, prior_sd_c=8.0):
         self.fixed = None if fixed_c is None else to_counts(fixed_c)
+        # the ambient prior (a hint when none is known): where the room usually is and
+        # its sd, deg C
+        self.prior = (float(prior_c), float(prior_sd_c))
         self.reset()
 
     def reset(self):
@@ -340,6 +343,7 @@ class Regression:
         self.ctu = self.cxu = self.cuu = self.cuy = 0.0
         self.t = self.x = self.v = 0.0
         self.rt = self.rx = self.rv = self.yb = 0.0  # the latest block, for its residual
+        self.anchor = 0.0  # the estimator's: smoothed residual of the latest blocks, deg C
         self.clear()
 
     def clear(self):

@@ -1,4 +1,4 @@
-from typing import Optional, Union
+from typing import Optional, Tuple, Union
 
 from tinytherm.air import Air
 
@@ -64,7 +64,9 @@ class Inputs:
     air: Optional[Air]
     duty: float
     duty_c: int
-    def __init__(self, fixed_c: Optional[float]) -> None: ...
+    prior: Tuple[float, float]
+    def __init__(self, fixed_c: Optional[float], prior_c: float = 21.0,
+                 prior_sd_c: float = 8.0) -> None: ...
     def reset(self) -> None: ...
     def known(self) -> bool: ...
     def reference(self, ambient_c: Optional[float], dt_ms: int, restart: bool) -> int: ...
@@ -98,6 +100,7 @@ class Regression:
     rx: float
     rv: float
     yb: float
+    anchor: float
     s: float
     k: float
     g: float

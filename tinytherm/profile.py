@@ -369,7 +369,7 @@ class VesselProfile:
         """The reference ``est``'s equilibrium under this profile is offset from, deg C
         (the ambient at the block close, ``est._ambient_ahead_c()``, else the ambient prior)."""
         r = est._ambient_ahead_c()
-        return est._prior[0] if r is None else r
+        return est.inputs.prior[0] if r is None else r
 
     def toward_e(self, est, direction):
         """True when moving in ``direction`` (+1 / -1) goes towards this (passive)
@@ -441,7 +441,7 @@ class VesselProfile:
         quantiles of ln(actual / predicted) (split-conformal,
         host_sim.calibrate.pipeline) at that horizon, scaled to the interval asked for."""
         lo, hi = self.interval_log_bounds(eta_s)
-        z = est._z / PROFILE_Z80
+        z = est._cache.z / PROFILE_Z80
         est.eta_s = eta_s
         est.eta_low_s = eta_s * _spread(z * lo)
         est.eta_high_s = eta_s * _spread(z * hi)

@@ -51,7 +51,7 @@ def save(est):
              | (4 if est._profile_on else 0) | ((est._dir + 1) << 3)
              | (0 if est._ahead is None else 32) | (64 if est.settle.turn else 0))
     struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
-                     est.turns & 0xFFFF, flags, est.profile_reason, est._anchor,
+                     est.turns & 0xFFFF, flags, est.profile_reason, est.reg.anchor,
                      est._ext_sy, est._ext_n, est._ahead or 0)
     o += HEAD_SIZE
     for part in parts(est):
@@ -124,12 +124,12 @@ def _unpack(est, blob):
     est._disturbed = bool(flags & 2)
     est._profile_on = bool(flags & 4)
     est._dir = direction
-    est._anchor = anchor
+    est.reg.anchor = anchor
     est._ext_sy = ext_sy
     est._ext_n = ext_n
     est._ahead = ahead if flags & 32 else None
     est.settle.turn = bool(flags & 64)
-    est._blocks_done = 1
+    est._cache.done = 1
     # the solution and what follows from it are derived: as at the last block close
     est._solve()
     reg = est.reg
