@@ -1,9 +1,9 @@
 """The answer: status, time to the target and its interval, from a solved fit.
 
-Worked out once per block close (and target), then counted down between
-blocks (:meth:`tinytherm.status.Cache.count_down`): asking every reading costs a few float
-operations. The time is the closed form :func:`time_to_target_from_slope_s`
-(the one copy in the core; :mod:`tinytherm.model` re-exports it).
+Worked out once per block close (and target), then counted down between blocks
+(:meth:`Answer.count_down`): asking every reading costs a few float operations. The time is
+the closed form :func:`time_to_target_from_slope_s` (the one copy in the core;
+:mod:`tinytherm.model` re-exports it).
 
 The interval is ``eta * exp(+-z sd)``, ``sd`` the sd of ln(eta): what the fit's
 own forecasts measured (:class:`Audits`), the fit's delta-method variance (times
@@ -25,12 +25,11 @@ the age of the fit that made it: a start-up extrapolated says nothing of it)::
     e = ln(took / predicted),  |e| <= ln 8,  w = n (age_then / age_now)^AUDIT_FORGET
     var_audits <- (w var_audits + e^2) / (w + 1),  then n <- min(round(w + 1), AUDIT_MEMORY)
 
-(the older checks weigh less as the fit grows: the first minute's misses do not
-set a grown fit's interval; unbiased while the errors hold steady).
+(the older checks weigh less as the fit grows: the first minute's misses do not set a grown
+fit's interval; unbiased while the errors hold steady).
 
-:meth:`Audits.var_at` interpolates the three in log horizon (beyond the
-longest audit the variance grows with the horizon, at most
-:data:`AUDIT_STRETCH` times).
+:meth:`Audits.var_at` interpolates the three in log horizon (beyond the longest audit the
+variance grows with the horizon, at most :data:`AUDIT_STRETCH` times).
 
 The equilibrium's drift (no heater, profile or ambient: what moves ``E`` is then
 unknown, an immersion coil's coolant warming, a tub and its wort cooling together):
@@ -43,8 +42,8 @@ E(t))``, ``E(t) = E + b t`` (:func:`time_to_target_drift_s`), and the drift
 so: no upper bound).
 
 A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`, or one k
-:data:`REACH_SD` sd lower reaches) gets an open-ended time (why: at its code).
-Runs on CPython and MicroPython.
+:data:`REACH_SD` sd lower reaches) gets an open-ended time (why: at its code). Runs on
+CPython and MicroPython.
 """
 import math
 import struct
@@ -73,20 +72,18 @@ _ARRIVE_MIN_MS = int(ARRIVE_MIN_S * 1000)
 def predict(self, target_c, approach=0):
     """Work out the time until ``target_c`` (deg C); return the status code.
 
-    ``ThermalEstimator.predict`` (this function is that method). ``approach``:
-    -1 the product cools to its target (a drink), +1 heats to it (a kettle, a
-    bath), 0 not given (the direction of travel decides, with the rules of
-    :mod:`tinytherm.settle`). With -1 or +1 a liquid moving the other way is
-    never ``ARRIVED`` and gets no time.
+    ``ThermalEstimator.predict`` (this function is that method). ``approach``: -1 the product
+    cools to its target (a drink), +1 heats to it (a kettle, a bath), 0 not given (the
+    direction of travel decides, with the rules of :mod:`tinytherm.settle`). With -1 or +1 a
+    liquid moving the other way is never ``ARRIVED`` and gets no time.
 
-    Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds after
-    the latest reading; ``None`` without an estimate), ``eta_rel_sd``,
-    ``rate_per_s`` (1/s), ``equilibrium_c``, ``ambient_est_c``, ``temp_est_c``
-    (deg C) and ``gain_k_per_s`` (K/s). The answer is worked out once per
-    finished block and question (target, approach) and counted down between
-    blocks; the latest reading is checked against the arrival line at every
-    call. Asking changes no later answer (it may finish a closed block's work
-    early: its result does not depend on when it runs). Never raises.
+    Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds after the latest
+    reading; ``None`` without an estimate), ``eta_rel_sd``, ``rate_per_s`` (1/s),
+    ``equilibrium_c``, ``ambient_est_c``, ``temp_est_c`` (deg C) and ``gain_k_per_s`` (K/s).
+    The answer is worked out once per finished block and question (target, approach) and
+    counted down between blocks; the latest reading is checked against the arrival line at
+    every call. Asking changes no later answer (it may finish a closed block's work early: its
+    result does not depend on when it runs). Never raises.
     """
     while self._pending:
         self._next_step()  # a closed block's work not done yet: the answer needs all of it
@@ -94,12 +91,12 @@ def predict(self, target_c, approach=0):
     if approach != 1 and approach != -1:
         approach = 0  # (a bad value: as if not given, never an exception)
     if self.guard.consecutive_rejections >= FAULT_AFTER:
-        self._cache.forget()
+        self.audits.forget()
         self.clear(st.SENSOR_FAULT)
         return self.status
     b = self.blocks
     age = b.age_ms
-    c = self._cache
+    c = self.audits
     if c.gen == c.done and c.target == target and c.approach == approach:
         # the same block and question: count the answer down, unless the
         # latest reading has reached the arrival line
@@ -114,7 +111,7 @@ def predict(self, target_c, approach=0):
         elif reached and _arrived(self, target, m, approach, age):
             self.arrive()
             return self.status
-        elif c.count_down(self, age):
+        elif self.count_down(c, age):
             return self.status
     c.gen = -1
     try:
@@ -128,14 +125,14 @@ def predict(self, target_c, approach=0):
         c.gen = c.done
     c.target = target
     c.approach = approach
-    c.count_down(self, age, True)
+    self.count_down(c, age, True)
     return self.status
 
 def _work_out(est, target, approach):
     """The full answer for the latest block close (cached by ``predict``)."""
     reg = est.reg
     b = est.blocks
-    c = est._cache
+    c = est.audits
     c.age_ms = b.age_ms - b.it  # the answer is for the block close
     c.arrive_dir = 0
     # three readings, or two that began the fit at a turn (the first reading of the
@@ -353,12 +350,12 @@ def move_c(noise_sd_c):
 
 
 def _backed_off(est, m):
-    """The latest reading, or one the guard holds as a possible spike (a top-up's first,
-    until the next confirms it), back beyond the hold line (the cache's ``hold_c``) against ``m``; the
-    line as far from the open block's mean when that is further on (the drink went on
+    """The latest reading, or one the guard holds as a possible spike (a top-up's first, until
+    the next confirms it), back beyond the hold line (the cache's ``hold_c``) against ``m``;
+    the line as far from the open block's mean when that is further on (the drink went on
     past the extreme since the last block closed: a line from the extreme alone is late)."""
     b = est.blocks
-    hold = est._cache.hold_c
+    hold = est.audits.hold_c
     if b.n >= HOLD_OPEN_N:
         line = b.sy // b.n + hold - est._ext_sy // est._ext_n  # (integer counts: no heap)
         if (line - hold) * m > 0:
@@ -520,14 +517,25 @@ class Audit:
 
 
 class Audits:
-    """The three audits; packs their 15 floats and 3 counts."""
+    """The three audits (packs their 15 floats and 3 counts); beside them, never saved, the
+    answer's cache (:meth:`forget`), the interval's half-width ``z`` in sd and ``done``."""
 
     STATE_SIZE = 3 * (5 * 8 + 1)
 
-    def __init__(self):
+    def __init__(self, z):
         self.a = (Audit(AUDIT_FRACTIONS[0], AUDIT_MIN_S[0]),
                   Audit(AUDIT_FRACTIONS[1], AUDIT_MIN_S[1]),
                   Audit(AUDIT_FRACTIONS[2], AUDIT_MIN_S[2]))
+        self.z = z
+        self.done = 0  # blocks finished since the fit started (the estimator's): the key
+        self.forget()  # (here, not in the estimator: its attribute table stays small)
+
+    def forget(self):
+        """Invalidate the answer's cache: the ``done`` (``gen``), target and approach it was
+        for, the fit's age then (ms), the arrival and hold lines (counts; direction +-1, 0)."""
+        self.gen = -1
+        self.target = None
+        self.approach = self.age_ms = self.arrive_dir = self.arrive_c = self.hold_c = 0
 
     def reset(self):
         for a in self.a:

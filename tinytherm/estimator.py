@@ -114,6 +114,9 @@ class ThermalEstimator(Answer):
         # save() writes into this one buffer (blob.BLOB_SIZE bytes), made first, while the heap
         # is fresh (the largest piece of the estimator: later, smaller ones fill the gaps)
         buf = bytearray(512)
+        # the answer's fields next (reset() sets them again): this table then grows early,
+        # measured the order a fragmented heap satisfies best (benchmarks/device_budget.py)
+        self.clear(st.GATHERING)
         self.heater = heater
         self.profile_reason = 0
         self._profile = None
@@ -134,10 +137,9 @@ class ThermalEstimator(Answer):
         self.noise = fit.Noise(self.guard.quantum_c)
         self.blocks = fit.BlockSums()
         self.reg = fit.Regression(heater)
-        self.audits = answer.Audits()
+        # the audits and the answer's cache, with the interval's half-width in sd
+        self.audits = answer.Audits(normal_quantile(0.5 + 0.5 * interval))
         self.settle = Settle()  # whether the probe has met the liquid (no direction given)
-        # the answer's cache, and the interval's half-width in sd
-        self._cache = st.Cache(normal_quantile(0.5 + 0.5 * interval))
         # the blob's buffer beside the text of every setting that changes the state's
         # meaning: the first save or restore writes the frame's header with its CRC-32
         # (state.frame: a product that never sleeps loads neither blob nor crc)
@@ -173,11 +175,11 @@ class ThermalEstimator(Answer):
         self._ext_sy = 0            # first block mean while _dir == 0, then the extreme: its
         self._ext_n = 1             # block's sum (counts) and readings (its noise): _extreme_c
         self._level = self._slope = 0.0  # fitted level and slope at the latest block close
-        self._cache.done = 0        # blocks finished: the answer's cache key
+        self.audits.done = 0        # blocks finished: the answer's cache key
         self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
         self._ahead = None          # the ambient ahead at the latest block close, counts * 2**8
         #   (a measured air's mean ahead, else the fixed ambient; None: none was known then)
-        self._cache.forget()
+        self.audits.forget()
         self.clear(st.GATHERING)
 
     # ---------------------------------------------------------------- readings
@@ -346,7 +348,7 @@ class ThermalEstimator(Answer):
         self._pending = 0
         reg = self.reg
         b = self.blocks
-        self._cache.done += 1
+        self.audits.done += 1
         self._solve()
         yb = reg.yb
         if reg.ok:

@@ -441,7 +441,7 @@ class VesselProfile:
         quantiles of ln(actual / predicted) (split-conformal,
         host_sim.calibrate.pipeline) at that horizon, scaled to the interval asked for."""
         lo, hi = self.interval_log_bounds(eta_s)
-        z = est._cache.z / PROFILE_Z80
+        z = est.audits.z / PROFILE_Z80
         est.eta_s = eta_s
         est.eta_low_s = eta_s * _spread(z * lo)
         est.eta_high_s = eta_s * _spread(z * hi)

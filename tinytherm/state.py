@@ -129,7 +129,7 @@ def _unpack(est, blob):
     est._ext_n = ext_n
     est._ahead = ahead if flags & 32 else None
     est.settle.turn = bool(flags & 64)
-    est._cache.done = 1
+    est.audits.done = 1
     # the solution and what follows from it are derived: as at the last block close
     est._solve()
     reg = est.reg

@@ -77,7 +77,8 @@ class Answer:
     ``equilibrium_c``, ``ambient_est_c``, ``temp_est_c`` (deg C) and
     ``gain_k_per_s`` (K/s at full duty).
 
-    Its cache is a part, ``_cache`` (:class:`Cache`).
+    Its cache (the question the answer was worked out for) is kept by the
+    estimator's audits part (:class:`tinytherm.answer.Audits`).
     """
 
     def clear(self, code):
@@ -99,49 +100,27 @@ class Answer:
         self.eta_high_s = 0.0
         self.eta_rel_sd = None  # (as when worked out: a restored run arrives the same)
 
-
-class Cache:
-    """The answer's cache, a part of the estimator (its attributes in one table of their
-    own: the estimator's stays small, which a fragmented heap must find in one piece):
-    the fit generation (finished blocks), target and approach the answer was worked out
-    for, the fit's age then (ms), and the reading (counts) at or beyond which it becomes
-    an arrival; beside it the interval's half-width in sd."""
-
-    def __init__(self, z):
-        self.z = z      # the interval's half-width in sd (a setting)
-        self.done = 0   # blocks finished since the fit started: the cache's key
-        self.forget()
-
-    def forget(self):
-        """Invalidate the cache (the next ``predict`` works the answer out)."""
-        self.gen = -1
-        self.target = None
-        self.approach = 0
-        self.age_ms = 0
-        self.arrive_dir = 0    # +1 / -1: arrival once the reading is >= / <= arrive_c
-        self.arrive_c = 0      # counts
-        self.hold_c = 0        # counts: a reading back beyond it (a top-up) ends an arrival
-
-    def count_down(self, ans, age_ms, force=False):
-        """Move the cached times of ``ans`` (the estimator) on to a fit ``age_ms`` old.
+    def count_down(self, c, age_ms, force=False):
+        """Move the cached times on to a fit ``age_ms`` old (``c``: the part holding the
+        cache, :class:`tinytherm.answer.Audits`).
 
         False when the time would pass 0 (the answer must be worked out
         again), unless ``force``: then it stops at 0.
         """
-        if ans.eta_s is None or ans.status == ARRIVED:
+        if self.eta_s is None or self.status == ARRIVED:
             return True
-        el = (age_ms - self.age_ms) * 0.001
+        el = (age_ms - c.age_ms) * 0.001
         if el <= 0.0:
             return True
-        eta = ans.eta_s - el
+        eta = self.eta_s - el
         if not eta > 0.0:
             if not force:
                 return False
             eta = 0.0
-        ans.eta_s = eta
-        low = ans.eta_low_s - el
-        ans.eta_low_s = low if low > 0.0 else 0.0
-        high = ans.eta_high_s - el
-        ans.eta_high_s = high if high > eta else eta
-        self.age_ms = age_ms
+        self.eta_s = eta
+        low = self.eta_low_s - el
+        self.eta_low_s = low if low > 0.0 else 0.0
+        high = self.eta_high_s - el
+        self.eta_high_s = high if high > eta else eta
+        c.age_ms = age_ms
         return True
