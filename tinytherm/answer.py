@@ -85,7 +85,7 @@ def predict(self, target_c, approach=0):
     every call. Asking changes no later answer (it may finish a closed block's work early: its
     result does not depend on when it runs). Never raises.
     """
-    while self._pending:
+    while self.blocks.pending:
         self._next_step()  # a closed block's work not done yet: the answer needs all of it
     target = target_c if type(target_c) is float else as_float(target_c)
     if approach != 1 and approach != -1:
@@ -119,7 +119,7 @@ def predict(self, target_c, approach=0):
     except (ValueError, OverflowError, ZeroDivisionError, TypeError):
         self.clear(st.SETTLING)
         c.arrive_dir = 0
-    if self._disturbed and (self.status == st.SETTLING or self.status == st.GATHERING):
+    if self.detector.disturbed and (self.status == st.SETTLING or self.status == st.GATHERING):
         self.status = st.DISTURBED  # re-learning after a jump
     if c.gen != -2:
         c.gen = c.done
@@ -142,11 +142,11 @@ def _work_out(est, target, approach):
         est.clear(st.GATHERING)
         if est.readings and b.readings:  # (none in this fit: it starts at the next)
             est.temp_est_c = b.c * _INV
-            if est._profile_on and est._dir != 0 and target is not None:
+            if est._profile_on and est.blocks.dir != 0 and target is not None:
                 est._profile.first_answer(est, target, approach)
         return
     est.clear(st.SETTLING)
-    level = est._level
+    level = est.blocks.level
     slope = est._slope_ahead()  # the slope now, unless a measured air cycles: then its mean's
     k = reg.k
     est.temp_est_c = level
@@ -171,8 +171,8 @@ def _work_out(est, target, approach):
     if slope * slope > 4.0 * var_slope:
         d = 1 if slope > 0.0 else -1
     else:
-        d = est._dir
-    m = est._dir
+        d = est.blocks.dir
+    m = est.blocks.dir
     gap = target - level
     age_s = c.age_ms * 0.001  # (the fit's age at the block close, as the answer)
     if m != 0 and d == m and (approach == 0 or m == approach):
@@ -335,7 +335,7 @@ def _arrived(est, target, m, approach, age_ms):
     s2 = nz.var
     if reg.s2r > s2:
         s2 += (reg.s2r - s2) * (1.0 if nz.n <= NOISE_PRIOR_N else NOISE_PRIOR_N / nz.n)
-    if (est._extreme_c() - target) * m >= ARRIVE_Z * math.sqrt(s2 / est._ext_n):
+    if (est._extreme_c() - target) * m >= ARRIVE_Z * math.sqrt(s2 / est.blocks.ext_n):
         return True
     if not (est.heater or reg.pkk > 0.0):
         return False  # (no heater, k pinned at 0: the level is a line run on, no crossing seen)
@@ -357,7 +357,7 @@ def _backed_off(est, m):
     b = est.blocks
     hold = est.audits.hold_c
     if b.n >= HOLD_OPEN_N:
-        line = b.sy // b.n + hold - est._ext_sy // est._ext_n  # (integer counts: no heap)
+        line = b.sy // b.n + hold - est.blocks.ext_sy // est.blocks.ext_n  # (integer counts: no heap)
         if (line - hold) * m > 0:
             hold = line
     if (b.c - hold) * m < 0:

@@ -161,7 +161,7 @@ class ThermalEstimator(Answer):
         self.inputs.reset()
         self.noise.reset()
         self.audits.reset()
-        self._disturbed = False     # since a jump, until the new fit is established
+        self.detector.disturbed = False     # since a jump, until the new fit is established
         self._profile_on = self._profile is not None
         self._restart_fit()
 
@@ -171,14 +171,14 @@ class ThermalEstimator(Answer):
         self.reg.reset()
         self.audits.clear()
         self.detector.reset()
-        self._dir = 0               # direction of the block means (+1, -1, 0)
-        self._ext_sy = 0            # first block mean while _dir == 0, then the extreme: its
-        self._ext_n = 1             # block's sum (counts) and readings (its noise): _extreme_c
-        self._level = self._slope = 0.0  # fitted level and slope at the latest block close
+        b = self.blocks
+        b.dir = 0                   # direction of the block means (+1, -1, 0)
+        b.ext_sy = 0                # first block mean while dir == 0, then the extreme: its
+        b.ext_n = 1                 # block's sum (counts) and readings (its noise): _extreme_c
+        b.level = self._slope = 0.0  # fitted level and slope at the latest block close
         self.audits.done = 0        # blocks finished: the answer's cache key
-        self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
-        self._ahead = None          # the ambient ahead at the latest block close, counts * 2**8
-        #   (a measured air's mean ahead, else the fixed ambient; None: none was known then)
+        b.pending = 0               # 1: a block closed, its second half not done; 2: audits due
+        self.inputs.ahead = None    # the ambient ahead at the latest block close (fit.Inputs)
         self.audits.forget()
         self.clear(st.GATHERING)
 
@@ -194,7 +194,7 @@ class ThermalEstimator(Answer):
         code from :mod:`tinytherm.status`, counted, and leaves the fit
         untouched (its time still counts).
         """
-        if self._pending:
+        if self.blocks.pending:
             # a closed block's work is spread over the readings after it, one step
             # each, before the guard sees the reading (it uses the fitted slope);
             # a step's result depends on no reading after the block
@@ -218,7 +218,7 @@ class ThermalEstimator(Answer):
         the seconds since the last reading before the save (the tick counter
         restarted meanwhile), so nothing is lost. Returns the verdict code.
         """
-        if self._pending:
+        if self.blocks.pending:
             self._next_step()  # (as in update)
         t = as_float(temp_c)
         ok = self._inputs_ok(ambient_c, duty)
@@ -259,7 +259,7 @@ class ThermalEstimator(Answer):
                 # the block closes when long enough, or long for the fit's age
                 # (every reading counts early on), or full
                 if b.it >= _BLOCK_MS or b.it * 16 >= b.age_ms or b.n >= MAX_BLOCK_READINGS:
-                    while self._pending:
+                    while self.blocks.pending:
                         self._next_step()  # (sparse readings: a block per reading)
                     self._close_block()
         except (ValueError, OverflowError, ZeroDivisionError):
@@ -271,8 +271,8 @@ class ThermalEstimator(Answer):
 
     def _first(self, c, rc, uc):
         """The fit's first reading: the first block, closed at once."""
-        self._ext_sy = c
-        self._ext_n = 1
+        self.blocks.ext_sy = c
+        self.blocks.ext_n = 1
         self.settle.first(c)
         self.blocks.first(c, rc, uc)
         self._close_block()
@@ -333,19 +333,19 @@ class ThermalEstimator(Answer):
             self._begin_again(False)  # the probe was travelling to the liquid: the liquid's
             self.settle.seeded(False)  # own approach starts here (tinytherm.settle)
             return
-        self._ahead = self.inputs.ahead_fine() if self.inputs.known() else None
-        self._pending = 1
+        self.inputs.ahead = self.inputs.ahead_fine() if self.inputs.known() else None
+        self.blocks.pending = 1
 
     def _next_step(self):
-        if self._pending == 1:
+        if self.blocks.pending == 1:
             self._finish_block()
         else:
-            self._pending = 0
+            self.blocks.pending = 0
             self._audit()
 
     def _finish_block(self):
         """Close the block, second half: solve, anchor, level and slope, turn (audits next)."""
-        self._pending = 0
+        self.blocks.pending = 0
         reg = self.reg
         b = self.blocks
         self.audits.done += 1
@@ -359,9 +359,9 @@ class ThermalEstimator(Answer):
             reg.anchor += ANCHOR_GAIN * (res - reg.anchor)
             self._level_and_slope()
             if b.readings >= DETECT_MIN_BLOCKS:
-                self._disturbed = False  # established again after a jump
+                self.detector.disturbed = False  # established again after a jump
                 if self.audits.any_due((b.age_ms - b.it) * 0.001):
-                    self._pending = 2  # the audits with the next reading
+                    self.blocks.pending = 2  # the audits with the next reading
         else:
             self._slope = 0.0
         # the noise's expected step follows the new slope (a restored run works it out afresh:
@@ -375,9 +375,9 @@ class ThermalEstimator(Answer):
         """The anchored level and the slope at it from the solution (at the latest block
         close; also after a restore or a re-solve, so that those give the same)."""
         reg = self.reg
-        self._level = reg.level() + reg.anchor
+        self.blocks.level = reg.level() + reg.anchor
         # slope at the level (the reference gap and duty are the closing reading's)
-        self._slope = reg.s - reg.k * (self._level - self.blocks.cb * _INV)
+        self._slope = reg.s - reg.k * (self.blocks.level - self.blocks.cb * _INV)
 
     def _begin_again(self, disturbed, from_previous=False):
         """Restart the fit from the latest reading (a jump or a turn); ``from_previous``:
@@ -387,10 +387,10 @@ class ThermalEstimator(Answer):
         b = self.blocks
         c, rc, uc = b.c, b.rc, b.uc
         cp, ip = b.cp, b.ip
-        turned_to = -self._dir
+        turned_to = -self.blocks.dir
         self._restart_fit()
         if disturbed:
-            self._disturbed = True
+            self.detector.disturbed = True
         if from_previous and ip > 0:
             # (no heater: a turn with one restarts nothing; the reference over ip taken as now)
             self._first(cp, rc, uc)
@@ -403,7 +403,7 @@ class ThermalEstimator(Answer):
                 self.settle.jumped()  # (the probe travels to the new liquid again)
         if (not disturbed and self._profile_on and not self.heater and turned_to != 0
                 and self._profile.toward_e(self, turned_to)):
-            self._dir = turned_to  # the passive profile's direction: known from the turn on
+            self.blocks.dir = turned_to  # the passive profile's direction: known from the turn on
 
     def _turned(self, yb):
         """Track the extreme of the block means; True on a retreat beyond TURN_C.
@@ -412,27 +412,27 @@ class ThermalEstimator(Answer):
         explains it), never a restart.
         """
         cut = 4.0 * self.noise.sd
-        if cut < TURN_C and not (self.blocks.readings == 3 and self._dir != 0) and not (
-                self._profile_on and not self.heater and self._dir != 0
-                and self._profile.toward_e(self, -self._dir)):
+        if cut < TURN_C and not (self.blocks.readings == 3 and self.blocks.dir != 0) and not (
+                self._profile_on and not self.heater and self.blocks.dir != 0
+                and self._profile.toward_e(self, -self.blocks.dir)):
             # at least TURN_C, but for the retreat right after the jump that set the
             # direction (a reading taken before a pour, then the drink cooling), and for
             # a passive profile's liquid, which only moves towards its E (a retreat that
             # way is the probe caught up, seen at 4 noise sd)
             cut = TURN_C
         ext = self._extreme_c()
-        if self._dir == 0:
+        if self.blocks.dir == 0:
             if yb - ext > cut:
-                self._dir = 1
-                self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
+                self.blocks.dir = 1
+                self.blocks.ext_n, self.blocks.ext_sy = self.blocks.np, self.blocks.sp
             elif ext - yb > cut:
-                self._dir = -1
-                self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
+                self.blocks.dir = -1
+                self.blocks.ext_n, self.blocks.ext_sy = self.blocks.np, self.blocks.sp
             return False
-        if (yb > ext) if self._dir > 0 else (yb < ext):
-            self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
+        if (yb > ext) if self.blocks.dir > 0 else (yb < ext):
+            self.blocks.ext_n, self.blocks.ext_sy = self.blocks.np, self.blocks.sp
             return False
-        if (ext - yb) * self._dir <= cut:
+        if (ext - yb) * self.blocks.dir <= cut:
             return False
         if self.heater:
             # the heater turned it: a new direction, the same fit (it explains the turn),
@@ -440,21 +440,21 @@ class ThermalEstimator(Answer):
             # latest retreated too; before, it is a spike or noise (readings a minute
             # apart on a steep heat-up: the guard's window of three is wide there, and
             # one reading is the whole block)
-            if self._slope * self._dir < 0.0 and (
-                    ext - self.blocks.cq * _INV) * self._dir > cut:
-                self._dir = -self._dir
-                self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
+            if self._slope * self.blocks.dir < 0.0 and (
+                    ext - self.blocks.cq * _INV) * self.blocks.dir > cut:
+                self.blocks.dir = -self.blocks.dir
+                self.blocks.ext_n, self.blocks.ext_sy = self.blocks.np, self.blocks.sp
             return False
         return True
 
     def _extreme_c(self):
         """The extreme block mean, deg C (worked out as when its block closed: exact)."""
-        return self._ext_sy / (self._ext_n * SCALE)
+        return self.blocks.ext_sy / (self.blocks.ext_n * SCALE)
 
     def _solve(self):
         """Priors for this block, then the regression's solve (see the module docstring).
 
-        The hint follows ``_ahead``: whether an ambient was known at the block
+        The hint follows ``inputs.ahead``: whether an ambient was known at the block
         close (saved with the state; a measured one may arrive after it).
         """
         reg = self.reg
@@ -464,7 +464,7 @@ class ThermalEstimator(Answer):
         s2 = self.noise.var
         prof = self._profile if self._profile_on else None
         # the equilibrium hint E ~ N(e, sd^2) as a distance from the latest gap G0
-        if self._ahead is not None:
+        if self.inputs.ahead is not None:
             dist = -self.blocks.g0 * _INV
             sd = KNOWN_AMBIENT_SD_C
         else:
@@ -515,7 +515,7 @@ class ThermalEstimator(Answer):
                 self._level_and_slope()  # (as a restore derives them from the new solution)
             return
         for a in self.audits.a:
-            a.check(self, age, self._level, slope, self.reg.k, need)
+            a.check(self, age, self.blocks.level, slope, self.reg.k, need)
 
     def _slope_ahead(self):
         """Slope at the fitted level under the air the future will see, deg C/s.
@@ -528,11 +528,11 @@ class ThermalEstimator(Answer):
 
         Without a measured air it is the slope now.
         """
-        if not self.inputs.measured or self._ahead is None:
+        if not self.inputs.measured or self.inputs.ahead is None:
             return self._slope
         b = self.blocks
         # the reference at the block close: G0 = cb - rc
-        return self._slope + self.reg.k * (self._ahead * (1.0 / 256) - (b.cb - b.g0)) * _INV
+        return self._slope + self.reg.k * (self.inputs.ahead * (1.0 / 256) - (b.cb - b.g0)) * _INV
 
     # ``predict(target_c, approach=0)``: the answer part's rules, as a method
     predict = answer.predict
@@ -551,7 +551,7 @@ class ThermalEstimator(Answer):
         known then. The one reference of the answer's ambient, the equilibrium slack and
         the profile: an answer worked out after a restore, at a later reading of the
         block, must be the one counted down since the block close."""
-        return None if self._ahead is None else self._ahead * _FINE_INV
+        return None if self.inputs.ahead is None else self.inputs.ahead * _FINE_INV
 
 
     # ------------------------------------------------------------ save/restore

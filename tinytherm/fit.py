@@ -45,6 +45,16 @@ class BlockSums:
     STATE_SIZE = 89
 
     def __init__(self):
+        # the estimator's, kept here so that its attribute table stays small (it sets them;
+        # saved in its header, not below): the direction of the block means (+1, -1, 0);
+        # the first block mean while dir == 0, then the extreme, as its block's sum (counts)
+        # and readings; the fitted, anchored level at the latest block close (deg C,
+        # derived); 1: a block closed and its second half not done, 2: its audits due
+        self.dir = 0
+        self.ext_sy = 0
+        self.ext_n = 1
+        self.level = 0.0
+        self.pending = 0
         self.reset()
 
     def reset(self):
@@ -251,6 +261,9 @@ class Inputs:
         # the ambient prior (a hint when none is known): where the room usually is and
         # its sd, deg C
         self.prior = (float(prior_c), float(prior_sd_c))
+        # the estimator's: the ambient ahead at the latest block close, counts * 2**8 (a
+        # measured air's mean ahead, else the fixed ambient; None: none was known then)
+        self.ahead = None
         self.reset()
 
     def reset(self):

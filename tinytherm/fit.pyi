@@ -13,6 +13,11 @@ NOISE_PRIOR_N: int
 
 class BlockSums:
     STATE_SIZE: int
+    dir: int
+    ext_sy: int
+    ext_n: int
+    level: float
+    pending: int
     n: int
     it: int
     ix: int
@@ -65,6 +70,7 @@ class Inputs:
     duty: float
     duty_c: int
     prior: Tuple[float, float]
+    ahead: Optional[int]
     def __init__(self, fixed_c: Optional[float], prior_c: float = 21.0,
                  prior_sd_c: float = 8.0) -> None: ...
     def reset(self) -> None: ...
