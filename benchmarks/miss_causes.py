@@ -72,7 +72,7 @@ def trace_causes(family, seed, sampling):
             elif est.status != st.TRACKING or est.eta_s is None:
                 out["none: " + st.status_name(est.status)] += 1
             else:
-                age = max(est._for_age_ms * 0.001, 1.0)
+                age = max(est.audits.age_ms * 0.001, 1.0)
                 key = "shown: drift %s, eta %s 2 x fit age" % (
                     "on" if drift["on"] else "off", ">" if est.eta_s > 2.0 * age else "<=")
                 out[key] += 1

@@ -1,9 +1,9 @@
 """The answer: status, time to the target and its interval, from a solved fit.
 
-Worked out once per block close (and target), then counted down between
-blocks (:meth:`Answer.count_down`): asking every reading costs a few float
-operations. The time is the closed form :func:`time_to_target_from_slope_s`
-(the one copy in the core; :mod:`tinytherm.model` re-exports it).
+Worked out once per block close (and target), then counted down between blocks
+(:meth:`Answer.count_down`): asking every reading costs a few float operations. The time is
+the closed form :func:`time_to_target_from_slope_s` (the one copy in the core;
+:mod:`tinytherm.model` re-exports it).
 
 The interval is ``eta * exp(+-z sd)``, ``sd`` the sd of ln(eta): what the fit's
 own forecasts measured (:class:`Audits`), the fit's delta-method variance (times
@@ -25,12 +25,11 @@ the age of the fit that made it: a start-up extrapolated says nothing of it)::
     e = ln(took / predicted),  |e| <= ln 8,  w = n (age_then / age_now)^AUDIT_FORGET
     var_audits <- (w var_audits + e^2) / (w + 1),  then n <- min(round(w + 1), AUDIT_MEMORY)
 
-(the older checks weigh less as the fit grows: the first minute's misses do not
-set a grown fit's interval; unbiased while the errors hold steady).
+(the older checks weigh less as the fit grows: the first minute's misses do not set a grown
+fit's interval; unbiased while the errors hold steady).
 
-:meth:`Audits.var_at` interpolates the three in log horizon (beyond the
-longest audit the variance grows with the horizon, at most
-:data:`AUDIT_STRETCH` times).
+:meth:`Audits.var_at` interpolates the three in log horizon (beyond the longest audit the
+variance grows with the horizon, at most :data:`AUDIT_STRETCH` times).
 
 The equilibrium's drift (no heater, profile or ambient: what moves ``E`` is then
 unknown, an immersion coil's coolant warming, a tub and its wort cooling together):
@@ -43,8 +42,8 @@ E(t))``, ``E(t) = E + b t`` (:func:`time_to_target_drift_s`), and the drift
 so: no upper bound).
 
 A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`, or one k
-:data:`REACH_SD` sd lower reaches) gets an open-ended time (why: at its code).
-Runs on CPython and MicroPython.
+:data:`REACH_SD` sd lower reaches) gets an open-ended time (why: at its code). Runs on
+CPython and MicroPython.
 """
 import math
 import struct
@@ -73,38 +72,36 @@ _ARRIVE_MIN_MS = int(ARRIVE_MIN_S * 1000)
 def predict(self, target_c, approach=0):
     """Work out the time until ``target_c`` (deg C); return the status code.
 
-    ``ThermalEstimator.predict`` (this function is that method). ``approach``:
-    -1 the product cools to its target (a drink), +1 heats to it (a kettle, a
-    bath), 0 not given (the direction of travel decides, with the rules of
-    :mod:`tinytherm.settle`). With -1 or +1 a liquid moving the other way is
-    never ``ARRIVED`` and gets no time.
+    ``ThermalEstimator.predict`` (this function is that method). ``approach``: -1 the product
+    cools to its target (a drink), +1 heats to it (a kettle, a bath), 0 not given (the
+    direction of travel decides, with the rules of :mod:`tinytherm.settle`). With -1 or +1 a
+    liquid moving the other way is never ``ARRIVED`` and gets no time.
 
-    Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds after
-    the latest reading; ``None`` without an estimate), ``eta_rel_sd``,
-    ``rate_per_s`` (1/s), ``equilibrium_c``, ``ambient_est_c``, ``temp_est_c``
-    (deg C) and ``gain_k_per_s`` (K/s). The answer is worked out once per
-    finished block and question (target, approach) and counted down between
-    blocks; the latest reading is checked against the arrival line at every
-    call. Asking changes no later answer (it may finish a closed block's work
-    early: its result does not depend on when it runs). Never raises.
+    Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds after the latest
+    reading; ``None`` without an estimate), ``eta_rel_sd``, ``rate_per_s`` (1/s),
+    ``equilibrium_c``, ``ambient_est_c``, ``temp_est_c`` (deg C) and ``gain_k_per_s`` (K/s).
+    The answer is worked out once per finished block and question (target, approach) and
+    counted down between blocks; the latest reading is checked against the arrival line at
+    every call. Asking changes no later answer (it may finish a closed block's work early: its
+    result does not depend on when it runs). Never raises.
     """
-    while self._pending:
+    while self.blocks.pending:
         self._next_step()  # a closed block's work not done yet: the answer needs all of it
     target = target_c if type(target_c) is float else as_float(target_c)
     if approach != 1 and approach != -1:
         approach = 0  # (a bad value: as if not given, never an exception)
     if self.guard.consecutive_rejections >= FAULT_AFTER:
-        self.forget()
+        self.audits.forget()
         self.clear(st.SENSOR_FAULT)
         return self.status
     b = self.blocks
     age = b.age_ms
-    if (self._for_gen == self._blocks_done and self._for_target == target
-            and self._for_approach == approach):
+    c = self.audits
+    if c.gen == c.done and c.target == target and c.approach == approach:
         # the same block and question: count the answer down, unless the
         # latest reading has reached the arrival line
-        m = self._arrive_dir
-        a = self._arrive_c
+        m = c.arrive_dir
+        a = c.arrive_c
         reached = m != 0 and ((b.c >= a and b.cq >= a) if m > 0 else (b.c <= a and b.cq <= a))
         if reached and _backed_off(self, m):
             reached = False  # back beyond the turn threshold: a top-up, not an arrival
@@ -114,29 +111,30 @@ def predict(self, target_c, approach=0):
         elif reached and _arrived(self, target, m, approach, age):
             self.arrive()
             return self.status
-        elif self.count_down(age):
+        elif self.count_down(c, age):
             return self.status
-    self._for_gen = -1
+    c.gen = -1
     try:
         _work_out(self, target, approach)
     except (ValueError, OverflowError, ZeroDivisionError, TypeError):
         self.clear(st.SETTLING)
-        self._arrive_dir = 0
-    if self._disturbed and (self.status == st.SETTLING or self.status == st.GATHERING):
+        c.arrive_dir = 0
+    if self.detector.disturbed and (self.status == st.SETTLING or self.status == st.GATHERING):
         self.status = st.DISTURBED  # re-learning after a jump
-    if self._for_gen != -2:
-        self._for_gen = self._blocks_done
-    self._for_target = target
-    self._for_approach = approach
-    self.count_down(age, True)
+    if c.gen != -2:
+        c.gen = c.done
+    c.target = target
+    c.approach = approach
+    self.count_down(c, age, True)
     return self.status
 
 def _work_out(est, target, approach):
     """The full answer for the latest block close (cached by ``predict``)."""
     reg = est.reg
     b = est.blocks
-    est._for_age_ms = b.age_ms - b.it  # the answer is for the block close
-    est._arrive_dir = 0
+    c = est.audits
+    c.age_ms = b.age_ms - b.it  # the answer is for the block close
+    c.arrive_dir = 0
     # three readings, or two that began the fit at a turn (the first reading of the
     # approach was taken before it: the probe in the air before a pour)
     if (b.readings < (2 if est.settle.turn else 3) or not reg.ok or target is None
@@ -144,11 +142,11 @@ def _work_out(est, target, approach):
         est.clear(st.GATHERING)
         if est.readings and b.readings:  # (none in this fit: it starts at the next)
             est.temp_est_c = b.c * _INV
-            if est._profile_on and est._dir != 0 and target is not None:
+            if est._profile_on and est.blocks.dir != 0 and target is not None:
                 est._profile.first_answer(est, target, approach)
         return
     est.clear(st.SETTLING)
-    level = est._level
+    level = est.blocks.level
     slope = est._slope_ahead()  # the slope now, unless a measured air cycles: then its mean's
     k = reg.k
     est.temp_est_c = level
@@ -173,10 +171,10 @@ def _work_out(est, target, approach):
     if slope * slope > 4.0 * var_slope:
         d = 1 if slope > 0.0 else -1
     else:
-        d = est._dir
-    m = est._dir
+        d = est.blocks.dir
+    m = est.blocks.dir
     gap = target - level
-    age_s = est._for_age_ms * 0.001  # (the fit's age at the block close, as the answer)
+    age_s = c.age_ms * 0.001  # (the fit's age at the block close, as the answer)
     if m != 0 and d == m and (approach == 0 or m == approach):
         # (an arrival needs the fitted slope to agree with the block means: a spike or
         # a wrong turn of the means is no arrival while the fit says the other way)
@@ -184,20 +182,20 @@ def _work_out(est, target, approach):
         tol = 3.0 * est.noise.sd
         if tol > ARRIVE_TOL_C:
             tol = ARRIVE_TOL_C
-        est._arrive_dir = m
-        est._arrive_c = to_counts(target - m * tol)
+        c.arrive_dir = m
+        c.arrive_c = to_counts(target - m * tol)
         # a reading back beyond the extreme by move_c ends an arrival before the fit
         # sees a turn: the lagging probe rising after a top-up
-        est._hold_c = to_counts(est._extreme_c() - m * move_c(est.noise.sd))
-        if (b.c - est._arrive_c) * m >= 0 and _arrived(est, target, m, approach, b.age_ms):
-            if (b.cq - est._arrive_c) * m >= 0:
+        c.hold_c = to_counts(est._extreme_c() - m * move_c(est.noise.sd))
+        if (b.c - c.arrive_c) * m >= 0 and _arrived(est, target, m, approach, b.age_ms):
+            if (b.cq - c.arrive_c) * m >= 0:
                 est.arrive()
                 return
             # one reading on the line may be a spike: arriving now, confirmed by the next
             est.status = st.TRACKING
             est.eta_s = est.eta_low_s = 0.0
             est.eta_high_s = tol / (slope if slope > 0.0 else -slope) if slope != 0.0 else INF
-            est._for_gen = -2  # (from the latest reading: not counted down)
+            c.gen = -2  # (from the latest reading: not counted down)
             return
     slow = d == 0 and slope * gap > 0.0
     if slow:
@@ -208,7 +206,7 @@ def _work_out(est, target, approach):
         return  # moving away from how this product reaches its target
     if gap * d <= 0.0:
         gap = target - y  # the level crossed, the readings not yet
-        est._for_gen = -2  # (an answer from the latest reading: not counted down)
+        c.gen = -2  # (an answer from the latest reading: not counted down)
     if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
         return  # not moving, or turning: no honest time
     if est._profile_on and est.heater and age_s < PROFILE_LAG_TIMES * est._profile.probe_lag_s:
@@ -290,7 +288,7 @@ def _work_out(est, target, approach):
         est._profile.interval_into(est, eta)  # the profile's calibrated interval
     else:
         rel = math.sqrt(v + b * b)
-        f = spread(est._z * rel)
+        f = spread(c.z * rel)
         est.eta_low_s = eta / f
         est.eta_high_s = INF if open_end else eta * f
         est.eta_rel_sd = rel
@@ -323,7 +321,7 @@ def _arrived(est, target, m, approach, age_ms):
     b = est.blocks
     # the fitted level at the latest reading (the fit's coordinates moved on)
     level = (reg.my + reg.s * (reg.t + b.it * 0.001) - reg.k * (reg.x + b.ix * _IX_TO_CS)
-             + est._anchor)
+             + est.reg.anchor)
     if est.heater:
         level += reg.g * (reg.v + b.iv * _IV_TO_S)
     sd = est.noise.sd
@@ -339,7 +337,7 @@ def _arrived(est, target, m, approach, age_ms):
     s2 = nz.var
     if reg.s2r > s2:
         s2 += (reg.s2r - s2) * (1.0 if nz.n <= NOISE_PRIOR_N else NOISE_PRIOR_N / nz.n)
-    if (est._extreme_c() - target) * m >= ARRIVE_Z * math.sqrt(s2 / est._ext_n):
+    if (est._extreme_c() - target) * m >= ARRIVE_Z * math.sqrt(s2 / est.blocks.ext_n):
         return True
     if not (est.heater or reg.pkk > 0.0):
         return False  # (no heater, k pinned at 0: the level is a line run on, no crossing seen)
@@ -354,14 +352,14 @@ def move_c(noise_sd_c):
 
 
 def _backed_off(est, m):
-    """The latest reading, or one the guard holds as a possible spike (a top-up's first,
-    until the next confirms it), back beyond the hold line ``_hold_c`` against ``m``; the
-    line as far from the open block's mean when that is further on (the drink went on
+    """The latest reading, or one the guard holds as a possible spike (a top-up's first, until
+    the next confirms it), back beyond the hold line (the cache's ``hold_c``) against ``m``;
+    the line as far from the open block's mean when that is further on (the drink went on
     past the extreme since the last block closed: a line from the extreme alone is late)."""
     b = est.blocks
-    hold = est._hold_c
+    hold = est.audits.hold_c
     if b.n >= HOLD_OPEN_N:
-        line = b.sy // b.n + hold - est._ext_sy // est._ext_n  # (integer counts: no heap)
+        line = b.sy // b.n + hold - est.blocks.ext_sy // est.blocks.ext_n  # (integer counts: no heap)
         if (line - hold) * m > 0:
             hold = line
     if (b.c - hold) * m < 0:
@@ -521,14 +519,25 @@ class Audit:
 
 
 class Audits:
-    """The three audits; packs their 15 floats and 3 counts."""
+    """The three audits (packs their 15 floats and 3 counts); beside them, never saved, the
+    answer's cache (:meth:`forget`), the interval's half-width ``z`` in sd and ``done``."""
 
     STATE_SIZE = 3 * (5 * 8 + 1)
 
-    def __init__(self):
+    def __init__(self, z):
         self.a = (Audit(AUDIT_FRACTIONS[0], AUDIT_MIN_S[0]),
                   Audit(AUDIT_FRACTIONS[1], AUDIT_MIN_S[1]),
                   Audit(AUDIT_FRACTIONS[2], AUDIT_MIN_S[2]))
+        self.z = z
+        self.done = 0  # blocks finished since the fit started (the estimator's): the key
+        self.forget()  # (here, not in the estimator: its attribute table stays small)
+
+    def forget(self):
+        """Invalidate the answer's cache: the ``done`` (``gen``), target and approach it was
+        for, the fit's age then (ms), the arrival and hold lines (counts; direction +-1, 0)."""
+        self.gen = -1
+        self.target = None
+        self.approach = self.age_ms = self.arrive_dir = self.arrive_c = self.hold_c = 0
 
     def reset(self):
         for a in self.a:

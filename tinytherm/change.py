@@ -77,6 +77,8 @@ class ChangeDetector:
         self._scale_weight = 1.0 / scale_n if scale_n else 0.0
         self._half_threshold = 0.5 * self.threshold
         self.alarms = 0
+        # the estimator's: since a jump, until its new fit is established (not reset here)
+        self.disturbed = False
         self.reset()
 
     def reset(self):

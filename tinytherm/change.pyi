@@ -7,6 +7,7 @@ class ChangeDetector:
     z_clip: float
     scale_n: int
     jump_z: Optional[float]
+    disturbed: bool
     up: float
     down: float
     mean_abs_z: float

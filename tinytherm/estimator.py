@@ -111,6 +111,12 @@ class ThermalEstimator(Answer):
             raise ValueError("quantum_c must be in [1e-6, 10] deg C")
         if not number(restart_gap_s, 1.0, 5e5):
             raise ValueError("restart_gap_s must be in [1, 5e5] seconds")
+        # save() writes into this one buffer (blob.BLOB_SIZE bytes), made first, while the heap
+        # is fresh (the largest piece of the estimator: later, smaller ones fill the gaps)
+        buf = bytearray(512)
+        # the answer's fields next (reset() sets them again): this table then grows early,
+        # measured the order a fragmented heap satisfies best (benchmarks/device_budget.py)
+        self.clear(st.GATHERING)
         self.heater = heater
         self.profile_reason = 0
         self._profile = None
@@ -127,21 +133,18 @@ class ThermalEstimator(Answer):
         self.detector = ChangeDetector(jump_z=12.0)
         # (the parts through their modules: each name imported here is a slot of this
         # module's table on the device)
-        self.inputs = fit.Inputs(ambient_c)
+        self.inputs = fit.Inputs(ambient_c, ambient_prior_c, ambient_prior_sd_c)
         self.noise = fit.Noise(self.guard.quantum_c)
         self.blocks = fit.BlockSums()
         self.reg = fit.Regression(heater)
-        self.audits = answer.Audits()
-        # the ambient prior: where the room usually is and its sd, deg C
-        self._prior = (float(ambient_prior_c), float(ambient_prior_sd_c))
+        # the audits and the answer's cache, with the interval's half-width in sd
+        self.audits = answer.Audits(normal_quantile(0.5 + 0.5 * interval))
         self.settle = Settle()  # whether the probe has met the liquid (no direction given)
-        self._z = normal_quantile(0.5 + 0.5 * interval)  # the interval's half-width in sd
-        # save() writes into this one buffer (blob.BLOB_SIZE bytes), made while the heap is
-        # fresh, beside the text of every setting that changes the state's meaning: the first
-        # save or restore writes the frame's header with its CRC-32 (state.frame: a product
-        # that never sleeps loads neither blob nor crc)
-        self._blob_buf = (bytearray(512), "%r %r %r %r %r %r %r %r %r %r" % (
-            ambient_c, self._prior[0], self._prior[1], heater, float(interval),
+        # the blob's buffer beside the text of every setting that changes the state's
+        # meaning: the first save or restore writes the frame's header with its CRC-32
+        # (state.frame: a product that never sleeps loads neither blob nor crc)
+        self._blob_buf = (buf, "%r %r %r %r %r %r %r %r %r %r" % (
+            ambient_c, self.inputs.prior[0], self.inputs.prior[1], heater, float(interval),
             self.guard.quantum_c, self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
             self._profile is not None))
         self.reset()
@@ -158,7 +161,7 @@ class ThermalEstimator(Answer):
         self.inputs.reset()
         self.noise.reset()
         self.audits.reset()
-        self._disturbed = False     # since a jump, until the new fit is established
+        self.detector.disturbed = False     # since a jump, until the new fit is established
         self._profile_on = self._profile is not None
         self._restart_fit()
 
@@ -168,16 +171,15 @@ class ThermalEstimator(Answer):
         self.reg.reset()
         self.audits.clear()
         self.detector.reset()
-        self._dir = 0               # direction of the block means (+1, -1, 0)
-        self._ext_sy = 0            # first block mean while _dir == 0, then the extreme: its
-        self._ext_n = 1             # block's sum (counts) and readings (its noise): _extreme_c
-        self._anchor = 0.0          # smoothed residual of the latest blocks, deg C
-        self._level = self._slope = 0.0  # fitted level and slope at the latest block close
-        self._blocks_done = 0               # blocks finished: the answer's cache key
-        self._pending = 0           # 1: a block closed, its second half not done; 2: audits due
-        self._ahead = None          # the ambient ahead at the latest block close, counts * 2**8
-        #   (a measured air's mean ahead, else the fixed ambient; None: none was known then)
-        self.forget()
+        b = self.blocks
+        b.dir = 0                   # direction of the block means (+1, -1, 0)
+        b.ext_sy = 0                # first block mean while dir == 0, then the extreme: its
+        b.ext_n = 1                 # block's sum (counts) and readings (its noise): _extreme_c
+        b.level = self._slope = 0.0  # fitted level and slope at the latest block close
+        self.audits.done = 0        # blocks finished: the answer's cache key
+        b.pending = 0               # 1: a block closed, its second half not done; 2: audits due
+        self.inputs.ahead = None    # the ambient ahead at the latest block close (fit.Inputs)
+        self.audits.forget()
         self.clear(st.GATHERING)
 
     # ---------------------------------------------------------------- readings
@@ -192,7 +194,7 @@ class ThermalEstimator(Answer):
         code from :mod:`tinytherm.status`, counted, and leaves the fit
         untouched (its time still counts).
         """
-        if self._pending:
+        if self.blocks.pending:
             # a closed block's work is spread over the readings after it, one step
             # each, before the guard sees the reading (it uses the fitted slope);
             # a step's result depends on no reading after the block
@@ -216,7 +218,7 @@ class ThermalEstimator(Answer):
         the seconds since the last reading before the save (the tick counter
         restarted meanwhile), so nothing is lost. Returns the verdict code.
         """
-        if self._pending:
+        if self.blocks.pending:
             self._next_step()  # (as in update)
         t = as_float(temp_c)
         ok = self._inputs_ok(ambient_c, duty)
@@ -257,7 +259,7 @@ class ThermalEstimator(Answer):
                 # the block closes when long enough, or long for the fit's age
                 # (every reading counts early on), or full
                 if b.it >= _BLOCK_MS or b.it * 16 >= b.age_ms or b.n >= MAX_BLOCK_READINGS:
-                    while self._pending:
+                    while self.blocks.pending:
                         self._next_step()  # (sparse readings: a block per reading)
                     self._close_block()
         except (ValueError, OverflowError, ZeroDivisionError):
@@ -269,8 +271,8 @@ class ThermalEstimator(Answer):
 
     def _first(self, c, rc, uc):
         """The fit's first reading: the first block, closed at once."""
-        self._ext_sy = c
-        self._ext_n = 1
+        self.blocks.ext_sy = c
+        self.blocks.ext_n = 1
         self.settle.first(c)
         self.blocks.first(c, rc, uc)
         self._close_block()
@@ -298,7 +300,7 @@ class ThermalEstimator(Answer):
             if reg.nb >= DETECT_MIN_BLOCKS:
                 # innovation of the block mean against the fit's forecast (weighted blocks:
                 # a sparse fit's forecast over minutes is no test of a jump)
-                pred = reg.my + reg.s * tb - reg.k * xb + self._anchor
+                pred = reg.my + reg.s * tb - reg.k * xb + reg.anchor
                 if heater:
                     pred += reg.g * vb
                 sd = math.sqrt(self.noise.var / n + 4.0 * reg.var_my + MISMATCH_C * MISMATCH_C)
@@ -331,22 +333,22 @@ class ThermalEstimator(Answer):
             self._begin_again(False)  # the probe was travelling to the liquid: the liquid's
             self.settle.seeded(False)  # own approach starts here (tinytherm.settle)
             return
-        self._ahead = self.inputs.ahead_fine() if self.inputs.known() else None
-        self._pending = 1
+        self.inputs.ahead = self.inputs.ahead_fine() if self.inputs.known() else None
+        self.blocks.pending = 1
 
     def _next_step(self):
-        if self._pending == 1:
+        if self.blocks.pending == 1:
             self._finish_block()
         else:
-            self._pending = 0
+            self.blocks.pending = 0
             self._audit()
 
     def _finish_block(self):
         """Close the block, second half: solve, anchor, level and slope, turn (audits next)."""
-        self._pending = 0
+        self.blocks.pending = 0
         reg = self.reg
         b = self.blocks
-        self._blocks_done += 1
+        self.audits.done += 1
         self._solve()
         yb = reg.yb
         if reg.ok:
@@ -354,15 +356,15 @@ class ThermalEstimator(Answer):
             res = yb - (reg.my + reg.s * reg.rt - reg.k * reg.rx)
             if self.heater:
                 res -= reg.g * reg.rv
-            self._anchor += ANCHOR_GAIN * (res - self._anchor)
+            reg.anchor += ANCHOR_GAIN * (res - reg.anchor)
             self._level_and_slope()
             if b.readings >= DETECT_MIN_BLOCKS:
-                self._disturbed = False  # established again after a jump
+                self.detector.disturbed = False  # established again after a jump
                 if self.audits.any_due((b.age_ms - b.it) * 0.001) and (
                         self.heater or self.settle.ref != _NO_REF):
                     # (none while the probe travels to the liquid after a jump: those
                     # forecasts are the probe's, their errors not the liquid's)
-                    self._pending = 2  # the audits with the next reading
+                    self.blocks.pending = 2  # the audits with the next reading
         else:
             self._slope = 0.0
         # the noise's expected step follows the new slope (a restored run works it out afresh:
@@ -377,9 +379,9 @@ class ThermalEstimator(Answer):
         """The anchored level and the slope at it from the solution (at the latest block
         close; also after a restore or a re-solve, so that those give the same)."""
         reg = self.reg
-        self._level = reg.level() + self._anchor
+        self.blocks.level = reg.level() + reg.anchor
         # slope at the level (the reference gap and duty are the closing reading's)
-        self._slope = reg.s - reg.k * (self._level - self.blocks.cb * _INV)
+        self._slope = reg.s - reg.k * (self.blocks.level - self.blocks.cb * _INV)
 
     def _begin_again(self, disturbed, from_previous=False):
         """Restart the fit from the latest reading (a jump or a turn); ``from_previous``:
@@ -389,10 +391,10 @@ class ThermalEstimator(Answer):
         b = self.blocks
         c, rc, uc = b.c, b.rc, b.uc
         cp, ip = b.cp, b.ip
-        turned_to = -self._dir
+        turned_to = -self.blocks.dir
         self._restart_fit()
         if disturbed:
-            self._disturbed = True
+            self.detector.disturbed = True
         if from_previous and ip > 0:
             # (no heater: a turn with one restarts nothing; the reference over ip taken as now)
             self._first(cp, rc, uc)
@@ -405,7 +407,7 @@ class ThermalEstimator(Answer):
                 self.settle.jumped()  # (the probe travels to the new liquid again)
         if (not disturbed and self._profile_on and not self.heater and turned_to != 0
                 and self._profile.toward_e(self, turned_to)):
-            self._dir = turned_to  # the passive profile's direction: known from the turn on
+            self.blocks.dir = turned_to  # the passive profile's direction: known from the turn on
 
     def _turned(self, yb):
         """Track the extreme of the block means; True on a retreat beyond TURN_C.
@@ -418,27 +420,27 @@ class ThermalEstimator(Answer):
             # a probe travelling to the liquid after a jump moves one way until it meets
             # it: back from its extreme by a move beyond the noise is the liquid's turn
             cut = answer.move_c(self.noise.sd)
-        elif cut < TURN_C and not (self.blocks.readings == 3 and self._dir != 0) and not (
-                self._profile_on and not self.heater and self._dir != 0
-                and self._profile.toward_e(self, -self._dir)):
+        elif cut < TURN_C and not (self.blocks.readings == 3 and self.blocks.dir != 0) and not (
+                self._profile_on and not self.heater and self.blocks.dir != 0
+                and self._profile.toward_e(self, -self.blocks.dir)):
             # at least TURN_C, but for the retreat right after the jump that set the
             # direction (a reading taken before a pour, then the drink cooling), and for
             # a passive profile's liquid, which only moves towards its E (a retreat that
             # way is the probe caught up, seen at 4 noise sd)
             cut = TURN_C
         ext = self._extreme_c()
-        if self._dir == 0:
+        if self.blocks.dir == 0:
             if yb - ext > cut:
-                self._dir = 1
-                self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
+                self.blocks.dir = 1
+                self.blocks.ext_n, self.blocks.ext_sy = self.blocks.np, self.blocks.sp
             elif ext - yb > cut:
-                self._dir = -1
-                self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
+                self.blocks.dir = -1
+                self.blocks.ext_n, self.blocks.ext_sy = self.blocks.np, self.blocks.sp
             return False
-        if (yb > ext) if self._dir > 0 else (yb < ext):
-            self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
+        if (yb > ext) if self.blocks.dir > 0 else (yb < ext):
+            self.blocks.ext_n, self.blocks.ext_sy = self.blocks.np, self.blocks.sp
             return False
-        if (ext - yb) * self._dir <= cut:
+        if (ext - yb) * self.blocks.dir <= cut:
             return False
         if self.heater:
             # the heater turned it: a new direction, the same fit (it explains the turn),
@@ -446,21 +448,21 @@ class ThermalEstimator(Answer):
             # latest retreated too; before, it is a spike or noise (readings a minute
             # apart on a steep heat-up: the guard's window of three is wide there, and
             # one reading is the whole block)
-            if self._slope * self._dir < 0.0 and (
-                    ext - self.blocks.cq * _INV) * self._dir > cut:
-                self._dir = -self._dir
-                self._ext_n, self._ext_sy = self.blocks.np, self.blocks.sp
+            if self._slope * self.blocks.dir < 0.0 and (
+                    ext - self.blocks.cq * _INV) * self.blocks.dir > cut:
+                self.blocks.dir = -self.blocks.dir
+                self.blocks.ext_n, self.blocks.ext_sy = self.blocks.np, self.blocks.sp
             return False
         return True
 
     def _extreme_c(self):
         """The extreme block mean, deg C (worked out as when its block closed: exact)."""
-        return self._ext_sy / (self._ext_n * SCALE)
+        return self.blocks.ext_sy / (self.blocks.ext_n * SCALE)
 
     def _solve(self):
         """Priors for this block, then the regression's solve (see the module docstring).
 
-        The hint follows ``_ahead``: whether an ambient was known at the block
+        The hint follows ``inputs.ahead``: whether an ambient was known at the block
         close (saved with the state; a measured one may arrive after it).
         """
         reg = self.reg
@@ -470,11 +472,11 @@ class ThermalEstimator(Answer):
         s2 = self.noise.var
         prof = self._profile if self._profile_on else None
         # the equilibrium hint E ~ N(e, sd^2) as a distance from the latest gap G0
-        if self._ahead is not None:
+        if self.inputs.ahead is not None:
             dist = -self.blocks.g0 * _INV
             sd = KNOWN_AMBIENT_SD_C
         else:
-            r, sd = self._prior
+            r, sd = self.inputs.prior
             dist = r - self.blocks.g0 * _INV
         if prof is None:
             kp = gp = 0.0
@@ -521,7 +523,7 @@ class ThermalEstimator(Answer):
                 self._level_and_slope()  # (as a restore derives them from the new solution)
             return
         for a in self.audits.a:
-            a.check(self, age, self._level, slope, self.reg.k, need)
+            a.check(self, age, self.blocks.level, slope, self.reg.k, need)
 
     def _slope_ahead(self):
         """Slope at the fitted level under the air the future will see, deg C/s.
@@ -534,11 +536,11 @@ class ThermalEstimator(Answer):
 
         Without a measured air it is the slope now.
         """
-        if not self.inputs.measured or self._ahead is None:
+        if not self.inputs.measured or self.inputs.ahead is None:
             return self._slope
         b = self.blocks
         # the reference at the block close: G0 = cb - rc
-        return self._slope + self.reg.k * (self._ahead * (1.0 / 256) - (b.cb - b.g0)) * _INV
+        return self._slope + self.reg.k * (self.inputs.ahead * (1.0 / 256) - (b.cb - b.g0)) * _INV
 
     # ``predict(target_c, approach=0)``: the answer part's rules, as a method
     predict = answer.predict
@@ -557,7 +559,7 @@ class ThermalEstimator(Answer):
         known then. The one reference of the answer's ambient, the equilibrium slack and
         the profile: an answer worked out after a restore, at a later reading of the
         block, must be the one counted down since the block close."""
-        return None if self._ahead is None else self._ahead * _FINE_INV
+        return None if self.inputs.ahead is None else self.inputs.ahead * _FINE_INV
 
 
     # ------------------------------------------------------------ save/restore

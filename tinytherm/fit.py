@@ -45,6 +45,16 @@ class BlockSums:
     STATE_SIZE = 89
 
     def __init__(self):
+        # the estimator's, kept here so that its attribute table stays small (it sets them;
+        # saved in its header, not below): the direction of the block means (+1, -1, 0);
+        # the first block mean while dir == 0, then the extreme, as its block's sum (counts)
+        # and readings; the fitted, anchored level at the latest block close (deg C,
+        # derived); 1: a block closed and its second half not done, 2: its audits due
+        self.dir = 0
+        self.ext_sy = 0
+        self.ext_n = 1
+        self.level = 0.0
+        self.pending = 0
         self.reset()
 
     def reset(self):
@@ -246,8 +256,14 @@ class Inputs:
 
     STATE_SIZE = 29   # the air's bytes (zeros while none was measured)
 
-    def __init__(self, fixed_c):
+    def __init__(self, fixed_c, prior_c=21.0, prior_sd_c=8.0):
         self.fixed = None if fixed_c is None else to_counts(fixed_c)
+        # the ambient prior (a hint when none is known): where the room usually is and
+        # its sd, deg C
+        self.prior = (float(prior_c), float(prior_sd_c))
+        # the estimator's: the ambient ahead at the latest block close, counts * 2**8 (a
+        # measured air's mean ahead, else the fixed ambient; None: none was known then)
+        self.ahead = None
         self.reset()
 
     def reset(self):
@@ -340,6 +356,7 @@ class Regression:
         self.ctu = self.cxu = self.cuu = self.cuy = 0.0
         self.t = self.x = self.v = 0.0
         self.rt = self.rx = self.rv = self.yb = 0.0  # the latest block, for its residual
+        self.anchor = 0.0  # the estimator's: smoothed residual of the latest blocks, deg C
         self.clear()
 
     def clear(self):

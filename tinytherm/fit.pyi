@@ -1,4 +1,4 @@
-from typing import Optional, Union
+from typing import Optional, Tuple, Union
 
 from tinytherm.air import Air
 
@@ -13,6 +13,11 @@ NOISE_PRIOR_N: int
 
 class BlockSums:
     STATE_SIZE: int
+    dir: int
+    ext_sy: int
+    ext_n: int
+    level: float
+    pending: int
     n: int
     it: int
     ix: int
@@ -64,7 +69,10 @@ class Inputs:
     air: Optional[Air]
     duty: float
     duty_c: int
-    def __init__(self, fixed_c: Optional[float]) -> None: ...
+    prior: Tuple[float, float]
+    ahead: Optional[int]
+    def __init__(self, fixed_c: Optional[float], prior_c: float = 21.0,
+                 prior_sd_c: float = 8.0) -> None: ...
     def reset(self) -> None: ...
     def known(self) -> bool: ...
     def reference(self, ambient_c: Optional[float], dt_ms: int, restart: bool) -> int: ...
@@ -98,6 +106,7 @@ class Regression:
     rx: float
     rv: float
     yb: float
+    anchor: float
     s: float
     k: float
     g: float

@@ -159,7 +159,7 @@ class ReadingGuard:
         self.spike_floor_c = _setting("spike_floor_c", quantum_c if spike_floor_c is None
                                       else spike_floor_c, self.quantum_c, 1e6, "deg C")
         self.probe_codes = bool(probe_codes)
-        self.error_margin_c = _setting("error_margin_c", error_margin_c, 0.0, 1e3, "deg C")
+        margin = _setting("error_margin_c", error_margin_c, 0.0, 1e3, "deg C")
         max_gap = _setting("max_gap_s", max_gap_s, 0.001, 1e6, "s")
         # restart_gap_s below half the tick period: a tick difference can say it
         restart_gap = _setting("restart_gap_s", restart_gap_s, max_gap,
@@ -171,8 +171,9 @@ class ReadingGuard:
         self.stuck_min_ms = _step_ms(_setting("stuck_min_s", stuck_min_s, 0.0, 1e6, "s"))
         # precomputed so the common paths compare only
         self._gate_floor_c = self.spike_k * self.spike_floor_c
-        self._power_up_band = (POWER_UP_CODE_C - self.error_margin_c,
-                               POWER_UP_CODE_C + self.error_margin_c)
+        # (the margin is kept only as this band: one attribute fewer keeps the guard's table
+        # at 29 slots, a smaller piece for a fragmented heap to find)
+        self._power_up_band = (POWER_UP_CODE_C - margin, POWER_UP_CODE_C + margin)
         # the window, newest first (slots 0..4), and scratch for the deviations (5..9)
         self._win = [0.0] * 10
         # per-verdict counts, then accepted readings per gap code (fixed size)

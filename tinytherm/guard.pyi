@@ -24,7 +24,6 @@ class ReadingGuard:
     spike_k: float
     spike_floor_c: float
     probe_codes: bool
-    error_margin_c: float
     max_gap_ms: int
     restart_gap_ms: int
     stuck_change_c: Optional[float]

@@ -369,7 +369,7 @@ class VesselProfile:
         """The reference ``est``'s equilibrium under this profile is offset from, deg C
         (the ambient at the block close, ``est._ambient_ahead_c()``, else the ambient prior)."""
         r = est._ambient_ahead_c()
-        return est._prior[0] if r is None else r
+        return est.inputs.prior[0] if r is None else r
 
     def toward_e(self, est, direction):
         """True when moving in ``direction`` (+1 / -1) goes towards this (passive)
@@ -400,9 +400,9 @@ class VesselProfile:
             duty = b.u0 / _DUTY_SCALE
         elif age_ms < _YOUNG_MS:
             z_max = 2.0 * PROFILE_MISMATCH_Z
-        gk = b.cb * _INV - est._level  # d slope / d k at the level
+        gk = b.cb * _INV - est.blocks.level  # d slope / d k at the level
         var_slope = reg.pss + gk * gk * reg.pkk + 2.0 * gk * reg.psk
-        z = self.rate_z(est._level, slope_c_per_s, self.reference_c(est),
+        z = self.rate_z(est.blocks.level, slope_c_per_s, self.reference_c(est),
                         var_slope / (slope_c_per_s * slope_c_per_s), duty)
         return z is not None and z > z_max
 
@@ -441,7 +441,7 @@ class VesselProfile:
         quantiles of ln(actual / predicted) (split-conformal,
         host_sim.calibrate.pipeline) at that horizon, scaled to the interval asked for."""
         lo, hi = self.interval_log_bounds(eta_s)
-        z = est._z / PROFILE_Z80
+        z = est.audits.z / PROFILE_Z80
         est.eta_s = eta_s
         est.eta_low_s = eta_s * _spread(z * lo)
         est.eta_high_s = eta_s * _spread(z * hi)
@@ -449,10 +449,10 @@ class VesselProfile:
 
     def first_answer(self, est, target_c, approach):
         """A passive liquid's answer before ``est``'s fit has its own (its first readings
-        after the turn that set the direction ``est._dir`` towards this profile's
+        after the turn that set the direction ``est.blocks.dir`` towards this profile's
         equilibrium): the law at its typical rate from the latest reading, with the
         table. ``target_c`` in deg C, ``approach`` as ``predict``'s."""
-        m = est._dir
+        m = est.blocks.dir
         if approach != 0 and approach != m:
             return
         y = est.blocks.c * _INV

@@ -43,16 +43,16 @@ def save(est):
     ``bytes(...)``. Every value is stored exactly; the guard's per-reason
     counts and ``rejected`` count since the last restore.
     """
-    while est._pending:
+    while est.blocks.pending:
         est._next_step()  # (as the next readings would: the blob holds no half-done block)
     buf = frame(est)
     o = bl.PAYLOAD_OFFSET
-    flags = ((0 if est.blocks.readings else 1) | (2 if est._disturbed else 0)
-             | (4 if est._profile_on else 0) | ((est._dir + 1) << 3)
-             | (0 if est._ahead is None else 32) | (64 if est.settle.turn else 0))
+    flags = ((0 if est.blocks.readings else 1) | (2 if est.detector.disturbed else 0)
+             | (4 if est._profile_on else 0) | ((est.blocks.dir + 1) << 3)
+             | (0 if est.inputs.ahead is None else 32) | (64 if est.settle.turn else 0))
     struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
-                     est.turns & 0xFFFF, flags, est.profile_reason, est._anchor,
-                     est._ext_sy, est._ext_n, est._ahead or 0)
+                     est.turns & 0xFFFF, flags, est.profile_reason, est.reg.anchor,
+                     est.blocks.ext_sy, est.blocks.ext_n, est.inputs.ahead or 0)
     o += HEAD_SIZE
     for part in parts(est):
         part.pack_into(buf, o)
@@ -121,15 +121,15 @@ def _unpack(est, blob):
     est.changes = changes
     est.turns = turns
     est.profile_reason = reason
-    est._disturbed = bool(flags & 2)
+    est.detector.disturbed = bool(flags & 2)
     est._profile_on = bool(flags & 4)
-    est._dir = direction
-    est._anchor = anchor
-    est._ext_sy = ext_sy
-    est._ext_n = ext_n
-    est._ahead = ahead if flags & 32 else None
+    est.blocks.dir = direction
+    est.reg.anchor = anchor
+    est.blocks.ext_sy = ext_sy
+    est.blocks.ext_n = ext_n
+    est.inputs.ahead = ahead if flags & 32 else None
     est.settle.turn = bool(flags & 64)
-    est._blocks_done = 1
+    est.audits.done = 1
     # the solution and what follows from it are derived: as at the last block close
     est._solve()
     reg = est.reg

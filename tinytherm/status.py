@@ -77,20 +77,9 @@ class Answer:
     ``equilibrium_c``, ``ambient_est_c``, ``temp_est_c`` (deg C) and
     ``gain_k_per_s`` (K/s at full duty).
 
-    The cache: the fit generation, target and approach it was worked out
-    for, the fit's age then (ms), and the reading (counts) at or beyond
-    which it becomes an arrival.
+    Its cache (the question the answer was worked out for) is kept by the
+    estimator's audits part (:class:`tinytherm.answer.Audits`).
     """
-
-    def forget(self):
-        """Invalidate the cache (the next ``predict`` works the answer out)."""
-        self._for_gen = -1
-        self._for_target = None
-        self._for_approach = 0
-        self._for_age_ms = 0
-        self._arrive_dir = 0    # +1 / -1: arrival once the reading is >= / <= arrive_c
-        self._arrive_c = 0      # counts
-        self._hold_c = 0        # counts: a reading back beyond it (a top-up) ends an arrival
 
     def clear(self, code):
         self.status = code
@@ -111,15 +100,16 @@ class Answer:
         self.eta_high_s = 0.0
         self.eta_rel_sd = None  # (as when worked out: a restored run arrives the same)
 
-    def count_down(self, age_ms, force=False):
-        """Move the cached times on to a fit ``age_ms`` old.
+    def count_down(self, c, age_ms, force=False):
+        """Move the cached times on to a fit ``age_ms`` old (``c``: the part holding the
+        cache, :class:`tinytherm.answer.Audits`).
 
         False when the time would pass 0 (the answer must be worked out
         again), unless ``force``: then it stops at 0.
         """
         if self.eta_s is None or self.status == ARRIVED:
             return True
-        el = (age_ms - self._for_age_ms) * 0.001
+        el = (age_ms - c.age_ms) * 0.001
         if el <= 0.0:
             return True
         eta = self.eta_s - el
@@ -132,5 +122,5 @@ class Answer:
         self.eta_low_s = low if low > 0.0 else 0.0
         high = self.eta_high_s - el
         self.eta_high_s = high if high > eta else eta
-        self._for_age_ms = age_ms
+        c.age_ms = age_ms
         return True
