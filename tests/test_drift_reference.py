@@ -133,3 +133,64 @@ def test_no_drift_is_the_fixed_law():
     assert answers[0][4] == math.inf
     t, _, _, low, high = answers[1]
     assert not low <= crossing - t <= high
+
+
+# Before the drift can be measured. References: scipy.integrate.solve_ivp (DOP853,
+# rtol = atol = 1e-10) integrates an invented wort chiller, the wort losing heat as
+# dT/dt = -c (T - T_in(t))^(5/4) (free convection on the coil: h ~ dT^(1/4), laminar
+# Nu ~ Ra^(1/4), from memory) to an inlet warming as T_in = 12 + 5 (1 - exp(-t / 1000 s)),
+# read by a probe lagging 40 s; scipy.optimize.brentq finds the wort's true crossing.
+CHILL_C = 7e-4     # 1/(s K^(1/4))
+CHILL_TARGET = 19.0
+
+
+def chiller_probe_and_crossing(horizon_s=20000.0):
+    def rhs(t, y):
+        d = y[0] - (12.0 + 5.0 * (1.0 - math.exp(-t / 1000.0)))
+        return [-CHILL_C * math.copysign(abs(d) ** 1.25, d), (y[0] - y[1]) / 40.0]
+    sol = solve_ivp(rhs, (0.0, horizon_s), [90.0, 90.0], method="DOP853", rtol=1e-10,
+                    atol=1e-10, dense_output=True)
+    crossing = first_crossing(lambda t: sol.sol(t)[0], CHILL_TARGET, horizon_s)
+    return (lambda t: sol.sol(t)[1]), crossing
+
+
+def chiller_answers(asks):
+    """(time s, status, eta_low_s, eta_high_s) at ``asks``: the probe read every 2 s, 1/16 C steps."""
+    probe, crossing = chiller_probe_and_crossing()
+    readings = np.round(probe(np.arange(0.0, asks[-1] + DT, DT)) * 16.0) / 16.0
+    est = ThermalEstimator()
+    out = []
+    i = 0
+    for ask in asks:
+        while i * DT <= ask:
+            est.update(float(readings[i]), 0.0 if i == 0 else DT)
+            i += 1
+        code = est.predict(CHILL_TARGET)
+        out.append(((i - 1) * DT, code, est.eta_low_s, est.eta_high_s))
+    return out, crossing
+
+
+CHILL_ASKS = (260.0, 280.0, 300.0, 320.0)  # fits bent through 0.3-1 time constants
+
+
+def test_young_fit_upper_end_covers_the_crossing():
+    # the fit's law answers 650-960 s; the wort takes 2030-2090 s (the inlet warms and the
+    # coil's coefficient falls with the difference). Without the unseen bend's upper end
+    # (answer.UNSEEN_BEND) every interval here ended at 980-1770 s, short of the crossing
+    answers, crossing = chiller_answers(CHILL_ASKS)
+    assert crossing is not None
+    for t, code, low, high in answers:
+        rem = crossing - t
+        assert code == st.TRACKING, (t, code)
+        assert low <= rem <= high, (t, low, high, rem)
+
+
+def test_young_fit_without_the_unseen_bend_misses():
+    saved = answer.UNSEEN_BEND
+    try:
+        answer.UNSEEN_BEND = 0.0  # (0: the upper end from the audits and the model term only)
+        answers, crossing = chiller_answers(CHILL_ASKS)
+    finally:
+        answer.UNSEEN_BEND = saved
+    for t, code, low, high in answers:
+        assert code == st.TRACKING and high < crossing - t, (t, code, high, crossing - t)

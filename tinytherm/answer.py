@@ -39,7 +39,9 @@ age_then)`` (once the fit then had bent through :data:`DRIFT_BEND` time constant
 over at least :data:`DRIFT_MIN_S`). The time is then that of ``dT/dt = -k (T -
 E(t))``, ``E(t) = E + b t`` (:func:`time_to_target_drift_s`), and the drift
 :data:`DRIFT_SD` of itself smaller gives one more sd of ln(eta) (never arriving
-so: no upper bound).
+so: no upper bound). Before the drift is measured, a passive answer beyond the fit's age
+(bent through :data:`UNSEEN_FROM` time constants) has as upper end the time at k
+:data:`UNSEEN_BEND` / age larger: a bend slower than the fit's age is unseen.
 
 A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`, or one k
 :data:`REACH_SD` sd lower reaches) gets an open-ended time (why: at its code). Runs on
@@ -221,8 +223,8 @@ def _work_out(est, target, approach):
     bd = 0.0
     a = est.audits.a[2]
     r = a.rate
-    if not (est.heater or est._profile_on or est.inputs.known()) and k > 0.0 and r > 0.0 \
-            and r * a.age >= DRIFT_BEND and age_s - a.age >= DRIFT_MIN_S:
+    passive = not (est.heater or est._profile_on or est.inputs.known())
+    if passive and k > 0.0 and r > 0.0 and r * a.age >= DRIFT_BEND and age_s - a.age >= DRIFT_MIN_S:
         bd = (level + slope / k - a.level - a.slope / r) / (age_s - a.age)
     open_end = slow
     if bd != 0.0:
@@ -280,6 +282,11 @@ def _work_out(est, target, approach):
             open_end = True
         elif other > 0.0:
             b = math.sqrt(b * b + math.log(other / eta) ** 2)
+    up = 0.0
+    if passive and bd == 0.0 and eta0 is not None and eta0 > age_s and k * age_s >= UNSEEN_FROM:
+        # beyond the fit's age, no drift measured: a bend slower than that age is unseen
+        up = time_to_target_from_slope_s(gap, slope, k + UNSEEN_BEND / age_s)
+        open_end = open_end or up is None
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
     est.eta_s = eta
@@ -290,7 +297,7 @@ def _work_out(est, target, approach):
         rel = math.sqrt(v + b * b)
         f = spread(c.z * rel)
         est.eta_low_s = eta / f
-        est.eta_high_s = INF if open_end else eta * f
+        est.eta_high_s = INF if open_end else (eta * f if eta * f > up else up)
         est.eta_rel_sd = rel
     if v <= MAX_REL_SD * MAX_REL_SD:
         # (the fit's forecast-error variance at this horizon decides whether to show it: its
@@ -449,6 +456,9 @@ DRIFT_SD = 0.5      # relative sd of the equilibrium's drift (one sd more at it 
 DRIFT_MIN_S = 120.0  # s: least time the drift is measured over
 DRIFT_BEND = 2.0    # time constants (k x age) the fit had bent through at the drift's start
 #   (before, its E is an extrapolation still converging; the three: leave-one-family-out)
+UNSEEN_BEND = 1.0   # 1/age by which k may be larger at the upper end, no drift measured yet
+UNSEEN_FROM = 0.3   # time constants (k x age) a fit has bent through before it applies
+#   (both leave-one-family-out, 32 tune traces per family dense and sparse; 0 = off)
 AUDIT_MEMORY = 8        # audits in the running mean of squared log errors
 AUDIT_FORGET = 2.0      # an older check's weight falls as (its age / the age now)^this
 #   (leave-one-family-out, 16 tune traces per family dense and sparse: 0, 1, 2, 3, 4)

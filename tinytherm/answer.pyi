@@ -33,6 +33,8 @@ AUDIT_YOUNG: float
 DRIFT_SD: float
 DRIFT_MIN_S: float
 DRIFT_BEND: float
+UNSEEN_BEND: float
+UNSEEN_FROM: float
 
 class Audit:
     fraction: float
