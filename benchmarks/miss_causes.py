@@ -10,7 +10,7 @@ them) by its cause:
 
 - a shown time (``tracking``): whether the equilibrium's drift was in the
   answer (:mod:`tinytherm.answer`, watched by wrapping
-  ``answer.time_to_target_drift_s`` and ``answer._work_out`` for the run), whether the time reached
+  ``answer.time_to_target_drift_s`` (imported from num) and ``answer._work_out`` for the run), whether the time reached
   beyond twice the fit's age (an extrapolation over more than the fit has seen),
   and, when the interval missed the true remaining time, whether the point was
   short (the liquid took longer) or long;

@@ -1,4 +1,4 @@
-"""The equilibrium's drift (tinytherm.answer, tinytherm.answer.time_to_target_drift_s) against
+"""The equilibrium's drift (tinytherm.answer, tinytherm.num.time_to_target_drift_s) against
 outside references (CPython only).
 
 References: scipy.integrate.solve_ivp (DOP853, rtol = atol = 1e-10) integrates
@@ -16,7 +16,7 @@ from scipy.optimize import brentq
 
 from tinytherm import answer
 from tinytherm import status as st
-from tinytherm.answer import time_to_target_drift_s
+from tinytherm.num import time_to_target_drift_s
 from tinytherm.estimator import ThermalEstimator
 
 

@@ -14,10 +14,6 @@ DUTY_SCALE: int
 NOISE_PRIOR_N: int
 
 def move_c(noise_sd_c: float) -> float: ...
-def time_to_target_from_slope_s(gap_c: float, slope_c_per_s: float,
-                                rate_per_s: float) -> Optional[float]: ...
-def time_to_target_drift_s(gap_c: float, slope_c_per_s: float, rate_per_s: float,
-                           drift_c_per_s: float) -> Optional[float]: ...
 
 AUDIT_FRACTIONS: tuple[float, float, float]
 AUDIT_MIN_S: tuple[float, float, float]

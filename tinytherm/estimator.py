@@ -39,7 +39,7 @@ from tinytherm.status import Answer
 from tinytherm.change import ChangeDetector
 from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
-from tinytherm.num import as_float, normal_quantile, number
+from tinytherm.num import as_float, normal_quantile, number, time_to_target_from_slope_s
 from tinytherm.settle import _NO_REF, Settle
 
 # Fixed choices (module constants, not arguments: no product needs another value).
@@ -551,7 +551,7 @@ class ThermalEstimator(Answer):
             t = self._profile.law_for(self, moved_c, level_c, slope_c_per_s)
             if t is not None:
                 return t
-        return answer.time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
+        return time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
 
     def _ambient_ahead_c(self):
         """The ambient the answer uses, deg C, as fixed at the latest block close (a

@@ -14,8 +14,8 @@ floats it returns. Runs unchanged on CPython and MicroPython.
 """
 import math
 
-from tinytherm.answer import time_to_target_from_slope_s  # noqa: F401 (the closed form, kept once)
-from tinytherm.num import exp  # saturates instead of raising (MicroPython raises ValueError)
+# exp saturates instead of raising (MicroPython raises ValueError); the closed form, kept once
+from tinytherm.num import exp, time_to_target_from_slope_s  # noqa: F401
 
 
 def _phi1(x):

@@ -10,6 +10,10 @@
   (MicroPython raises ValueError where CPython raises OverflowError).
 - :func:`normal_quantile`: the standard normal quantile (an interval's half-width in sd);
   :func:`spread`: ``exp`` of that many sd, ``inf`` beyond ``exp(50)``.
+- :func:`time_to_target_from_slope_s` and :func:`time_to_target_drift_s`: the law's
+  two closed forms for the time to a target (the one copy in the core; None when never
+  reached or for bad input, never raising), used by :mod:`tinytherm.answer` and
+  re-exported by :mod:`tinytherm.model`.
 
 Runs unchanged on CPython and MicroPython.
 """
@@ -90,3 +94,71 @@ def normal_quantile(p):
 def spread(z_sd):
     """exp(z_sd), inf beyond exp(50) (dimensionless)."""
     return math.exp(z_sd) if z_sd < 50.0 else INF
+
+
+def time_to_target_from_slope_s(gap_c, slope_c_per_s, rate_per_s):
+    """Seconds until the liquid has moved ``gap_c`` deg C (target minus now).
+
+    The liquid starts with slope ``slope_c_per_s`` (deg C/s) and follows
+    ``dT/dt = slope - k (T - T_now)`` with ``k = rate_per_s`` (1/s), so that
+    its equilibrium is ``T_now + slope / k``. One closed form serves every
+    regime::
+
+        eta = -log1p(-k D / s) / k      (D = gap_c, s = slope)
+
+    which is ``D / s`` for ``k = 0`` (a straight line), the familiar
+    exponential approach for ``k > 0`` and an accelerating curve for
+    ``k < 0``. Returns ``0.0`` for a zero gap and ``None`` when the target is
+    never reached: behind the direction of travel, no movement, or at or past
+    the equilibrium (``k D / s >= 1``), or for non-finite input.
+    """
+    if gap_c == 0.0:
+        return 0.0
+    if not (slope_c_per_s == slope_c_per_s and gap_c == gap_c and rate_per_s == rate_per_s):
+        return None
+    if slope_c_per_s == 0.0 or (gap_c > 0.0) != (slope_c_per_s > 0.0):
+        return None
+    ratio = gap_c / slope_c_per_s          # seconds at the starting slope, > 0
+    if ratio == math.inf:
+        return None
+    q = rate_per_s * ratio
+    if not q < 1.0:
+        return None  # (also NaN and inf)
+    if -1e-4 < q < 1e-4:
+        # series of -log(1 - q) / q: exact to ~1e-16 here, no cancellation
+        return ratio * (1.0 + q * (0.5 + q / 3.0))
+    try:
+        return -math.log(1.0 - q) / rate_per_s
+    except (ValueError, OverflowError, ZeroDivisionError):
+        return None
+
+
+def time_to_target_drift_s(gap_c, slope_c_per_s, rate_per_s, drift_c_per_s):
+    """Seconds until the liquid has moved ``gap_c`` deg C, its equilibrium drifting.
+
+    As :func:`time_to_target_from_slope_s` (the answer's law) with ``E(t) = E0 + b t``,
+    ``b = drift_c_per_s`` (deg C/s), ``k = rate_per_s`` > 0 (1/s). With ``d = sign(gap)``,
+    ``g(t) = d (b t - A (1 - exp(-k t))) - |gap|``, ``A = (b - slope) / k``, rises from
+    ``-|gap|`` at ``|slope|``; ``g'`` moves monotonically to ``d b``, so ``g`` is convex
+    or concave and Newton's method from 0 converges. None when never reached (``g``
+    peaks below 0, or the slope is away from the target) or for bad input.
+    """
+    k = rate_per_s
+    d = 1.0 if gap_c > 0.0 else -1.0
+    s = slope_c_per_s * d   # towards the target when > 0
+    bd = drift_c_per_s * d
+    if not (k > 0.0 and s > 0.0 and -1e300 < bd < 1e300):
+        return None
+    t = 0.0
+    for _ in range(40):
+        e = math.exp(-k * t)  # (t >= 0: no overflow)
+        dg = bd - (bd - s) * e
+        if not dg > 0.0:
+            return None     # past the peak short of the target: never reached
+        step = (bd * t - (bd - s) * (1.0 - e) / k - gap_c * d) / dg
+        t -= step
+        if t < 0.0 or t > 1e12:
+            return None
+        if -1e-9 * (t + 1.0) < step < 1e-9 * (t + 1.0):
+            return t
+    return None
