@@ -8,6 +8,12 @@ heating to 84 C was shown as arrived (found on the families benchmark's tune
 seeds, pot seed 1014). With a heater the direction turns only when the
 reading before the latest retreated too.
 
+Read minutes apart by a device with no duty column, a fit that began again
+turned at its third reading, from the reading before it (the peak, 81 C),
+and arrived "cooling" at a 93 C target the liquid never reached (holdout pot
+seed 5056, sparse). A fit begun at a turn short of the target arrives only
+past it (``tinytherm.settle.Settle.allows``).
+
 Reference physics: scipy ``solve_ivp`` (RK45, tight tolerances) of the
 first-order law with a heater term, dT/dt = -k (T - T_air) + g u; the
 crossing by scipy ``brentq``. The scenario (a 3 kg pot on a 0.8-duty element)
@@ -65,4 +71,38 @@ def test_one_low_reading_on_a_heat_up_is_no_arrival(families_bench, spike_at):
 def test_the_pot_trace_it_was_found_on(family_replay):
     """The tune trace itself (the pot family's physics: host_sim.sim, solve_ivp)."""
     status, early, time_s = family_replay("pot", 1014)
+    assert not early.any(), time_s[early]
+
+
+def _heat_up_read_minutes_apart(spike_at, every_s):
+    """The same heat-up read every ``every_s`` s by a device with no duty column."""
+    t = np.arange(0.0, 4200.0, every_s)
+    sol = solve_ivp(_rhs, (0.0, t[-1]), [START_C], t_eval=t, rtol=1e-10, atol=1e-10)
+    clean = sol.y[0]
+    rng = np.random.default_rng(11)
+    temp = np.round((clean + rng.normal(0.0, NOISE_SD_C, len(t))) / QUANTUM_C) * QUANTUM_C
+    temp[spike_at - 3] += 7.0   # one reading far high: the fit turns and begins again
+    temp[spike_at] = temp[spike_at - 1] - 5.5   # the new fit's third reading far low
+    return t, temp, clean
+
+
+@pytest.mark.parametrize("every_s", [150.0, 180.0])
+@pytest.mark.parametrize("spike_at", [8, 10, 12, 14])
+def test_a_turn_short_of_the_target_is_no_arrival(families_bench, every_s, spike_at):
+    # No heater column (the device does not know it heats): a high reading turns the fit,
+    # which begins again; a low one as its third reading turns it back at the reading
+    # before it (the peak), short of the target. A liquid that turned short of its
+    # target never reached it: no arrival in the new direction (as holdout pot 5056).
+    t, temp, clean = _heat_up_read_minutes_apart(spike_at, every_s)
+    kw = families_bench.device_kwargs(ThermalEstimator, False, QUANTUM_C)
+    _eta, _low, _high, status = families_bench.replay_estimator(
+        ThermalEstimator, kw, t, temp, TARGET_C)
+    early = early_rows(status, clean, TARGET_C, NOISE_SD_C, "heating")
+    assert not early.any(), (t[early], temp[spike_at - 1:spike_at + 1])
+
+
+def test_the_sparse_pot_trace_it_was_found_on(family_replay):
+    """Holdout pot seed 5056 read minutes apart (found there; nothing chosen on it): a
+    reading 9.5 C low at 1,975 s turned the fit at 81 C, short of the 93 C target."""
+    status, early, time_s = family_replay("pot", 5056, "sparse")
     assert not early.any(), time_s[early]

@@ -99,8 +99,10 @@ class Settle:
             if ref == _NO_REF or (ref - target) * m < 0:
                 return False
         elif (target - ref) * m <= 0:
-            if m > 0:
-                return False  # (a rise past the target before the probe settled: a pour's)
+            if m > 0 or self.turn:
+                # (a rise past the target before the probe settled: a pour's; or a fit
+                # begun at a turn short of the target: the liquid never reached it)
+                return False
             if (b.c - ref) * m < to_counts(answer.move_c(est.noise.sd)):
                 return False
         return m < 0 or not (
