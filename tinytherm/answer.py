@@ -210,6 +210,8 @@ def _work_out(est, target, approach):
         gap = target - y  # the level crossed, the readings not yet
         c.gen = -2  # (an answer from the latest reading: not counted down)
     if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
+        if approach == 0 and slope * d > 0.0 and k > 0.0:
+            est.settle.carried(est, target, level, slope, k)  # (the probe rising after a pour)
         return  # not moving, or turning: no honest time
     if est._profile_on and est.heater and age_s < PROFILE_LAG_TIMES * est._profile.probe_lag_s:
         return  # the element's and the probe's lag still hide the heat-up's slope

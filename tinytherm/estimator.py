@@ -392,9 +392,13 @@ class ThermalEstimator(Answer):
         c, rc, uc = b.c, b.rc, b.uc
         cp, ip = b.cp, b.ip
         turned_to = -self.blocks.dir
+        a = self.audits.a[2]
+        law = a.level, a.slope, a.rate
         self._restart_fit()
         if disturbed:
             self.detector.disturbed = True
+            if not (self.heater or self._profile_on):
+                a.level, a.slope, a.rate = law  # (the liquid's law before it: Settle.carried)
         if from_previous and ip > 0:
             # (no heater: a turn with one restarts nothing; the reference over ip taken as now)
             self._first(cp, rc, uc)

@@ -25,6 +25,9 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   reading (at most :data:`RISE_DROP_SD` noise sd below the extreme), and bent
   through at most :data:`RISE_BEND` of its time constants (``k x age``: a probe
   warmed to the drink levels off).
+- **a time while the probe still travels** away from the target after a jump
+  (:meth:`Settle.carried`): the liquid's law from before it, carried on from
+  where the probe's fit levels off, plus the probe's lag (no number chosen).
 
 The constants are leave-one-family-out choices on the tune seeds of
 ``benchmarks/families.py`` (docs/benchmarks.md). A clip-on probe reading partly
@@ -70,6 +73,39 @@ class Settle:
         """The fit restarted at a jump (a pour, a top-up): its first reading may be the
         probe on its way to the new liquid, no reference until it settles."""
         self.ref = _NO_REF
+
+    def carried(self, est, target_c, level_c, slope, k):
+        """The answer while the probe still travels to the liquid after a jump, away from
+        ``target_c`` (deg C), its fit's ``level_c`` (deg C), ``slope`` (deg C/s) and ``k``
+        (1/s, the probe's rate: its travel dominates the fit). The probe levels off at the
+        liquid, ``L = level + slope / k``; the liquid follows the law fitted before the jump
+        (kept by the longest audit: level ``T0``, slope ``s0``, rate ``r``) and the probe
+        crosses the target its lag ``1 / k`` after it (a first-order probe on a slow ramp)::
+
+            eta = -ln(1 - r (target - L) / s_L) / r + 1 / k,   s_L = s0 - r (L - T0)
+
+        Answered once ``L`` is known within a move beyond the noise (``answer.move_c``,
+        as the turn): its sd from the fit's k, ``|slope| / k^2 sd(k)`` (the slope and the
+        level are measured far better than k while the probe bends). ``r`` off by
+        ``answer.RATE_MODEL_SD`` of itself (a fitted rate's model error) gives the interval.
+        Sets ``TRACKING`` with the time and its bounds (s), or leaves the answer."""
+        a = est.audits.a[2]
+        r = a.rate
+        m = answer.move_c(est.noise.sd) * k * k
+        if self.ref != _NO_REF or not r > 0.0 or slope * slope * est.reg.pkk > m * m:
+            return
+        top = level_c + slope / k
+        # (None when the target is not between L and where the law levels off)
+        eta = answer.time_to_target_from_slope_s(target_c - top, a.slope + r * (a.level - top), r)
+        if eta is None:
+            return
+        eta += 1.0 / k
+        f = answer.spread(est.audits.z * answer.RATE_MODEL_SD)
+        est.status = answer.st.TRACKING
+        est.eta_s = eta
+        est.eta_low_s = eta / f
+        est.eta_high_s = eta * f
+        est.eta_rel_sd = answer.RATE_MODEL_SD
 
     def seeded(self, turn):
         """The fit starts where the probe has met the liquid (its reference): at a turn,
