@@ -177,13 +177,13 @@ def _work_out(est, target, approach):
     m = est.blocks.dir
     gap = target - level
     age_s = c.age_ms * 0.001  # (the fit's age at the block close, as the answer)
+    # the arrival line: at most min(0.3 C, 3 noise sd) short of the target
+    tol = 3.0 * est.noise.sd
+    if tol > ARRIVE_TOL_C:
+        tol = ARRIVE_TOL_C
     if m != 0 and d == m and (approach == 0 or m == approach):
         # (an arrival needs the fitted slope to agree with the block means: a spike or
         # a wrong turn of the means is no arrival while the fit says the other way)
-        # the arrival line: at most min(0.3 C, 3 noise sd) short of the target
-        tol = 3.0 * est.noise.sd
-        if tol > ARRIVE_TOL_C:
-            tol = ARRIVE_TOL_C
         c.arrive_dir = m
         c.arrive_c = to_counts(target - m * tol)
         # a reading back beyond the extreme by move_c ends an arrival before the fit
@@ -209,6 +209,24 @@ def _work_out(est, target, approach):
     if gap * d <= 0.0:
         gap = target - y  # the level crossed, the readings not yet
         c.gen = -2  # (an answer from the latest reading: not counted down)
+        r = est.settle.ref * _INV  # (beyond 1e4 C: none, a fit restarted at a jump)
+        if (gap * d <= 0.0 and d == m and slope * d > 0.0 and r < 1e4 and (target - r) * m > 0.0
+                and (b.cq * _INV - target) * m >= 0.0
+                and (approach or est.settle.allows(est, target, m, b.age_ms))):
+            # the level and the latest two readings past the target, still going, the fit's
+            # reference reading short of it (the crossing seen, not a probe that began past
+            # it; no direction given: nor a probe still meeting the liquid), the arrival's
+            # tests not passed yet (readings minutes apart: many rows): arriving now, never
+            # ARRIVED. At most the line's tolerance to go at the fitted slope ARRIVE_Z sd
+            # slower (none: no upper bound), widened by what the audits measured
+            est.status = st.TRACKING
+            est.eta_s = est.eta_low_s = 0.0
+            est.eta_high_s = INF
+            r = slope * d - ARRIVE_Z * math.sqrt(var_slope)
+            if r > 0.0:
+                r = tol / r
+                est.eta_high_s = r * spread(c.z * math.sqrt(c.var_at(r, age_s, AUDIT_PRIOR_VAR)))
+            return
     if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
         if approach == 0 and slope * d > 0.0 and k > 0.0:
             est.settle.carried(est, target, level, slope, k)  # (the probe rising after a pour)
