@@ -222,10 +222,10 @@ def _work_out(est, target, approach):
             est.status = st.TRACKING
             est.eta_s = est.eta_low_s = 0.0
             est.eta_high_s = INF
-            r = slope * d - ARRIVE_Z * math.sqrt(var_slope)
-            if r > 0.0:
-                r = tol / r
-                est.eta_high_s = r * spread(c.z * math.sqrt(c.var_at(r, age_s, AUDIT_PRIOR_VAR)))
+            slower = slope * d - ARRIVE_Z * math.sqrt(var_slope)  # deg C/s
+            if slower > 0.0:
+                go = tol / slower  # s: the line's tolerance to go at it
+                est.eta_high_s = go * spread(c.z * math.sqrt(c.var_at(go, age_s, AUDIT_PRIOR_VAR)))
             return
     if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
         if approach == 0 and slope * d > 0.0 and k > 0.0:

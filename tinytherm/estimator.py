@@ -393,12 +393,13 @@ class ThermalEstimator(Answer):
         cp, ip = b.cp, b.ip
         turned_to = -self.blocks.dir
         a = self.audits.a[2]
-        law = a.level, a.slope, a.rate
+        level, slope, rate = a.level, a.slope, a.rate  # (locals, not a tuple: 32 B less)
         self._restart_fit()
         if disturbed:
             self.detector.disturbed = True
             if not (self.heater or self._profile_on):
-                a.level, a.slope, a.rate = law  # (the liquid's law before it: Settle.carried)
+                # (the liquid's law before it: Settle.carried)
+                a.level, a.slope, a.rate = level, slope, rate
         if from_previous and ip > 0:
             # (no heater: a turn with one restarts nothing; the reference over ip taken as now)
             self._first(cp, rc, uc)
