@@ -40,7 +40,7 @@ from tinytherm.change import ChangeDetector
 from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.num import as_float, normal_quantile, number, time_to_target_from_slope_s
-from tinytherm.settle import _NO_REF, Settle
+from tinytherm.settle import NO_REF, Settle
 
 # Fixed choices (module constants, not arguments: no product needs another value).
 BLOCK_S = 40.0            # s: longest block averaged into one observation (the device budget: 20 s
@@ -361,7 +361,7 @@ class ThermalEstimator(Answer):
             if b.readings >= DETECT_MIN_BLOCKS:
                 self.detector.disturbed = False  # established again after a jump
                 if self.audits.any_due((b.age_ms - b.it) * 0.001) and (
-                        self.heater or self.settle.ref != _NO_REF):
+                        self.heater or self.settle.ref != NO_REF):
                     # (none while the probe travels to the liquid after a jump: those
                     # forecasts are the probe's, their errors not the liquid's)
                     self.blocks.pending = 2  # the audits with the next reading
@@ -373,7 +373,7 @@ class ThermalEstimator(Answer):
         if self._turned(yb):
             self.turns += 1
             # (from the reading before it, the peak, also when the probe travelled after a jump)
-            self._begin_again(False, b.readings == 3 or self.settle.ref == _NO_REF)
+            self._begin_again(False, b.readings == 3 or self.settle.ref == NO_REF)
 
     def _level_and_slope(self):
         """The anchored level and the slope at it from the solution (at the latest block
@@ -421,7 +421,7 @@ class ThermalEstimator(Answer):
         explains it), never a restart.
         """
         cut = 4.0 * self.noise.sd
-        if self.settle.ref == _NO_REF and not self.heater:
+        if self.settle.ref == NO_REF and not self.heater:
             # a probe travelling to the liquid after a jump moves one way until it meets
             # it: back from its extreme by a move beyond the noise is the liquid's turn
             cut = answer.move_c(self.noise.sd)

@@ -50,7 +50,8 @@ SETTLE_MS = int(SETTLE_S * 1000)
 RISE_ARRIVE_MIN_MS = int(RISE_ARRIVE_MIN_S * 1000)
 _INV = 1.0 / SCALE
 LIMIT_COUNTS = 10001 * SCALE  # beyond any reading (the guard's limits are within 1e4 C)
-_NO_REF = LIMIT_COUNTS - 1  # settling after a jump: no reading shows the liquid yet
+NO_REF = LIMIT_COUNTS - 1  # the reference after a jump: no reading shows the liquid yet
+#   (the probe still travels to it; the estimator asks for it too)
 
 
 class Settle:
@@ -72,7 +73,7 @@ class Settle:
     def jumped(self):
         """The fit restarted at a jump (a pour, a top-up): its first reading may be the
         probe on its way to the new liquid, no reference until it settles."""
-        self.ref = _NO_REF
+        self.ref = NO_REF
 
     def carried(self, est, target_c, level_c, slope, k):
         """The answer while the probe still travels to the liquid after a jump, away from
@@ -92,7 +93,7 @@ class Settle:
         a = est.audits.a[2]
         r = a.rate
         m = answer.move_c(est.noise.sd) * k * k
-        if self.ref != _NO_REF or not r > 0.0 or slope * slope * est.reg.pkk > m * m:
+        if self.ref != NO_REF or not r > 0.0 or slope * slope * est.reg.pkk > m * m:
             return
         top = level_c + slope / k
         # (None when the target is not between L and where the law levels off)
@@ -132,7 +133,7 @@ class Settle:
         ref = self.ref
         target = to_counts(target_c)
         if not self.settled:
-            if ref == _NO_REF or (ref - target) * m < 0:
+            if ref == NO_REF or (ref - target) * m < 0:
                 return False
         elif (target - ref) * m <= 0:
             if m > 0 or self.turn:

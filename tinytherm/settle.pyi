@@ -9,6 +9,7 @@ SETTLE_MS: int
 RISE_ARRIVE_MIN_MS: int
 SCALE: int
 LIMIT_COUNTS: int
+NO_REF: int
 
 class Settle:
     STATE_SIZE: int
