@@ -27,7 +27,9 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   warmed to the drink levels off).
 - **a time while the probe still travels** away from the target after a jump
   (:meth:`Settle.carried`): the liquid's law from before it, carried on from
-  where the probe's fit levels off, plus the probe's lag (no number chosen).
+  where the probe's fit levels off, plus the probe's lag; before that level is
+  known, an interval from where the probe is now to beyond that level (no
+  number chosen).
 
 The constants are leave-one-family-out choices on the tune seeds of
 ``benchmarks/families.py`` (docs/benchmarks.md). A clip-on probe reading partly
@@ -85,27 +87,47 @@ class Settle:
 
             eta = -ln(1 - r (target - L) / s_L) / r + 1 / k,   s_L = s0 - r (L - T0)
 
-        Answered once ``L`` is known within a move beyond the noise (``answer.move_c``,
-        as the turn): its sd from the fit's k, ``|slope| / k^2 sd(k)`` (the slope and the
-        level are measured far better than k while the probe bends). ``r`` off by
-        ``answer.RATE_MODEL_SD`` of itself (a fitted rate's model error) gives the interval.
+        With ``L`` known within a move beyond the noise (``answer.move_c``, as the turn; its
+        sd from the fit's k, ``|slope| / k^2 sd(k)``: the slope and the level are measured
+        far better than k while the probe bends), ``r`` off by ``answer.RATE_MODEL_SD`` of
+        itself (a fitted rate's model error) gives the interval. Before, the liquid is at
+        least as far from the target as the probe now (it still travels to it): the time
+        from ``level_c`` is the lower end, the time from ``L`` its z sd further on the upper
+        end (none when that never arrives), the time from ``L`` the point within them.
         Sets ``TRACKING`` with the time and its bounds (s), or leaves the answer."""
         a = est.audits.a[2]
         r = a.rate
-        m = answer.move_c(est.noise.sd) * k * k
-        if self.ref != NO_REF or not r > 0.0 or slope * slope * est.reg.pkk > m * m:
+        if self.ref != NO_REF or not r > 0.0:
             return
+        m = answer.move_c(est.noise.sd) * k * k
+        v = slope * slope * est.reg.pkk  # (L's variance times k^4)
         top = level_c + slope / k
+        f = answer.spread(est.audits.z * answer.RATE_MODEL_SD)
         # (None when the target is not between L and where the law levels off)
         eta = answer.time_to_target_from_slope_s(target_c - top, a.slope + r * (a.level - top), r)
-        if eta is None:
-            return
-        eta += 1.0 / k
-        f = answer.spread(est.audits.z * answer.RATE_MODEL_SD)
+        if v <= m * m:
+            if eta is None:
+                return
+            eta += 1.0 / k
+            lo = eta / f
+            hi = eta * f
+        else:
+            lo = answer.time_to_target_from_slope_s(
+                target_c - level_c, a.slope + r * (a.level - level_c), r)
+            if lo is None:
+                return
+            lo /= f
+            top += est.audits.z * v ** 0.5 / (k * k) * (1.0 if slope > 0.0 else -1.0)
+            hi = answer.time_to_target_from_slope_s(target_c - top, a.slope + r * (a.level - top), r)
+            hi = answer.INF if hi is None else hi * f
+            if eta is None or eta < lo:
+                eta = lo
+            elif eta > hi:
+                eta = hi
         est.status = answer.st.TRACKING
         est.eta_s = eta
-        est.eta_low_s = eta / f
-        est.eta_high_s = eta * f
+        est.eta_low_s = lo
+        est.eta_high_s = hi
         est.eta_rel_sd = answer.RATE_MODEL_SD
 
     def seeded(self, turn):
