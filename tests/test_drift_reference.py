@@ -194,3 +194,67 @@ def test_young_fit_without_the_unseen_bend_misses():
         answer.UNSEEN_BEND = saved
     for t, code, low, high in answers:
         assert code == st.TRACKING and high < crossing - t, (t, code, high, crossing - t)
+
+
+# A fit not bent yet (k x age under UNSEEN_FROM), the ambient hint in it (the liquid over
+# 2 of its sd from it) and its equilibrium beyond the hint all the same: the upper end is
+# the time under the law levelling off at the hint (answer._work_out). The readings' first
+# minutes are the lagging probe's start (its slope still building), so the fit runs as a
+# straight line. References: scipy.integrate.solve_ivp (DOP853, rtol = atol = 1e-10) and
+# scipy.optimize.brentq, as above; the liquids and their numbers are invented.
+HINT_ASKS = tuple(float(t) for t in range(80, 241, 20))  # fits bent through under 0.3
+
+
+def hint_answers(rhs, y0, target_c, asks, ambient_prior_c=21.0):
+    """(time s, status, eta_low_s, eta_high_s, k x age) at ``asks`` and the true crossing:
+    the probe (the last state) read every 2 s in 1/16 C steps."""
+    sol = solve_ivp(rhs, (0.0, 20000.0), y0, method="DOP853", rtol=1e-10, atol=1e-10,
+                    dense_output=True)
+    crossing = first_crossing(lambda t: sol.sol(t)[0], target_c, 20000.0)
+    readings = np.round(sol.sol(np.arange(0.0, asks[-1] + DT, DT))[-1] * 16.0) / 16.0
+    est = ThermalEstimator(ambient_prior_c=ambient_prior_c)
+    out = []
+    i = 0
+    for ask in asks:
+        while i * DT <= ask:
+            est.update(float(readings[i]), 0.0 if i == 0 else DT)
+            i += 1
+        code = est.predict(target_c)
+        out.append(((i - 1) * DT, code, est.eta_low_s, est.eta_high_s,
+                    est.reg.k * est.audits.age_ms * 0.001))
+    return out, crossing
+
+
+def test_unbent_fit_past_the_hint_covers_a_warming_coolant():
+    # the coil above (inlet warming 12 -> 17 C, free convection on the coil, probe lag
+    # 40 s), its 19 C target beyond the hint's 21 C equilibrium: open-ended. Before, every
+    # interval here ended at 770-1560 s with the crossing 2110-2270 s away
+    answers, crossing = chiller_answers(HINT_ASKS)
+    for t, code, low, high in answers:
+        assert code == st.TRACKING, (t, code)
+        assert low <= crossing - t <= high == math.inf, (t, low, high, crossing - t)
+
+
+def test_unbent_fit_past_the_hint_bounds_a_fixed_coolant():
+    # a coil in a 5 C coolant, dT/dt = -c (T - 5)^(5/4) (free convection on the coil, as
+    # above), read by a probe lagging 40 s; target 30 C, crossing at 748 s. The upper end
+    # is the time under the law levelling off at 21 C: finite, and it covers. Before, the
+    # intervals at 220 and 240 s ended at 475 and 490 s, 528 and 508 s before the crossing
+    def rhs(t, y):
+        d = y[0] - 5.0
+        return [-6.3e-4 * math.copysign(abs(d) ** 1.25, d), (y[0] - y[1]) / 40.0]
+    answers, crossing = hint_answers(rhs, [90.0, 90.0], 30.0, (200.0, 220.0, 240.0, 260.0))
+    for t, code, low, high, bent in answers:
+        assert code == st.TRACKING and bent < answer.UNSEEN_FROM, (t, code, bent)
+        assert low <= crossing - t <= high < math.inf, (t, low, high, crossing - t)
+
+
+def test_fit_short_of_the_hint_keeps_its_interval():
+    # Newton cooling towards 20 C (between the liquid and the hint: the rule does not
+    # apply), time constant 900 s, probe lag 10 s, target 45 C: finite intervals that cover
+    def rhs(t, y):
+        return [-(y[0] - 20.0) / 900.0, (y[0] - y[1]) / 10.0]
+    answers, crossing = hint_answers(rhs, [85.0, 85.0], 45.0, HINT_ASKS)
+    for t, code, low, high, bent in answers:
+        assert code == st.TRACKING and bent < answer.UNSEEN_FROM, (t, code, bent)
+        assert low <= crossing - t <= high < math.inf, (t, low, high, crossing - t)

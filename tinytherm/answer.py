@@ -41,7 +41,9 @@ E(t))``, ``E(t) = E + b t`` (:func:`tinytherm.num.time_to_target_drift_s`), and 
 :data:`DRIFT_SD` of itself smaller gives one more sd of ln(eta) (never arriving
 so: no upper bound). Before the drift is measured, a passive answer beyond the fit's age
 (bent through :data:`UNSEEN_FROM` time constants) has as upper end the time at k
-:data:`UNSEEN_BEND` / age larger: a bend slower than the fit's age is unseen.
+:data:`UNSEEN_BEND` / age larger: a bend slower than the fit's age is unseen. A fit bent through
+less, its equilibrium beyond the ambient hint it was given, ends at the time under the law
+levelling off at the hint (its readings' bend is not the liquid's law yet).
 
 A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`, or one k
 :data:`REACH_SD` sd lower reaches) gets an open-ended time (why: at its code). Runs on
@@ -307,6 +309,17 @@ def _work_out(est, target, approach):
         # beyond the fit's age, no drift measured: a bend slower than that age is unseen
         up = time_to_target_from_slope_s(gap, slope, k + UNSEEN_BEND / age_s)
         open_end = open_end or up is None
+    elif passive and bd == 0.0 and k * age_s < UNSEEN_FROM:
+        # not bent yet, the ambient hint in the fit (over 2 of its sd away, moving towards
+        # it) and the equilibrium beyond it all the same: the readings' bend is not the
+        # liquid's law yet (a lagging probe's start, a stir), the law levelling off at the
+        # hint is as likely: its time is the upper end (open-ended past it)
+        r, sd = est.inputs.prior
+        r -= level  # the hint's E - level (R = 0: nothing known)
+        if (r * slope > 0.0 and (r > 2.0 * sd or r < -2.0 * sd)
+                and (k <= 0.0 or (slope / k - r) * slope > 0.0)):
+            up = time_to_target_from_slope_s(gap, slope, slope / r)
+            open_end = open_end or up is None
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
     est.eta_s = eta
