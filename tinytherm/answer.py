@@ -13,6 +13,7 @@ off by :data:`RATE_MODEL_SD` of itself (most near the equilibrium, q near 1)::
 
     prior = max(F var_delta(ln eta), AUDIT_PRIOR_VAR)
     var = (prior + n var_audits) / (1 + n) + (RATE_MODEL_SD d ln eta / d ln k)^2
+          [+ (sw / (s_T eta))^2 for eta beyond WIGGLE_AGE x the fit's age: its misfit]
 
 The interval's evidence (:class:`Audits`): the fit checks its forecasts
 against what happened. Three audits watch horizons of 1/8, 1/4 and 1/2 of the
@@ -64,6 +65,8 @@ HOLD_OPEN_N = 4           # readings in the open block before its mean moves the
 #   (a noise guard, not chosen: four readings average to half a reading's sd)
 EQUILIBRIUM_SLACK = 0.1  # share of the distance to the fitted equilibrium it may be off
 #   (the families, all reachable, chose 0.4; 0.2 already answers a mug below a warm room)
+WIGGLE_AGE = 0.2   # fit ages beyond which an answer meets another misfit (its memory: 0.35)
+#   (leave-one-family-out, 32 tune per family dense and sparse: 0.2, 0.35, 0.5, off)
 MAX_REL_SD = 5.0          # an answer whose ln-time forecast sd (var_at) over this stays SETTLING
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
 PROFILE_LAG_TIMES = 1.5   # a heated fit younger than this many profile lags shows no time
@@ -327,6 +330,14 @@ def _work_out(est, target, approach):
     if est._profile_on:
         est._profile.interval_into(est, eta)  # the profile's calibrated interval
     else:
+        if eta > WIGGLE_AGE * age_s and not est.heater:
+            # the fit's misfit beyond the noise, per block mean (a probe swinging with the
+            # air that drives a passive liquid: the law has no such term). The anchor carries
+            # today's; further ahead the crossing meets another, off by its sd
+            w2 = (reg.s2r - est.noise.var) * reg.nb / reg.w
+            at = (slope - k * gap) * eta  # (deg C: the law's slope at the target, times eta)
+            if w2 > 0.0 and at * slope > 0.0:
+                b = math.sqrt(b * b + w2 / (at * at))
         rel = math.sqrt(v + b * b)
         f = spread(c.z * rel)
         est.eta_low_s = eta / f

@@ -6,6 +6,7 @@ ARRIVE_MIN_S: float
 ARRIVE_Z: float
 HOLD_OPEN_N: int
 EQUILIBRIUM_SLACK: float
+WIGGLE_AGE: float
 MAX_REL_SD: float
 FAULT_AFTER: int
 PROFILE_LAG_TIMES: float
