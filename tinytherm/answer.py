@@ -48,7 +48,6 @@ A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`, or one k
 CPython and MicroPython.
 """
 import math
-import struct
 
 from tinytherm import status as st
 from tinytherm.fit import DUTY_SCALE, NOISE_PRIOR_N, SCALE, to_counts
@@ -481,7 +480,7 @@ class Audit:
 
 
 class Audits:
-    """The three audits (packs their 15 floats and 3 counts); beside them, never saved, the
+    """The three audits (saved: their 15 floats and 3 counts); beside them, never saved, the
     answer's cache (:meth:`forget`), the interval's half-width ``z`` in sd and ``done``."""
 
     STATE_SIZE = 3 * (5 * 8 + 1)
@@ -547,20 +546,3 @@ class Audits:
                 v = a1.var + (pos - 1.0) * (a2.var - a1.var)
                 n = a1.n + (pos - 1.0) * (a2.n - a1.n)
         return (prior_var + n * v) / (1.0 + n)
-
-    def pack_into(self, buf, offset):
-        for a in self.a:
-            struct.pack_into("<5dB", buf, offset, a.age, a.level, a.slope, a.rate, a.var, a.n)
-            offset += 41
-
-    def unpack_from(self, buf, offset, age_s):
-        """Load; False when a value is impossible (the caller resets)."""
-        for a in self.a:
-            age, level, slope, rate, var, n = struct.unpack_from("<5dB", buf, offset)
-            offset += 41
-            # (a float32 device rounds the age: allow a few ulps beyond the fit's)
-            if not (-1.0 <= age <= age_s * 1.000001 + 0.001 and 0.0 <= var <= 100.0 and n <= AUDIT_MEMORY
-                    and -1e6 < level < 1e6 and -1e6 < slope < 1e6 and -1e6 < rate < 1e6):
-                return False
-            a.age, a.level, a.slope, a.rate, a.var, a.n = age, level, slope, rate, var, n
-        return True

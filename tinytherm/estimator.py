@@ -8,8 +8,8 @@ the heater duty::
 
     dT/dt = s - k (G - G0) + g (u - u0)        (equilibrium E = T + s / k)
 
-A reading flows through small parts, each owning its state and its bytes of
-the saved state:
+A reading flows through small parts, each owning its state (its bytes of the
+saved state: :mod:`tinytherm.state`):
 
 1. :class:`~tinytherm.guard.ReadingGuard` judges it (spikes, error codes,
    time going backwards...).
