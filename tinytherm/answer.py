@@ -53,7 +53,6 @@ from tinytherm import status as st
 from tinytherm.fit import DUTY_SCALE, NOISE_PRIOR_N, SCALE, to_counts
 from tinytherm.num import as_float, spread, time_to_target_drift_s, time_to_target_from_slope_s
 
-INF = math.inf
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
 ARRIVE_MIN_S = 30.0       # s: no arrival in a fit younger than this
 ARRIVE_Z = 2.0            # sd by which a block mean or the level must pass the target
@@ -195,7 +194,7 @@ def _work_out(est, target, approach):
             # one reading on the line may be a spike: arriving now, confirmed by the next
             est.status = st.TRACKING
             est.eta_s = est.eta_low_s = 0.0
-            est.eta_high_s = tol / (slope if slope > 0.0 else -slope) if slope != 0.0 else INF
+            est.eta_high_s = tol / (slope if slope > 0.0 else -slope) if slope != 0.0 else math.inf
             c.gen = -2  # (from the latest reading: not counted down)
             return
     slow = d == 0 and slope * gap > 0.0
@@ -220,7 +219,7 @@ def _work_out(est, target, approach):
             # slower (none: no upper bound), widened by what the audits measured
             est.status = st.TRACKING
             est.eta_s = est.eta_low_s = 0.0
-            est.eta_high_s = INF
+            est.eta_high_s = math.inf
             slower = slope * d - ARRIVE_Z * math.sqrt(var_slope)  # deg C/s
             if slower > 0.0:
                 go = tol / slower  # s: the line's tolerance to go at it
@@ -263,7 +262,7 @@ def _work_out(est, target, approach):
         to_e = slope / k if k > 0.0 else 0.0  # E - level, the sign of gap
         slack = EQUILIBRIUM_SLACK * (to_e if to_e > 0.0 else -to_e)
         k2 = k - REACH_SD * math.sqrt(reg.pkk)
-        reach = INF if k2 <= 0.0 else (slope / k2 - to_e) * (1.0 if gap > 0.0 else -1.0)
+        reach = math.inf if k2 <= 0.0 else (slope / k2 - to_e) * (1.0 if gap > 0.0 else -1.0)
         if reach > slack:
             slack = reach
         if ahead is not None and not est.heater:
@@ -316,7 +315,7 @@ def _work_out(est, target, approach):
         rel = math.sqrt(v + b * b)
         f = spread(c.z * rel)
         est.eta_low_s = eta / f
-        est.eta_high_s = INF if open_end else (eta * f if eta * f > up else up)
+        est.eta_high_s = math.inf if open_end else (eta * f if eta * f > up else up)
         est.eta_rel_sd = rel
     if v <= MAX_REL_SD * MAX_REL_SD:
         # (the fit's forecast-error variance at this horizon decides whether to show it: its
@@ -415,7 +414,6 @@ AUDIT_FORGET = 2.0      # an older check's weight falls as (its age / the age no
 #   (leave-one-family-out, 16 tune traces per family dense and sparse: 0, 1, 2, 3, 4)
 AUDIT_STRETCH = 4.0     # most the longest audit's variance is stretched beyond it
 AUDIT_LOG_CAP = 2.0794  # ln 8: one audit counts at most a factor 8
-_LN4 = math.log(4.0)
 
 
 class Audit:

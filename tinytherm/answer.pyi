@@ -1,6 +1,5 @@
 from typing import Any, Optional
 
-INF: float
 ARRIVE_TOL_C: float
 ARRIVE_MIN_S: float
 ARRIVE_Z: float
