@@ -284,6 +284,8 @@ class Regression:
     Solved (never saved: :meth:`solve` rebuilds it): slope ``s`` (deg C/s),
     rate ``k`` (1/s), heater gain ``g`` (K/s) and their covariance ``p..``;
     ``var_my``, the fitted mean level's variance; ``s2r``, the residual one per reading (C^2).
+    The duty's co-moments (``ctu, cxu, cuu, cuy``) and ``g``'s covariances (``psg, pkg,
+    pgg``) exist only with a heater.
     """
 
     def __init__(self, heater):
@@ -295,7 +297,10 @@ class Regression:
     def reset(self):
         self.w = self.w2 = self.nb = self.my = 0.0
         self.ctt = self.ctx = self.cty = self.cxx = self.cxy = self.cyy = 0.0
-        self.ctu = self.cxu = self.cuu = self.cuy = 0.0
+        if self.heater:
+            # the heater's co-moments (and covariances, clear()) exist only with a heater:
+            # without, the attribute table is 29 slots, not 37 (made in a heap in use)
+            self.ctu = self.cxu = self.cuu = self.cuy = 0.0
         self.t = self.x = self.v = 0.0
         self.rt = self.rx = self.rv = self.yb = 0.0  # the latest block, for its residual
         self.anchor = 0.0  # the estimator's: smoothed residual of the latest blocks, deg C
@@ -305,7 +310,9 @@ class Regression:
         """Drop the solution."""
         self.ok = False
         self.s = self.k = self.g = 0.0
-        self.pss = self.psk = self.pkk = self.psg = self.pkg = self.pgg = 0.0
+        self.pss = self.psk = self.pkk = 0.0
+        if self.heater:
+            self.psg = self.pkg = self.pgg = 0.0
         self.var_my = self.s2r = 0.0
 
     def add_block(self, n, tb, xb, vb, yb, lam, t_end, x_end, v_end, dg, du):

@@ -89,7 +89,7 @@ class Regression:
     cxx: float
     cxy: float
     cyy: float
-    ctu: float
+    ctu: float  # (ctu, cxu, cuu, cuy, psg, pkg, pgg: with a heater only)
     cxu: float
     cuu: float
     cuy: float

@@ -244,7 +244,7 @@ def _unpack_reg(reg, blob, o):
         setattr(reg, _REG_NAMES[i], struct.unpack_from("<d", blob, o)[0])
         o += 8
     return (reg.w >= 0.0 and reg.w2 >= 0.0 and reg.nb >= 0.0 and reg.ctt >= 0.0
-            and reg.cxx >= 0.0 and reg.cuu >= 0.0 and reg.cyy >= 0.0)
+            and reg.cxx >= 0.0 and reg.cyy >= 0.0 and (not reg.heater or reg.cuu >= 0.0))
 
 def _unpack_audits(audits, blob, o, age_s):
     for a in audits.a:
