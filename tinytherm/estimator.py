@@ -8,8 +8,8 @@ the heater duty::
 
     dT/dt = s - k (G - G0) + g (u - u0)        (equilibrium E = T + s / k)
 
-A reading flows through small parts, each owning its state and its bytes of
-the saved state:
+A reading flows through small parts, each owning its state (its bytes of the
+saved state: :mod:`tinytherm.state`):
 
 1. :class:`~tinytherm.guard.ReadingGuard` judges it (spikes, error codes,
    time going backwards...).
@@ -114,10 +114,11 @@ class ThermalEstimator(Answer):
         # save() writes into this one buffer (blob.BLOB_SIZE bytes), made first, while the heap
         # is fresh (the largest piece of the estimator: later, smaller ones fill the gaps)
         buf = bytearray(512)
-        # the answer's fields next (reset() sets them again): this table then grows early,
-        # measured the order a fragmented heap satisfies best (benchmarks/device_budget.py)
+        # the answer's fields and the counts next (reset() sets them again): its table grows early
         self.clear(st.GATHERING)
         self.heater = heater
+        self.readings = self.rejected = self.changes = self.turns = self.last_verdict = 0
+        self._profile_on = False
         self.profile_reason = 0
         self._profile = None
         if profile is not None:

@@ -9,7 +9,8 @@ of derivatives::
 
     y(t) = c + s t - k x(t) + g v(t),   x = int (G - G0) dt,  v = int (u - u0) dt
 
-Two parts, each owning its state and its bytes of the saved state:
+Two parts, each owning its state (:mod:`tinytherm.state` packs their bytes of the
+saved state, loaded only by a product that saves):
 
 - :class:`BlockSums`, per reading and in integers only: readings in counts of
   1/:data:`SCALE` deg C, time in ms, duty in 1/:data:`DUTY_SCALE`. It advances
@@ -25,7 +26,6 @@ Two parts, each owning its state and its bytes of the saved state:
 Runs unchanged on CPython and MicroPython.
 """
 import math
-import struct
 
 SCALE = 256            # counts per deg C in the block sums (1/256 C: far below any probe's noise)
 DUTY_SCALE = 1024      # counts of full heater duty
@@ -39,10 +39,7 @@ _INV_SCALE = 1.0 / SCALE
 class BlockSums:
     """Integer sums of the open block and the latest reading (see the module docstring)."""
 
-    # saved: block and noise counts, the 64-bit sums, the 32-bit ones (the duties,
-    # at most DUTY_SCALE, in 16 bits: with a heater the payload needs the room)
-    _FMT = "<HHB6q5iHiH2i"
-    STATE_SIZE = 89
+    STATE_SIZE = 89   # saved bytes (tinytherm.state packs them)
 
     def __init__(self):
         # the estimator's, kept here so that its attribute table stays small (it sets them;
@@ -158,26 +155,6 @@ class BlockSums:
         self.u0 = self.uc
         self.cb = self.c
 
-    def pack_into(self, buf, offset):
-        struct.pack_into(self._FMT, buf, offset, self.n, self.en, self.readings, self.ix,
-                         self.iv, self.sx, self.sv, self.e2, self.age_ms, self.it, self.st,
-                         self.sy, self.c, self.rc, self.uc, self.g0, self.u0, self.cb, self.cq)
-
-    def unpack_from(self, buf, offset):
-        """Load the state; False when a value is impossible (the caller resets)."""
-        (n, en, readings, ix, iv, sx, sv, e2, age, it, st, sy, c, rc, uc, g0, u0,
-         cb, cq) = struct.unpack_from(self._FMT, buf, offset)
-        if not (0 <= n <= MAX_BLOCK_READINGS and 0 <= it <= age and 0 <= uc <= DUTY_SCALE
-                and 0 <= u0 <= DUTY_SCALE and 0 <= en <= n and e2 >= 0 and st >= 0
-                and n <= readings):
-            return False
-        self.n, self.en, self.readings, self.it, self.ix, self.iv = n, en, readings, it, ix, iv
-        self.st, self.sx, self.sv, self.sy, self.e2, self.age_ms = st, sx, sv, sy, e2, age
-        self.c, self.rc, self.uc, self.g0, self.u0 = c, rc, uc, g0, u0
-        self.cb = cb
-        self.cq = cq
-        return True
-
 
 class Noise:
     """The reading noise: its variance, learnt from the blocks' successive differences.
@@ -230,18 +207,6 @@ class Noise:
         v = self.var + (v - self.var) * m / n
         self.var = v if v > self.floor else self.floor
         self.refresh()
-
-    def pack_into(self, buf, offset):
-        struct.pack_into("<dB", buf, offset, self.var, self.n)
-
-    def unpack_from(self, buf, offset):
-        var, n = struct.unpack_from("<dB", buf, offset)
-        if not (self.floor <= var <= 1e6 and n <= 100):
-            return False
-        self.var = var
-        self.n = n
-        self.refresh()
-        return True
 
 
 class Inputs:
@@ -308,25 +273,6 @@ class Inputs:
             self.duty_c = int(duty * DUTY_SCALE + 0.5)
         return self.duty_c
 
-    def pack_into(self, buf, offset):
-        if self.measured:
-            self.air.pack_into(buf, offset)
-        else:
-            for i in range(self.STATE_SIZE):
-                buf[offset + i] = 0
-
-    def unpack_from(self, buf, offset):
-        """Load the state; False when a value is impossible (the caller resets)."""
-        if not buf[offset + self.STATE_SIZE - 1] & 1:
-            return True   # (no air measured: its bytes are zeros)
-        from tinytherm.air import Air
-        air = Air()
-        if not air.unpack_from(buf, offset):
-            return False
-        self.air = air
-        self.measured = True
-        return True
-
 
 class Regression:
     """Weighted co-moments of the block means and their ridge-regularised solve.
@@ -338,22 +284,23 @@ class Regression:
     Solved (never saved: :meth:`solve` rebuilds it): slope ``s`` (deg C/s),
     rate ``k`` (1/s), heater gain ``g`` (K/s) and their covariance ``p..``;
     ``var_my``, the fitted mean level's variance; ``s2r``, the residual one per reading (C^2).
+    The duty's co-moments (``ctu, cxu, cuu, cuy``) and ``g``'s covariances (``psg, pkg,
+    pgg``) exist only with a heater.
     """
-
-    _NAMES = ("w", "w2", "nb", "my", "ctt", "ctx", "cty", "cxx", "cxy", "cyy", "t", "x",
-              "v", "ctu", "cxu", "cuu", "cuy")
 
     def __init__(self, heater):
         self.heater = heater
-        # the heater's four co-moments are saved only with a heater
-        self._saved = 17 if heater else 13
-        self.STATE_SIZE = 8 * self._saved
+        # saved bytes: the heater's four co-moments are saved only with a heater
+        self.STATE_SIZE = 8 * (17 if heater else 13)
         self.reset()
 
     def reset(self):
         self.w = self.w2 = self.nb = self.my = 0.0
         self.ctt = self.ctx = self.cty = self.cxx = self.cxy = self.cyy = 0.0
-        self.ctu = self.cxu = self.cuu = self.cuy = 0.0
+        if self.heater:
+            # the heater's co-moments (and covariances, clear()) exist only with a heater:
+            # without, the attribute table is 29 slots, not 37 (made in a heap in use)
+            self.ctu = self.cxu = self.cuu = self.cuy = 0.0
         self.t = self.x = self.v = 0.0
         self.rt = self.rx = self.rv = self.yb = 0.0  # the latest block, for its residual
         self.anchor = 0.0  # the estimator's: smoothed residual of the latest blocks, deg C
@@ -363,7 +310,9 @@ class Regression:
         """Drop the solution."""
         self.ok = False
         self.s = self.k = self.g = 0.0
-        self.pss = self.psk = self.pkk = self.psg = self.pkg = self.pgg = 0.0
+        self.pss = self.psk = self.pkk = 0.0
+        if self.heater:
+            self.psg = self.pkg = self.pgg = 0.0
         self.var_my = self.s2r = 0.0
 
     def add_block(self, n, tb, xb, vb, yb, lam, t_end, x_end, v_end, dg, du):
@@ -566,23 +515,6 @@ class Regression:
             return 0.0
         return var / (eta * eta)
 
-    def pack_into(self, buf, offset):
-        for i in range(self._saved):
-            struct.pack_into("<d", buf, offset, getattr(self, self._NAMES[i]))
-            offset += 8
-
-    def unpack_from(self, buf, offset):
-        """Load the state; False when a value is impossible (the caller resets)."""
-        for i in range(self._saved):
-            v = struct.unpack_from("<d", buf, offset + 8 * i)[0]
-            if not -1e15 <= v <= 1e15:  # (NaN fails too)
-                return False
-        for i in range(self._saved):
-            setattr(self, self._NAMES[i], struct.unpack_from("<d", buf, offset)[0])
-            offset += 8
-        return (self.w >= 0.0 and self.w2 >= 0.0 and self.nb >= 0.0 and self.ctt >= 0.0
-                and self.cxx >= 0.0 and self.cuu >= 0.0 and self.cyy >= 0.0)
-
 
 def _ok(x):
     return x == x and -1e300 < x < 1e300
@@ -591,4 +523,3 @@ def _ok(x):
 def to_counts(temp_c):
     """A temperature as counts of 1/SCALE deg C (int), rounded to nearest."""
     return int(math.floor(temp_c * SCALE + 0.5))
-

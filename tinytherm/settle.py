@@ -36,7 +36,6 @@ The constants are leave-one-family-out choices on the tune seeds of
 the air and a probe's lag of tens of seconds are common practice, no source.
 Runs unchanged on CPython and MicroPython.
 """
-import struct
 
 from tinytherm import answer
 from tinytherm.fit import SCALE, to_counts
@@ -168,15 +167,3 @@ class Settle:
             age_ms < RISE_ARRIVE_MIN_MS or not est._slope > 0.0
             or est.reg.k * age_ms > RISE_BEND * 1000.0
             or b.c * _INV < est._extreme_c() - RISE_DROP_SD * est.noise.sd)
-
-    def pack_into(self, buf, offset):
-        struct.pack_into("<i", buf, offset, self.ref * 2 + (0 if self.settled else 1))
-
-    def unpack_from(self, buf, offset):
-        """Load the state; False when the value is impossible (the caller resets)."""
-        v = struct.unpack_from("<i", buf, offset)[0]
-        if not -2 * LIMIT_COUNTS < v < 2 * LIMIT_COUNTS:
-            return False
-        self.ref = v >> 1
-        self.settled = not v & 1
-        return True

@@ -1,4 +1,4 @@
-"""The estimator's saved state: one frame (:mod:`tinytherm.blob`), each part packing its own bytes.
+"""The estimator's saved state: one frame (:mod:`tinytherm.blob`) holding each part's bytes.
 
 Payload (little-endian), after the frame's 8-byte header::
 
@@ -20,19 +20,37 @@ Payload (little-endian), after the frame's 8-byte header::
 
 The fit's solution is derived: ``restore`` solves again as at the last block
 close, so an uninterrupted run and one saved and restored on every reading
-give the same answers to the last bit. Runs unchanged on CPython and MicroPython.
+give the same answers to the last bit. The guard and the change detector,
+usable alone, pack their own bytes; the estimator's inner parts are packed
+here (:func:`_pack_parts`, :func:`_unpack_parts`), so a product that never
+saves does not load that code. Runs unchanged on CPython and MicroPython.
 """
 import struct
 
+try:
+    from micropython import const
+except ImportError:  # CPython
+    def const(x):
+        return x
+
 from tinytherm import blob as bl
+from tinytherm import fit
+from tinytherm.answer import AUDIT_MEMORY
 from tinytherm.crc import crc32
-from tinytherm.fit import SCALE
 from tinytherm.settle import LIMIT_COUNTS
 
+# (few globals, const() where it can: the module is loaded at the first save, into a heap
+# in use, where a globals table of 29 slots did not fit: tests/test_long_run.py at 86K)
 # readings, changes, turns, flags, profile reason, anchor, extreme's sum, its n, air ahead
-_HEAD = "<IHHBBdiBi"
+_HEAD = const("<IHHBBdiBi")
 HEAD_SIZE = 27
-_INV = 1.0 / SCALE
+_INV = 1.0 / fit.SCALE
+# the block sums: block and noise counts, the 64-bit sums, the 32-bit ones (the duties,
+# at most fit.DUTY_SCALE, in 16 bits: with a heater the payload needs the room)
+_BLOCKS = const("<HHB6q5iHiH2i")
+# the regression's sums in turn (the heater's four, the last, only with a heater)
+_REG_NAMES = const(("w", "w2", "nb", "my", "ctt", "ctx", "cty", "cxx", "cxy", "cyy", "t", "x",
+                    "v", "ctu", "cxu", "cuu", "cuy"))
 
 
 def save(est):
@@ -53,10 +71,7 @@ def save(est):
     struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
                      est.turns & 0xFFFF, flags, est.profile_reason, est.reg.anchor,
                      est.blocks.ext_sy, est.blocks.ext_n, est.inputs.ahead or 0)
-    o += HEAD_SIZE
-    for part in parts(est):
-        part.pack_into(buf, o)
-        o += part.STATE_SIZE
+    _pack_parts(est, buf, o + HEAD_SIZE)
     return bl.seal(buf)
 
 def frame(est):
@@ -104,14 +119,8 @@ def _unpack(est, blob):
             or not -LIMIT_COUNTS < ext_sy // ext_n < LIMIT_COUNTS:
         return bl.BLOB_VALUES
     est.reset()
-    for part in parts(est):
-        if part is est.audits:
-            ok = part.unpack_from(blob, o, est.blocks.age_ms * 0.001)
-        else:
-            ok = part.unpack_from(blob, o)
-        if not ok:
-            return bl.BLOB_VALUES
-        o += part.STATE_SIZE
+    if not _unpack_parts(est, blob, o):
+        return bl.BLOB_VALUES
     b = est.blocks
     # (fresh: no reading in the fit yet, the next starts one)
     if not (b.readings <= readings and bool(flags & 1) == (b.readings == 0)
@@ -138,3 +147,113 @@ def _unpack(est, blob):
     elif reg.nb >= 1.5:
         return bl.BLOB_VALUES
     return bl.RESTORED
+
+
+def _pack_parts(est, buf, o):
+    """Each part's ``STATE_SIZE`` bytes in turn, from ``buf[o]`` (the order of :func:`parts`)."""
+    est.guard.pack_into(buf, o)
+    o += est.guard.STATE_SIZE
+    est.detector.pack_into(buf, o)
+    o += est.detector.STATE_SIZE
+    inputs = est.inputs
+    if inputs.measured:
+        inputs.air.pack_into(buf, o)
+    else:
+        for i in range(inputs.STATE_SIZE):  # (no air measured: zeros)
+            buf[o + i] = 0
+    o += inputs.STATE_SIZE
+    struct.pack_into("<dB", buf, o, est.noise.var, est.noise.n)
+    o += est.noise.STATE_SIZE
+    b = est.blocks
+    struct.pack_into(_BLOCKS, buf, o, b.n, b.en, b.readings, b.ix, b.iv, b.sx, b.sv, b.e2,
+                     b.age_ms, b.it, b.st, b.sy, b.c, b.rc, b.uc, b.g0, b.u0, b.cb, b.cq)
+    o += b.STATE_SIZE
+    reg = est.reg
+    for i in range(reg.STATE_SIZE // 8):
+        struct.pack_into("<d", buf, o, getattr(reg, _REG_NAMES[i]))
+        o += 8
+    for a in est.audits.a:
+        struct.pack_into("<5dB", buf, o, a.age, a.level, a.slope, a.rate, a.var, a.n)
+        o += 41
+    settle = est.settle
+    struct.pack_into("<i", buf, o, settle.ref * 2 + (0 if settle.settled else 1))
+
+def _unpack_parts(est, blob, o):
+    """Load what :func:`_pack_parts` wrote into the fresh parts; False when a value is
+    impossible (the caller resets)."""
+    if not est.guard.unpack_from(blob, o):
+        return False
+    o += est.guard.STATE_SIZE
+    if not est.detector.unpack_from(blob, o):
+        return False
+    o += est.detector.STATE_SIZE
+    inputs = est.inputs
+    if blob[o + inputs.STATE_SIZE - 1] & 1:  # (else no air was measured: its bytes are zeros)
+        from tinytherm.air import Air
+        air = Air()
+        if not air.unpack_from(blob, o):
+            return False
+        inputs.air = air
+        inputs.measured = True
+    o += inputs.STATE_SIZE
+    noise = est.noise
+    var, n = struct.unpack_from("<dB", blob, o)
+    if not (noise.floor <= var <= 1e6 and n <= 100):
+        return False
+    noise.var = var
+    noise.n = n
+    noise.refresh()
+    o += noise.STATE_SIZE
+    if not _unpack_blocks(est.blocks, blob, o):
+        return False
+    o += est.blocks.STATE_SIZE
+    if not _unpack_reg(est.reg, blob, o):
+        return False
+    o += est.reg.STATE_SIZE
+    if not _unpack_audits(est.audits, blob, o, est.blocks.age_ms * 0.001):
+        return False
+    o += est.audits.STATE_SIZE
+    v = struct.unpack_from("<i", blob, o)[0]
+    if not -2 * LIMIT_COUNTS < v < 2 * LIMIT_COUNTS:
+        return False
+    est.settle.ref = v >> 1
+    est.settle.settled = not v & 1
+    return True
+
+def _unpack_blocks(b, blob, o):
+    (n, en, readings, ix, iv, sx, sv, e2, age, it, st, sy, c, rc, uc, g0, u0,
+     cb, cq) = struct.unpack_from(_BLOCKS, blob, o)
+    if not (0 <= n <= fit.MAX_BLOCK_READINGS and 0 <= it <= age and 0 <= uc <= fit.DUTY_SCALE
+            and 0 <= u0 <= fit.DUTY_SCALE and 0 <= en <= n and e2 >= 0 and st >= 0
+            and n <= readings):
+        return False
+    b.n, b.en, b.readings, b.it, b.ix, b.iv = n, en, readings, it, ix, iv
+    b.st, b.sx, b.sv, b.sy, b.e2, b.age_ms = st, sx, sv, sy, e2, age
+    b.c, b.rc, b.uc, b.g0, b.u0 = c, rc, uc, g0, u0
+    b.cb = cb
+    b.cq = cq
+    return True
+
+def _unpack_reg(reg, blob, o):
+    saved = reg.STATE_SIZE // 8
+    for i in range(saved):
+        v = struct.unpack_from("<d", blob, o + 8 * i)[0]
+        if not -1e15 <= v <= 1e15:  # (NaN fails too)
+            return False
+    for i in range(saved):
+        setattr(reg, _REG_NAMES[i], struct.unpack_from("<d", blob, o)[0])
+        o += 8
+    return (reg.w >= 0.0 and reg.w2 >= 0.0 and reg.nb >= 0.0 and reg.ctt >= 0.0
+            and reg.cxx >= 0.0 and reg.cyy >= 0.0 and (not reg.heater or reg.cuu >= 0.0))
+
+def _unpack_audits(audits, blob, o, age_s):
+    for a in audits.a:
+        age, level, slope, rate, var, n = struct.unpack_from("<5dB", blob, o)
+        o += 41
+        # (a float32 device rounds the age: allow a few ulps beyond the fit's)
+        if not (-1.0 <= age <= age_s * 1.000001 + 0.001 and 0.0 <= var <= 100.0
+                and n <= AUDIT_MEMORY and -1e6 < level < 1e6 and -1e6 < slope < 1e6
+                and -1e6 < rate < 1e6):
+            return False
+        a.age, a.level, a.slope, a.rate, a.var, a.n = age, level, slope, rate, var, n
+    return True

@@ -1,6 +1,8 @@
 from typing import Any, Union
 
-SCALE: int
+def const(x: Any) -> Any: ...
+
+AUDIT_MEMORY: int
 LIMIT_COUNTS: int
 HEAD_SIZE: int
 
