@@ -39,6 +39,7 @@ Runs unchanged on CPython and MicroPython.
 
 from tinytherm import answer
 from tinytherm.fit import SCALE, to_counts
+from tinytherm.num import INF
 
 SETTLE_S = 300.0          # s: a probe may take this long to meet the liquid (300 and 600 tie,
 #   900 does worse)
@@ -118,7 +119,7 @@ class Settle:
             lo /= f
             top += est.audits.z * v ** 0.5 / (k * k) * (1.0 if slope > 0.0 else -1.0)
             hi = answer.time_to_target_from_slope_s(target_c - top, a.slope + r * (a.level - top), r)
-            hi = answer.INF if hi is None else hi * f
+            hi = INF if hi is None else hi * f
             if eta is None or eta < lo:
                 eta = lo
             elif eta > hi:
