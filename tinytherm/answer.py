@@ -63,7 +63,8 @@ HOLD_OPEN_N = 4           # readings in the open block before its mean moves the
 #   (a noise guard, not chosen: four readings average to half a reading's sd)
 EQUILIBRIUM_SLACK = 0.1  # share of the distance to the fitted equilibrium it may be off
 #   (the families, all reachable, chose 0.4; 0.2 already answers a mug below a warm room)
-WIGGLE_AGE = 0.2   # fit ages beyond which an answer meets another misfit (its memory: 0.35)
+WIGGLE_AGE = 0.2   # share of the fit's age beyond which a time meets another swing of its misfit
+#   (the fit's memory: MEMORY_FRACTION 0.35 of its age)
 #   (leave-one-family-out, 32 tune per family dense and sparse: 0.2, 0.35, 0.5, off)
 MAX_REL_SD = 5.0          # an answer whose ln-time forecast sd (var_at) over this stays SETTLING
 FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
@@ -315,11 +316,11 @@ def _work_out(est, target, approach):
         # it) and the equilibrium beyond it all the same: the readings' bend is not the
         # liquid's law yet (a lagging probe's start, a stir), the law levelling off at the
         # hint is as likely: its time is the upper end (open-ended past it)
-        r, sd = est.inputs.prior
-        r -= level  # the hint's E - level (R = 0: nothing known)
-        if (r * slope > 0.0 and (r > 2.0 * sd or r < -2.0 * sd)
-                and (k <= 0.0 or (slope / k - r) * slope > 0.0)):
-            up = time_to_target_from_slope_s(gap, slope, slope / r)
+        dist, sd = est.inputs.prior
+        dist -= level  # the hint's E - level, deg C (as the estimator's hint: R = 0)
+        if (dist * slope > 0.0 and (dist > 2.0 * sd or dist < -2.0 * sd)
+                and (k <= 0.0 or (slope / k - dist) * slope > 0.0)):
+            up = time_to_target_from_slope_s(gap, slope, slope / dist)
             open_end = open_end or up is None
     if eta_shape is not None:
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
