@@ -1,8 +1,6 @@
-from typing import Optional, Tuple, Union
+from typing import Optional, Tuple
 
 from tinytherm.air import Air
-
-Buffer = Union[bytes, bytearray, memoryview]
 
 SCALE: int
 DUTY_SCALE: int
