@@ -81,7 +81,9 @@ def predict(self, target_c, approach=0):
     ``ThermalEstimator.predict`` (this function is that method). ``approach``: -1 the product
     cools to its target (a drink), +1 heats to it (a kettle, a bath), 0 not given (the
     direction of travel decides, with the rules of :mod:`tinytherm.settle`). With -1 or +1 a
-    liquid moving the other way is never ``ARRIVED`` and gets no time.
+    liquid moving the other way is never ``ARRIVED`` and gets no time; a probe still
+    travelling the other way after a pour gets the liquid's time, its law from before
+    carried on (:meth:`tinytherm.settle.Settle.carried`).
 
     Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds after the latest
     reading; ``None`` without an estimate), ``eta_rel_sd``, ``rate_per_s`` (1/s),
@@ -209,6 +211,10 @@ def _work_out(est, target, approach):
         # time at the fitted slope, with no upper bound (it may not be moving at all)
         d = 1 if slope > 0.0 else -1
     if approach != 0 and ((m if m != 0 else d) != approach or d == -approach):
+        if d == -approach and gap * d <= 0.0 and slope * d > 0.0 and k > 0.0:
+            # (the probe travelling away after a pour: the liquid comes back as this
+            # product reaches its target)
+            est.settle.carried(est, target, level, slope, k)
         return  # moving away from how this product reaches its target
     if gap * d <= 0.0:
         gap = target - y  # the level crossed, the readings not yet
