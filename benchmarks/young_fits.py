@@ -47,14 +47,17 @@ from tinytherm import answer, fit  # noqa: E402
 from tinytherm import status as st  # noqa: E402
 from tinytherm.estimator import ThermalEstimator  # noqa: E402
 
-GROUPS = ((3, 3), (4, 4), (5, 6), (7, 8), (9, 16), (17, 255))  # readings in the fit
+# readings in the fit (0-2: a fit seeded with two readings at a turn, or an answer not
+# worked out in this fit)
+GROUPS = ((0, 2), (3, 3), (4, 4), (5, 6), (7, 8), (9, 16), (17, 255))
 
 
 def group_of(readings):
+    """The readings group's label (``GROUPS``) of a fit resting on ``readings`` readings."""
     for lo, hi in GROUPS:
         if lo <= readings <= hi:
             return "%d-%d" % (lo, hi) if lo != hi else "%d" % lo
-    return "%d-%d" % GROUPS[-1]
+    raise ValueError("%r readings: no group" % (readings,))
 
 
 def trace_rows(family, seed, sampling):

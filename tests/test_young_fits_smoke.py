@@ -39,8 +39,7 @@ def test_rows_and_coverage_match_the_families_benchmark(family, sampling):
             continue
         assert rows
         assert sum(r[1] for r in rows) / len(rows) == pytest.approx(ref["coverage"], abs=1e-12)
-        # every row belongs to a readings group, and the sides agree with the coverage
-        assert all(r[0] in {young_fits.group_of(lo) for lo, _ in young_fits.GROUPS} for r in rows)
+        # the sides agree with the coverage (a row with no readings group raised above)
         assert all((r[2] == 0) == r[1] for r in rows)
         checked += 1
     assert checked >= 2
