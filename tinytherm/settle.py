@@ -36,6 +36,7 @@ The constants are leave-one-family-out choices on the tune seeds of
 the air and a probe's lag of tens of seconds are common practice, no source.
 Runs unchanged on CPython and MicroPython.
 """
+import math
 
 from tinytherm import answer
 from tinytherm.fit import SCALE, to_counts
@@ -94,7 +95,8 @@ class Settle:
         least as far from the target as the probe now (it still travels to it): the time
         from ``level_c`` is the lower end, the time from ``L`` its z sd further on the upper
         end (none when that never arrives), the time from ``L`` the point within them.
-        Sets ``TRACKING`` with the time and its bounds (s), or leaves the answer."""
+        Sets ``TRACKING`` with the time and its bounds (s) and ``eta_rel_sd`` (the sd of
+        ln eta: the rate's model error, or the interval's width over 2 z), or leaves the answer."""
         a = est.audits.a[2]
         r = a.rate
         if self.ref != NO_REF or not r > 0.0:
@@ -111,6 +113,7 @@ class Settle:
             eta += 1.0 / k
             lo = eta / f
             hi = eta * f
+            rel = answer.RATE_MODEL_SD
         else:
             lo = answer.time_to_target_from_slope_s(
                 target_c - level_c, a.slope + r * (a.level - level_c), r)
@@ -124,11 +127,13 @@ class Settle:
                 eta = lo
             elif eta > hi:
                 eta = hi
+            # (the sd of ln eta the interval stands for: its width over 2 z)
+            rel = INF if hi == INF or not lo > 0.0 else math.log(hi / lo) / (2.0 * est.audits.z)
         est.status = answer.st.TRACKING
         est.eta_s = eta
         est.eta_low_s = lo
         est.eta_high_s = hi
-        est.eta_rel_sd = answer.RATE_MODEL_SD
+        est.eta_rel_sd = rel
 
     def seeded(self, turn):
         """The fit starts where the probe has met the liquid (its reference): at a turn,
