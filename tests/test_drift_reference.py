@@ -83,21 +83,26 @@ TARGET = 11.0      # below where a fixed-equilibrium fit levels off
 DT = 2.0
 
 
+def answers_at(est, probe, target_c, asks, row):
+    """Feed ``est`` the probe ``probe(t)`` (deg C, t in s) read every ``DT`` s in 1/16 C
+    steps; at each of ``asks`` (s) ask for ``target_c`` (deg C) and keep ``row(t, code,
+    est)``, ``t`` the latest reading's time (s)."""
+    readings = np.round(probe(np.arange(0.0, asks[-1] + DT, DT)) * 16.0) / 16.0
+    out = []
+    i = 0
+    for ask in asks:
+        while i * DT <= ask:
+            est.update(float(readings[i]), 0.0 if i == 0 else DT)
+            i += 1
+        out.append(row((i - 1) * DT, est.predict(target_c), est))
+    return out
+
+
 def replay(asks):
     """The estimator fed the drifting law (1/16 C steps, every 2 s); its answers at ``asks``."""
     temp = drifting_law(K, E0, B, START, 8000.0)
-    readings = np.round(temp(np.arange(0.0, asks[-1] + DT, DT)) * 16.0) / 16.0
-    est = ThermalEstimator()
-    out = []
-    t = 0.0
-    i = 0
-    for ask in asks:
-        while t <= ask:
-            est.update(float(readings[i]), 0.0 if i == 0 else DT)
-            i += 1
-            t += DT
-        code = est.predict(TARGET)
-        out.append((t - DT, code, est.eta_s, est.eta_low_s, est.eta_high_s))
+    out = answers_at(ThermalEstimator(), temp, TARGET, asks,
+                     lambda t, code, est: (t, code, est.eta_s, est.eta_low_s, est.eta_high_s))
     return out, first_crossing(temp, TARGET, 8000.0)
 
 
@@ -157,16 +162,8 @@ def chiller_probe_and_crossing(horizon_s=20000.0):
 def chiller_answers(asks):
     """(time s, status, eta_low_s, eta_high_s) at ``asks``: the probe read every 2 s, 1/16 C steps."""
     probe, crossing = chiller_probe_and_crossing()
-    readings = np.round(probe(np.arange(0.0, asks[-1] + DT, DT)) * 16.0) / 16.0
-    est = ThermalEstimator()
-    out = []
-    i = 0
-    for ask in asks:
-        while i * DT <= ask:
-            est.update(float(readings[i]), 0.0 if i == 0 else DT)
-            i += 1
-        code = est.predict(CHILL_TARGET)
-        out.append(((i - 1) * DT, code, est.eta_low_s, est.eta_high_s))
+    out = answers_at(ThermalEstimator(), probe, CHILL_TARGET, asks,
+                     lambda t, code, est: (t, code, est.eta_low_s, est.eta_high_s))
     return out, crossing
 
 
@@ -211,17 +208,10 @@ def hint_answers(rhs, y0, target_c, asks, ambient_prior_c=21.0):
     sol = solve_ivp(rhs, (0.0, 20000.0), y0, method="DOP853", rtol=1e-10, atol=1e-10,
                     dense_output=True)
     crossing = first_crossing(lambda t: sol.sol(t)[0], target_c, 20000.0)
-    readings = np.round(sol.sol(np.arange(0.0, asks[-1] + DT, DT))[-1] * 16.0) / 16.0
-    est = ThermalEstimator(ambient_prior_c=ambient_prior_c)
-    out = []
-    i = 0
-    for ask in asks:
-        while i * DT <= ask:
-            est.update(float(readings[i]), 0.0 if i == 0 else DT)
-            i += 1
-        code = est.predict(target_c)
-        out.append(((i - 1) * DT, code, est.eta_low_s, est.eta_high_s,
-                    est.reg.k * est.audits.age_ms * 0.001))
+    out = answers_at(ThermalEstimator(ambient_prior_c=ambient_prior_c),
+                     lambda t: sol.sol(t)[-1], target_c, asks,
+                     lambda t, code, est: (t, code, est.eta_low_s, est.eta_high_s,
+                                           est.reg.k * est.audits.age_ms * 0.001))
     return out, crossing
 
 
