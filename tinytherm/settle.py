@@ -40,7 +40,6 @@ import math
 
 from tinytherm import answer
 from tinytherm.fit import SCALE, to_counts
-from tinytherm.num import INF
 
 SETTLE_S = 300.0          # s: a probe may take this long to meet the liquid (300 and 600 tie,
 #   900 does worse)
@@ -55,6 +54,14 @@ _INV = 1.0 / SCALE
 LIMIT_COUNTS = 10001 * SCALE  # beyond any reading (the guard's limits are within 1e4 C)
 NO_REF = LIMIT_COUNTS - 1  # the reference after a jump: no reading shows the liquid yet
 #   (the probe still travels to it; the estimator asks for it too)
+
+
+def _law_time_s(a, target_c, from_c):
+    """The time (s) until ``target_c`` (deg C) under the law the audit ``a`` kept (its level,
+    slope and rate), for the liquid now at ``from_c`` (deg C); None when the target is not
+    between ``from_c`` and where that law levels off."""
+    r = a.rate
+    return answer.time_to_target_from_slope_s(target_c - from_c, a.slope + r * (a.level - from_c), r)
 
 
 class Settle:
@@ -98,15 +105,13 @@ class Settle:
         Sets ``TRACKING`` with the time and its bounds (s) and ``eta_rel_sd`` (the sd of
         ln eta: the rate's model error, or the interval's width over 2 z), or leaves the answer."""
         a = est.audits.a[2]
-        r = a.rate
-        if self.ref != NO_REF or not r > 0.0:
+        if self.ref != NO_REF or not a.rate > 0.0:
             return
         m = answer.move_c(est.noise.sd) * k * k
         v = slope * slope * est.reg.pkk  # (L's variance times k^4)
         top = level_c + slope / k
         f = answer.spread(est.audits.z * answer.RATE_MODEL_SD)
-        # (None when the target is not between L and where the law levels off)
-        eta = answer.time_to_target_from_slope_s(target_c - top, a.slope + r * (a.level - top), r)
+        eta = _law_time_s(a, target_c, top)
         if v <= m * m:
             if eta is None:
                 return
@@ -115,20 +120,20 @@ class Settle:
             hi = eta * f
             rel = answer.RATE_MODEL_SD
         else:
-            lo = answer.time_to_target_from_slope_s(
-                target_c - level_c, a.slope + r * (a.level - level_c), r)
+            lo = _law_time_s(a, target_c, level_c)
             if lo is None:
                 return
             lo /= f
-            top += est.audits.z * v ** 0.5 / (k * k) * (1.0 if slope > 0.0 else -1.0)
-            hi = answer.time_to_target_from_slope_s(target_c - top, a.slope + r * (a.level - top), r)
-            hi = INF if hi is None else hi * f
+            hi = _law_time_s(a, target_c, top + est.audits.z * v ** 0.5 / (k * k)
+                             * (1.0 if slope > 0.0 else -1.0))
+            hi = math.inf if hi is None else hi * f
             if eta is None or eta < lo:
                 eta = lo
             elif eta > hi:
                 eta = hi
             # (the sd of ln eta the interval stands for: its width over 2 z)
-            rel = INF if hi == INF or not lo > 0.0 else math.log(hi / lo) / (2.0 * est.audits.z)
+            rel = (math.inf if hi == math.inf or not lo > 0.0
+                   else math.log(hi / lo) / (2.0 * est.audits.z))
         est.status = answer.st.TRACKING
         est.eta_s = eta
         est.eta_low_s = lo

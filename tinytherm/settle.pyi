@@ -1,7 +1,5 @@
 from typing import Any
 
-from tinytherm.num import INF as INF
-
 SETTLE_S: float
 SETTLE_BEND: float
 RISE_ARRIVE_MIN_S: float
