@@ -99,9 +99,9 @@ class Settle:
         sd from the fit's k, ``|slope| / k^2 sd(k)``: the slope and the level are measured
         far better than k while the probe bends), ``r`` off by ``answer.RATE_MODEL_SD`` of
         itself (a fitted rate's model error) gives the interval. Before, the liquid is at
-        least as far from the target as the probe now (it still travels to it): the time
-        from ``level_c`` is the lower end, the time from ``L`` its z sd further on the upper
-        end (none when that never arrives), the time from ``L`` the point within them.
+        least as far from the target as the probe now (it still travels to it): the lower
+        end is the time from ``level_c``, the upper end the time from ``L`` its z sd further
+        on (none when that never arrives), the point the time from ``L`` within them.
         Sets ``TRACKING`` with the time and its bounds (s) and ``eta_rel_sd`` (the sd of
         ln eta: the rate's model error, or the interval's width over 2 z), or leaves the answer."""
         a = est.audits.a[2]
