@@ -491,8 +491,8 @@ class Regression:
         return var
 
     def eta_rel_var(self, gap, slope, k, eta, gk):
-        """Delta-method variance of ln(eta), eta = the answer's time to move ``gap`` deg C
-        from the fitted level at ``slope`` (deg C/s) and rate ``k`` (1/s), first order.
+        """Delta-method variance of ln(eta), first order; eta = the answer's time to move
+        ``gap`` deg C from the fitted level at ``slope`` (deg C/s) and rate ``k`` (1/s).
 
         The level and the slope are linear in the fit's (mean, s, k, g): d level =
         (1, t, -x, v), d slope = (0, 1, gk, 0).
