@@ -83,10 +83,6 @@ def frame(est):
         buf = est._blob_buf = bl.new_frame(crc32(buf[1].encode()), buf[0])
     return buf
 
-def parts(est):
-    return (est.guard, est.detector, est.inputs, est.noise, est.blocks, est.reg,
-            est.audits, est.settle)
-
 def restore(est, blob):
     """Load a blob written by :meth:`save`; returns a ``tinytherm.blob`` code.
 
@@ -150,7 +146,7 @@ def _unpack(est, blob):
 
 
 def _pack_parts(est, buf, o):
-    """Each part's ``STATE_SIZE`` bytes in turn, from ``buf[o]`` (the order of :func:`parts`)."""
+    """Each part's ``STATE_SIZE`` bytes in turn, from ``buf[o]`` (the layout's order)."""
     est.guard.pack_into(buf, o)
     o += est.guard.STATE_SIZE
     est.detector.pack_into(buf, o)

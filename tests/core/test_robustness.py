@@ -315,8 +315,10 @@ def test_corrupted_blobs_are_rejected_with_a_fresh_start():
     # written by a differently configured estimator
     assert ThermalEstimator(heater=True).restore(blob) == bl.BLOB_SETTINGS
     # the header's extreme (its block's sum, readings) and the settle part's reading out of range
-    settle_at = bl.PAYLOAD_OFFSET + state.HEAD_SIZE + sum(
-        part.STATE_SIZE for part in state.parts(est) if part is not est.settle)
+    # (the parts in the payload's order, as tinytherm.state's layout lists them)
+    parts = (est.guard, est.detector, est.inputs, est.noise, est.blocks, est.reg, est.audits,
+             est.settle)
+    settle_at = bl.PAYLOAD_OFFSET + state.HEAD_SIZE + sum(part.STATE_SIZE for part in parts[:-1])
     for fmt, offset, bad_value in (("<i", 18, 0x7FFFFFFF), ("<i", 18, -0x7FFFFFFF),
                                    ("<B", 22, 0), ("<i", settle_at, 0x7FFFFFFF)):
         poisoned = bytearray(blob)
@@ -328,7 +330,7 @@ def test_corrupted_blobs_are_rejected_with_a_fresh_start():
     # the header's anchor, then the regression's and the audits' (each part packs its own)
     offsets = [bl.PAYLOAD_OFFSET + 10]
     at = bl.PAYLOAD_OFFSET + state.HEAD_SIZE
-    for part in state.parts(est):
+    for part in parts:
         if part is est.reg:
             offsets += [at + 8 * i for i in range(part.STATE_SIZE // 8)]
         elif part is est.audits:
