@@ -8,28 +8,20 @@ the heater duty::
 
     dT/dt = s - k (G - G0) + g (u - u0)        (equilibrium E = T + s / k)
 
-A reading flows through small parts, each owning its state (its bytes of the
-saved state: :mod:`tinytherm.state`):
-
-1. :class:`~tinytherm.guard.ReadingGuard` judges it (spikes, error codes,
-   time going backwards...).
-2. :class:`~tinytherm.fit.BlockSums` adds it to the open block in integers.
-3. About every :data:`BLOCK_S` seconds (sooner in a young fit) the block
-   closes: the :class:`~tinytherm.change.ChangeDetector` tests its mean
-   against the fit's forecast (a jump restarts the fit: ``DISTURBED``), the
-   :class:`~tinytherm.fit.Regression` adds it with a memory of
-   :data:`MEMORY_FRACTION` of the fit's age and solves with weak priors (the
-   ambient a hint on ``k`` given the slope: it may bend the curve, never turn
-   it), the level is anchored on the block's residual, a reversal beyond
-   :data:`TURN_C` restarts the fit (no heater), the audits check old forecasts.
-4. ``predict`` (:mod:`tinytherm.answer`) works the answer out once per block
-   and target and counts it down between blocks; its arrival rules (a probe
-   still meeting the liquid: :mod:`tinytherm.settle`) are in docs/design.md.
-
-A vessel profile (:mod:`tinytherm.profile`, imported only when given) sets the
-priors, the interval and a passive liquid's law; it is dropped when the fitted
-rate lies :data:`tinytherm.profile.PROFILE_MISMATCH_Z` sds from its own (docs/design.md). Fixed
-state, no per-reading containers; runs unchanged on CPython and MicroPython.
+A reading flows through parts that each own their state (and their bytes of
+the saved state, :mod:`tinytherm.state`): the guard judges it, the block sums
+add it; about every :data:`BLOCK_S` seconds (sooner in a young fit) the block
+closes: the change detector tests its mean against the forecast (a jump
+restarts the fit), the regression adds it with a memory of
+:data:`MEMORY_FRACTION` of the fit's age and solves with weak priors (the
+ambient a hint on ``k`` given the slope: it may bend the curve, never turn it),
+the level is anchored on the block's residual, a retreat beyond :data:`TURN_C`
+restarts the fit (no heater), the audits check old forecasts. ``predict``
+(:mod:`tinytherm.answer`) works the answer out once per block and target and
+counts it down between blocks. A vessel profile (:mod:`tinytherm.profile`,
+imported only when given) sets the priors, the interval and a passive liquid's
+law. The reasons, the arrival rules and when a profile is dropped: docs/design.md.
+Fixed state, no per-reading containers; runs unchanged on CPython and MicroPython.
 """
 import math
 
@@ -111,8 +103,8 @@ class ThermalEstimator(Answer):
             raise ValueError("quantum_c must be in [1e-6, 10] deg C")
         if not number(restart_gap_s, 1.0, 5e5):
             raise ValueError("restart_gap_s must be in [1, 5e5] seconds")
-        # save() writes into this one buffer (blob.BLOB_SIZE bytes), made first, while the heap
-        # is fresh (the largest piece of the estimator: later, smaller ones fill the gaps)
+        # save()'s one buffer (blob.BLOB_SIZE bytes), the largest piece, made first while the
+        # heap is fresh (later, smaller ones fill the gaps)
         buf = bytearray(512)
         # the answer's fields and the counts next (reset() sets them again): its table grows early
         self.clear(st.GATHERING)
@@ -132,8 +124,7 @@ class ThermalEstimator(Answer):
                                   max_gap_s=MAX_GAP_S if MAX_GAP_S < restart_gap_s else restart_gap_s,
                                   probe_codes=probe_codes)
         self.detector = ChangeDetector(jump_z=12.0)
-        # (the parts through their modules: each name imported here is a slot of this
-        # module's table on the device)
+        # (the parts through their modules: a name imported here is a slot of this module's table)
         self.inputs = fit.Inputs(ambient_c, ambient_prior_c, ambient_prior_sd_c)
         self.noise = fit.Noise(self.guard.quantum_c)
         self.blocks = fit.BlockSums()
@@ -141,9 +132,8 @@ class ThermalEstimator(Answer):
         # the audits and the answer's cache, with the interval's half-width in sd
         self.audits = answer.Audits(normal_quantile(0.5 + 0.5 * interval))
         self.settle = Settle()  # whether the probe has met the liquid (no direction given)
-        # the blob's buffer beside the text of every setting that changes the state's
-        # meaning: the first save or restore writes the frame's header with its CRC-32
-        # (state.frame: a product that never sleeps loads neither blob nor crc)
+        # the blob's buffer beside the text of every setting that changes the state's meaning
+        # (its CRC-32 is the frame's settings key, written at the first save or restore)
         self._blob_buf = (buf, "%r %r %r %r %r %r %r %r %r %r" % (
             ambient_c, self.inputs.prior[0], self.inputs.prior[1], heater, float(interval),
             self.guard.quantum_c, self.guard.min_c, self.guard.max_c, self.guard.settings_key(),
@@ -196,9 +186,8 @@ class ThermalEstimator(Answer):
         untouched (its time still counts).
         """
         if self.blocks.pending:
-            # a closed block's work is spread over the readings after it, one step
-            # each, before the guard sees the reading (it uses the fitted slope);
-            # a step's result depends on no reading after the block
+            # a closed block's work, one step a reading, before the guard (it uses the
+            # fitted slope); a step's result depends on no reading after the block
             self._next_step()
         # (anything float() refuses, or an int beyond the float range: BAD_INPUT,
         # the same verdict on both runtimes; plain floats take no call)
@@ -281,13 +270,9 @@ class ThermalEstimator(Answer):
 
     # ------------------------------------------------------------------ blocks
     def _close_block(self):
-        """Close the block, first half: the change check and the regression's update.
-
-        The second half (:meth:`_finish_block`: solve, anchor, turn) runs in
-        the next ``predict`` (or before the next reading, or in ``save``), so
-        that no call carries the whole cost of a block; its result does not
-        depend on when it runs. The audits follow with the next reading.
-        """
+        """Close the block, first half: the change check and the regression's update. The
+        second half (:meth:`_finish_block`) runs in the next ``predict``, reading or ``save``,
+        and the audits with the reading after it: no call carries a whole block's cost."""
         b = self.blocks
         reg = self.reg
         n = b.n
@@ -368,8 +353,7 @@ class ThermalEstimator(Answer):
                     self.blocks.pending = 2  # the audits with the next reading
         else:
             self._slope = 0.0
-        # the noise's expected step follows the new slope (a restored run works it out afresh:
-        # kept from an older slope, an uninterrupted run and a restored one would differ)
+        # the noise's expected step follows the new slope (worked out afresh, as after a restore)
         self.noise.expect_ms = -1
         if self._turned(yb):
             self.turns += 1
@@ -377,18 +361,16 @@ class ThermalEstimator(Answer):
             self._begin_again(False, b.readings == 3 or self.settle.ref == NO_REF)
 
     def _level_and_slope(self):
-        """The anchored level and the slope at it from the solution (at the latest block
-        close; also after a restore or a re-solve, so that those give the same)."""
+        """The anchored level and the slope at it, from the solution (also after a restore)."""
         reg = self.reg
         self.blocks.level = reg.level() + reg.anchor
         # slope at the level (the reference gap and duty are the closing reading's)
         self._slope = reg.s - reg.k * (self.blocks.level - self.blocks.cb * _INV)
 
     def _begin_again(self, disturbed, from_previous=False):
-        """Restart the fit from the latest reading (a jump or a turn); ``from_previous``:
-        start at the reading that closed the block before it, keeping both (a turn right
-        after the jump that set the direction: with readings minutes apart the new
-        approach began at that reading, the peak after a pour)."""
+        """Restart the fit from the latest reading (a jump or a turn); ``from_previous``: from
+        the reading that closed the block before it, keeping both (a turn right after the jump
+        that set the direction: readings minutes apart, the peak after a pour)."""
         b = self.blocks
         c, rc, uc = b.c, b.rc, b.uc
         cp, ip = b.cp, b.ip
@@ -416,11 +398,8 @@ class ThermalEstimator(Answer):
             self.blocks.dir = turned_to  # the passive profile's direction: known from the turn on
 
     def _turned(self, yb):
-        """Track the extreme of the block means; True on a retreat beyond TURN_C.
-
-        With a heater the retreat is a new direction of the same fit (the duty
-        explains it), never a restart.
-        """
+        """Track the extreme of the block means; True on a retreat beyond TURN_C (with a
+        heater, never: the retreat is a new direction of the same fit, the duty explains it)."""
         cut = 4.0 * self.noise.sd
         if self.settle.ref == NO_REF and not self.heater:
             # a probe travelling to the liquid after a jump moves one way until it meets
@@ -429,10 +408,9 @@ class ThermalEstimator(Answer):
         elif cut < TURN_C and not (self.blocks.readings == 3 and self.blocks.dir != 0) and not (
                 self._profile_on and not self.heater and self.blocks.dir != 0
                 and self._profile.toward_e(self, -self.blocks.dir)):
-            # at least TURN_C, but for the retreat right after the jump that set the
-            # direction (a reading taken before a pour, then the drink cooling), and for
-            # a passive profile's liquid, which only moves towards its E (a retreat that
-            # way is the probe caught up, seen at 4 noise sd)
+            # at least TURN_C, but for the retreat right after the jump that set the direction
+            # (a reading before a pour, then the drink cooling) and a passive profile's liquid,
+            # which only moves towards its E (a retreat that way, the probe caught up: 4 sd)
             cut = TURN_C
         ext = self._extreme_c()
         if self.blocks.dir == 0:
@@ -449,11 +427,9 @@ class ThermalEstimator(Answer):
         if (ext - yb) * self.blocks.dir <= cut:
             return False
         if self.heater:
-            # the heater turned it: a new direction, the same fit (it explains the turn),
-            # once the fitted slope (duty included) agrees and the reading before the
-            # latest retreated too; before, it is a spike or noise (readings a minute
-            # apart on a steep heat-up: the guard's window of three is wide there, and
-            # one reading is the whole block)
+            # the heater turned it: a new direction, the same fit, once the fitted slope
+            # (duty included) agrees and the reading before the latest retreated too (else
+            # a spike or noise: readings a minute apart, one reading is the whole block)
             if self._slope * self.blocks.dir < 0.0 and (
                     ext - self.blocks.cq * _INV) * self.blocks.dir > cut:
                 self.blocks.dir = -self.blocks.dir
@@ -466,11 +442,8 @@ class ThermalEstimator(Answer):
         return self.blocks.ext_sy / (self.blocks.ext_n * SCALE)
 
     def _solve(self):
-        """Priors for this block, then the regression's solve (see the module docstring).
-
-        The hint follows ``inputs.ahead``: whether an ambient was known at the block
-        close (saved with the state; a measured one may arrive after it).
-        """
+        """Priors for this block, then the regression's solve; the hint follows whether an
+        ambient was known at the block close (``inputs.ahead``, saved with the state)."""
         reg = self.reg
         reg.clear()
         if reg.nb < 1.5 or not reg.w > 0.0:
@@ -532,16 +505,12 @@ class ThermalEstimator(Answer):
             a.check(self, age, self.blocks.level, slope, self.reg.k, need)
 
     def _slope_ahead(self):
-        """Slope at the fitted level under the air the future will see, deg C/s.
-
-        The law is driven by the air reading ``A``; ahead, the air is taken at
-        its mean over the last whole cycle ``M`` as known at the latest block
-        close (:meth:`Inputs.ahead_fine`), so with ``A0`` the air then::
+        """Slope at the fitted level under the air ahead, deg C/s: the air at its mean over
+        the last whole cycle ``M`` as known at the latest block close, ``A0`` the air then::
 
             s_ahead = s_now + k (M - A0)     (equilibrium E_ahead = E_now + M - A0)
 
-        Without a measured air it is the slope now.
-        """
+        Without a measured air it is the slope now."""
         if not self.inputs.measured or self.inputs.ahead is None:
             return self._slope
         b = self.blocks
@@ -560,37 +529,31 @@ class ThermalEstimator(Answer):
         return time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
 
     def _ambient_ahead_c(self):
-        """The ambient the answer uses, deg C, as fixed at the latest block close (a
-        measured air: its mean ahead, as in :meth:`_slope_ahead`), or None when none was
-        known then. The one reference of the answer's ambient, the equilibrium slack and
-        the profile: an answer worked out after a restore, at a later reading of the
-        block, must be the one counted down since the block close."""
+        """The ambient the answer uses, deg C, fixed at the latest block close (measured
+        air: its mean ahead, as in :meth:`_slope_ahead`), or None when none was known then:
+        the answer, the equilibrium slack and the profile read it, so an answer worked out
+        after a restore is the one counted down since the block close."""
         return None if self.inputs.ahead is None else self.inputs.ahead * _FINE_INV
-
 
     # ------------------------------------------------------------ save/restore
     def save(self):
         """The whole state as a blob of ``tinytherm.blob.BLOB_SIZE`` (512) bytes.
 
-        Returns the estimator's own ``bytearray``, rewritten by the next
-        ``save()``: write it to RTC memory or flash, or copy it with
-        ``bytes(...)``. Every value is stored exactly; the guard's per-reason
-        counts and ``rejected`` count since the last restore. Layout:
-        :mod:`tinytherm.state`.
+        Returns the estimator's own ``bytearray``, rewritten by the next ``save()``:
+        write it to RTC memory or flash, or copy it with ``bytes(...)``. Every value
+        is stored exactly; the guard's per-reason counts and ``rejected`` count since
+        the last restore. Layout: :mod:`tinytherm.state`, loaded at the first save or
+        restore (a product that never sleeps does not load it).
         """
-        # (the saved-state part at the first save or restore: a product that never
-        # sleeps does not load it; it is installed with the core)
         from tinytherm import state
         return state.save(self)
 
     def restore(self, blob):
-        """Load a blob written by :meth:`save`; returns a ``tinytherm.blob`` code.
-
-        ``blob.RESTORED`` (0) when the state is back and every value is valid.
-        Anything else leaves a fresh estimator, as after :meth:`reset`. Never
-        raises (but a MemoryError). Then feed the next reading with
-        :meth:`update` and the time slept, or :meth:`update_ticks` with ``slept_s``.
-        """
+        """Load a blob written by :meth:`save`; returns a ``tinytherm.blob`` code:
+        ``blob.RESTORED`` (0) when the state is back and every value is valid, else a
+        fresh estimator as after :meth:`reset`. Never raises (but a MemoryError). Then
+        feed the next reading with :meth:`update` and the time slept, or
+        :meth:`update_ticks` with ``slept_s``."""
         from tinytherm import state  # (as in save)
         return state.restore(self, blob)
 
