@@ -20,8 +20,8 @@ Payload (little-endian), after the frame's 8-byte header::
 
 The fit's solution is derived: ``restore`` solves again as at the last block
 close, so an uninterrupted run and one saved and restored on every reading
-give the same answers to the last bit. The guard and the change detector,
-usable alone, pack their own bytes; the estimator's inner parts are packed
+give the same answers to the last bit. The guard, the change detector and the
+air, usable alone, pack their own bytes; the estimator's inner parts are packed
 here (:func:`_pack_parts`, :func:`_unpack_parts`), so a product that never
 saves does not load that code. Runs unchanged on CPython and MicroPython.
 """
