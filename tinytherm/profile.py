@@ -281,7 +281,9 @@ class VesselProfile:
         n = self.rate_exponent
         d = -(dist_c + self.eq_offset_c)
         sd = self.eq_offset_sd_c / n
-        kp = n * self.rate_at(d)
+        # (at the law's own equilibrium an n > 1 law is flat, its tangent rate 0: no scale
+        # for the rate prior's sd; the tangent at DIFF_REF_C, as rate_per_s is quoted)
+        kp = n * self.rate_at(d if d != 0.0 else DIFF_REF_C)
         rel = self.rate_log_sd if self.rate_log_sd > 0.02 else 0.02
         gp = self.gain_k_per_s
         rel_g = self.gain_rel_sd if self.gain_rel_sd > 0.02 else 0.02
