@@ -110,8 +110,8 @@ def test_drifting_equilibrium_covers_the_crossing():
     # with a fixed equilibrium the fit levels off short of the target (11.0-11.4 C
     # here): open-ended or very wide times off by 36-160 %, and from 2600 s intervals
     # that miss; from 2000 s (the longest audit started once the fit had bent through
-    # DRIFT_BEND = 2 time constants of 600 s) the drift bounds every interval, each
-    # covers the true crossing, and the times are off by 16-35 %
+    # 2 time constants of 600 s) the drift bounds every interval, each covers the true
+    # crossing, and the times are off by 16-35 %
     asks = [float(t) for t in range(2000, 2701, 100)]
     answers, crossing = replay(asks)
     assert crossing is not None
@@ -123,6 +123,18 @@ def test_drifting_equilibrium_covers_the_crossing():
         errors.append(abs(eta - rem) / rem)
     errors.sort()
     assert errors[len(errors) // 2] <= 0.3, errors
+
+
+def test_drift_from_one_and_a_half_time_constants_bounds_and_covers():
+    # the longest audit started once the fit had bent through DRIFT_BEND = 1.5 (not yet
+    # 2) time constants of 600 s: at 1400-1700 s the drift bounds the interval, which
+    # covers the true crossing; with DRIFT_BEND 2 these were open-ended (high inf), the
+    # fixed law's time off by 1-17 %, its error growing as the equilibrium cooled on
+    answers, crossing = replay([float(t) for t in range(1400, 1701, 100)])
+    for t, code, eta, low, high in answers:
+        rem = crossing - t
+        assert code == st.TRACKING, (t, code)
+        assert low <= rem <= high < math.inf, (t, low, eta, high, rem)
 
 
 def test_no_drift_is_the_fixed_law():

@@ -9,7 +9,6 @@ PROFILE_MISMATCH_Z: float
 PROFILE_JUDGE_LAGS: float
 PROFILE_YOUNG_S: float
 BIN_EDGES_S: Tuple[float, float, float]
-BIN_ANCHORS_S: Tuple[float, float, float, float]
 QUANTILE_LOW: float
 QUANTILE_HIGH: float
 REASON_OK: int

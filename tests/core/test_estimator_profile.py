@@ -319,3 +319,18 @@ def test_a_rejected_profile_gives_the_same_answers_after_a_restore():
         shown[0] += code == st.TRACKING
     mug_use(twin, 40.0, 400.0, on_row=row)
     assert twin.steady.profile_reason == PROFILE_REJECTED and shown[0] > 30, shown
+
+
+def test_a_reading_at_the_laws_own_equilibrium_does_not_raise():
+    # an n > 1 law is flat at its equilibrium (tangent rate 0): the rate prior's weight
+    # divided by zero there, and update/predict raised ZeroDivisionError for a heated
+    # liquid read exactly at the ambient hint (21.0 C, on the 0.0625 C grid)
+    prof = VesselProfile(heater=True, rate_per_s=1.0 / 12000.0, rate_log_sd=0.2,
+                         eq_offset_c=0.0, eq_offset_sd_c=2.0, gain_k_per_s=0.04,
+                         gain_rel_sd=0.2, probe_lag_s=20.0, rate_exponent=1.3)
+    dist, sd, kp, lk, gp, lg = prof.priors(0.0, 0.001, 1.0)
+    assert kp > 0.0 and 0.0 < lk < 1e300 and sd > 0.0
+    est = ThermalEstimator(heater=True, profile=prof)
+    for i in range(60):
+        est.update(21.0 + 0.0625 * (i // 4), 5.0 if i else 0.0, duty=1.0)
+        assert est.predict(40.0, 1) in (st.GATHERING, st.SETTLING, st.TRACKING)
