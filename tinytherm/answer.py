@@ -435,8 +435,9 @@ AUDIT_YOUNG = 4.0         # an audit learns only when its horizon was at most th
 #   (the three: leave-one-family-out choices, benchmarks/lofo_coverage.py)
 DRIFT_SD = 0.5      # relative sd of the equilibrium's drift (one sd more at it this much smaller)
 DRIFT_MIN_S = 120.0  # s: least time the drift is measured over
-DRIFT_BEND = 1.5    # time constants (k x age) the fit had bent through at the drift's start
-#   (before, its E is an extrapolation still converging; the three: leave-one-family-out)
+DRIFT_BEND = 1.0    # time constants (k x age) the fit had bent through at the drift's start
+#   (before, its E is an extrapolation still converging; the three: leave-one-family-out;
+#   DRIFT_BEND 1 of 2, 1.5, 1 in 7 of 8 folds, 32 tune traces per family dense and sparse)
 UNSEEN_BEND = 1.0   # 1/age by which k may be larger at the upper end, no drift measured yet
 UNSEEN_FROM = 0.3   # time constants (k x age) a fit has bent through before it applies
 #   (both leave-one-family-out, 32 tune traces per family dense and sparse; 0 = off)
