@@ -181,10 +181,6 @@ def _work_out(est, target, approach):
     else:
         d = est.blocks.dir
     m = est.blocks.dir
-    if reg.heater and not est.heater and ahead is not None:  # (the air's column, fit.AIR_COLUMN)
-        # the probe's direct view of the air, w (A - A0) in the level now: ahead the air is
-        # at its mean M (as the law's, est._slope_ahead), so the probe is w (M - A0) further
-        level += reg.g * (ahead - (b.cb - b.g0) * _INV)
     gap = target - level
     age_s = c.age_ms * 0.001  # (the fit's age at the block close, as the answer)
     # the arrival line: at most min(0.3 C, 3 noise sd) short of the target
@@ -384,8 +380,6 @@ def _arrived(est, target, m, approach, age_ms):
              + est.reg.anchor)
     if est.heater:
         level += reg.g * (reg.v + b.iv * _IV_TO_S)
-    elif reg.heater:
-        level += reg.g * (reg.v + b.iv * _INV)  # (the air's column: its move since the block)
     sd = est.noise.sd
     tol = 3.0 * sd
     if tol > ARRIVE_TOL_C:

@@ -1,16 +1,18 @@
 """Online fit of the lumped thermal model and the time-to-target answer.
 
-One principle: *fit the first-order law on the recent part of the approach, anchor the answer
-at the latest readings, and judge the answer by the fit's own forecasts.* Model
-(:mod:`tinytherm.fit`), ``G = T - R`` the gap to a reference ``R`` (the known ambient, the measured
-air, or 0), ``u`` the heater duty (no heater, a measured air ``A``: ``A - A0``, the probe's view)::
+One principle: *fit the first-order law on the recent part of the approach,
+anchor the answer at the latest readings, and judge the answer by the fit's
+own forecasts.* Model (:mod:`tinytherm.fit`), ``G = T - R`` the gap to a
+reference ``R`` (the known ambient, the measured air, or 0), ``u``
+the heater duty::
 
     dT/dt = s - k (G - G0) + g (u - u0)        (equilibrium E = T + s / k)
 
 A reading flows through small parts, each owning its state (its bytes of the
 saved state: :mod:`tinytherm.state`):
 
-1. :class:`~tinytherm.guard.ReadingGuard` judges it (spikes, error codes, time going back...).
+1. :class:`~tinytherm.guard.ReadingGuard` judges it (spikes, error codes,
+   time going backwards...).
 2. :class:`~tinytherm.fit.BlockSums` adds it to the open block in integers.
 3. About every :data:`BLOCK_S` seconds (sooner in a young fit) the block
    closes: the :class:`~tinytherm.change.ChangeDetector` tests its mean
@@ -50,7 +52,6 @@ MAX_MEMORY_S = 7200.0     # s: longest
 SPAN_BLOCKS = 4.0         # the memory spans at least this many blocks (sparse readings)
 RATE_PRIOR_PER_S = 1.0 / 1800.0  # 1/s: sd of the loose prior on k (a line until the data bend)
 KNOWN_AMBIENT_SD_C = 2.0  # deg C: sd with a known or measured ambient (evaporation, a bent rate)
-AIR_VIEW_SD = 0.3         # prior sd of the probe's view of a measured air (no heater; 0: off)
 TURN_C = 1.0              # deg C: a retreat from the extreme that restarts the fit
 DETECT_MIN_BLOCKS = 5     # blocks before the change detector listens (weighted), and readings
 #   before the noise is learnt and the audits start (counted: with readings minutes apart,
@@ -161,7 +162,6 @@ class ThermalEstimator(Answer):
         self.inputs.reset()
         self.noise.reset()
         self.audits.reset()
-        fit.use_air_column(self, False)  # (none until a measured air comes again)
         self.detector.disturbed = False     # since a jump, until the new fit is established
         self._profile_on = self._profile is not None
         self._restart_fit()
@@ -239,8 +239,6 @@ class ThermalEstimator(Answer):
             return verdict
         c = math.floor(temp_c * SCALE + 0.5)  # counts of 1/SCALE deg C (fit.to_counts)
         uc = self.inputs.duty_counts(duty) if self.heater else 0
-        if ambient_c is not None and not self.reg.heater and AIR_VIEW_SD > 0.0:
-            fit.use_air_column(self, True)  # the first measured air: a new fit, with its column
         b = self.blocks
         try:
             if not b.readings or self.guard.gap == GAP_RESTART:  # (none: a new fit)
@@ -298,13 +296,13 @@ class ThermalEstimator(Answer):
         tb = reg.t + b.st / (n * 1000)
         xb = reg.x + b.sx / (n * 2000 * SCALE)
         yb = b.sy / (n * SCALE)
-        vb = reg.v + (b.sv / (n * 1024000) if heater else b.sv / (n * SCALE)) if reg.heater else 0.0
+        vb = reg.v + b.sv / (n * 1000 * 1024) if heater else 0.0
         if reg.ok and b.readings > DETECT_MIN_BLOCKS:
             if reg.nb >= DETECT_MIN_BLOCKS:
                 # innovation of the block mean against the fit's forecast (weighted blocks:
                 # a sparse fit's forecast over minutes is no test of a jump)
                 pred = reg.my + reg.s * tb - reg.k * xb + reg.anchor
-                if reg.heater:
+                if heater:
                     pred += reg.g * vb
                 sd = math.sqrt(self.noise.var / n + 4.0 * reg.var_my + MISMATCH_C * MISMATCH_C)
                 if self.detector.update(yb - pred, sd):
@@ -329,7 +327,7 @@ class ThermalEstimator(Answer):
         du = b.uc - b.u0
         reg.add_block(n, tb, xb, vb, yb, lam, reg.t + b.it * 0.001,
                       reg.x + b.ix / (2000 * SCALE),
-                      reg.v + (b.iv / 1024000 if heater else b.iv * _INV) if reg.heater else 0.0,
+                      reg.v + b.iv / (1000 * 1024) if heater else 0.0,
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
         b.next_block()
         if self.settle.block_closed(b.age_ms, b.cb, reg.k if reg.ok and not heater else 0.0):
@@ -357,7 +355,7 @@ class ThermalEstimator(Answer):
         if reg.ok:
             # anchor: the block's residual against the new fit, smoothed over about two blocks
             res = yb - (reg.my + reg.s * reg.rt - reg.k * reg.rx)
-            if reg.heater:
+            if self.heater:
                 res -= reg.g * reg.rv
             reg.anchor += ANCHOR_GAIN * (res - reg.anchor)
             self._level_and_slope()
@@ -494,8 +492,6 @@ class ThermalEstimator(Answer):
             # (with a heater: where the liquid levels off with the heat at the latest duty)
             dist, sd, kp, lk, gp, lg = prof.priors(
                 dist, s2, self.blocks.u0 / 1024 if self.heater else 0.0)
-        if reg.heater == fit.AIR_COLUMN:
-            gp, lg = 0.0, s2 / (AIR_VIEW_SD * AIR_VIEW_SD)  # the air's weight ~ N(0, sd^2)
         # the slope towards the hint, from the fit with the loose prior alone
         solved = False
         if self.heater:
@@ -557,8 +553,11 @@ class ThermalEstimator(Answer):
 
     def forecast_s(self, moved_c, level_c, slope_c_per_s, rate_per_s):
         """Seconds the answer's law takes to move ``moved_c`` from ``level_c`` (the audits)."""
-        t = self._profile.law_for(self, moved_c, level_c, slope_c_per_s) if self._profile_on else 0
-        return t or time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
+        if self._profile_on:
+            t = self._profile.law_for(self, moved_c, level_c, slope_c_per_s)
+            if t is not None:
+                return t
+        return time_to_target_from_slope_s(moved_c, slope_c_per_s, rate_per_s)
 
     def _ambient_ahead_c(self):
         """The ambient the answer uses, deg C, as fixed at the latest block close (a
@@ -567,6 +566,7 @@ class ThermalEstimator(Answer):
         the profile: an answer worked out after a restore, at a later reading of the
         block, must be the one counted down since the block close."""
         return None if self.inputs.ahead is None else self.inputs.ahead * _FINE_INV
+
 
     # ------------------------------------------------------------ save/restore
     def save(self):

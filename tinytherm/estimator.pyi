@@ -18,7 +18,6 @@ MAX_MEMORY_S: float
 SPAN_BLOCKS: float
 RATE_PRIOR_PER_S: float
 KNOWN_AMBIENT_SD_C: float
-AIR_VIEW_SD: float
 TURN_C: float
 DETECT_MIN_BLOCKS: int
 ANCHOR_GAIN: float
