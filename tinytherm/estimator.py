@@ -43,6 +43,8 @@ MIN_MEMORY_S = 30.0       # s: shortest forgetting time constant
 MAX_MEMORY_S = 7200.0     # s: longest
 SPAN_BLOCKS = 4.0         # the memory spans at least this many blocks (sparse readings)
 RATE_PRIOR_PER_S = 1.0 / 1800.0  # 1/s: sd of the loose prior on k (a line until the data bend)
+RATE_PRIOR_MEAN_PER_S = 1.0 / 7200.0  # 1/s: its mean: a liquid loses heat to its room (k > 0),
+#   so a fit not bent yet is no straight line (leave-one-family-out, 32 tune: 0, 1/14400, 1/7200, 1/3600)
 KNOWN_AMBIENT_SD_C = 2.0  # deg C: sd with a known or measured ambient (evaporation, a bent rate)
 TURN_C = 1.0              # deg C: a retreat from the extreme that restarts the fit
 DETECT_MIN_BLOCKS = 5     # blocks before the change detector listens (weighted), and readings
@@ -458,7 +460,8 @@ class ThermalEstimator(Answer):
             r, sd = self.inputs.prior
             dist = r - self.blocks.g0 * _INV
         if prof is None:
-            kp = gp = 0.0
+            kp = RATE_PRIOR_MEAN_PER_S
+            gp = 0.0
             lk = s2 / (RATE_PRIOR_PER_S * RATE_PRIOR_PER_S)
             lg = s2  # heater gain ~ N(0, 1 K/s) without a profile
         else:
