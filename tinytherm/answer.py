@@ -299,6 +299,12 @@ def _work_out(est, target, approach):
     rel2 = DELTA_VAR_FACTOR * own2
     if rel2 < AUDIT_PRIOR_VAR:
         rel2 = AUDIT_PRIOR_VAR
+    if (rel2 < LINE_PRIOR_VAR and reg.k == 0.0 and reg.pkk == 0.0 and est.audits.a[0].n == 0
+            and est.noise.n <= NOISE_PRIOR_N):
+        # the exact line (k pinned: the readings accelerate), no audit checked, the noise
+        # never measured (readings minutes apart): its delta variance has no k term, and
+        # nothing has measured its misfit
+        rel2 = LINE_PRIOR_VAR
     # model error: k off by RATE_MODEL_SD of itself moves ln(eta) by that times
     # d ln(eta) / d ln(k) at the measured slope, q / ((1 - q) k eta) - 1 (q = k gap / slope)
     q = k * gap / slope
@@ -428,6 +434,7 @@ AUDIT_FRACTIONS = (0.125, 0.25, 0.5)  # audit horizons, fractions of the fit's a
 AUDIT_MIN_S = (10.0, 20.0, 40.0)      # s: shortest audit horizons
 AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before any audit (2 % sd)
 DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times this: the audits' prior
+LINE_PRIOR_VAR = 0.15     # (log time)^2: least prior of the pinned line before any audit checks
 RATE_MODEL_SD = 0.2       # relative sd of the fitted rate k from model error (a bend it cannot see)
 REACH_SD = 2.0            # sd of k by which a target beyond the fitted equilibrium may be reached
 #   (leave-one-family-out on dense and sparse, 32 tune traces per family and grid)
