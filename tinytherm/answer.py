@@ -12,6 +12,7 @@ check; plus the model error the audits' short horizons cannot see, the rate k
 off by :data:`RATE_MODEL_SD` of itself (most near the equilibrium, q near 1)::
 
     prior = max(F var_delta(ln eta), AUDIT_PRIOR_VAR)
+            [at least LINE_PRIOR_VAR: k pinned, no audit checked, the noise its prior]
     var = (prior + n var_audits) / (1 + n) + (RATE_MODEL_SD d ln eta / d ln k)^2
           [+ (sw / (s_T eta))^2 for eta beyond WIGGLE_AGE x the fit's age: its misfit]
 
@@ -299,6 +300,12 @@ def _work_out(est, target, approach):
     rel2 = DELTA_VAR_FACTOR * own2
     if rel2 < AUDIT_PRIOR_VAR:
         rel2 = AUDIT_PRIOR_VAR
+    if (rel2 < LINE_PRIOR_VAR and reg.k == 0.0 and not est.audits.a[0].n
+            and est.noise.n <= NOISE_PRIOR_N):
+        # the exact line (k pinned: the readings accelerate; a free k is never exactly 0),
+        # no audit checked, the noise never measured (readings minutes apart): its delta
+        # variance has no k term, and nothing has measured its misfit
+        rel2 = LINE_PRIOR_VAR
     # model error: k off by RATE_MODEL_SD of itself moves ln(eta) by that times
     # d ln(eta) / d ln(k) at the measured slope, q / ((1 - q) k eta) - 1 (q = k gap / slope)
     q = k * gap / slope
@@ -424,10 +431,12 @@ def _backed_off(est, m):
     return x is not None and (to_counts(x) - hold) * m < 0
 
 
-AUDIT_FRACTIONS = (0.125, 0.25, 0.5)  # audit horizons, fractions of the fit's age
-AUDIT_MIN_S = (10.0, 20.0, 40.0)      # s: shortest audit horizons
+# the audits' horizons: (fraction of the fit's age, shortest s); one table, not two (the
+# module's globals fill a 47-slot table)
+AUDIT_HORIZONS = ((0.125, 10.0), (0.25, 20.0), (0.5, 40.0))
 AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before any audit (2 % sd)
 DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times this: the audits' prior
+LINE_PRIOR_VAR = 0.15     # (log time)^2: least prior of the pinned line before any audit checks
 RATE_MODEL_SD = 0.2       # relative sd of the fitted rate k from model error (a bend it cannot see)
 REACH_SD = 2.0            # sd of k by which a target beyond the fitted equilibrium may be reached
 #   (leave-one-family-out on dense and sparse, 32 tune traces per family and grid)
@@ -516,9 +525,8 @@ class Audits:
     STATE_SIZE = 3 * (5 * 8 + 1)
 
     def __init__(self, z):
-        self.a = (Audit(AUDIT_FRACTIONS[0], AUDIT_MIN_S[0]),
-                  Audit(AUDIT_FRACTIONS[1], AUDIT_MIN_S[1]),
-                  Audit(AUDIT_FRACTIONS[2], AUDIT_MIN_S[2]))
+        h = AUDIT_HORIZONS
+        self.a = (Audit(h[0][0], h[0][1]), Audit(h[1][0], h[1][1]), Audit(h[2][0], h[2][1]))
         self.z = z
         self.done = 0  # blocks finished since the fit started (the estimator's): the key
         self.forget()  # (here, not in the estimator: its attribute table stays small)

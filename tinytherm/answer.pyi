@@ -15,9 +15,9 @@ NOISE_PRIOR_N: int
 
 def move_c(noise_sd_c: float) -> float: ...
 
-AUDIT_FRACTIONS: tuple[float, float, float]
-AUDIT_MIN_S: tuple[float, float, float]
+AUDIT_HORIZONS: tuple[tuple[float, float], tuple[float, float], tuple[float, float]]
 AUDIT_PRIOR_VAR: float
+LINE_PRIOR_VAR: float
 AUDIT_MEMORY: int
 AUDIT_FORGET: float
 AUDIT_STRETCH: float
