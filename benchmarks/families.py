@@ -71,7 +71,8 @@ from tqdm import tqdm  # noqa: E402
 from host_sim.sim import families as fam  # noqa: E402
 from host_sim.replay import recordings  # noqa: E402
 from host_sim.replay.baselines import make_family_baselines  # noqa: E402
-from host_sim.replay.metrics import summarise, trace_metrics  # noqa: E402
+from host_sim.replay.metrics import (paired_median_rel_errors, summarise,  # noqa: E402
+                                     trace_metrics)
 from tinytherm import status as st  # noqa: E402
 from family_report import (BASELINES, COLUMN_GROUPS, _columns_key, _f,  # noqa: E402,F401
                            approach_pairs, best_baseline, default_and_approach_table,
@@ -246,7 +247,7 @@ def score_all(time_s, temp_c, target_c, crossing_s, clean_c, noise_sd_c, directi
         judge.update(true_signal_c=liquid_c, target_c=liquid_at_crossing_c)
     if pours_s:
         judge.update(probe_c=clean_c, jumps_s=pours_s)
-    out, cost = {}, {}
+    out, cost, etas = {}, {}, {}
     for label, _name, spec, setting in plan:
         cls = load_class(spec)
         kw = device_kwargs(cls, heater is not None, quantum_c)
@@ -263,11 +264,18 @@ def score_all(time_s, temp_c, target_c, crossing_s, clean_c, noise_sd_c, directi
                                                   approach=approach)
         cost[label] = time.process_time() - t0
         out[label] = trace_metrics(time_s, eta, crossing_s, low, high, status=status, **judge)
+        etas[label] = eta
     for base in make_family_baselines():
         t0 = time.process_time()
         eta, status = replay_baseline(base, time_s, temp_c, target_c)
         cost[base.name] = time.process_time() - t0
         out[base.name] = trace_metrics(time_s, eta, crossing_s, status=status, **judge)
+        # each method's median is over the rows it answers: pair them on the same rows
+        for label, mine in etas.items():
+            ours, theirs = paired_median_rel_errors(time_s, mine, eta, crossing_s,
+                                                    approach_start_s=approach_start_s)
+            out[label]["paired_" + base.name] = ours
+            out[base.name]["paired_" + label] = theirs
     return out, cost
 
 

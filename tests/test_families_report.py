@@ -100,3 +100,29 @@ def test_tables_show_default_beside_approach_and_the_sparse_figures(families_ben
                              F.sparse_families(), "family")
     assert len(table) == 2 + len(F.sparse_families()) + 1
     assert "| topup | core[approach=0] | 1 | 0.200 | 0.200 | 0.00 | 0.25 | 3 |" in table[-2]
+
+
+def test_the_baseline_paired_on_the_rows_both_answer(families_bench):
+    # made-up per-trace figures (arithmetic, common practice, no source): the core 0.2 on its
+    # own rows, 0.05 on the rows it shares with slope (the family's best baseline, 0.4 on its
+    # own rows: 0.50x), slope 0.2 on those: 0.25x
+    def core(f):
+        m = _metric(0.2)
+        m["paired_slope"] = 0.05
+        return m
+    dense = _results(F.FAMILIES, core, lambda f: _metric(0.1))
+    for r in dense:
+        r["metrics"]["slope"]["paired_core[approach=0]"] = 0.2
+    lines = families_bench.default_and_approach_table(dense, ("core[approach=0]", "core[approach=1]"),
+                                                      F.FAMILIES)
+    room = [line for line in lines if line.startswith("| room |")][0]
+    assert "| 0.50x |" in room and room.endswith("| 0.25x (0.050 / 0.200) |"), room
+    for r in dense:
+        r["metrics"]["slope"]["paired_core[approach=0]"] = 0.025
+    lines = families_bench.default_and_approach_table(dense, ("core[approach=0]", "core[approach=1]"),
+                                                      F.FAMILIES)
+    assert lines[-1].endswith("| 2.00x (0.050 / 0.025) |"), lines[-1]
+    # results without the paired figures (made before they existed) show a dash
+    plain = _results(F.FAMILIES, lambda f: _metric(0.2), lambda f: _metric(0.1))
+    assert families_bench.default_and_approach_table(
+        plain, ("core[approach=0]", "core[approach=1]"), F.FAMILIES)[-1].endswith("| - |")

@@ -99,3 +99,31 @@ def test_exponential_refit_recovers_an_exact_curve():
         eta_w = w.predict(50.0)
     assert eta_w == pytest.approx(crossing - 600.0, rel=1e-3)
     assert w.predict(10.0) is None               # beyond the fitted equilibrium
+
+
+def test_paired_medians_use_only_the_rows_both_answer():
+    # Arithmetic on made-up rows (common practice, no source): the crossing at 1000 s, rows
+    # every 100 s from 0, warm-up 60 s. Method a answers every row 10 % long; method b
+    # leaves the first three evaluated rows blank and answers the rest 20 % long.
+    from host_sim.replay.metrics import paired_median_rel_errors
+    t = np.arange(0.0, 1001.0, 100.0)
+    rem = 1000.0 - t
+    eta_a = rem * 1.1
+    eta_b = rem * 1.2
+    eta_b[:4] = np.nan                       # t = 0 (warm-up), 100, 200, 300: blank
+    a, b = paired_median_rel_errors(t, eta_a, eta_b, 1000.0, warmup_s=60.0, floor_s=1.0)
+    shared = (t >= 400.0) & (t < 1000.0)
+    rel_a = np.abs(eta_a - rem)[shared] / rem[shared]
+    rel_b = np.abs(eta_b - rem)[shared] / rem[shared]
+    assert a == pytest.approx(np.median(rel_a)) and a == pytest.approx(0.1)
+    assert b == pytest.approx(np.median(rel_b)) and b == pytest.approx(0.2)
+    # a 50 % off on the rows b leaves blank: its own median (trace_metrics, over its own
+    # rows) rises, the paired one does not
+    eta_a[1:4] = rem[1:4] * 1.5
+    own = trace_metrics(t, eta_a, 1000.0, warmup_s=60.0, floor_s=1.0)["median_rel_error"]
+    a2, b2 = paired_median_rel_errors(t, eta_a, eta_b, 1000.0, warmup_s=60.0, floor_s=1.0)
+    assert own == pytest.approx(np.median([0.5] * 3 + [0.1] * 6))
+    assert a2 == pytest.approx(0.1) and b2 == pytest.approx(0.2)
+    # no shared row, no crossing: nothing to compare
+    assert paired_median_rel_errors(t, eta_a, np.full(len(t), np.nan), 1000.0) == (None, None)
+    assert paired_median_rel_errors(t, eta_a, eta_b, None) == (None, None)

@@ -107,6 +107,31 @@ def relative_errors(time_s, eta_s, crossing_s, warmup_s=WARMUP_S, floor_s=FLOOR_
     return mask, rel, remaining
 
 
+def paired_median_rel_errors(time_s, eta_a_s, eta_b_s, crossing_s, warmup_s=WARMUP_S,
+                             floor_s=FLOOR_S, approach_start_s=None):
+    """Median relative errors of two methods on the rows both answer: ``(a, b)``.
+
+    ``time_s``: per-row seconds; ``eta_a_s``, ``eta_b_s``: each method's
+    per-row time to target (seconds, None or NaN where it gave none);
+    ``crossing_s``: the true crossing (seconds, same clock), None for none.
+    Rows are evaluated as in :func:`trace_metrics` (after the warm-up from
+    ``approach_start_s``, before the crossing). Each method's own median is
+    over the rows it answers, so a method that leaves the hard early rows blank
+    looks better than one that answers them; this pairs them on the same rows.
+    ``(None, None)`` when no evaluated row has both.
+    """
+    if crossing_s is None:
+        return None, None
+    mask, rel_a, _ = relative_errors(time_s, eta_a_s, crossing_s, warmup_s, floor_s,
+                                     start_s=approach_start_s)
+    _, rel_b, _ = relative_errors(time_s, eta_b_s, crossing_s, warmup_s, floor_s,
+                                  start_s=approach_start_s)
+    both = mask & np.isfinite(rel_a) & np.isfinite(rel_b)
+    if not both.any():
+        return None, None
+    return float(np.median(rel_a[both])), float(np.median(rel_b[both]))
+
+
 def _status_name(s):
     """A status given as name or core code -> lower-case name (None stays None)."""
     if s is None or isinstance(s, str):
