@@ -2,8 +2,8 @@
 
 A hot drink cooling towards a room, its target 4 C above the room (near the
 fitted equilibrium, where the fit's own delta-method variance of ln(eta)
-is largest), read every 10 s by a noisy 12-bit probe. The answer is shown when
-the forecast variance at its horizon (``Audits.var_at``: the audits' measured
+is largest), read every 10 s by a noisy 12-bit probe (``probe_rows.counted_rows``).
+The answer is shown when the forecast variance at its horizon (``Audits.var_at``: the audits' measured
 errors with the fit's own variance as their prior, the variance the interval
 is drawn from) is within ``answer.MAX_REL_SD`` squared; before, the fit's own
 variance alone decided, and a fit whose audits had measured small errors still
@@ -17,8 +17,7 @@ import numpy as np
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
-from tinytherm import status as st
-from tinytherm.estimator import ThermalEstimator
+from probe_rows import counted_rows
 
 # liquid at t = 0, room, k (1/s), probe lag (s), target: deg C, 1/s, s, deg C
 DRINK = (70.0, 18.0, 1.0 / 2000.0, 5.0, 22.0)
@@ -33,20 +32,12 @@ def test_a_time_is_shown_when_its_forecast_variance_allows_it():
     crossing = brentq(lambda t: sol.sol(t)[1] - target, grid[i - 1], grid[i], xtol=1e-9)
     rows = unanswered = shown = covered = 0
     for seed in range(12):
-        rng = np.random.default_rng(800 + seed)
-        times = np.arange(0.0, crossing, 10.0)
-        readings = np.round((sol.sol(times)[1] + rng.normal(0.0, 0.12, len(times))) / 0.0625) * 0.0625
-        est = ThermalEstimator(quantum_c=0.0625)
-        for j, t in enumerate(times):
-            est.update(float(readings[j]), 0.0 if j == 0 else 10.0)
-            est.predict(target)
-            if t < 60.0:
-                continue  # (the benchmark's warm-up)
-            rows += 1
-            unanswered += est.status not in (st.TRACKING, st.ARRIVED)
-            if est.status == st.TRACKING and est.eta_s > 0.0:
-                shown += 1
-                covered += est.eta_low_s <= crossing - t <= est.eta_high_s
+        counts = counted_rows(lambda times: sol.sol(times)[1], crossing, target, 800 + seed,
+                              10.0, 0.12, 0.0625)
+        rows += counts[0]
+        unanswered += counts[0] - counts[1]
+        shown += counts[2]
+        covered += counts[3]
     # the fit's own variance deciding: 98 of the 6096 rows unanswered; the forecast
     # variance deciding: 62, the 36 rows answered so all covered
     assert unanswered <= 75, (unanswered, rows)
