@@ -1,13 +1,14 @@
 """Whether a time is shown follows the variance its interval is drawn from.
 
 A hot drink cooling towards a room, its target 4 C above the room (near the
-fitted equilibrium, where the fit's own delta-method variance of ln(eta)
-is largest), read every 10 s by a noisy 12-bit probe (``probe_rows.counted_rows``).
-The answer is shown when the forecast variance at its horizon (``Audits.var_at``: the audits' measured
-errors with the fit's own variance as their prior, the variance the interval
-is drawn from) is within ``answer.MAX_REL_SD`` squared; before, the fit's own
-variance alone decided, and a fit whose audits had measured small errors still
-showed nothing near the equilibrium. The rows so answered hold the crossing.
+fitted equilibrium, where the fit's own delta-method variance of ln(eta) is
+largest), read every 10 s by a noisy 12-bit probe (``probe_rows.counted_rows``).
+The answer is shown when the forecast variance at its horizon
+(``Audits.var_at``: the audits' measured errors with the fit's own variance as
+their prior, the variance the interval is drawn from) is within
+``answer.MAX_REL_SD`` squared; before, the fit's own variance alone decided, and
+a fit whose audits had measured small errors still showed nothing near the
+equilibrium. The rows so answered hold the crossing.
 
 Reference physics: scipy ``solve_ivp`` (Radau, rtol = atol = 1e-10) of
 ``dL/dt = -k (L - R)``, ``dP/dt = (L - P) / lag``; the probe's crossing by scipy
