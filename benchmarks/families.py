@@ -343,12 +343,22 @@ def real_recording(plan):
              "| target C | crossing min | method | median rel err | p90 rel err | no estimate | "
              "coverage 80 % | early arrivals | first answer s |", "|---|---|---|---|---|---|---|---|---|"]
     per_target = []
+    # each method's median is over the rows it answers (the window refit leaves the first
+    # minutes blank): each estimator paired with each baseline on the rows both answer
+    paired = ["", "Paired on the rows both answer (median rel err, estimator / baseline; "
+              "metrics.paired_median_rel_errors):", "",
+              "| target C | method | " + " | ".join("vs %s" % b for b in BASELINES) + " |",
+              "|---|---|" + "---|" * len(BASELINES)]
     for target in REAL_TARGETS_C:
         crossing = recordings.recording_crossing_s(t, y, target)
         if crossing is None:
             continue
         metrics, _ = score_all(t, y, target, crossing, smooth, sd, "cooling", plan,
                                quantum_c=recordings.COOLING_WATER_QUANTUM_C)
+        for label in (p[0] for p in plan):
+            paired.append("| %g | %s | %s |" % (target, label, " | ".join(
+                "%s / %s" % (_f(metrics[label].get("paired_" + b)),
+                             _f(metrics[b].get("paired_" + label))) for b in BASELINES)))
         per = {}
         for m in methods:
             s = summarise([metrics[m]])
@@ -358,7 +368,7 @@ def real_recording(plan):
                 _f(s["no_estimate_fraction"], "%.2f"), _f(s["coverage"], "%.2f"),
                 _f(s["early_arrival"], "%d"), _f(s["first_answer_s"], "%.0f")))
         per_target.append((target, per))
-    return lines, per_target
+    return lines + paired, per_target
 
 
 # ------------------------------------------------------------------ output
