@@ -15,7 +15,12 @@ them) by its cause:
   and, when the interval missed the true remaining time, whether the point was
   short (the liquid took longer) or long;
 - no estimate: the status shown instead (gathering, settling, out of reach,
-  sensor fault, disturbed).
+  sensor fault, disturbed); gathering and disturbed with what began the fit they
+  gather for (the trace's start, a turn, a jump, the settle restart, a gap; "spike"
+  when one of the two readings before it was more than max(1 C, 6 noise sd) off the
+  noise-free probe, a sensor fault the guard passed), settling with why (the fitted
+  slope against the block means, "turned"; a time worked out but its forecast sd
+  over the show gate, "show gate"; else "other").
 
 Each trace weighs one (its rows' shares are averaged over the traces, as the
 per-trace coverage and no-estimate figures of ``benchmarks/families.py`` are),
@@ -39,6 +44,7 @@ from host_sim.sim import families as fam  # noqa: E402
 from tinytherm import answer  # noqa: E402
 from tinytherm import status as st  # noqa: E402
 from tinytherm.estimator import ThermalEstimator  # noqa: E402
+from tinytherm.guard import GAP_RESTART  # noqa: E402
 
 def trace_causes(family, seed, sampling):
     """Counter of the causes of one trace's evaluated rows (keys: the module docstring's)."""
@@ -58,11 +64,28 @@ def trace_causes(family, seed, sampling):
     answer.time_to_target_drift_s = watched
     answer._work_out = work_out
     out = Counter()
+    began = ["start"]  # what began the current fit
+    off = max(1.0, 6.0 * tr["noise_sd_c"])  # deg C: a reading this far off the probe is a fault
     try:
         est = ThermalEstimator(**F.device_kwargs(ThermalEstimator, ft.heater is not None,
                                                  tr["quantum_c"]))
         start = float(tr.get("approach_start_s") or ft.time_s[0])
-        for t in F.feed(est, ft.time_s, ft.temp_c, ft.ambient_c, ft.heater):
+        begin_again = est._begin_again
+        seen = {"turns": 0, "i": 0}
+
+        def traced_begin(disturbed, from_previous=False):
+            why = "jump" if disturbed else ("turn" if est.turns != seen["turns"] else "settle")
+            seen["turns"] = est.turns
+            i = seen["i"]
+            spike = any(abs(ft.temp_c[j] - ft.clean_c[j]) > off for j in range(max(0, i - 1), i + 1))
+            began[0] = why + (", spike" if spike else "")
+            return begin_again(disturbed, from_previous)
+
+        est._begin_again = traced_begin
+        for i, t in enumerate(F.feed(est, ft.time_s, ft.temp_c, ft.ambient_c, ft.heater)):
+            seen["i"] = i + 1  # (the reading fed next: _begin_again runs inside its update)
+            if est.guard.gap == GAP_RESTART and est.last_verdict == st.ACCEPTED and i:
+                began[0] = "gap"
             est.predict(tr["target_c"])  # (between block closes: the answer counted down)
             remaining = tr["crossing_time_s"] - t
             if t - start < WARMUP_S or remaining <= 0.0:
@@ -70,7 +93,13 @@ def trace_causes(family, seed, sampling):
             if est.status == st.ARRIVED:
                 out["shown: arrived"] += 1
             elif est.status != st.TRACKING or est.eta_s is None:
-                out["none: " + st.status_name(est.status)] += 1
+                key = "none: " + st.status_name(est.status)
+                if est.status in (st.GATHERING, st.DISTURBED):
+                    key += " (after %s)" % began[0]
+                elif est.status == st.SETTLING:
+                    key += " (%s)" % ("show gate" if est.eta_s is not None else "turned" if (
+                        est._slope * est.blocks.dir < 0.0) else "other")
+                out[key] += 1
             else:
                 age = max(est.audits.age_ms * 0.001, 1.0)
                 key = "shown: drift %s, eta %s 2 x fit age" % (

@@ -5,24 +5,23 @@ Worked out once per block close (and target), then counted down between blocks
 the closed form :func:`tinytherm.num.time_to_target_from_slope_s` (the one copy in
 the core; :mod:`tinytherm.model` re-exports it).
 
-The interval is ``eta * exp(+-z sd)``, ``sd`` the sd of ln(eta): what the fit's
-own forecasts measured (:class:`Audits`), the fit's delta-method variance (times
-:data:`DELTA_VAR_FACTOR`, at least :data:`AUDIT_PRIOR_VAR`) the prior worth one
-check; plus the model error the audits' short horizons cannot see, the rate k
-off by :data:`RATE_MODEL_SD` of itself (most near the equilibrium, q near 1)::
+The interval is ``eta * exp(+-z sd)``, ``sd`` the sd of ln(eta): what the fit's own
+forecasts measured (:class:`Audits`), the fit's delta-method variance (times
+:data:`DELTA_VAR_FACTOR`, at least :data:`AUDIT_PRIOR_VAR`) the prior worth one check; plus
+the model error the audits' short horizons cannot see, the rate k off by
+:data:`RATE_MODEL_SD` of itself (most near the equilibrium, q near 1)::
 
     prior = max(F var_delta(ln eta), AUDIT_PRIOR_VAR)
             [at least LINE_PRIOR_VAR: k pinned, no audit checked, the noise its prior]
     var = (prior + n var_audits) / (1 + n) + (RATE_MODEL_SD d ln eta / d ln k)^2
           [+ (sw / (s_T eta))^2 for eta beyond WIGGLE_AGE x the fit's age: its misfit]
 
-The interval's evidence (:class:`Audits`): the fit checks its forecasts
-against what happened. Three audits watch horizons of 1/8, 1/4 and 1/2 of the
-fit's age (at least 10, 20 and 40 s). Each records the fitted level, slope and
-rate when it starts; once its horizon has passed and the level has moved
-clearly, it compares the time the fit's law predicted for the observed change
-with the time it took (not when the horizon exceeded :data:`AUDIT_YOUNG` times
-the age of the fit that made it: a start-up extrapolated says nothing of it)::
+The interval's evidence (:class:`Audits`): the fit checks its forecasts against what
+happened. Three audits watch horizons of 1/8, 1/4 and 1/2 of the fit's age (at least 10, 20
+and 40 s). Each records the fitted level, slope and rate when it starts; once its horizon
+has passed and the level has moved clearly, it compares the time the fit's law predicted for
+the observed change with the time it took (not when the horizon exceeded :data:`AUDIT_YOUNG`
+times the age of the fit that made it: a start-up extrapolated says nothing of it)::
 
     e = ln(took / predicted),  |e| <= ln 8,  w = n (age_then / age_now)^AUDIT_FORGET
     var_audits <- (w var_audits + e^2) / (w + 1),  then n <- min(round(w + 1), AUDIT_MEMORY)
@@ -33,22 +32,22 @@ fit's interval; unbiased while the errors hold steady).
 :meth:`Audits.var_at` interpolates the three in log horizon (beyond the longest audit the
 variance grows with the horizon, at most :data:`AUDIT_STRETCH` times).
 
-The equilibrium's drift (no heater, profile or ambient: what moves ``E`` is then
-unknown, an immersion coil's coolant warming, a tub and its wort cooling together):
-the longest audit's waiting forecast holds the fit when it started, so its fitted
-``E = level + slope / k`` then and now give ``b = (E_now - E_then) / (age_now -
-age_then)`` (once the fit then had bent through :data:`DRIFT_BEND` time constants,
-over at least :data:`DRIFT_MIN_S`). The time is then that of ``dT/dt = -k (T -
-E(t))``, ``E(t) = E + b t`` (:func:`tinytherm.num.time_to_target_drift_s`), and the drift
-:data:`DRIFT_SD` of itself smaller gives one more sd of ln(eta) (never arriving
-so: no upper bound). Before the drift is measured, a passive answer beyond the fit's age
-(bent through :data:`UNSEEN_FROM` time constants) has as upper end the time at k
-:data:`UNSEEN_BEND` / age larger: a bend slower than the fit's age is unseen. A fit bent through
-less, its equilibrium beyond the ambient hint it was given, ends at the time under the law
-levelling off at the hint (its readings' bend is not the liquid's law yet).
-
-A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`, or one k
-:data:`REACH_SD` sd lower reaches) gets an open-ended time (why: at its code). Runs on
+The equilibrium's drift (no heater, profile or ambient: what moves ``E`` is then unknown, an
+immersion coil's coolant warming, a tub and its wort cooling together): the longest audit's
+waiting forecast holds the fit when it started, so its fitted ``E = level + slope / k`` then
+and now give ``b = (E_now - E_then) / (age_now - age_then)`` (once the fit then had bent
+through :data:`DRIFT_BEND` time constants, over at least :data:`DRIFT_MIN_S`). The time is then
+that of ``dT/dt = -k (T - E(t))``, ``E(t) = E + b t``
+(:func:`tinytherm.num.time_to_target_drift_s`), and the drift :data:`DRIFT_SD` of itself
+smaller gives one more sd of ln(eta) (never arriving so: no upper bound). A fit turned back
+against its block means rests on its equilibrium: when that moved on towards the target by over
+``z`` sd, the liquid moves at the drift (shown within the fit's age). Before the drift is
+measured, a passive answer beyond the fit's age (bent through :data:`UNSEEN_FROM` time
+constants) has as upper end the time at k :data:`UNSEEN_BEND` / age larger: a bend slower than
+the fit's age is unseen. A fit bent through less, its equilibrium beyond the ambient hint it
+was given, ends at the time under the law levelling off at the hint (its readings' bend is not
+the liquid's law yet). A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`,
+or one k :data:`REACH_SD` sd lower reaches) gets an open-ended time (why: at its code). Runs on
 CPython and MicroPython.
 """
 import math
@@ -238,16 +237,6 @@ def _work_out(est, target, approach):
                 go = tol / slower  # s: the line's tolerance to go at it
                 est.eta_high_s = go * spread(c.z * math.sqrt(c.var_at(go, age_s, AUDIT_PRIOR_VAR)))
             return
-    if d == 0 or slope * d <= 0.0 or gap * d <= 0.0:
-        if approach == 0 and slope * d > 0.0 and k > 0.0:
-            est.settle.carried(est, target, level, slope, k)  # (the probe rising after a pour)
-        return  # not moving, or turning: no honest time
-    if est._profile_on and est.heater and age_s < PROFILE_LAG_TIMES * est._profile.probe_lag_s:
-        return  # the element's and the probe's lag still hide the heat-up's slope
-    eta = eta0 = time_to_target_from_slope_s(gap, slope, k)
-    eta_shape = None  # the time under the profile's law (passive liquids)
-    if est._profile_on:
-        eta_shape = est._profile.law_for(est, gap, level, slope, var_slope / (slope * slope))
     # the equilibrium's drift since the longest audit started (its waiting forecast holds
     # the fit then); not with a heater, a profile or an ambient (the duty, the vessel's law,
     # the air known move it)
@@ -257,9 +246,24 @@ def _work_out(est, target, approach):
     passive = not (est.heater or est._profile_on or est.inputs.known())
     if passive and k > 0.0 and r > 0.0 and r * a.age >= DRIFT_BEND and age_s - a.age >= DRIFT_MIN_S:
         bd = (level + slope / k - a.level - a.slope / r) / (age_s - a.age)
+    if (d == 0 or slope * d <= 0.0 or gap * d <= 0.0) and not (
+            bd * m > 0.0 and gap * m > 0.0 and (approach == 0 or approach == m)
+            and c.stands_out(bd * (age_s - a.age), est.reg, slope, k, var_slope, gk)):
+        if approach == 0 and slope * d > 0.0 and k > 0.0:
+            est.settle.carried(est, target, level, slope, k)  # (the probe rising after a pour)
+        return  # not moving, or turning (unless on an equilibrium drifting on): no honest time
+    if est._profile_on and est.heater and age_s < PROFILE_LAG_TIMES * est._profile.probe_lag_s:
+        return  # the element's and the probe's lag still hide the heat-up's slope
+    eta = eta0 = time_to_target_from_slope_s(gap, slope, k)
+    eta_shape = None  # the time under the profile's law (passive liquids)
+    if est._profile_on:
+        eta_shape = est._profile.law_for(est, gap, level, slope, var_slope / (slope * slope))
     open_end = slow
     if bd != 0.0:
-        eta = time_to_target_drift_s(gap, slope, k, bd)
+        # (turned: resting on its E, the liquid moves at the drift; shown within the fit's age)
+        eta = time_to_target_drift_s(gap, slope if slope * gap > 0.0 else bd, k, bd)
+        if slope * gap <= 0.0 and not (eta is not None and eta <= age_s):
+            return
         if eta is None:
             bd = 0.0
             if eta0 is not None:
@@ -312,9 +316,9 @@ def _work_out(est, target, approach):
     b = 0.0 if law is None else RATE_MODEL_SD * (
         q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * law) - 1.0)
     if bd != 0.0:
-        # the drift DRIFT_SD of itself smaller moves ln(eta) by one sd more (when it never
-        # arrives so: no upper bound)
-        other = time_to_target_drift_s(gap, slope, k, bd * (1.0 - DRIFT_SD))
+        # the drift DRIFT_SD of itself smaller: one sd more of ln(eta) (never so: no upper end)
+        bs = bd * (1.0 - DRIFT_SD)  # (a turned fit: the liquid at the slower drift too)
+        other = time_to_target_drift_s(gap, slope if slope * gap > 0.0 else bs, k, bs)
         if other is None:
             open_end = True
         elif other > 0.0:
@@ -555,6 +559,16 @@ class Audits:
             if a.due(age_s):
                 return True
         return False
+
+    def stands_out(self, moved, reg, slope, k, var_slope, gk):
+        """True when the fitted equilibrium's move ``moved`` (deg C) is over ``z`` of its sd:
+        E's delta-method variance now (s the slope at the level), for both ends::
+
+            var E = (var s - 2 e cov(s, k) + e^2 var k) / k^2,   e = s / k
+        """
+        e = slope / k
+        v = var_slope - 2.0 * e * (reg.psk + gk * reg.pkk) + e * e * reg.pkk
+        return moved * moved * k * k > 2.0 * v * self.z * self.z
 
     def var_at(self, eta_s, age_s, prior_var):
         """Forecast-error variance of ln(eta) at horizon ``eta_s`` s, fit ``age_s`` s old.
