@@ -30,12 +30,14 @@ from tinytherm.estimator import ThermalEstimator  # noqa: E402
 
 MODULES = (answer, estimator, settle)  # where a knob's constant is looked up, in this order
 
-# constants the core derives from a knob at import: (module, derived, knob, function)
+# constants the core derives from a knob at import: (module, derived, knob, function); the
+# knob is looked up as a keyword is (answer._BLOCK_MS follows estimator.BLOCK_S)
 DERIVED = (
     (answer, "_ARRIVE_MIN_MS", "ARRIVE_MIN_S", lambda s: int(s * 1000)),
     (settle, "RISE_ARRIVE_MIN_MS", "RISE_ARRIVE_MIN_S", lambda s: int(s * 1000)),
     (settle, "SETTLE_MS", "SETTLE_S", lambda s: int(s * 1000)),
     (estimator, "_BLOCK_MS", "BLOCK_S", lambda s: int(s * 1000)),
+    (answer, "_BLOCK_MS", "BLOCK_S", lambda s: int(s * 1000)),
 )
 
 
@@ -110,7 +112,7 @@ class _Applied:
         for m, c, v in self.knobs:
             setattr(m, c, v)
         for m, d, knob, f in DERIVED:
-            setattr(m, d, f(getattr(m, knob)))
+            setattr(m, d, f(getattr(*_constant(knob))))  # (the knob may live in another module)
         return self
 
     def __exit__(self, *exc):

@@ -62,3 +62,13 @@ def test_derived_and_int_constants_follow_inside_a_call():
         assert settle.RISE_ARRIVE_MIN_MS == 12500 and settle.SETTLE_MS == 600000
     assert settle.RISE_ARRIVE_MIN_MS == int(settle.RISE_ARRIVE_MIN_S * 1000)
     assert settle.SETTLE_MS == int(settle.SETTLE_S * 1000)
+
+
+def test_the_answers_block_length_follows_the_estimators():
+    # answer._BLOCK_MS is estimator._BLOCK_MS (BLOCK_S), kept in answer to spare an import of
+    # the estimator module (one source: checked here, and moved together by the knob)
+    assert answer._BLOCK_MS == estimator._BLOCK_MS == int(estimator.BLOCK_S * 1000)
+    est = Knobs(block_s=20.0)
+    with est._applied():
+        assert answer._BLOCK_MS == estimator._BLOCK_MS == 20000
+    assert answer._BLOCK_MS == estimator._BLOCK_MS == 40000

@@ -12,7 +12,8 @@ the model error the audits' short horizons cannot see, the rate k off by
 :data:`RATE_MODEL_SD` of itself (most near the equilibrium, q near 1)::
 
     prior = max(F var_delta(ln eta), AUDIT_PRIOR_VAR)
-            [at least LINE_PRIOR_VAR: k pinned, no audit checked, the noise its prior]
+            [at least LINE_PRIOR_VAR: k pinned, the noise its prior, no audit checked
+             or the readings a block apart]
     var = (prior + n var_audits) / (1 + n) + (RATE_MODEL_SD d ln eta / d ln k)^2
           [+ (sw / (s_T eta))^2 for eta beyond WIGGLE_AGE x the fit's age: its misfit]
 
@@ -73,6 +74,7 @@ _INV = 1.0 / SCALE
 _IX_TO_CS = 1.0 / (2000 * SCALE)  # doubled count ms -> deg C s
 _IV_TO_S = 1.0 / (1000 * DUTY_SCALE)  # duty-count ms -> s at full duty
 _ARRIVE_MIN_MS = int(ARRIVE_MIN_S * 1000)
+_BLOCK_MS = 40000  # ms: estimator._BLOCK_MS (BLOCK_S): readings this far apart are a block each
 
 
 def predict(self, target_c, approach=0):
@@ -304,11 +306,15 @@ def _work_out(est, target, approach):
     rel2 = DELTA_VAR_FACTOR * own2
     if rel2 < AUDIT_PRIOR_VAR:
         rel2 = AUDIT_PRIOR_VAR
-    if (rel2 < LINE_PRIOR_VAR and reg.k == 0.0 and not est.audits.a[0].n
-            and est.noise.n <= NOISE_PRIOR_N):
+    if (rel2 < LINE_PRIOR_VAR and reg.k == 0.0 and est.noise.n <= NOISE_PRIOR_N
+            and (not est.audits.a[0].n or est.guard.elapsed_ms >= _BLOCK_MS)):
         # the exact line (k pinned: the readings accelerate; a free k is never exactly 0),
-        # no audit checked, the noise never measured (readings minutes apart): its delta
-        # variance has no k term, and nothing has measured its misfit
+        # the noise never measured: its delta variance has no k term, and nothing has
+        # measured its misfit before an audit checks. Read a block apart (minutes: no
+        # block holds two readings) it stays the prior the audits' checks at the answer's
+        # horizon replace by their count (var_at): the shortest audit's first check says
+        # nothing of a horizon the others have not checked (it was switched off there,
+        # leaving 2 % intervals, AUDIT_PRIOR_VAR, on a pot's fits of 5-8 readings)
         rel2 = LINE_PRIOR_VAR
     # model error: k off by RATE_MODEL_SD of itself moves ln(eta) by that times
     # d ln(eta) / d ln(k) at the measured slope, q / ((1 - q) k eta) - 1 (q = k gap / slope)
@@ -440,7 +446,8 @@ def _backed_off(est, m):
 AUDIT_HORIZONS = ((0.125, 10.0), (0.25, 20.0), (0.5, 40.0))
 AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before any audit (2 % sd)
 DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times this: the audits' prior
-LINE_PRIOR_VAR = 0.15     # (log time)^2: least prior of the pinned line before any audit checks
+LINE_PRIOR_VAR = 0.15     # (log time)^2: least prior of the pinned line (before any audit checks;
+#   read a block apart, at every age: the audits' checks at a horizon replace it by their count)
 RATE_MODEL_SD = 0.2       # relative sd of the fitted rate k from model error (a bend it cannot see)
 REACH_SD = 2.0            # sd of k by which a target beyond the fitted equilibrium may be reached
 #   (leave-one-family-out on dense and sparse, 32 tune traces per family and grid)
