@@ -17,39 +17,18 @@ the model error the audits' short horizons cannot see, the rate k off by
     var = (prior + n var_audits) / (1 + n) + (RATE_MODEL_SD d ln eta / d ln k)^2
           [+ (sw / (s_T eta))^2 for eta beyond WIGGLE_AGE x the fit's age: its misfit]
 
-The interval's evidence (:class:`Audits`): the fit checks its forecasts against what
-happened. Three audits watch horizons of 1/8, 1/4 and 1/2 of the fit's age (at least 10, 20
-and 40 s). Each records the fitted level, slope and rate when it starts; once its horizon
-has passed and the level has moved clearly, it compares the time the fit's law predicted for
-the observed change with the time it took (not when the horizon exceeded :data:`AUDIT_YOUNG`
-times the age of the fit that made it: a start-up extrapolated says nothing of it)::
+The interval's evidence (:class:`Audits`): three audits watch horizons of 1/8, 1/4 and
+1/2 of the fit's age; each compares the time the fit's law predicted for an observed change
+with the time it took, ``e = ln(took / predicted)``, into a forgetting mean of ``e^2``
+(:meth:`Audits.var_at` interpolates them in log horizon).
 
-    e = ln(took / predicted),  |e| <= ln 8,  w = n (age_then / age_now)^AUDIT_FORGET
-    var_audits <- (w var_audits + e^2) / (w + 1),  then n <- min(round(w + 1), AUDIT_MEMORY)
-
-(the older checks weigh less as the fit grows: the first minute's misses do not set a grown
-fit's interval; unbiased while the errors hold steady).
-
-:meth:`Audits.var_at` interpolates the three in log horizon (beyond the longest audit the
-variance grows with the horizon, at most :data:`AUDIT_STRETCH` times).
-
-The equilibrium's drift (no heater, profile or ambient: what moves ``E`` is then unknown, an
-immersion coil's coolant warming, a tub and its wort cooling together): the longest audit's
-waiting forecast holds the fit when it started, so its fitted ``E = level + slope / k`` then
-and now give ``b = (E_now - E_then) / (age_now - age_then)`` (once the fit then had bent
-through :data:`DRIFT_BEND` time constants, over at least :data:`DRIFT_MIN_S`). The time is then
-that of ``dT/dt = -k (T - E(t))``, ``E(t) = E + b t``
-(:func:`tinytherm.num.time_to_target_drift_s`), and the drift :data:`DRIFT_SD` of itself
-smaller gives one more sd of ln(eta) (never arriving so: no upper bound). A fit turned back
-against its block means rests on its equilibrium: when that moved on towards the target by over
-``z`` sd, the liquid moves at the drift (shown within the fit's age). Before the drift is
-measured, a passive answer beyond the fit's age (bent through :data:`UNSEEN_FROM` time
-constants) has as upper end the time at k :data:`UNSEEN_BEND` / age larger: a bend slower than
-the fit's age is unseen. A fit bent through less, its equilibrium beyond the ambient hint it
-was given, ends at the time under the law levelling off at the hint (its readings' bend is not
-the liquid's law yet). A target just beyond the fitted equilibrium (:data:`EQUILIBRIUM_SLACK`,
-or one k :data:`REACH_SD` sd lower reaches) gets an open-ended time (why: at its code). Runs on
-CPython and MicroPython.
+The equilibrium's drift (a passive fit: a coolant warming, a tub and its wort cooling
+together) is measured from the longest audit's waiting forecast, ``b = dE/dt``, and the time
+is that of ``dT/dt = -k (T - E(t))``, ``E(t) = E + b t``
+(:func:`tinytherm.num.time_to_target_drift_s`). A turned fit answers at its drift; an
+unmeasured bend, a fit past its ambient hint and a target just beyond the fitted
+equilibrium get their own upper ends. The equations and the reasons for each rule are in
+docs/design.md ("Estimator"). Runs on CPython and MicroPython.
 """
 import math
 
