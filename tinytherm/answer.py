@@ -162,6 +162,10 @@ def _work_out(est, target, approach):
     else:
         d = est.blocks.dir
     m = est.blocks.dir
+    if reg.heater and not est.heater and ahead is not None:  # (the air's column, fit.AIR_COLUMN)
+        # the probe's direct view of the air, w (A - A0) in the level now: ahead the air is
+        # at its mean M (as the law's, est._slope_ahead), so the probe is w (M - A0) further
+        level += reg.g * ((est.inputs.ahead - ((b.cb - b.g0) << 8)) / (SCALE << 8))
     gap = target - level
     age_s = c.age_ms * 0.001  # (the fit's age at the block close, as the answer)
     # the arrival line: at most min(0.3 C, 3 noise sd) short of the target
@@ -355,12 +359,13 @@ def _arrived(est, target, m, approach, age_ms):
     a probe still meeting the liquid (:meth:`tinytherm.settle.Settle.allows`).
 
     Passed: the extreme block mean beyond the target by :data:`ARRIVE_Z` sd of its mean,
-    or the fitted level at the latest reading by as many of its sd; and that level not
-    back short by more than the line's tolerance (a drink hovering at its target while
-    the fridge cycles)::
+    or the fitted level at the latest reading by as many of its sd; that level not back
+    short by more than the line's tolerance (a drink hovering at its target while the
+    fridge cycles); with the measured air's column, the liquid too, the level less the
+    probe's view of the air's swing ``w (A - M)``, by as many of its sd (``w``'s own in it)::
 
         (ext - target) m >= Z sd / sqrt(n_ext)   or   (level - target) m >= Z sd_level
-        and (target - level) m <= tol
+        and (target - level) m <= tol   [and (level - w (A - M) - target) m >= Z sd_liquid]
 
     ``sd``: the noise's, the prior's share of its variance replaced by the fit's residual
     variance per reading when that is larger (docs/design.md, "Honest arrival").
@@ -371,13 +376,15 @@ def _arrived(est, target, m, approach, age_ms):
         return False  # (no direction given: a probe still meeting the liquid, tinytherm.settle)
     reg = est.reg
     b = est.blocks
-    # the fitted level at the latest reading (the fit's coordinates moved on)
+    air = reg.heater and not est.heater  # (the measured air's column, fit.AIR_COLUMN)
+    if air and est.inputs.ahead is None:
+        return False  # (no mean air known at the block close: nor the liquid, below)
     level = (reg.my + reg.s * (reg.t + b.it * 0.001) - reg.k * (reg.x + b.ix * _IX_TO_CS)
-             + est.reg.anchor)
-    if est.heater:
-        level += reg.g * (reg.v + b.iv * _IV_TO_S)
-    sd = est.noise.sd
-    tol = 3.0 * sd
+             + reg.anchor)  # (the fitted level at the latest reading)
+    dv = b.iv * (_INV if air else _IV_TO_S)  # (the air's move since the block, or the duty's)
+    if reg.heater:
+        level += reg.g * (reg.v + dv)
+    tol = 3.0 * est.noise.sd
     if tol > ARRIVE_TOL_C:
         tol = ARRIVE_TOL_C
     if (target - level) * m > tol:
@@ -389,11 +396,19 @@ def _arrived(est, target, m, approach, age_ms):
     s2 = nz.var
     if reg.s2r > s2:
         s2 += (reg.s2r - s2) * (1.0 if nz.n <= NOISE_PRIOR_N else NOISE_PRIOR_N / nz.n)
-    if (est._extreme_c() - target) * m >= ARRIVE_Z * math.sqrt(s2 / est.blocks.ext_n):
+    if (est._extreme_c() - target) * m < ARRIVE_Z * math.sqrt(s2 / b.ext_n):
+        if not (est.heater or reg.pkk > 0.0):
+            return False  # (no heater, k pinned at 0: the level is a line run on, no crossing)
+        var = reg.var_level(b.it * 0.001, b.ix * _IX_TO_CS, dv)  # (at that reading)
+        if (level - target) * m < ARRIVE_Z * math.sqrt(var if var > 0.0 else 0.0):
+            return False
+    if not air:
         return True
-    if not (est.heater or reg.pkk > 0.0):
-        return False  # (no heater, k pinned at 0: the level is a line run on, no crossing seen)
-    var = reg.var_level(b.it * 0.001, b.ix * _IX_TO_CS, b.iv * _IV_TO_S)  # (at that reading)
+    # the liquid: the fit with the air at its mean ahead M (as the answer's level), not the
+    # air now (a probe pulled by cold air is no arrival)
+    a = (est.inputs.ahead - ((b.cb - b.g0) << 8)) / (SCALE << 8)  # M - A0, deg C
+    var = reg.var_level(b.it * 0.001, b.ix * _IX_TO_CS, a)
+    level += reg.g * (a - dv)
     return (level - target) * m >= ARRIVE_Z * math.sqrt(var if var > 0.0 else 0.0)
 
 

@@ -23,8 +23,9 @@ from tinytherm.crc import crc32
 
 BLOB_SIZE = 512
 MAGIC = b"tT"
-LAYOUT_VERSION = 6  # 6: the header keeps the extreme as its block's integer sum and the
-#   settle reading (5: the reading before the latest, the extreme's readings, the air ahead)
+LAYOUT_VERSION = 7  # 7: no heater, a measured air: the regression's air column (flag 128)
+#   (6: the extreme as its block's integer sum and the settle reading; 5: the reading before
+#   the latest, the extreme's readings, the air ahead)
 PAYLOAD_OFFSET = 8
 PAYLOAD_SIZE = 500
 CRC_OFFSET = 508

@@ -1,10 +1,9 @@
 """Online fit of the lumped thermal model and the time-to-target answer.
 
-One principle: *fit the first-order law on the recent part of the approach,
-anchor the answer at the latest readings, and judge the answer by the fit's
-own forecasts.* Model (:mod:`tinytherm.fit`), ``G = T - R`` the gap to a
-reference ``R`` (the known ambient, the measured air, or 0), ``u``
-the heater duty::
+One principle: *fit the first-order law on the recent part of the approach, anchor the answer
+at the latest readings, and judge the answer by the fit's own forecasts.* Model
+(:mod:`tinytherm.fit`), ``G = T - R`` the gap to a reference ``R`` (the known ambient, the measured
+air, or 0), ``u`` the heater duty (no heater, a measured air ``A``: ``A - A0``, the probe's view)::
 
     dT/dt = s - k (G - G0) + g (u - u0)        (equilibrium E = T + s / k)
 
@@ -46,6 +45,7 @@ RATE_PRIOR_PER_S = 1.0 / 1800.0  # 1/s: sd of the loose prior on k (a line until
 RATE_PRIOR_MEAN_PER_S = 1.0 / 7200.0  # 1/s: its mean: a liquid loses heat to its room (k > 0),
 #   so a fit not bent yet is no straight line (leave-one-family-out, 32 tune: 0, 1/14400, 1/7200, 1/3600)
 KNOWN_AMBIENT_SD_C = 2.0  # deg C: sd with a known or measured ambient (evaporation, a bent rate)
+AIR_VIEW_SD = 0.3         # prior sd of the probe's view of a measured air (no heater; 0: off)
 TURN_C = 1.0              # deg C: a retreat from the extreme that restarts the fit
 DETECT_MIN_BLOCKS = 5     # blocks before the change detector listens (weighted), and readings
 #   before the noise is learnt and the audits start (counted: with readings minutes apart,
@@ -154,6 +154,7 @@ class ThermalEstimator(Answer):
         self.inputs.reset()
         self.noise.reset()
         self.audits.reset()
+        fit.use_air_column(self, False)  # (none until a measured air comes again)
         self.detector.disturbed = False     # since a jump, until the new fit is established
         self._profile_on = self._profile is not None
         self._restart_fit()
@@ -230,6 +231,8 @@ class ThermalEstimator(Answer):
             return verdict
         c = math.floor(temp_c * SCALE + 0.5)  # counts of 1/SCALE deg C (fit.to_counts)
         uc = self.inputs.duty_counts(duty) if self.heater else 0
+        if ambient_c is not None and not self.reg.heater and AIR_VIEW_SD > 0.0:
+            fit.use_air_column(self, True)  # the first measured air: a new fit, with its column
         b = self.blocks
         try:
             if not b.readings or self.guard.gap == GAP_RESTART:  # (none: a new fit)
@@ -283,13 +286,13 @@ class ThermalEstimator(Answer):
         tb = reg.t + b.st / (n * 1000)
         xb = reg.x + b.sx / (n * 2000 * SCALE)
         yb = b.sy / (n * SCALE)
-        vb = reg.v + b.sv / (n * 1000 * 1024) if heater else 0.0
+        vb = reg.v + (b.sv / (n * 1024000) if heater else b.sv / (n * SCALE)) if reg.heater else 0.0
         if reg.ok and b.readings > DETECT_MIN_BLOCKS:
             if reg.nb >= DETECT_MIN_BLOCKS:
                 # innovation of the block mean against the fit's forecast (weighted blocks:
                 # a sparse fit's forecast over minutes is no test of a jump)
                 pred = reg.my + reg.s * tb - reg.k * xb + reg.anchor
-                if heater:
+                if reg.heater:
                     pred += reg.g * vb
                 sd = math.sqrt(self.noise.var / n + 4.0 * reg.var_my + MISMATCH_C * MISMATCH_C)
                 if self.detector.update(yb - pred, sd):
@@ -314,7 +317,7 @@ class ThermalEstimator(Answer):
         du = b.uc - b.u0
         reg.add_block(n, tb, xb, vb, yb, lam, reg.t + b.it * 0.001,
                       reg.x + b.ix / (2000 * SCALE),
-                      reg.v + b.iv / (1000 * 1024) if heater else 0.0,
+                      reg.v + (b.iv / 1024000 if heater else b.iv * _INV) if reg.heater else 0.0,
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
         b.next_block()
         if self.settle.block_closed(b.age_ms, b.cb, reg.k if reg.ok and not heater else 0.0):
@@ -342,7 +345,7 @@ class ThermalEstimator(Answer):
         if reg.ok:
             # anchor: the block's residual against the new fit, smoothed over about two blocks
             res = yb - (reg.my + reg.s * reg.rt - reg.k * reg.rx)
-            if self.heater:
+            if reg.heater:
                 res -= reg.g * reg.rv
             reg.anchor += ANCHOR_GAIN * (res - reg.anchor)
             self._level_and_slope()
@@ -468,6 +471,8 @@ class ThermalEstimator(Answer):
             # (with a heater: where the liquid levels off with the heat at the latest duty)
             dist, sd, kp, lk, gp, lg = prof.priors(
                 dist, s2, self.blocks.u0 / 1024 if self.heater else 0.0)
+        if reg.heater == fit.AIR_COLUMN:
+            gp, lg = 0.0, s2 / (AIR_VIEW_SD * AIR_VIEW_SD)  # the air's weight ~ N(0, sd^2)
         # the slope towards the hint, from the fit with the loose prior alone
         solved = False
         if self.heater:

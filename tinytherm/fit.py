@@ -9,6 +9,9 @@ of derivatives::
 
     y(t) = c + s t - k x(t) + g v(t),   x = int (G - G0) dt,  v = int (u - u0) dt
 
+(no heater, a measured air ``A``: ``v = A - A0`` instead, the probe's direct view of the
+air with weight ``g``, :data:`AIR_COLUMN`.)
+
 Two parts, each owning its state (:mod:`tinytherm.state` packs their bytes of the
 saved state, loaded only by a product that saves):
 
@@ -33,6 +36,7 @@ MAX_BLOCK_READINGS = 255
 NOISE_MAX_DT_MS = 120000  # successive differences further apart than this measure drift, not noise
 NOISE_PRIOR_C = 0.05      # deg C: reading noise sd assumed before it is measured
 NOISE_PRIOR_N = 4         # readings that prior is worth
+AIR_COLUMN = 2            # Regression's third column is the measured air's (no heater)
 _INV_SCALE = 1.0 / SCALE
 
 
@@ -52,6 +56,7 @@ class BlockSums:
         self.ext_n = 1
         self.level = 0.0
         self.pending = 0
+        self.air_col = False  # the regression has the air's column: ``iv`` holds the air's move
         self.reset()
 
     def reset(self):
@@ -105,7 +110,11 @@ class BlockSums:
         """
         # trapezoid, doubled: ix += (G_n + G_(n-1) - 2 G0) dt
         self.ix += (c - rc + self.c - self.rc - 2 * self.g0) * dt_ms
-        if uc != self.u0 or self.iv:
+        if self.air_col:
+            # (no heater, a measured air: the air's move since the block began, counts; its
+            # sum over the block gives the air column's block mean, Regression(AIR_COLUMN))
+            self.iv = rc - self.cb + self.g0
+        elif uc != self.u0 or self.iv:
             self.iv += (uc - self.u0) * dt_ms
         self.it += dt_ms
         self.age_ms += dt_ms
@@ -289,6 +298,7 @@ class Regression:
     """
 
     def __init__(self, heater):
+        # (True: the duty's column; AIR_COLUMN: the measured air's, no heater; False: none)
         self.heater = heater
         # saved bytes: the heater's four co-moments are saved only with a heater
         self.STATE_SIZE = 8 * (17 if heater else 13)
@@ -428,7 +438,9 @@ class Regression:
             s = (c11 * b1 + c12 * b2 + c13 * b3) * inv
             m = (c12 * b1 + c22 * b2 + c23 * b3) * inv
             g = (c13 * b1 + c23 * b2 + c33 * b3) * inv
-            dof = self.nb - 3.0
+            # (the air's weight, held by its prior, counted as no degree of freedom: as a third,
+            # every passive fit with a measured air widened, tune seeds, docs/benchmarks.md)
+            dof = self.nb - (2.0 if self.heater == AIR_COLUMN else 3.0)
             ssr = self.cyy - s * b1 - m * self.cxy - g * b3
         else:
             det = a11 * a22 - a12 * a12
@@ -514,6 +526,18 @@ class Regression:
         if not var > 0.0 or not eta > 0.0:
             return 0.0
         return var / (eta * eta)
+
+
+def use_air_column(est, on):
+    """Give the estimator ``est`` the regression with the measured air's column (``on``, no
+    heater: the probe's direct view of the air) or without; the fit starts again.
+
+    A strap-on probe reads the air in part, ``T_probe = T + w (A - A0)``; the law driven by
+    the air has no such term, so the fitted slope carried the air's swing (docs/design.md)."""
+    if on or est.reg.heater == AIR_COLUMN:  # (a heater's regression is kept)
+        est.reg = Regression(AIR_COLUMN if on else False)
+        est.blocks.air_col = on
+        est.blocks.readings = 0  # (the next reading starts the fit)
 
 
 def _ok(x):

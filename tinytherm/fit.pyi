@@ -1,4 +1,4 @@
-from typing import Optional, Tuple
+from typing import Any, Optional, Tuple
 
 from tinytherm.air import Air
 
@@ -8,6 +8,7 @@ MAX_BLOCK_READINGS: int
 NOISE_MAX_DT_MS: int
 NOISE_PRIOR_C: float
 NOISE_PRIOR_N: int
+AIR_COLUMN: int
 
 class BlockSums:
     STATE_SIZE: int
@@ -16,6 +17,7 @@ class BlockSums:
     ext_n: int
     level: float
     pending: int
+    air_col: bool
     n: int
     it: int
     ix: int
@@ -75,7 +77,7 @@ class Inputs:
 
 class Regression:
     STATE_SIZE: int
-    heater: bool
+    heater: int  # False, True (the duty's column) or AIR_COLUMN
     ok: bool
     w: float
     w2: float
@@ -87,7 +89,7 @@ class Regression:
     cxx: float
     cxy: float
     cyy: float
-    ctu: float  # (ctu, cxu, cuu, cuy, psg, pkg, pgg: with a heater only)
+    ctu: float  # (ctu, cxu, cuu, cuy, psg, pkg, pgg: with a third column only)
     cxu: float
     cuu: float
     cuy: float
@@ -110,7 +112,7 @@ class Regression:
     pgg: float
     var_my: float
     s2r: float
-    def __init__(self, heater: bool) -> None: ...
+    def __init__(self, heater: int) -> None: ...
     def reset(self) -> None: ...
     def clear(self) -> None: ...
     def add_block(self, n: int, tb: float, xb: float, vb: float, yb: float, lam: float,
@@ -122,4 +124,5 @@ class Regression:
     def var_level(self, dt: float = 0.0, dx: float = 0.0, dv: float = 0.0) -> float: ...
     def eta_rel_var(self, gap: float, slope: float, k: float, eta: float, gk: float) -> float: ...
 
+def use_air_column(est: Any, on: bool) -> None: ...
 def to_counts(temp_c: float) -> int: ...

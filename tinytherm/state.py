@@ -8,7 +8,8 @@ Payload (little-endian), after the frame's 8-byte header::
     6       2     turns (uint16)
     8       1     flags: fresh (1), disturbed (2), profile on (4), direction + 1
                   (bits 3-4), an ambient known at the last solve (32), a fit seeded
-                  with two readings at a turn (64)
+                  with two readings at a turn (64), the regression's air column (128:
+                  no heater, a measured air; its four sums saved as a heater's)
     9       1     profile_reason
     10      8     anchor, deg C (float64)
     18      4     extreme of the block means: its block's sum of readings,
@@ -67,7 +68,8 @@ def save(est):
     o = bl.PAYLOAD_OFFSET
     flags = ((0 if est.blocks.readings else 1) | (2 if est.detector.disturbed else 0)
              | (4 if est._profile_on else 0) | ((est.blocks.dir + 1) << 3)
-             | (0 if est.inputs.ahead is None else 32) | (64 if est.settle.turn else 0))
+             | (0 if est.inputs.ahead is None else 32) | (64 if est.settle.turn else 0)
+             | (128 if est.reg.heater == fit.AIR_COLUMN else 0))
     struct.pack_into(_HEAD, buf, o, est.readings & 0xFFFFFFFF, est.changes & 0xFFFF,
                      est.turns & 0xFFFF, flags, est.profile_reason, est.reg.anchor,
                      est.blocks.ext_sy, est.blocks.ext_n, est.inputs.ahead or 0)
@@ -110,12 +112,13 @@ def _unpack(est, blob):
         _HEAD, blob, o)
     o += HEAD_SIZE
     direction = ((flags >> 3) & 3) - 1
-    if flags & 0x80 or direction > 1 or (flags & 4 and est._profile is None) \
+    if direction > 1 or (flags & 4 and est._profile is None) or (flags & 128 and est.heater) \
             or not (-1e6 < anchor < 1e6 and 1 <= ext_n <= 255) \
             or not -LIMIT_COUNTS < ext_sy // ext_n < LIMIT_COUNTS:
         return bl.BLOB_VALUES
     est.reset()
-    if not _unpack_parts(est, blob, o):
+    fit.use_air_column(est, bool(flags & 128))  # (the regression's layout as saved)
+    if not _unpack_parts(est, blob, o) or (flags & 128 and not est.inputs.measured):
         return bl.BLOB_VALUES
     b = est.blocks
     # (fresh: no reading in the fit yet, the next starts one)
