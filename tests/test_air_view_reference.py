@@ -138,3 +138,42 @@ def test_a_probe_pulled_by_the_cold_air_does_not_arrive_before_the_liquid():
                 early += states[0][j] > liquid_then + 0.3
         assert first is not None and first <= crossing + 300.0, (seed, first, crossing)
     assert early == 0, early
+
+
+def test_no_arrival_is_judged_on_a_view_of_the_air_no_probe_has():
+    """A probe's share of the air it sees lies in 0..1 (a mixture of the liquid and the air;
+    common practice, no source): a fit whose air column says otherwise (a young fit on few
+    readings, room trace seed 1035 of the tune set fitted -1.78) judges no arrival by the
+    liquid's level. The fridge drink above (scipy ``solve_ivp``, one noise seed) is replayed
+    to its first ``ARRIVED``; there the fitted share still arrives, and the same fit with the
+    share set outside 0..1 does not (before the rule, -0.1 arrived)."""
+    from tinytherm import answer
+
+    l0, mean, amp, period, k, w, lag, target, dt = FRIDGE
+
+    def air(t):
+        x = 2.0 * math.pi * t / period + 1.0
+        return mean + amp * (math.sin(x) + 0.3 * math.sin(2.0 * x))
+
+    def rhs(t, y):
+        return [-k * (y[0] - air(t)), ((1.0 - w) * y[0] + w * air(t) - y[1]) / lag]
+
+    sol = solve_ivp(rhs, (0.0, 30000.0), [l0, (1.0 - w) * l0 + w * air(0.0)], method="Radau",
+                    rtol=1e-10, atol=1e-10, dense_output=True, max_step=20.0)
+    rng = np.random.default_rng(700)
+    times = np.arange(0.0, 7000.0, dt)
+    probe = np.round((sol.sol(times)[1] + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+    amb = np.round((np.array([air(t) for t in times]) + rng.normal(0.0, 0.05, len(times)))
+                   / 0.0625) * 0.0625
+    est = ThermalEstimator(quantum_c=0.0625)
+    for j in range(len(times)):
+        est.update(float(probe[j]), 0.0 if j == 0 else dt, ambient_c=float(amb[j]))
+        if est.predict(target) == st.ARRIVED:
+            break
+    assert est.status == st.ARRIVED
+    fitted = est.reg.g
+    assert 0.0 < fitted < 1.0, fitted
+    assert answer._arrived(est, target, -1, 0, est.blocks.age_ms)
+    for share in (-0.1, -1.78, 1.0, 1.5):
+        est.reg.g = share
+        assert not answer._arrived(est, target, -1, 0, est.blocks.age_ms), share
