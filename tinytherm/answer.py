@@ -377,8 +377,8 @@ def _arrived(est, target, m, approach, age_ms):
     reg = est.reg
     b = est.blocks
     air = reg.heater and not est.heater  # (the measured air's column, fit.AIR_COLUMN)
-    if air and (est.inputs.ahead is None or not 0.0 <= reg.g < 1.0):
-        return False  # (no mean air known, or a view of it no probe has: no liquid, below)
+    if air and est.inputs.ahead is None:
+        return False  # (no mean air known at the block close: nor the liquid, below)
     level = (reg.my + reg.s * (reg.t + b.it * 0.001) - reg.k * (reg.x + b.ix * _IX_TO_CS)
              + reg.anchor)  # (the fitted level at the latest reading)
     dv = b.iv * (_INV if air else _IV_TO_S)  # (the air's move since the block, or the duty's)
