@@ -1,4 +1,4 @@
-"""24 hours at 1 Hz under ``micropython -X heapsize=88K``.
+"""24 hours at 1 Hz under ``micropython -X heapsize=90K``.
 
 The core and the trace generator are precompiled with ``mpy-cross -O3``, as
 they would be for a device with a small heap: compiling sources needs more
@@ -20,7 +20,9 @@ benchmarks/device_budget.py prints the figures of a product that never
 saves). At 47c2110, with the library under /tmp as a device keeps it under a short
 path (the fixture below): 84K ran the day in 7 of 7 random 8-letter folders, 85K
 failed in 1 of them (the edge moves with the heap's fragmentation, not in order),
-86K ran in all; 88K leaves a 4K margin over the 84K so that no folder name fails CI.
+86K ran in all. At f66a26a (the measured air's column: smallest heap 74K -> 76K)
+84K and 85K fail and 86K runs (one short folder); 90K leaves a 4K margin over it
+so that no folder name fails CI.
 A MemoryError in restore() is raised, never taken for a damaged blob.
 The trace is generated inside MicroPython (tests/long_run_mp.py). Figures are
 printed; the assertions check: no MemoryError, every reading processed, every
@@ -66,7 +68,7 @@ def _build(lib):
         subprocess.run([cross, "-O3", "-o", os.path.join(lib, name + ".mpy"), src], check=True)
 
 
-@pytest.mark.parametrize("heap", ["88K"])
+@pytest.mark.parametrize("heap", ["90K"])
 def test_day_at_one_hertz_in_small_heap(short_lib, heap):
     lib = short_lib
     _build(lib)
