@@ -79,21 +79,27 @@ def young_rows(sol, seed, fewest=1, most=4, lo_s=LO_S, hi_s=HI_S):
     return rows
 
 
+def _check_held_and_bounded(rows, least_rows):
+    """At least ``least_rows`` rows (inside, high / low) of ``young_rows``; 3 in 4 of them
+    hold the crossing, every interval finite, high / low under 4 in the median."""
+    inside = sum(r[0] for r in rows)
+    widths = [r[1] for r in rows]
+    assert len(rows) >= least_rows, len(rows)
+    assert inside >= 0.75 * len(rows), (inside, len(rows))
+    assert all(np.isfinite(widths)), widths
+    assert float(np.median(widths)) < 4.0, float(np.median(widths))
+
+
 def test_first_answers_of_a_pot_read_minutes_apart_hold_the_crossing():
     rows = []
     for pot in POTS:
         sol = heat_up(*pot)
         for seed in range(10):
             rows += young_rows(sol, seed)
-    inside = sum(r[0] for r in rows)
-    widths = [r[1] for r in rows]
     # 37 rows; 4 inside (0.11) with the 2 % floor of before, 36 (0.97) with LINE_PRIOR_VAR
     # 0.15: the 80 % interval holds the crossing on most of them, and is no union of
     # everything (high / low 2.7 in the median: sd 0.39 either side), never open-ended
-    assert len(rows) >= 30, len(rows)
-    assert inside >= 0.75 * len(rows), (inside, len(rows))
-    assert all(np.isfinite(widths)), widths
-    assert float(np.median(widths)) < 4.0, float(np.median(widths))
+    _check_held_and_bounded(rows, 30)
 
 
 # invented stock pots on heavy hotplates: (water kg, element W, the element's lag s); their
@@ -109,13 +115,8 @@ def test_a_pinned_line_read_minutes_apart_keeps_its_prior_after_the_first_audit(
         sol = heat_up(*pot)
         for seed in range(10):
             rows += young_rows(sol, seed, 5, 8, 60.0, 300.0)
-    inside = sum(r[0] for r in rows)
-    widths = [r[1] for r in rows]
     # 160 rows of 5-8 readings; 82 inside (0.51) when the prior switched off at the shortest
     # audit's first check (the longest audit, at the answer's horizon, unchecked: 2 % sd),
     # 142 (0.89) with LINE_PRIOR_VAR kept until the checks at that horizon replace it;
     # high / low 2.44 -> 2.70 in the median (sd 0.39 at most either side), never open-ended
-    assert len(rows) >= 120, len(rows)
-    assert inside >= 0.75 * len(rows), (inside, len(rows))
-    assert all(np.isfinite(widths)), widths
-    assert float(np.median(widths)) < 4.0, float(np.median(widths))
+    _check_held_and_bounded(rows, 120)
