@@ -21,9 +21,9 @@ drink's shown rows 2,123 -> 2,518 of 2,536, coverage 0.708 -> 0.810, median |ln
 import math
 
 import numpy as np
-from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
+from probe_rows import drink_in_cycling_air
 from tinytherm import status as st
 from tinytherm.estimator import ThermalEstimator
 
@@ -37,14 +37,7 @@ def _replay(drink):
     """(rows, shown, covered, median |ln(true remaining / eta)|) over 8 noise seeds."""
     l0, room, amp, period, k, w, lag, target, dt = drink
 
-    def air(t):
-        return room + amp * math.sin(2.0 * math.pi * t / period + 1.0)
-
-    def rhs(t, y):
-        return [-k * (y[0] - air(t)), ((1.0 - w) * y[0] + w * air(t) - y[1]) / lag]
-
-    sol = solve_ivp(rhs, (0.0, 40000.0), [l0, (1.0 - w) * l0 + w * air(0.0)], method="Radau",
-                    rtol=1e-10, atol=1e-10, dense_output=True, max_step=20.0)
+    sol, air = drink_in_cycling_air(l0, room, amp, period, k, w, lag, 40000.0)
     grid = np.arange(0.0, 40000.0, 5.0)
     d = 1.0 if target > l0 else -1.0
     i = int(np.nonzero((sol.sol(grid)[1] - target) * d >= 0.0)[0][0])
@@ -107,15 +100,7 @@ def test_a_probe_pulled_by_the_cold_air_does_not_arrive_before_the_liquid():
     (the level less ``w (A - M)``): none, the first arrival 3 s before to 27 s after it."""
     l0, mean, amp, period, k, w, lag, target, dt = FRIDGE
 
-    def air(t):
-        x = 2.0 * math.pi * t / period + 1.0
-        return mean + amp * (math.sin(x) + 0.3 * math.sin(2.0 * x))
-
-    def rhs(t, y):
-        return [-k * (y[0] - air(t)), ((1.0 - w) * y[0] + w * air(t) - y[1]) / lag]
-
-    sol = solve_ivp(rhs, (0.0, 30000.0), [l0, (1.0 - w) * l0 + w * air(0.0)], method="Radau",
-                    rtol=1e-10, atol=1e-10, dense_output=True, max_step=20.0)
+    sol, air = drink_in_cycling_air(l0, mean, amp, period, k, w, lag, 30000.0, second=0.3)
     grid = np.arange(0.0, 30000.0, 5.0)
     i = int(np.nonzero(sol.sol(grid)[1] <= target)[0][0])
     crossing = brentq(lambda t: sol.sol(t)[1] - target, grid[i - 1], grid[i], xtol=1e-9)

@@ -16,13 +16,10 @@ Reference physics: scipy ``solve_ivp`` (Radau, rtol = atol = 1e-10) of
 ``A(t) = room + amp sin(2 pi t / period + 1)``; the probe's crossing by scipy
 ``brentq``. Our own invented drink and room.
 """
-import math
-
 import numpy as np
-from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
-from probe_rows import counted_rows
+from probe_rows import counted_rows, drink_in_cycling_air
 from tinytherm import status as st
 
 # drink at t = 0, room mean, swing amplitude (deg C), period (s), k (1/s), the air's
@@ -40,14 +37,7 @@ def _crossing(sol, target, end_s):
 def test_the_interval_holds_a_crossing_the_air_swings_in_the_probe():
     l0, room, amp, period, k, w, lag, target, dt = DRINK
 
-    def air(t):
-        return room + amp * math.sin(2.0 * math.pi * t / period + 1.0)
-
-    def rhs(t, y):
-        return [-k * (y[0] - air(t)), ((1.0 - w) * y[0] + w * air(t) - y[1]) / lag]
-
-    sol = solve_ivp(rhs, (0.0, 40000.0), [l0, (1.0 - w) * l0 + w * air(0.0)], method="Radau",
-                    rtol=1e-10, atol=1e-10, dense_output=True, max_step=20.0)
+    sol, _air = drink_in_cycling_air(l0, room, amp, period, k, w, lag, 40000.0)
     crossing = _crossing(sol, target, 40000.0)
     assert 3000.0 < crossing < 3500.0  # (the scenario as written: about 3,230 s)
 
