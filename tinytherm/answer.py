@@ -222,9 +222,8 @@ def _work_out(est, target, approach):
                 go = tol / slower  # s: the line's tolerance to go at it
                 est.eta_high_s = go * spread(c.z * math.sqrt(c.var_at(go, age_s, AUDIT_PRIOR_VAR)))
             return
-    # the equilibrium's drift since the longest audit started (its waiting forecast holds
-    # the fit then); not with a heater, a profile or an ambient (the duty, the vessel's law,
-    # the air known move it)
+    # the equilibrium's drift since the longest audit started (its waiting forecast holds the
+    # fit then); not with a heater, profile or ambient (the duty, law or known air move it)
     bd = 0.0
     a = est.audits.a[2]
     r = a.rate
