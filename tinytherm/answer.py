@@ -165,7 +165,7 @@ def _work_out(est, target, approach):
     if reg.heater and not est.heater and ahead is not None:  # (the air's column, fit.AIR_COLUMN)
         # the probe's direct view of the air, w (A - A0) in the level now: ahead the air is
         # at its mean M (as the law's, est._slope_ahead), so the probe is w (M - A0) further
-        level += reg.g * ((est.inputs.ahead - ((b.cb - b.g0) << 8)) / (SCALE << 8))
+        level += reg.g * est.inputs.ahead_shift_c(b.cb - b.g0)
     gap = target - level
     age_s = c.age_ms * 0.001  # (the fit's age at the block close, as the answer)
     # the arrival line: at most min(0.3 C, 3 noise sd) short of the target
@@ -405,7 +405,7 @@ def _arrived(est, target, m, approach, age_ms):
         return True
     # the liquid: the fit with the air at its mean ahead M (as the answer's level), not the
     # air now (a probe pulled by cold air is no arrival)
-    a = (est.inputs.ahead - ((b.cb - b.g0) << 8)) / (SCALE << 8)  # M - A0, deg C
+    a = est.inputs.ahead_shift_c(b.cb - b.g0)  # M - A0, deg C
     var = reg.var_level(b.it * 0.001, b.ix * _IX_TO_CS, a)
     level += reg.g * (a - dv)
     return (level - target) * m >= ARRIVE_Z * math.sqrt(var if var > 0.0 else 0.0)

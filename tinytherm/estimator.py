@@ -523,7 +523,7 @@ class ThermalEstimator(Answer):
             return self._slope
         b = self.blocks
         # the reference at the block close: G0 = cb - rc
-        return self._slope + self.reg.k * (self.inputs.ahead * (1.0 / 256) - (b.cb - b.g0)) * _INV
+        return self._slope + self.reg.k * self.inputs.ahead_shift_c(b.cb - b.g0)
 
     # ``predict(target_c, approach=0)``: the answer part's rules, as a method
     predict = answer.predict

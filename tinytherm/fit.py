@@ -275,6 +275,11 @@ class Inputs:
             return self.air.ahead_fine()
         return (0 if self.fixed is None else self.fixed) << 8
 
+    def ahead_shift_c(self, ref_counts):
+        """``M - A0``, deg C: the air ahead at the latest block close less the reference
+        ``ref_counts`` (counts) the fit's level was read against (exact: a power of 2)."""
+        return (self.ahead - (ref_counts << 8)) * (_INV_SCALE / 256)
+
     def duty_counts(self, duty):
         """A duty in [0, 1] as counts of 1/DUTY_SCALE (cached: the duty rarely changes)."""
         if duty != self.duty:

@@ -65,15 +65,7 @@ class ReadyByPlanner:
     def __init__(self, rate_per_s=0.0, ambient_c=20.0, gain_k_per_s=0.0):
         self.forecast = Forecast(rate_per_s, gain_k_per_s, ambient_c)
         self.status = status.GATHERING
-        self.reason = REASON_NONE
-        self.start_in_s = None
-        self.heat_for_s = None
-        self.duty = None
-        self.eta_s = None
-        self.earliest_s = None
-        self.off_at_deadline_c = None
-        self.on_time = False
-        self.work = 0
+        self._clear()
 
     def set_model(self, rate_per_s, ambient_c, gain_k_per_s):
         """Fitted ``k`` (1/s), constant ambient (deg C) and ``g`` (K/s). Raises ValueError."""
