@@ -257,27 +257,27 @@ def _work_out(est, target, approach):
         # beyond the fitted equilibrium E = level + slope / k, by ``over``. E is an
         # extrapolation: a bending rate (a coolant warming, a slow second mode) moves
         # it by a share of the distance still to go, and k REACH_SD sd lower moves it
-        # too (no end at k <= 0). Within that slack the answer is the time under the
-        # law levelling off the rest of the slack past the target, with no upper
-        # bound; beyond it, out of reach when even that k cannot reach the target
+        # too (no end at k <= 0). Within that slack: the time under the law levelling off
+        # the rest of the slack past the target, no upper bound; beyond it, out of reach
+        # when even that k cannot, or past a known ambient (a passive liquid never passes it)
         to_e = slope / k if k > 0.0 else 0.0  # E - level, the sign of gap
         slack = EQUILIBRIUM_SLACK * (to_e if to_e > 0.0 else -to_e)
-        k2 = k - REACH_SD * math.sqrt(reg.pkk)
+        v = reg.pkk  # k's variance, and the interval's model error once the residual shows a
+        dof = reg.nb - 2.0  # misfit: over the noise by REACH_SD of its chi-square sd, sqrt(2 / dof)
+        if dof > 1.0 and reg.s2r > est.noise.var * (1.0 + REACH_SD * math.sqrt(2.0 / dof)):
+            v += (RATE_MODEL_SD * k) ** 2
+        k2 = k - REACH_SD * math.sqrt(v)
         reach = math.inf if k2 <= 0.0 else (slope / k2 - to_e) * (1.0 if gap > 0.0 else -1.0)
-        if reach > slack:
-            slack = reach
+        room = math.inf  # R - E the way the target lies (R as at the block close)
         if ahead is not None and not est.heater:
-            # a passive liquid never passes a known ambient: the slack ends there
-            room = ahead - level - to_e  # R - E (R as at the block close)
-            room = room if gap > 0.0 else -room
-            if slack > room:
-                slack = room
+            room = (ahead - level - to_e) * (1.0 if gap > 0.0 else -1.0)
+        slack = min(reach if reach > slack else slack, room)
         over = gap - to_e if gap > 0.0 else to_e - gap
         if k > 0.0 and over < slack:
             k = slope / (gap + (slack - over) * (1.0 if gap > 0.0 else -1.0))
             eta = time_to_target_from_slope_s(gap, slope, k)
         if eta is None:
-            if k2 * gap / slope >= 1.0:  # (not even k REACH_SD sd lower reaches it)
+            if k2 * gap / slope >= 1.0 or over >= room:
                 est.status = st.OUT_OF_REACH
             return
         open_end = True
