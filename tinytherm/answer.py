@@ -13,7 +13,7 @@ the model error the audits' short horizons cannot see, the rate k off by
 
     prior = max(F var_delta(ln eta), AUDIT_PRIOR_VAR)
             [at least LINE_PRIOR_VAR: k pinned, the noise its prior, no audit checked
-             or the readings a block apart]
+             or the readings a block apart; YOUNG_PRIOR_VAR: free k, no residual dof, apart]
     var = (prior + n var_audits) / (1 + n) + (RATE_MODEL_SD d ln eta / d ln k)^2
           [+ (sw / (s_T eta))^2 for eta beyond WIGGLE_AGE x the fit's age: its misfit]
 
@@ -33,7 +33,7 @@ docs/design.md ("Estimator"). Runs on CPython and MicroPython.
 import math
 
 from tinytherm import status as st
-from tinytherm.fit import DUTY_SCALE, NOISE_PRIOR_N, SCALE, to_counts
+from tinytherm.fit import NOISE_PRIOR_N, SCALE, to_counts
 from tinytherm.num import as_float, spread, time_to_target_drift_s, time_to_target_from_slope_s
 
 ARRIVE_TOL_C = 0.3        # deg C: most a reading may be short of the target at arrival
@@ -51,7 +51,7 @@ FAULT_AFTER = 5           # consecutive rejected readings that make SENSOR_FAULT
 PROFILE_LAG_TIMES = 1.5   # a heated fit younger than this many profile lags shows no time
 _INV = 1.0 / SCALE
 _IX_TO_CS = 1.0 / (2000 * SCALE)  # doubled count ms -> deg C s
-_IV_TO_S = 1.0 / (1000 * DUTY_SCALE)  # duty-count ms -> s at full duty
+_IV_TO_S = 1.0 / 1024000  # duty-count ms -> s at full duty (fit.DUTY_SCALE 1024 counts)
 _ARRIVE_MIN_MS = int(ARRIVE_MIN_S * 1000)
 _BLOCK_MS = 40000  # ms: estimator._BLOCK_MS (BLOCK_S): readings this far apart are a block each
 
@@ -281,23 +281,21 @@ def _work_out(est, target, approach):
                 est.status = st.OUT_OF_REACH
             return
         open_end = True
-    # the fit's own variance of ln(eta), times the share model error adds to it,
-    # is the prior of what the audits measured
+    # the fit's own variance of ln(eta) (times DELTA_VAR_FACTOR): the audits' prior
     law = eta if bd == 0.0 else eta0  # the time under the fitted law (a fixed equilibrium)
     own2 = 0.0 if law is None else reg.eta_rel_var(gap, slope, k, law, gk)
     rel2 = DELTA_VAR_FACTOR * own2
     if rel2 < AUDIT_PRIOR_VAR:
         rel2 = AUDIT_PRIOR_VAR
-    if (rel2 < LINE_PRIOR_VAR and reg.k == 0.0 and est.noise.n <= NOISE_PRIOR_N
-            and (not est.audits.a[0].n or est.guard.elapsed_ms >= _BLOCK_MS)):
-        # the exact line (k pinned: the readings accelerate; a free k is never exactly 0),
-        # the noise never measured: its delta variance has no k term, and nothing has
-        # measured its misfit before an audit checks. Read a block apart (minutes: no
-        # block holds two readings) it stays the prior the audits' checks at the answer's
-        # horizon replace by their count (var_at): the shortest audit's first check says
-        # nothing of a horizon the others have not checked (it was switched off there,
-        # leaving 2 % intervals, AUDIT_PRIOR_VAR, on a pot's fits of 5-8 readings)
-        rel2 = LINE_PRIOR_VAR
+    if rel2 < LINE_PRIOR_VAR and est.noise.n <= NOISE_PRIOR_N:
+        # nothing has measured the misfit: the exact line (k pinned) before an audit checks,
+        # read a block apart until the checks at the answer's horizon replace it (var_at; the
+        # shortest's first check left 2 % on a pot's fits of 5-8 readings); a free fit read a
+        # block apart whose residual has no degree of freedom yet (its variance the noise's)
+        if reg.k == 0.0 and (not est.audits.a[0].n or est.guard.elapsed_ms >= _BLOCK_MS):
+            rel2 = LINE_PRIOR_VAR
+        elif est.guard.elapsed_ms >= _BLOCK_MS and reg.nb - (3.0 if est.heater else 2.0) <= 1.0:
+            rel2 = rel2 if rel2 > YOUNG_PRIOR_VAR else YOUNG_PRIOR_VAR
     # model error: k off by RATE_MODEL_SD of itself moves ln(eta) by that times
     # d ln(eta) / d ln(k) at the measured slope, q / ((1 - q) k eta) - 1 (q = k gap / slope)
     q = k * gap / slope
@@ -441,6 +439,8 @@ AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before a
 DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times this: the audits' prior
 LINE_PRIOR_VAR = 0.15     # (log time)^2: least prior of the pinned line (before any audit checks;
 #   read a block apart, at every age: the audits' checks at a horizon replace it by their count)
+YOUNG_PRIOR_VAR = 0.04    # ... of a free fit with no residual degree of freedom, the noise its
+#   prior, read a block apart (leave-one-family-out, 32 tune dense and sparse: 7 of 8 folds)
 RATE_MODEL_SD = 0.2       # relative sd of the fitted rate k from model error (a bend it cannot see)
 REACH_SD = 2.0            # sd of k by which a target beyond the fitted equilibrium may be reached
 #   (leave-one-family-out on dense and sparse, 32 tune traces per family and grid)

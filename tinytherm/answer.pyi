@@ -10,7 +10,6 @@ MAX_REL_SD: float
 FAULT_AFTER: int
 PROFILE_LAG_TIMES: float
 SCALE: int
-DUTY_SCALE: int
 NOISE_PRIOR_N: int
 
 def move_c(noise_sd_c: float) -> float: ...
@@ -18,6 +17,7 @@ def move_c(noise_sd_c: float) -> float: ...
 AUDIT_HORIZONS: tuple[tuple[float, float], tuple[float, float], tuple[float, float]]
 AUDIT_PRIOR_VAR: float
 LINE_PRIOR_VAR: float
+YOUNG_PRIOR_VAR: float
 AUDIT_MEMORY: int
 AUDIT_FORGET: float
 AUDIT_STRETCH: float
