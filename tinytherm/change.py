@@ -148,5 +148,5 @@ class ChangeDetector:
 
     def __repr__(self):
         from tinytherm import texts  # (loaded only when printed)
-        return texts.detector_repr(self)
+        return texts.detector(self)
 

@@ -568,4 +568,4 @@ class ThermalEstimator(Answer):
 
     def __repr__(self):
         from tinytherm import texts  # (its text costs heap: loaded only when printed)
-        return texts.estimator_repr(self)
+        return texts.estimator(self)

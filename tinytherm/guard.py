@@ -405,4 +405,4 @@ class ReadingGuard:
 
     def __repr__(self):
         from tinytherm import texts  # (loaded only when printed)
-        return texts.guard_repr(self)
+        return texts.guard(self)

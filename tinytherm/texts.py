@@ -32,14 +32,14 @@ jump_z = "jump_z must be > z_clip (%r) or None, got %r"
 p = "p must be in (0, 1)"
 
 
-def estimator_repr(e):
+def estimator(e):
     """``repr`` of a :class:`tinytherm.estimator.ThermalEstimator`."""
     from tinytherm.status import status_name
     return "ThermalEstimator(readings=%d, status=%s, k=%s, equilibrium_c=%s, eta_s=%s)" % (
         e.readings, status_name(e.status), e.rate_per_s, e.equilibrium_c, e.eta_s)
 
 
-def guard_repr(g):
+def guard(g):
     """``repr`` of a :class:`tinytherm.guard.ReadingGuard`."""
     return ("ReadingGuard(min_c=%r, max_c=%r, quantum_c=%r, spike_window=%r, spike_k=%r, "
             "probe_codes=%r, accepted=%d, rejected=%d)" % (
@@ -47,7 +47,7 @@ def guard_repr(g):
                 g.probe_codes, g.accepted, g.rejected))
 
 
-def detector_repr(d):
+def detector(d):
     """``repr`` of a :class:`tinytherm.change.ChangeDetector`."""
     return ("ChangeDetector(drift=%r, threshold=%r, z_clip=%r, scale_n=%r, jump_z=%r, "
             "alarms=%d)" % (d.drift, d.threshold, d.z_clip, d.scale_n, d.jump_z, d.alarms))
