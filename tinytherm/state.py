@@ -37,15 +37,14 @@ from tinytherm import blob as bl
 from tinytherm import fit
 from tinytherm.answer import AUDIT_MEMORY
 from tinytherm.crc import crc32
-from tinytherm.num import finite
 from tinytherm.settle import LIMIT_COUNTS
 
 # (few globals, const() where it can: the module is loaded at the first save, into a heap
-# in use, where a globals table of 29 slots did not fit: tests/test_long_run.py at 86K)
+# in use, where a globals table of 29 slots did not fit: tests/test_long_run.py at 86K; 23
+# entries, a table of 23 slots)
 # readings, changes, turns, flags, profile reason, anchor, extreme's sum, its n, air ahead
 _HEAD = const("<IHHBBdiBi")
 HEAD_SIZE = 27
-_INV = 1.0 / fit.SCALE
 # the block sums: block and noise counts, the 64-bit sums, the 32-bit ones (the duties,
 # at most fit.DUTY_SCALE, in 16 bits: with a heater the payload needs the room)
 _BLOCKS = const("<HHB6q5iHiH2i")
@@ -128,7 +127,7 @@ def _unpack(est, blob):
     b = est.blocks
     # (fresh: no reading in the fit yet, the next starts one)
     if not (b.readings <= readings and bool(flags & 1) == (b.readings == 0)
-            and est.guard.min_c <= b.c * _INV <= est.guard.max_c):
+            and est.guard.min_c <= b.c / fit.SCALE <= est.guard.max_c):
         return bl.BLOB_VALUES
     est.readings = readings
     est.changes = changes
@@ -255,7 +254,9 @@ def unpack_guard(g, blob, o):
     for i in range(4):
         if not (lo <= vals[i] <= hi if i < n else vals[i] == 0.0):
             return False
-    if not (finite(rate) and rate >= 0.0 and pending <= cap and run <= cap):
+    # (x - x == 0.0: finite, as num.finite for a float; an import fewer keeps this module's
+    # table at 23 slots: it is loaded at the first save, into a heap in use)
+    if not (rate - rate == 0.0 and rate >= 0.0 and pending <= cap and run <= cap):
         return False
     if not (lo <= last <= hi if accepted else last == 0.0 and pending == 0 and run == 0):
         return False
@@ -282,7 +283,7 @@ def unpack_detector(d, blob, o):
     not saved and ``last_direction`` starts at 0."""
     up, down, scale = struct.unpack_from(_DETECTOR, blob, o)
     if not (0.0 <= up <= d.threshold and 0.0 <= down <= d.threshold
-            and finite(scale) and scale >= 0.0):
+            and scale - scale == 0.0 and scale >= 0.0):  # (finite: as above)
         return False
     d.reset()
     d.up = up
