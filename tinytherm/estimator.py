@@ -87,14 +87,14 @@ class ThermalEstimator(Answer):
                  heater=False, interval=0.8,
                  quantum_c=0.0625, min_temp_c=-55.0, max_temp_c=150.0, spike_window=3,
                  restart_gap_s=3600.0, probe_codes=False, profile=None):
-        if not number(min_temp_c, -1e4, 1e4) or not number(max_temp_c, -1e4, 1e4) \
+        if not number(min_temp_c, -10000, 10000) or not number(max_temp_c, -10000, 10000) \
                 or not min_temp_c < max_temp_c:
             raise refused("min_temp_c")
         if ambient_c is not None and not number(ambient_c, min_temp_c, max_temp_c):
             raise refused("ambient_c")
-        if not number(ambient_prior_c, -1e4, 1e4):
+        if not number(ambient_prior_c, -10000, 10000):
             raise refused("ambient_prior_c")
-        if not number(ambient_prior_sd_c, 0.1, 1e4):
+        if not number(ambient_prior_sd_c, 0.1, 10000):
             raise refused("ambient_prior_sd_c")
         if heater is not True and heater is not False:
             raise refused("heater")
@@ -102,9 +102,9 @@ class ThermalEstimator(Answer):
             raise refused("interval")
         if probe_codes is not True and probe_codes is not False:
             raise refused("probe_codes")
-        if not number(quantum_c, 1e-6, 10.0):
+        if not number(quantum_c, 1e-6, 10):
             raise refused("quantum_c")
-        if not number(restart_gap_s, 1.0, 5e5):
+        if not number(restart_gap_s, 1, 500000):
             raise refused("restart_gap_s")
         # save()'s one buffer (blob.BLOB_SIZE bytes), the largest piece, made first while the
         # heap is fresh (later, smaller ones fill the gaps)
