@@ -27,7 +27,8 @@ State is fixed: a few floats and ints. An update costs about ten float
 operations. Never raises for bad input: a non-finite innovation or a sigma that
 is not a finite positive number is ignored (returns 0). :meth:`ChangeDetector.pack_into`
 and :meth:`ChangeDetector.unpack_from` save and check the two sums and the
-scale (``STATE_SIZE`` bytes, float64); the counts are not saved.
+scale (``STATE_SIZE`` bytes, float64; the code is :mod:`tinytherm.state`'s, loaded
+only then); the counts are not saved.
 
 For Gaussian white innovations, Siegmund's approximation of the one-sided
 average run length between false alarms is
@@ -36,11 +37,8 @@ average run length between false alarms is
 3e8 readings for the defaults. Real innovations are not that clean; the
 benchmark ``benchmarks/change_detection.py`` measures the rate on traces.
 """
-import struct
+from tinytherm.num import finite, refused
 
-from tinytherm.num import finite
-
-_STATE_FMT = "<ddd"  # up, down, mean_abs_z
 _MEAN_ABS_GAUSS = 0.7978845608028654  # E|z| for a standard normal z: sqrt(2/pi)
 
 
@@ -54,19 +52,19 @@ class ChangeDetector:
     ``jump_z``     one-reading gate, standard deviations (> z_clip), or None (off).
     """
 
-    STATE_SIZE = struct.calcsize(_STATE_FMT)  # bytes written by pack_into (24)
+    STATE_SIZE = 24  # bytes written by pack_into: up, down, mean_abs_z
 
     def __init__(self, drift=0.75, threshold=12.0, z_clip=7.0, scale_n=200, jump_z=None):
         if not finite(drift) or drift <= 0.0:
-            raise ValueError("drift must be > 0 (standard deviations), got %r" % (drift,))
+            raise refused("drift", (drift,))
         if not finite(threshold) or threshold <= 0.0:
-            raise ValueError("threshold must be > 0 (standard deviations), got %r" % (threshold,))
+            raise refused("threshold", (threshold,))
         if not finite(z_clip) or z_clip <= drift:
-            raise ValueError("z_clip must be > drift (%r), got %r" % (drift, z_clip))
+            raise refused("z_clip", (drift, z_clip))
         if type(scale_n) is not int or scale_n < 0:
-            raise ValueError("scale_n must be an int >= 0 (readings), got %r" % (scale_n,))
+            raise refused("scale_n", (scale_n,))
         if jump_z is not None and (not finite(jump_z) or jump_z <= z_clip):
-            raise ValueError("jump_z must be > z_clip (%r) or None, got %r" % (z_clip, jump_z))
+            raise refused("jump_z", (z_clip, jump_z))
         self.jump_z = None if jump_z is None else float(jump_z)
         self._neg_jump_z = None if jump_z is None else -float(jump_z)
         self.drift = float(drift)
@@ -130,26 +128,16 @@ class ChangeDetector:
         return 0
 
     def pack_into(self, buf, offset):
-        """Write both sums and the scale into ``buf[offset:offset + STATE_SIZE]``."""
-        struct.pack_into(_STATE_FMT, buf, offset, self.up, self.down, self.mean_abs_z)
+        """Write both sums and the scale into ``buf[offset:offset + STATE_SIZE]``
+        (:func:`tinytherm.state.pack_detector`, loaded only here)."""
+        from tinytherm import state
+        state.pack_detector(self, buf, offset)
 
     def unpack_from(self, buf, offset):
-        """Load a state written by :meth:`pack_into`; True when every value is valid.
-
-        Valid: both sums finite in ``[0, threshold]`` (an alarm empties them),
-        the scale finite and >= 0. On False nothing changes (the caller
-        resets). The counts (``readings``, ``alarms``) are not saved and
-        ``last_direction`` starts at 0.
-        """
-        up, down, scale = struct.unpack_from(_STATE_FMT, buf, offset)
-        if not (0.0 <= up <= self.threshold and 0.0 <= down <= self.threshold
-                and finite(scale) and scale >= 0.0):
-            return False
-        self.reset()
-        self.up = up
-        self.down = down
-        self.mean_abs_z = scale
-        return True
+        """Load a state written by :meth:`pack_into`; True when every value is valid
+        (:func:`tinytherm.state.unpack_detector`); on False nothing changes."""
+        from tinytherm import state
+        return state.unpack_detector(self, buf, offset)
 
     def _alarm(self, direction):
         self.up = 0.0
@@ -159,7 +147,6 @@ class ChangeDetector:
         return direction
 
     def __repr__(self):
-        return ("ChangeDetector(drift=%r, threshold=%r, z_clip=%r, scale_n=%r, jump_z=%r, "
-                "alarms=%d)" % (self.drift, self.threshold, self.z_clip, self.scale_n,
-                                self.jump_z, self.alarms))
+        from tinytherm import texts  # (loaded only when printed)
+        return texts.detector(self)
 

@@ -30,7 +30,8 @@ from tinytherm.status import Answer
 from tinytherm.change import ChangeDetector
 from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
-from tinytherm.num import as_float, normal_quantile, number, time_to_target_from_slope_s
+from tinytherm.num import (as_float, normal_quantile, number, refused,
+                           time_to_target_from_slope_s)
 from tinytherm.settle import NO_REF, Settle
 
 # Fixed choices (module constants, not arguments: no product needs another value).
@@ -86,25 +87,25 @@ class ThermalEstimator(Answer):
                  heater=False, interval=0.8,
                  quantum_c=0.0625, min_temp_c=-55.0, max_temp_c=150.0, spike_window=3,
                  restart_gap_s=3600.0, probe_codes=False, profile=None):
-        if not number(min_temp_c, -1e4, 1e4) or not number(max_temp_c, -1e4, 1e4) \
+        if not number(min_temp_c, -10000, 10000) or not number(max_temp_c, -10000, 10000) \
                 or not min_temp_c < max_temp_c:
-            raise ValueError("min_temp_c < max_temp_c must be finite deg C within +-1e4")
+            raise refused("min_temp_c")
         if ambient_c is not None and not number(ambient_c, min_temp_c, max_temp_c):
-            raise ValueError("ambient_c must be None or a temperature in [min_temp_c, max_temp_c]")
-        if not number(ambient_prior_c, -1e4, 1e4):
-            raise ValueError("ambient_prior_c must be a finite temperature (deg C)")
-        if not number(ambient_prior_sd_c, 0.1, 1e4):
-            raise ValueError("ambient_prior_sd_c must be in [0.1, 1e4] deg C")
+            raise refused("ambient_c")
+        if not number(ambient_prior_c, -10000, 10000):
+            raise refused("ambient_prior_c")
+        if not number(ambient_prior_sd_c, 0.1, 10000):
+            raise refused("ambient_prior_sd_c")
         if heater is not True and heater is not False:
-            raise ValueError("heater must be True or False")
+            raise refused("heater")
         if not number(interval, 0.01, 0.999):
-            raise ValueError("interval must be a probability in [0.01, 0.999]")
+            raise refused("interval")
         if probe_codes is not True and probe_codes is not False:
-            raise ValueError("probe_codes must be True or False")
-        if not number(quantum_c, 1e-6, 10.0):
-            raise ValueError("quantum_c must be in [1e-6, 10] deg C")
-        if not number(restart_gap_s, 1.0, 5e5):
-            raise ValueError("restart_gap_s must be in [1, 5e5] seconds")
+            raise refused("probe_codes")
+        if not number(quantum_c, 1e-6, 10):
+            raise refused("quantum_c")
+        if not number(restart_gap_s, 1, 500000):
+            raise refused("restart_gap_s")
         # save()'s one buffer (blob.BLOB_SIZE bytes), the largest piece, made first while the
         # heap is fresh (later, smaller ones fill the gaps)
         buf = bytearray(512)
@@ -566,6 +567,5 @@ class ThermalEstimator(Answer):
         return state.restore(self, blob)
 
     def __repr__(self):
-        return "ThermalEstimator(readings=%d, status=%s, k=%s, equilibrium_c=%s, eta_s=%s)" % (
-            self.readings, st.status_name(self.status), self.rate_per_s, self.equilibrium_c,
-            self.eta_s)
+        from tinytherm import texts  # (its text costs heap: loaded only when printed)
+        return texts.estimator(self)

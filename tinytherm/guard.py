@@ -36,10 +36,9 @@ allocated for a float reading); an accepted one costs at most a few float
 operations (32 bytes each on the 64-bit unix port, measured); a repeated ``dt_s``
 or ``elapsed_ms`` is not converted again (benchmarks/guard_alloc.py).
 :meth:`ReadingGuard.pack_into` / :meth:`ReadingGuard.unpack_from` save and
-check the dynamic state (``STATE_SIZE`` bytes); the counts are not saved.
+check the dynamic state (``STATE_SIZE`` bytes; the code is :mod:`tinytherm.state`'s,
+loaded only then); the counts are not saved.
 """
-import struct
-
 try:
     from micropython import const
 except ImportError:  # CPython
@@ -47,7 +46,7 @@ except ImportError:  # CPython
         return x
 
 from tinytherm import status
-from tinytherm.num import INF as _INF, as_float, finite
+from tinytherm.num import INF as _INF, as_float, finite, refused
 
 _NEG_INF = -_INF  # a constant: negating at run time would allocate
 _TICKS_PERIOD = const(1 << 30)          # ticks wrap at 2**30 (MicroPython ticks_ms)
@@ -67,10 +66,6 @@ DISCONNECTED_CODE_C = -127.0
 
 _MAD_TO_SIGMA = const(1.4826)  # MAD of a normal sample x 1.4826 = its standard deviation
 _N_VERDICTS = len(status.VERDICT_NAMES)
-# saved state: 4 window values, last accepted value, held rate (float64);
-# pending and repeat-run time (uint32 ms); window fill | accepted flag; rejections
-_STATE_FMT = const("<ddddddIIBB")
-_HAS_ACCEPTED = const(8)  # flag bit beside the window fill (0..4) in the flags byte
 
 
 def _median3(a, b, c):
@@ -103,7 +98,7 @@ def _setting(name, value, lo, hi, unit):
     """``value`` as a float in ``[lo, hi]``, else ValueError naming the argument."""
     v = as_float(value)
     if v is None or not finite(v) or not lo <= v <= hi:
-        raise ValueError("%s must be a number in [%r, %r] %s, got %r" % (name, lo, hi, unit, value))
+        raise refused("setting", (name, lo, hi, unit, value))
     return v
 
 
@@ -141,7 +136,7 @@ class ReadingGuard:
     accepted reading without.)
     """
 
-    STATE_SIZE = struct.calcsize(_STATE_FMT)  # bytes written by pack_into (58)
+    STATE_SIZE = 58  # bytes written by pack_into
 
     def __init__(self, min_c=-40.0, max_c=150.0, quantum_c=0.0625, spike_window=3,
                  spike_k=4.0, spike_floor_c=None, probe_codes=False, error_margin_c=2.0,
@@ -150,10 +145,10 @@ class ReadingGuard:
         self.min_c = _setting("min_c", min_c, -1e300, 1e300, "deg C")
         self.max_c = _setting("max_c", max_c, -1e300, 1e300, "deg C")
         if not self.min_c < self.max_c:
-            raise ValueError("need min_c < max_c (deg C), got %r, %r" % (min_c, max_c))
+            raise refused("min_c", (min_c, max_c))
         self.quantum_c = _setting("quantum_c", quantum_c, 1e-9, 1e3, "deg C")
         if spike_window not in (0, 3, 5) or type(spike_window) is bool:
-            raise ValueError("spike_window must be 0 (off), 3 or 5, got %r" % (spike_window,))
+            raise refused("spike_window", (spike_window,))
         self.spike_window = int(spike_window)
         self.spike_k = _setting("spike_k", spike_k, 1e-3, 1e3, "standard deviations")
         self.spike_floor_c = _setting("spike_floor_c", quantum_c if spike_floor_c is None
@@ -233,49 +228,17 @@ class ReadingGuard:
         return (0 if w == 0 else 1 if w == 3 else 2) | (4 if self.probe_codes else 0)
 
     def pack_into(self, buf, offset):
-        """Write the dynamic state into ``buf[offset:offset + STATE_SIZE]`` (little-endian)."""
-        w = self._win
-        n = self._win_n
-        last = self._last_c
-        rej = self.consecutive_rejections
-        struct.pack_into(_STATE_FMT, buf, offset, w[0] if n > 0 else 0.0,
-                         w[1] if n > 1 else 0.0, w[2] if n > 2 else 0.0,
-                         w[3] if n > 3 else 0.0, 0.0 if last is None else last,
-                         self._run_rate, self._pending_ms, self._run_ms,
-                         n | (0 if last is None else _HAS_ACCEPTED), rej if rej < 255 else 255)
+        """Write the dynamic state into ``buf[offset:offset + STATE_SIZE]`` (little-endian;
+        :func:`tinytherm.state.pack_guard`, loaded only here: a product that never saves
+        keeps that code off its heap)."""
+        from tinytherm import state
+        state.pack_guard(self, buf, offset)
 
     def unpack_from(self, buf, offset):
         """Load a state written by :meth:`pack_into`; True when every value is valid
-        (temperatures within ``[min_c, max_c]``, the window fill within the window,
-        unused slots 0, a finite rate >= 0, times within their cap); on False the
-        guard is unchanged (the caller resets). On True the counts restart from 0
-        and there is no tick reference (see ``slept_s`` of :meth:`check_ticks`)."""
-        vals = struct.unpack_from(_STATE_FMT, buf, offset)
-        last, rate, pending, run, flags, rej = vals[4:]
-        n = flags & 7
-        accepted = flags & _HAS_ACCEPTED
-        lo = self.min_c
-        hi = self.max_c
-        cap = self.restart_gap_ms + 1000
-        if flags > 15 or n > (self.spike_window - 1 if self.spike_window else 0):
-            return False
-        for i in range(4):
-            if not (lo <= vals[i] <= hi if i < n else vals[i] == 0.0):
-                return False
-        if not (finite(rate) and rate >= 0.0 and pending <= cap and run <= cap):
-            return False
-        if not (lo <= last <= hi if accepted else last == 0.0 and pending == 0 and run == 0):
-            return False
-        self.reset()
-        for i in range(4):
-            self._win[i] = vals[i]
-        self._win_n = n
-        self._last_c = last if accepted else None
-        self._run_rate = rate
-        self._pending_ms = pending
-        self._run_ms = run
-        self.consecutive_rejections = rej
-        return True
+        (:func:`tinytherm.state.unpack_guard`); on False the guard is unchanged."""
+        from tinytherm import state
+        return state.unpack_guard(self, buf, offset)
 
     def held_c(self):
         """The latest reading when it was held back as a possible spike (a jump not yet
@@ -441,7 +404,5 @@ class ReadingGuard:
         return dev > self.spike_k * (_MAD_TO_SIGMA * _median(w, 5, size))
 
     def __repr__(self):
-        return ("ReadingGuard(min_c=%r, max_c=%r, quantum_c=%r, spike_window=%r, spike_k=%r, "
-                "probe_codes=%r, accepted=%d, rejected=%d)" % (
-                    self.min_c, self.max_c, self.quantum_c, self.spike_window, self.spike_k,
-                    self.probe_codes, self.accepted, self.rejected))
+        from tinytherm import texts  # (loaded only when printed)
+        return texts.guard(self)

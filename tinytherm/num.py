@@ -6,6 +6,8 @@
 - :func:`as_float`: the value a caller meant as a number, as a ``float``, or
   ``None``: ``int``, ``float`` and, on CPython, anything ``float()`` converts
   (a numpy scalar) except ``str``, ``bytes``, ``bytearray`` and ``bool``.
+- :func:`refused`: the ``ValueError`` refusing an argument, its text from
+  :mod:`tinytherm.texts` (loaded only then).
 - :func:`exp`: ``math.exp`` that saturates to 0 or ``inf`` instead of raising
   (MicroPython raises ValueError where CPython raises OverflowError).
 - :func:`normal_quantile`: the standard normal quantile (an interval's half-width in sd);
@@ -42,6 +44,13 @@ def number(x, lo, hi):
         return lo <= x <= hi
     except (OverflowError, ValueError):  # MicroPython compares huge ints as floats
         return False
+
+
+def refused(name, args=()):
+    """The ``ValueError`` refusing argument ``name``: its text in :mod:`tinytherm.texts`
+    (loaded here, not with the module that raises it: a text costs heap) ``% args``."""
+    from tinytherm import texts
+    return ValueError(getattr(texts, name) % args)
 
 
 def as_float(x):
@@ -81,7 +90,7 @@ def normal_quantile(p):
     Raises ValueError outside (0, 1).
     """
     if not 0.0 < p < 1.0:
-        raise ValueError("p must be in (0, 1)")
+        raise refused("p")
     if p == 0.5:
         return 0.0
     q = p if p < 0.5 else 1.0 - p

@@ -21,10 +21,9 @@ Payload (little-endian), after the frame's 8-byte header::
 
 The fit's solution is derived: ``restore`` solves again as at the last block
 close, so an uninterrupted run and one saved and restored on every reading
-give the same answers to the last bit. The guard, the change detector and the
-air, usable alone, pack their own bytes; the estimator's inner parts are packed
-here (:func:`_pack_parts`, :func:`_unpack_parts`), so a product that never
-saves does not load that code. Runs unchanged on CPython and MicroPython.
+give the same answers to the last bit. The air packs its own bytes; every
+other part's are packed here (:func:`_pack_parts`, :func:`_unpack_parts`), so a
+product that never saves does not load that code. Runs unchanged on CPython and MicroPython.
 """
 import struct
 
@@ -41,14 +40,19 @@ from tinytherm.crc import crc32
 from tinytherm.settle import LIMIT_COUNTS
 
 # (few globals, const() where it can: the module is loaded at the first save, into a heap
-# in use, where a globals table of 29 slots did not fit: tests/test_long_run.py at 86K)
+# in use, where a globals table of 29 slots did not fit: tests/test_long_run.py at 86K; 23
+# entries, a table of 23 slots)
 # readings, changes, turns, flags, profile reason, anchor, extreme's sum, its n, air ahead
 _HEAD = const("<IHHBBdiBi")
 HEAD_SIZE = 27
-_INV = 1.0 / fit.SCALE
 # the block sums: block and noise counts, the 64-bit sums, the 32-bit ones (the duties,
 # at most fit.DUTY_SCALE, in 16 bits: with a heater the payload needs the room)
 _BLOCKS = const("<HHB6q5iHiH2i")
+# the guard's: 4 window values, last accepted value, held rate (float64); pending and
+# repeat-run time (uint32 ms); window fill | accepted (8); rejections in a row (capped)
+_GUARD = const("<ddddddIIBB")
+# the change detector's: up, down, mean_abs_z
+_DETECTOR = const("<ddd")
 # the regression's sums in turn (the heater's four, the last, only with a heater)
 _REG_NAMES = const(("w", "w2", "nb", "my", "ctt", "ctx", "cty", "cxx", "cxy", "cyy", "t", "x",
                     "v", "ctu", "cxu", "cuu", "cuy"))
@@ -123,7 +127,7 @@ def _unpack(est, blob):
     b = est.blocks
     # (fresh: no reading in the fit yet, the next starts one)
     if not (b.readings <= readings and bool(flags & 1) == (b.readings == 0)
-            and est.guard.min_c <= b.c * _INV <= est.guard.max_c):
+            and est.guard.min_c <= b.c / fit.SCALE <= est.guard.max_c):
         return bl.BLOB_VALUES
     est.readings = readings
     est.changes = changes
@@ -150,9 +154,9 @@ def _unpack(est, blob):
 
 def _pack_parts(est, buf, o):
     """Each part's ``STATE_SIZE`` bytes in turn, from ``buf[o]`` (the layout's order)."""
-    est.guard.pack_into(buf, o)
+    pack_guard(est.guard, buf, o)
     o += est.guard.STATE_SIZE
-    est.detector.pack_into(buf, o)
+    pack_detector(est.detector, buf, o)
     o += est.detector.STATE_SIZE
     inputs = est.inputs
     if inputs.measured:
@@ -180,10 +184,10 @@ def _pack_parts(est, buf, o):
 def _unpack_parts(est, blob, o):
     """Load what :func:`_pack_parts` wrote into the fresh parts; False when a value is
     impossible (the caller resets)."""
-    if not est.guard.unpack_from(blob, o):
+    if not unpack_guard(est.guard, blob, o):
         return False
     o += est.guard.STATE_SIZE
-    if not est.detector.unpack_from(blob, o):
+    if not unpack_detector(est.detector, blob, o):
         return False
     o += est.detector.STATE_SIZE
     inputs = est.inputs
@@ -217,6 +221,74 @@ def _unpack_parts(est, blob, o):
         return False
     est.settle.ref = v >> 1
     est.settle.settled = not v & 1
+    return True
+
+def pack_guard(g, buf, o):
+    """A :class:`tinytherm.guard.ReadingGuard`'s dynamic state into ``buf[o:o + 58]``
+    (``ReadingGuard.pack_into``)."""
+    w = g._win
+    n = g._win_n
+    last = g._last_c
+    rej = g.consecutive_rejections
+    struct.pack_into(_GUARD, buf, o, w[0] if n > 0 else 0.0,
+                     w[1] if n > 1 else 0.0, w[2] if n > 2 else 0.0,
+                     w[3] if n > 3 else 0.0, 0.0 if last is None else last,
+                     g._run_rate, g._pending_ms, g._run_ms,
+                     n | (0 if last is None else 8), rej if rej < 255 else 255)
+
+def unpack_guard(g, blob, o):
+    """Load what :func:`pack_guard` wrote; True when every value is valid (temperatures within
+    ``[min_c, max_c]``, the window fill within the window, unused slots 0, a finite rate
+    >= 0, times within their cap); on False the guard is unchanged (the caller resets). On
+    True the counts restart from 0 and there is no tick reference (``slept_s`` of
+    ``check_ticks``)."""
+    vals = struct.unpack_from(_GUARD, blob, o)
+    last, rate, pending, run, flags, rej = vals[4:]
+    n = flags & 7
+    accepted = flags & 8
+    lo = g.min_c
+    hi = g.max_c
+    cap = g.restart_gap_ms + 1000
+    if flags > 15 or n > (g.spike_window - 1 if g.spike_window else 0):
+        return False
+    for i in range(4):
+        if not (lo <= vals[i] <= hi if i < n else vals[i] == 0.0):
+            return False
+    # (x - x == 0.0: finite, as num.finite for a float; an import fewer keeps this module's
+    # table at 23 slots: it is loaded at the first save, into a heap in use)
+    if not (rate - rate == 0.0 and rate >= 0.0 and pending <= cap and run <= cap):
+        return False
+    if not (lo <= last <= hi if accepted else last == 0.0 and pending == 0 and run == 0):
+        return False
+    g.reset()
+    for i in range(4):
+        g._win[i] = vals[i]
+    g._win_n = n
+    g._last_c = last if accepted else None
+    g._run_rate = rate
+    g._pending_ms = pending
+    g._run_ms = run
+    g.consecutive_rejections = rej
+    return True
+
+def pack_detector(d, buf, o):
+    """A :class:`tinytherm.change.ChangeDetector`'s two sums and scale into ``buf[o:o + 24]``
+    (``ChangeDetector.pack_into``)."""
+    struct.pack_into(_DETECTOR, buf, o, d.up, d.down, d.mean_abs_z)
+
+def unpack_detector(d, blob, o):
+    """Load what :func:`pack_detector` wrote; True when every value is valid: both sums
+    finite in ``[0, threshold]`` (an alarm empties them), the scale finite and >= 0. On
+    False nothing changes (the caller resets). The counts (``readings``, ``alarms``) are
+    not saved and ``last_direction`` starts at 0."""
+    up, down, scale = struct.unpack_from(_DETECTOR, blob, o)
+    if not (0.0 <= up <= d.threshold and 0.0 <= down <= d.threshold
+            and scale - scale == 0.0 and scale >= 0.0):  # (finite: as above)
+        return False
+    d.reset()
+    d.up = up
+    d.down = down
+    d.mean_abs_z = scale
     return True
 
 def _unpack_blocks(b, blob, o):

