@@ -25,7 +25,8 @@ with the time it took, ``e = ln(took / predicted)``, into a forgetting mean of `
 The equilibrium's drift (a passive fit: a coolant warming, a tub and its wort cooling
 together) is measured from the longest audit's waiting forecast, ``b = dE/dt``, and the time
 is that of ``dT/dt = -k (T - E(t))``, ``E(t) = E + b t``
-(:func:`tinytherm.num.time_to_target_drift_s`). A turned fit answers at its drift; an
+(:func:`tinytherm.num.time_to_target_drift_s`). A turned fit answers at its drift, a target
+beyond E at the drift kept from the longest audit's last span until its new one measures; an
 unmeasured bend, a fit past its ambient hint and a target just beyond the fitted
 equilibrium get their own upper ends. The equations and the reasons for each rule are in
 docs/design.md ("Estimator"). Runs on CPython and MicroPython.
@@ -92,7 +93,7 @@ def predict(self, target_c, approach=0):
         m = c.arrive_dir
         a = c.arrive_c
         reached = m != 0 and ((b.c >= a and b.cq >= a) if m > 0 else (b.c <= a and b.cq <= a))
-        if reached and _backed_off(self, m):
+        if reached and self.settle.backed_off(self, m):
             reached = False  # back beyond the turn threshold: a top-up, not an arrival
         if self.status == st.ARRIVED:
             if reached:
@@ -228,7 +229,9 @@ def _work_out(est, target, approach):
     a = est.audits.a[2]
     r = a.rate
     passive = not (est.heater or est._profile_on or est.inputs.known())
-    if passive and k > 0.0 and r > 0.0 and r * a.age >= DRIFT_BEND and age_s - a.age >= DRIFT_MIN_S:
+    kept = passive and not (k > 0.0 and r > 0.0 and r * a.age >= DRIFT_BEND
+                            and age_s - a.age >= DRIFT_MIN_S)  # (none measured since it began)
+    if passive and not kept:
         bd = (level + slope / k - a.level - a.slope / r) / (age_s - a.age)
     if (d == 0 or slope * d <= 0.0 or gap * d <= 0.0) and not (
             bd * m > 0.0 and gap * m > 0.0 and (approach == 0 or approach == m)
@@ -276,11 +279,17 @@ def _work_out(est, target, approach):
         if k > 0.0 and over < slack:
             k = slope / (gap + (slack - over) * (1.0 if gap > 0.0 else -1.0))
             eta = time_to_target_from_slope_s(gap, slope, k)
+        if eta is None and kept and a.drift * gap > 0.0:
+            # no drift measured since the longest audit began again: not out of reach on
+            # that alone, the drift its last whole span measured answers (as one measured)
+            eta = time_to_target_drift_s(gap, slope, k, a.drift)
+            bd = a.drift
         if eta is None:
             if k2 * gap / slope >= 1.0:  # (not even k REACH_SD sd lower reaches it)
                 est.status = st.OUT_OF_REACH
             return
-        open_end = True
+        if bd == 0.0:
+            open_end = True
     # the fit's own variance of ln(eta), times the share model error adds to it,
     # is the prior of what the audits measured
     law = eta if bd == 0.0 else eta0  # the time under the fitted law (a fixed equilibrium)
@@ -369,7 +378,7 @@ def _arrived(est, target, m, approach, age_ms):
     ``sd``: the noise's, the prior's share of its variance replaced by the fit's residual
     variance per reading when that is larger (docs/design.md, "Honest arrival").
     """
-    if age_ms < _ARRIVE_MIN_MS or _backed_off(est, m):
+    if age_ms < _ARRIVE_MIN_MS or est.settle.backed_off(est, m):
         return False  # (young, or back beyond the turn threshold: a top-up's probe rising)
     if approach == 0 and not est.settle.allows(est, target, m, age_ms):
         return False  # (no direction given: a probe still meeting the liquid, tinytherm.settle)
@@ -417,23 +426,6 @@ def move_c(noise_sd_c):
     return on if on > ARRIVE_TOL_C else ARRIVE_TOL_C
 
 
-def _backed_off(est, m):
-    """The latest reading, or one the guard holds as a possible spike (a top-up's first, until
-    the next confirms it), back beyond the hold line (the cache's ``hold_c``) against ``m``;
-    the line as far from the open block's mean when that is further on (the drink went on
-    past the extreme since the last block closed: a line from the extreme alone is late)."""
-    b = est.blocks
-    hold = est.audits.hold_c
-    if b.n >= HOLD_OPEN_N:
-        line = b.sy // b.n + hold - est.blocks.ext_sy // est.blocks.ext_n  # (integer counts: no heap)
-        if (line - hold) * m > 0:
-            hold = line
-    if (b.c - hold) * m < 0:
-        return True
-    x = est.guard.held_c()
-    return x is not None and (to_counts(x) - hold) * m < 0
-
-
 # the audits' horizons: (fraction of the fit's age, shortest s); one table, not two (the
 # module's globals fill a 47-slot table)
 AUDIT_HORIZONS = ((0.125, 10.0), (0.25, 20.0), (0.5, 40.0))
@@ -477,6 +469,7 @@ class Audit:
         self.level = 0.0           # fitted level then, deg C
         self.slope = 0.0           # fitted slope then, deg C/s
         self.rate = 0.0            # fitted k then, 1/s
+        self.drift = 0.0           # deg C/s: E's drift over the last whole span (0: none)
 
     def horizon_s(self, age_s):
         """The horizon for a fit ``age_s`` seconds old, s."""
@@ -516,6 +509,10 @@ class Audit:
                 self.var = (old * self.var + err * err) / (old + 1.0)
                 n = int(old + 1.5)
                 self.n = n if n < AUDIT_MEMORY else AUDIT_MEMORY
+            r = self.rate  # (E's move over the span, as the answer's drift: kept for it)
+            self.drift = 0.0 if not (rate > 0.0 and r > 0.0 and r * self.age >= DRIFT_BEND
+                                     and took >= DRIFT_MIN_S) else (
+                level + slope / rate - self.level - self.slope / r) / took
         self.age = age_s
         self.level = level
         self.slope = slope
