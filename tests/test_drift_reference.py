@@ -324,8 +324,9 @@ KEPT_ASKS = tuple(float(t) for t in range(800, 881, 20)) + tuple(
 
 
 def test_kept_drift_answers_beyond_the_equilibrium():
-    # before, every ask here was out_of_reach (the rows between 680 and 1680 s answered but
-    # these eleven); now each is tracking with a bounded interval that holds the crossing
+    # before, each of these eleven asks was out_of_reach, between answers at the measured
+    # drift at 760 and 920 s, 1160 and 1320 s; now each is tracking with a bounded interval
+    # that holds the crossing
     answers, crossing = chiller_answers(KEPT_ASKS)
     for t, code, low, high in answers:
         assert code == st.TRACKING, (t, code)

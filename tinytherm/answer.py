@@ -426,9 +426,9 @@ def move_c(noise_sd_c):
     return on if on > ARRIVE_TOL_C else ARRIVE_TOL_C
 
 
-# the audits' horizons: (fraction of the fit's age, shortest s); one table, not two (the
-# module's globals fill a 47-slot table)
-AUDIT_HORIZONS = ((0.125, 10.0), (0.25, 20.0), (0.5, 40.0))
+# the audits' horizons: fractions of the fit's age, of at least 80 s (10, 20 and 40 s at least;
+# derived, not stored: an Audit's eight attributes fill its table)
+AUDIT_HORIZONS = (0.125, 0.25, 0.5)
 AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before any audit (2 % sd)
 DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times this: the audits' prior
 LINE_PRIOR_VAR = 0.15     # (log time)^2: least prior of the pinned line (before any audit checks;
@@ -456,9 +456,8 @@ AUDIT_LOG_CAP = 2.0794  # ln 8: one audit counts at most a factor 8
 class Audit:
     """One horizon: the forecast waiting to be checked and the running error variance."""
 
-    def __init__(self, fraction, min_s):
-        self.fraction = fraction   # horizon as a fraction of the fit's age
-        self.min_s = min_s         # shortest horizon, s
+    def __init__(self, fraction):
+        self.fraction = fraction   # horizon as a fraction of the fit's age (of at least 80 s)
         self.var = 0.0             # (log time)^2: mean squared log error of the checks
         self.n = 0                 # checks in the running mean (at most AUDIT_MEMORY)
         self.clear()
@@ -473,8 +472,7 @@ class Audit:
 
     def horizon_s(self, age_s):
         """The horizon for a fit ``age_s`` seconds old, s."""
-        h = self.fraction * age_s
-        return h if h > self.min_s else self.min_s
+        return self.fraction * (age_s if age_s > 80.0 else 80.0)
 
     def due(self, age_s):
         return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
@@ -527,7 +525,7 @@ class Audits:
 
     def __init__(self, z):
         h = AUDIT_HORIZONS
-        self.a = (Audit(h[0][0], h[0][1]), Audit(h[1][0], h[1][1]), Audit(h[2][0], h[2][1]))
+        self.a = (Audit(h[0]), Audit(h[1]), Audit(h[2]))
         self.z = z
         self.done = 0  # blocks finished since the fit started (the estimator's): the key
         self.forget()  # (here, not in the estimator: its attribute table stays small)
