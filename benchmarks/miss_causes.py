@@ -77,7 +77,7 @@ def trace_causes(family, seed, sampling):
             why = "jump" if disturbed else ("turn" if est.turns != seen["turns"] else "settle")
             seen["turns"] = est.turns
             i = seen["i"]
-            spike = any(abs(ft.temp_c[j] - ft.clean_c[j]) > off for j in range(max(0, i - 1), i + 1))
+            spike = any(abs(ft.temp_c[j] - ft.clean_c[j]) > off for j in range(max(0, i - 1), min(i + 1, len(ft.temp_c))))
             began[0] = why + (", spike" if spike else "")
             return begin_again(disturbed, from_previous)
 

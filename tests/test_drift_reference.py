@@ -298,12 +298,53 @@ def tub_answers(target_c, every_s):
     return asked, shown, covered
 
 
-@pytest.mark.parametrize("target_c, every_s, least", [
-    (33.0, 10.0, 0.8),    # crossing at 3818 s; before: 94 of 231 asks answered
-    (32.0, 10.0, 0.65),   # 5987 s; before: 92 of 448
-    (32.0, 120.0, 0.5),   # before: 6 of 37
+@pytest.mark.parametrize("target_c, every_s, least, cover", [
+    # crossing at 3818 s; before: 94 of 231 asks answered. 191 with the turned fit's rule,
+    # 187 covered; 215 and 199 with the drift kept beyond E (test_kept_drift_... below): 24
+    # asks after the longest audit began again at 1550 s answer at its span's drift then
+    # (-0.16 mC/s, E falling 0.4 mC/s by 1680 s), as the measured drift's answers before
+    # them did (1510-1540 s: missed long too)
+    (33.0, 10.0, 0.8, 0.9),
+    (32.0, 10.0, 0.65, 0.95),   # 5987 s; before: 92 of 448
+    (32.0, 120.0, 0.5, 0.95),   # before: 6 of 37
 ])
-def test_turned_fit_answers_at_its_drift(target_c, every_s, least):
+def test_turned_fit_answers_at_its_drift(target_c, every_s, least, cover):
     asked, shown, covered = tub_answers(target_c, every_s)
     assert shown >= least * asked, (shown, asked)
-    assert covered >= 0.95 * shown, (covered, shown)
+    assert covered >= cover * shown, (covered, shown)
+
+
+# The longest audit starts again at every check (each half of the fit's age); until its
+# new span is DRIFT_MIN_S long it measures no drift. A target beyond the fitted
+# equilibrium was out of reach there, though the drift its last whole span measured
+# carried E on past it: the coil above (answer._work_out, Audit.drift), its 19 C target
+# beyond the fitted E (21.5-19.8 C here) but reached at 2349 s (solve_ivp, brentq).
+KEPT_ASKS = tuple(float(t) for t in range(800, 881, 20)) + tuple(
+    float(t) for t in range(1200, 1301, 20))
+
+
+def test_kept_drift_answers_beyond_the_equilibrium():
+    # before, each of these eleven asks was out_of_reach, between answers at the measured
+    # drift at 760 and 920 s, 1160 and 1320 s; now each is tracking with a bounded interval
+    # that holds the crossing
+    answers, crossing = chiller_answers(KEPT_ASKS)
+    for t, code, low, high in answers:
+        assert code == st.TRACKING, (t, code)
+        assert low <= crossing - t <= high < math.inf, (t, low, high, crossing - t)
+
+
+def test_kept_drift_survives_save_and_restore():
+    # the kept drift is saved (a passive fit: after the settle byte): an estimator restored
+    # from the blob at each ask gives the same answer to the last bit
+    probe, _ = chiller_probe_and_crossing()
+    readings = np.round(probe(np.arange(0.0, 1301.0, DT)) * 16.0) / 16.0
+    est = ThermalEstimator()
+    for i, temp in enumerate(readings):
+        est.update(float(temp), 0.0 if i == 0 else DT)
+        if i * DT in KEPT_ASKS:
+            copy = ThermalEstimator()
+            assert copy.restore(bytes(est.save())) == 0
+            assert copy.audits.a[2].drift == est.audits.a[2].drift != 0.0
+            assert copy.predict(CHILL_TARGET) == est.predict(CHILL_TARGET) == st.TRACKING
+            assert (copy.eta_s, copy.eta_low_s, copy.eta_high_s) == (
+                est.eta_s, est.eta_low_s, est.eta_high_s)

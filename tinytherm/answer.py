@@ -25,7 +25,8 @@ with the time it took, ``e = ln(took / predicted)``, into a forgetting mean of `
 The equilibrium's drift (a passive fit: a coolant warming, a tub and its wort cooling
 together) is measured from the longest audit's waiting forecast, ``b = dE/dt``, and the time
 is that of ``dT/dt = -k (T - E(t))``, ``E(t) = E + b t``
-(:func:`tinytherm.num.time_to_target_drift_s`). A turned fit answers at its drift; an
+(:func:`tinytherm.num.time_to_target_drift_s`). A turned fit answers at its drift, a target
+beyond E at the drift kept from the longest audit's last span until its new one measures; an
 unmeasured bend, a fit past its ambient hint and a target just beyond the fitted
 equilibrium get their own upper ends. The equations and the reasons for each rule are in
 docs/design.md ("Estimator"). Runs on CPython and MicroPython.
@@ -92,7 +93,7 @@ def predict(self, target_c, approach=0):
         m = c.arrive_dir
         a = c.arrive_c
         reached = m != 0 and ((b.c >= a and b.cq >= a) if m > 0 else (b.c <= a and b.cq <= a))
-        if reached and _backed_off(self, m):
+        if reached and self.settle.backed_off(self, m):
             reached = False  # back beyond the turn threshold: a top-up, not an arrival
         if self.status == st.ARRIVED:
             if reached:
@@ -228,7 +229,9 @@ def _work_out(est, target, approach):
     a = est.audits.a[2]
     r = a.rate
     passive = not (est.heater or est._profile_on or est.inputs.known())
-    if passive and k > 0.0 and r > 0.0 and r * a.age >= DRIFT_BEND and age_s - a.age >= DRIFT_MIN_S:
+    kept = passive and not (k > 0.0 and r > 0.0 and r * a.age >= DRIFT_BEND
+                            and age_s - a.age >= DRIFT_MIN_S)  # (none measured since it began)
+    if passive and not kept:
         bd = (level + slope / k - a.level - a.slope / r) / (age_s - a.age)
     if (d == 0 or slope * d <= 0.0 or gap * d <= 0.0) and not (
             bd * m > 0.0 and gap * m > 0.0 and (approach == 0 or approach == m)
@@ -276,11 +279,17 @@ def _work_out(est, target, approach):
         if k > 0.0 and over < slack:
             k = slope / (gap + (slack - over) * (1.0 if gap > 0.0 else -1.0))
             eta = time_to_target_from_slope_s(gap, slope, k)
+        if eta is None and kept and a.drift * gap > 0.0:
+            # no drift measured since the longest audit began again: not out of reach on
+            # that alone, the drift its last whole span measured answers (as one measured)
+            eta = time_to_target_drift_s(gap, slope, k, a.drift)
+            bd = a.drift
         if eta is None:
             if k2 * gap / slope >= 1.0 or over >= room:
                 est.status = st.OUT_OF_REACH
             return
-        open_end = True
+        if bd == 0.0:
+            open_end = True
     # the fit's own variance of ln(eta) (times DELTA_VAR_FACTOR): the audits' prior
     law = eta if bd == 0.0 else eta0  # the time under the fitted law (a fixed equilibrium)
     own2 = 0.0 if law is None else reg.eta_rel_var(gap, slope, k, law, gk)
@@ -367,7 +376,7 @@ def _arrived(est, target, m, approach, age_ms):
     ``sd``: the noise's, the prior's share of its variance replaced by the fit's residual
     variance per reading when that is larger (docs/design.md, "Honest arrival").
     """
-    if age_ms < _ARRIVE_MIN_MS or _backed_off(est, m):
+    if age_ms < _ARRIVE_MIN_MS or est.settle.backed_off(est, m):
         return False  # (young, or back beyond the turn threshold: a top-up's probe rising)
     if approach == 0 and not est.settle.allows(est, target, m, age_ms):
         return False  # (no direction given: a probe still meeting the liquid, tinytherm.settle)
@@ -415,26 +424,9 @@ def move_c(noise_sd_c):
     return on if on > ARRIVE_TOL_C else ARRIVE_TOL_C
 
 
-def _backed_off(est, m):
-    """The latest reading, or one the guard holds as a possible spike (a top-up's first, until
-    the next confirms it), back beyond the hold line (the cache's ``hold_c``) against ``m``;
-    the line as far from the open block's mean when that is further on (the drink went on
-    past the extreme since the last block closed: a line from the extreme alone is late)."""
-    b = est.blocks
-    hold = est.audits.hold_c
-    if b.n >= HOLD_OPEN_N:
-        line = b.sy // b.n + hold - est.blocks.ext_sy // est.blocks.ext_n  # (integer counts: no heap)
-        if (line - hold) * m > 0:
-            hold = line
-    if (b.c - hold) * m < 0:
-        return True
-    x = est.guard.held_c()
-    return x is not None and (to_counts(x) - hold) * m < 0
-
-
-# the audits' horizons: (fraction of the fit's age, shortest s); one table, not two (the
-# module's globals fill a 47-slot table)
-AUDIT_HORIZONS = ((0.125, 10.0), (0.25, 20.0), (0.5, 40.0))
+# the audits' horizons: fractions of the fit's age, of at least 80 s (10, 20 and 40 s at least;
+# derived, not stored: an Audit's eight attributes fill its table)
+AUDIT_HORIZONS = (0.125, 0.25, 0.5)
 AUDIT_PRIOR_VAR = 0.0004  # (log time)^2: least forecast-error variance before any audit (2 % sd)
 DELTA_VAR_FACTOR = 1.0    # the fit's delta-method variance of ln(eta) times this: the audits' prior
 LINE_PRIOR_VAR = 0.15     # (log time)^2: least prior of the pinned line (before any audit checks;
@@ -464,9 +456,8 @@ AUDIT_LOG_CAP = 2.0794  # ln 8: one audit counts at most a factor 8
 class Audit:
     """One horizon: the forecast waiting to be checked and the running error variance."""
 
-    def __init__(self, fraction, min_s):
-        self.fraction = fraction   # horizon as a fraction of the fit's age
-        self.min_s = min_s         # shortest horizon, s
+    def __init__(self, fraction):
+        self.fraction = fraction   # horizon as a fraction of the fit's age (of at least 80 s)
         self.var = 0.0             # (log time)^2: mean squared log error of the checks
         self.n = 0                 # checks in the running mean (at most AUDIT_MEMORY)
         self.clear()
@@ -477,11 +468,11 @@ class Audit:
         self.level = 0.0           # fitted level then, deg C
         self.slope = 0.0           # fitted slope then, deg C/s
         self.rate = 0.0            # fitted k then, 1/s
+        self.drift = 0.0           # deg C/s: E's drift over the last whole span (0: none)
 
     def horizon_s(self, age_s):
         """The horizon for a fit ``age_s`` seconds old, s."""
-        h = self.fraction * age_s
-        return h if h > self.min_s else self.min_s
+        return self.fraction * (age_s if age_s > 80.0 else 80.0)
 
     def due(self, age_s):
         return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
@@ -516,6 +507,10 @@ class Audit:
                 self.var = (old * self.var + err * err) / (old + 1.0)
                 n = int(old + 1.5)
                 self.n = n if n < AUDIT_MEMORY else AUDIT_MEMORY
+            r = self.rate  # (E's move over the span, as the answer's drift: kept for it)
+            self.drift = 0.0 if not (rate > 0.0 and r > 0.0 and r * self.age >= DRIFT_BEND
+                                     and took >= DRIFT_MIN_S) else (
+                level + slope / rate - self.level - self.slope / r) / took
         self.age = age_s
         self.level = level
         self.slope = slope
@@ -530,7 +525,7 @@ class Audits:
 
     def __init__(self, z):
         h = AUDIT_HORIZONS
-        self.a = (Audit(h[0][0], h[0][1]), Audit(h[1][0], h[1][1]), Audit(h[2][0], h[2][1]))
+        self.a = (Audit(h[0]), Audit(h[1]), Audit(h[2]))
         self.z = z
         self.done = 0  # blocks finished since the fit started (the estimator's): the key
         self.forget()  # (here, not in the estimator: its attribute table stays small)

@@ -14,7 +14,7 @@ NOISE_PRIOR_N: int
 
 def move_c(noise_sd_c: float) -> float: ...
 
-AUDIT_HORIZONS: tuple[tuple[float, float], tuple[float, float], tuple[float, float]]
+AUDIT_HORIZONS: tuple[float, float, float]
 AUDIT_PRIOR_VAR: float
 LINE_PRIOR_VAR: float
 YOUNG_PRIOR_VAR: float
@@ -34,14 +34,14 @@ UNSEEN_FROM: float
 
 class Audit:
     fraction: float
-    min_s: float
     var: float
     n: int
     age: float
     level: float
     slope: float
     rate: float
-    def __init__(self, fraction: float, min_s: float) -> None: ...
+    drift: float
+    def __init__(self, fraction: float) -> None: ...
     def clear(self) -> None: ...
     def horizon_s(self, age_s: float) -> float: ...
     def due(self, age_s: float) -> bool: ...

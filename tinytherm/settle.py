@@ -178,3 +178,21 @@ class Settle:
             age_ms < RISE_ARRIVE_MIN_MS or not est._slope > 0.0
             or est.reg.k * age_ms > RISE_BEND * 1000.0
             or b.c * _INV < est._extreme_c() - RISE_DROP_SD * est.noise.sd)
+
+    def backed_off(self, est, m):
+        """True when the latest reading, or one the guard holds as a possible spike (a top-up's
+        first, until the next confirms it), is back beyond the hold line (the answer's cache,
+        ``hold_c``, counts) against the direction ``m`` (+1 / -1): a lagging probe rising
+        after a top-up, no arrival. The line is as far from the open block's mean when that
+        is further on (the drink went on past the extreme since the last block closed: a
+        line from the extreme alone is late)."""
+        b = est.blocks
+        hold = est.audits.hold_c
+        if b.n >= answer.HOLD_OPEN_N:
+            line = b.sy // b.n + hold - b.ext_sy // b.ext_n  # (integer counts: no heap)
+            if (line - hold) * m > 0:
+                hold = line
+        if (b.c - hold) * m < 0:
+            return True
+        x = est.guard.held_c()
+        return x is not None and (to_counts(x) - hold) * m < 0

@@ -17,7 +17,10 @@ Payload (little-endian), after the frame's 8-byte header::
     22      1     readings in the block of that extreme (uint8)
     23      4     the air ahead at the last block close, 1/65536 deg C (int32)
     27      ...   the parts in turn, each ``STATE_SIZE`` bytes: guard,
-                  change detector, inputs, noise, block sums, regression, audits, settle
+                  change detector, inputs, noise, block sums, regression, audits, settle;
+                  then, with no third column in the regression (no heater, no measured
+                  air), the longest audit's kept drift, deg C/s (float64; zeros in a
+                  blob written before it: none kept)
 
 The fit's solution is derived: ``restore`` solves again as at the last block
 close, so an uninterrupted run and one saved and restored on every reading
@@ -180,6 +183,8 @@ def _pack_parts(est, buf, o):
         o += 41
     settle = est.settle
     struct.pack_into("<i", buf, o, settle.ref * 2 + (0 if settle.settled else 1))
+    if not reg.heater:  # (the drift only a passive fit uses: no third column, room for it)
+        struct.pack_into("<d", buf, o + 4, est.audits.a[2].drift)
 
 def _unpack_parts(est, blob, o):
     """Load what :func:`_pack_parts` wrote into the fresh parts; False when a value is
@@ -221,6 +226,11 @@ def _unpack_parts(est, blob, o):
         return False
     est.settle.ref = v >> 1
     est.settle.settled = not v & 1
+    if not est.reg.heater:
+        v = struct.unpack_from("<d", blob, o + 4)[0]
+        if not -1e6 < v < 1e6:  # (NaN fails too)
+            return False
+        est.audits.a[2].drift = v
     return True
 
 def pack_guard(g, buf, o):
