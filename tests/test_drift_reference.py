@@ -325,12 +325,14 @@ KEPT_ASKS = tuple(float(t) for t in range(800, 881, 20)) + tuple(
 
 def test_kept_drift_answers_beyond_the_equilibrium():
     # before, each of these eleven asks was out_of_reach, between answers at the measured
-    # drift at 760 and 920 s, 1160 and 1320 s; now each is tracking with a bounded interval
-    # that holds the crossing
+    # drift at 760 and 920 s, 1160 and 1320 s; now each is tracking with an interval that
+    # holds the crossing. (The drift kept answers them with a bounded interval alone; with
+    # the reach counting the rate's model error on a misfit, test_reach_reference, the
+    # slack answers them first, open-ended above: either way not out of reach.)
     answers, crossing = chiller_answers(KEPT_ASKS)
     for t, code, low, high in answers:
         assert code == st.TRACKING, (t, code)
-        assert low <= crossing - t <= high < math.inf, (t, low, high, crossing - t)
+        assert low <= crossing - t <= high, (t, low, high, crossing - t)
 
 
 def test_kept_drift_survives_save_and_restore():
