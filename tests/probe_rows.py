@@ -47,12 +47,14 @@ def counted_rows(probe, crossing_s, target_c, seed, dt_s, noise_c, quantum_c, ea
     return rows, answered, shown, covered
 
 
-def drink_in_cycling_air(l0_c, room_c, amp_c, period_s, k_per_s, w, lag_s, end_s, second=0.0):
+def drink_in_cycling_air(l0_c, room_c, amp_c, period_s, k_per_s, w, lag_s, end_s, second=0.0,
+                         probe_in_air=False):
     """(solution, air) of a drink in cycling air, read by a probe that partly sees the air.
 
     scipy ``solve_ivp`` (Radau, rtol = atol = 1e-10, steps of at most 20 s) from 0 to
     ``end_s`` (s) of ``dL/dt = -k (L - A(t))``, ``dP/dt = ((1 - w) L + w A(t) - P) / lag``,
-    the probe starting at its mixture; ``A(t) = room + amp (sin x + second sin 2x)``,
+    the probe starting at its mixture (``probe_in_air``: at the air's temperature, a probe
+    strapped on as the drink is set down); ``A(t) = room + amp (sin x + second sin 2x)``,
     ``x = 2 pi t / period + 1`` (deg C, s, 1/s; ``w`` the air's share of the probe).
     ``solution.sol(t)`` gives ``[L, P]``; ``air(t)`` the air, deg C.
     """
@@ -63,6 +65,7 @@ def drink_in_cycling_air(l0_c, room_c, amp_c, period_s, k_per_s, w, lag_s, end_s
     def rhs(t, y):
         return [-k_per_s * (y[0] - air(t)), ((1.0 - w) * y[0] + w * air(t) - y[1]) / lag_s]
 
-    sol = solve_ivp(rhs, (0.0, end_s), [l0_c, (1.0 - w) * l0_c + w * air(0.0)], method="Radau",
+    p0 = air(0.0) if probe_in_air else (1.0 - w) * l0_c + w * air(0.0)
+    sol = solve_ivp(rhs, (0.0, end_s), [l0_c, p0], method="Radau",
                     rtol=1e-10, atol=1e-10, dense_output=True, max_step=20.0)
     return sol, air

@@ -412,7 +412,8 @@ class Regression:
         Priors: ``k ~ N(kp, s2 / lk)`` (``lk < 0`` pins k = 0, the exact
         straight line), ``g ~ N(gp, s2 / lg)``, and weight ``lh`` on the
         pseudo-observation ``0 = s + dist m`` with ``m = -k`` (the equilibrium hint). ``s2``:
-        the reading noise variance, deg C^2.
+        the reading noise variance, deg C^2. The measured air's weight (:data:`AIR_COLUMN`)
+        is a share, 0 <= g < 1: outside, the fit is solved as if it had no column, g = 0.
         """
         a11 = self.ctt + lh
         if lk < 0.0:
@@ -424,6 +425,7 @@ class Regression:
             a22 = self.cxx + lk + lh * dist * dist
             b2 = self.cxy - kp * lk
         b1 = self.cty
+        two = not self.heater  # (the two-column solve)
         if self.heater:
             a13 = self.ctu
             a23 = 0.0 if lk < 0.0 else self.cxu
@@ -440,15 +442,25 @@ class Regression:
             if not det > 1e-300 * (1.0 + a11 * a22 * a33):
                 return False
             inv = 1.0 / det
-            s = (c11 * b1 + c12 * b2 + c13 * b3) * inv
-            m = (c12 * b1 + c22 * b2 + c23 * b3) * inv
             g = (c13 * b1 + c23 * b2 + c33 * b3) * inv
-            # (the air's weight, held by its prior, counted as no degree of freedom: as a third,
-            # every passive fit with a measured air widened, tune seeds, docs/benchmarks.md)
-            dof = self.nb - (2.0 if self.heater == AIR_COLUMN else 3.0)
-            ssr = self.cyy - s * b1 - m * self.cxy - g * b3
-        else:
-            det = a11 * a22 - a12 * a12
+            if self.heater == AIR_COLUMN and not 0.0 <= g < 1.0:
+                # a share of the air no probe has (it reads a mixture of liquid and air: 0..1):
+                # the fit as if it had no air column, g = 0 (the Gaussian's conditional there:
+                # the two-column solve, its determinant c33)
+                two = True
+                det = c33
+                c13 = c23 = c33 = 0.0
+            else:
+                s = (c11 * b1 + c12 * b2 + c13 * b3) * inv
+                m = (c12 * b1 + c22 * b2 + c23 * b3) * inv
+                # (the air's weight, held by its prior, counted as no degree of freedom: as a
+                # third, every passive fit with a measured air widened, tune seeds,
+                # docs/benchmarks.md)
+                dof = self.nb - (2.0 if self.heater == AIR_COLUMN else 3.0)
+                ssr = self.cyy - s * b1 - m * self.cxy - g * b3
+        if two:
+            if not self.heater:
+                det = a11 * a22 - a12 * a12
             if not det > 1e-300 * (1.0 + a11 * a22):
                 return False
             inv = 1.0 / det
