@@ -67,6 +67,24 @@ def _replay(drink):
     return rows, shown, covered, float(np.median(errors))
 
 
+
+def replay_read_through_air(sol, air, end_s, dt, seed, target):
+    """Replays the solved drink to ``end_s`` (s), read every ``dt`` s by the probe and an
+    air sensor (noise sd 0.05 C, a 0.0625 C quantum: a common digital probe's; common
+    practice, no source; numpy's generator of ``seed``) into a default estimator with the
+    air measured. Yields ``(t, liquid_c, est, arrived)`` for each reading."""
+    rng = np.random.default_rng(seed)
+    times = np.arange(0.0, end_s, dt)
+    states = sol.sol(times)
+    probe = np.round((states[1] + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+    amb = np.round((np.array([air(t) for t in times]) + rng.normal(0.0, 0.05, len(times)))
+                   / 0.0625) * 0.0625
+    est = ThermalEstimator(quantum_c=0.0625)
+    for j, t in enumerate(times):
+        est.update(float(probe[j]), 0.0 if j == 0 else dt, ambient_c=float(amb[j]))
+        yield float(t), float(states[0][j]), est, est.predict(target) == st.ARRIVED
+
+
 def test_a_cold_drink_read_partly_through_the_air_is_answered_and_covered():
     rows, shown, covered, median = _replay(COLD)
     # before the air's column: 2,123 of 2,536 rows shown, 0.708 covered, median 0.576
@@ -109,19 +127,12 @@ def test_a_probe_pulled_by_the_cold_air_does_not_arrive_before_the_liquid():
     assert 3700.0 < crossing < 4000.0  # (the scenario as written: about 3,863 s)
     early = 0
     for seed in range(8):
-        rng = np.random.default_rng(700 + seed)
-        times = np.arange(0.0, crossing + 3000.0, dt)
-        states = sol.sol(times)
-        probe = np.round((states[1] + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
-        amb = np.round((np.array([air(t) for t in times]) + rng.normal(0.0, 0.05, len(times)))
-                       / 0.0625) * 0.0625
-        est = ThermalEstimator(quantum_c=0.0625)
         first = None
-        for j, t in enumerate(times):
-            est.update(float(probe[j]), 0.0 if j == 0 else dt, ambient_c=float(amb[j]))
-            if est.predict(target) == st.ARRIVED:
+        for t, liquid, _, arrived in replay_read_through_air(sol, air, crossing + 3000.0, dt,
+                                                              700 + seed, target):
+            if arrived:
                 first = t if first is None else first
-                early += states[0][j] > liquid_then + 0.3
+                early += liquid > liquid_then + 0.3
         assert first is not None and first <= crossing + 300.0, (seed, first, crossing)
     assert early == 0, early
 
@@ -155,19 +166,12 @@ def test_a_share_of_the_air_no_probe_has_is_judged_as_no_air_column():
     assert probe_exact[0] > target + 5.0 and 4800.0 < crossing < 5200.0  # (about 4,975 s)
     early = pinned = 0
     for seed in range(8):
-        rng = np.random.default_rng(500 + seed)
-        times = np.arange(0.0, crossing + 3000.0, dt)
-        states = sol.sol(times)
-        probe = np.round((states[1] + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
-        amb = np.round((np.array([air(t) for t in times]) + rng.normal(0.0, 0.05, len(times)))
-                       / 0.0625) * 0.0625
-        est = ThermalEstimator(quantum_c=0.0625)
         first = None
-        for j, t in enumerate(times):
-            est.update(float(probe[j]), 0.0 if j == 0 else dt, ambient_c=float(amb[j]))
-            if est.predict(target) == st.ARRIVED:
+        for t, liquid, est, arrived in replay_read_through_air(sol, air, crossing + 3000.0, dt,
+                                                                500 + seed, target):
+            if arrived:
                 first = t if first is None else first
-                early += states[0][j] < liquid_then - 0.3
+                early += liquid < liquid_then - 0.3
             pinned += t < crossing and est.reg.ok and est.reg.g == 0.0
         assert first is not None and first <= crossing + 3.0 * dt, (seed, first, crossing)
     assert pinned > 0  # (the share was out of 0..1 before the crossing: judged without it)
