@@ -225,14 +225,12 @@ def _work_out(est, target, approach):
             return
     # the equilibrium's drift since the longest audit started (its waiting forecast holds the
     # fit then); not with a heater, profile or ambient (the duty, law or known air move it)
-    bd = 0.0
     a = est.audits.a[2]
-    r = a.rate
     passive = not (est.heater or est._profile_on or est.inputs.known())
-    kept = passive and not (k > 0.0 and r > 0.0 and r * a.age >= DRIFT_BEND
-                            and age_s - a.age >= DRIFT_MIN_S)  # (none measured since it began)
-    if passive and not kept:
-        bd = (level + slope / k - a.level - a.slope / r) / (age_s - a.age)
+    bd = a.drift_to(age_s, level, slope, k) if passive else None
+    kept = passive and bd is None  # (none measured since it began: the one kept answers)
+    if bd is None:
+        bd = 0.0
     if (d == 0 or slope * d <= 0.0 or gap * d <= 0.0) and not (
             bd * m > 0.0 and gap * m > 0.0 and (approach == 0 or approach == m)
             and c.stands_out(bd * (age_s - a.age), est.reg, slope, k, var_slope, gk)):
@@ -474,6 +472,15 @@ class Audit:
         """The horizon for a fit ``age_s`` seconds old, s."""
         return self.fraction * (age_s if age_s > 80.0 else 80.0)
 
+    def drift_to(self, age_s, level, slope, rate):
+        """E's drift, deg C/s, from the waiting forecast to the fit ``age_s`` s old (level deg C,
+        slope deg C/s, rate 1/s); None: no bend yet at either end, or a span under DRIFT_MIN_S."""
+        r = self.rate
+        took = age_s - self.age
+        if not (rate > 0.0 and r > 0.0 and r * self.age >= DRIFT_BEND and took >= DRIFT_MIN_S):
+            return None
+        return (level + slope / rate - self.level - self.slope / r) / took
+
     def due(self, age_s):
         return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
 
@@ -507,10 +514,8 @@ class Audit:
                 self.var = (old * self.var + err * err) / (old + 1.0)
                 n = int(old + 1.5)
                 self.n = n if n < AUDIT_MEMORY else AUDIT_MEMORY
-            r = self.rate  # (E's move over the span, as the answer's drift: kept for it)
-            self.drift = 0.0 if not (rate > 0.0 and r > 0.0 and r * self.age >= DRIFT_BEND
-                                     and took >= DRIFT_MIN_S) else (
-                level + slope / rate - self.level - self.slope / r) / took
+            drift = self.drift_to(age_s, level, slope, rate)  # (kept for the answer)
+            self.drift = 0.0 if drift is None else drift
         self.age = age_s
         self.level = level
         self.slope = slope

@@ -2,7 +2,7 @@
 
 Loaded only when one is needed (an argument refused, a ``repr``): each text
 kept in the module that raises it was a string object on the device's heap
-from the import on (about 3 KB of the smallest heap with the reprs,
+since the import (about 3 KB of the smallest heap with the reprs,
 benchmarks/device_budget.py). Each name below a text is the argument it
 refuses (:func:`tinytherm.num.refused` makes the ``ValueError``). Runs
 unchanged on CPython and MicroPython.
