@@ -80,7 +80,7 @@ class RoomDrinkFamily(Family):
         p["w_air"] = self.u(0.02, 0.3)
         p["w_container"] = self.u(0.3, 0.95 - p["w_air"])
         p["w_liquid"] = 1.0 - p["w_container"] - p["w_air"]
-        p["sensor_lag_s"] = self.u(15.0, 90.0)
+        p["sensor_lag_s"] = self.logu(15.0, 300.0)   # a strap-on probe through a thick wall lags minutes
         p["probe_settled"] = self.chance(0.5)     # else attached at the start, at air temperature
         p["air_sensor_lag_s"] = self.u(20.0, 300.0)
         p["air_sensor_sd_c"] = self.u(0.02, 0.3)
