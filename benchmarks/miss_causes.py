@@ -22,6 +22,12 @@ them) by its cause:
   slope against the block means, "turned"; a time worked out but its forecast sd
   over the show gate, "show gate"; else "other").
 
+With ``--split`` each cause is split further by the trace's columns (``air``: the
+measured air or room column the family gives some traces, ``no air``) and by where
+in the approach the row lies (the share of the time from the approach's start to
+the true crossing: ``<0.1``, ``<0.5``, ``<0.9``, ``>=0.9``, as
+``benchmarks/no_estimate_causes.py``'s); without it the causes are as before.
+
 Each trace weighs one (its rows' shares are averaged over the traces, as the
 per-trace coverage and no-estimate figures of ``benchmarks/families.py`` are),
 so one trace read every second does not outweigh one read every five minutes.
@@ -46,10 +52,16 @@ from tinytherm import status as st  # noqa: E402
 from tinytherm.estimator import ThermalEstimator  # noqa: E402
 from tinytherm.guard import GAP_RESTART  # noqa: E402
 
-def trace_causes(family, seed, sampling):
-    """Counter of the causes of one trace's evaluated rows (keys: the module docstring's)."""
+POSITIONS = ((0.1, "<0.1"), (0.5, "<0.5"), (0.9, "<0.9"))
+
+
+def trace_causes(family, seed, sampling, split=False):
+    """Counter of the causes of one trace's evaluated rows (keys: the module docstring's;
+    ``split``: each key followed by the trace's air column and the row's share of the
+    approach, `` | air, <0.5``)."""
     ft = fam.load_or_generate(family, seed, sensor_faults=True, sampling=sampling)
     tr = ft.truth
+    column = "air" if tr["has_ambient_column"] else "no air"
     drift = {"on": False}
     original, original_work_out = answer.time_to_target_drift_s, answer._work_out
 
@@ -90,8 +102,13 @@ def trace_causes(family, seed, sampling):
             remaining = tr["crossing_time_s"] - t
             if t - start < WARMUP_S or remaining <= 0.0:
                 continue
+            where = ""
+            if split:
+                frac = (t - start) / max(tr["crossing_time_s"] - start, 1e-9)
+                where = " | %s, %s" % (column, next(
+                    (name for edge, name in POSITIONS if frac < edge), ">=0.9"))
             if est.status == st.ARRIVED:
-                out["shown: arrived"] += 1
+                out["shown: arrived" + where] += 1
             elif est.status != st.TRACKING or est.eta_s is None:
                 key = "none: " + st.status_name(est.status)
                 if est.status in (st.GATHERING, st.DISTURBED):
@@ -99,14 +116,15 @@ def trace_causes(family, seed, sampling):
                 elif est.status == st.SETTLING:
                     key += " (%s)" % ("show gate" if est.eta_s is not None else "turned" if (
                         est._slope * est.blocks.dir < 0.0) else "other")
-                out[key] += 1
+                out[key + where] += 1
             else:
                 age = max(est.audits.age_ms * 0.001, 1.0)
                 key = "shown: drift %s, eta %s 2 x fit age" % (
                     "on" if drift["on"] else "off", ">" if est.eta_s > 2.0 * age else "<=")
-                out[key] += 1
+                out[key + where] += 1
                 if not est.eta_low_s <= remaining <= est.eta_high_s:
-                    out["missed: " + key[7:] + (", short" if est.eta_s < remaining else ", long")] += 1
+                    out["missed: " + key[7:] + (", short" if est.eta_s < remaining else ", long")
+                        + where] += 1
     finally:
         answer.time_to_target_drift_s = original
         answer._work_out = original_work_out
@@ -117,6 +135,8 @@ def main(argv=None):
     ap = argparse.ArgumentParser(description="Why intervals miss and which statuses give no "
                                              "estimate, per family (per-trace shares).")
     F.add_family_arguments(ap)
+    ap.add_argument("--split", action="store_true",
+                    help="split each cause by the air column and the share of the approach")
     args = ap.parse_args(argv)
     names = F.chosen_families(ap, args)
     print("| family | cause | share of evaluated rows (mean over traces) |")
@@ -124,7 +144,7 @@ def main(argv=None):
     for f in names:
         shares, n = Counter(), 0
         for i in range(args.per_family):
-            c = trace_causes(f, F.SEED_BASE[args.seeds] + i, args.sampling)
+            c = trace_causes(f, F.SEED_BASE[args.seeds] + i, args.sampling, args.split)
             rows = sum(v for k, v in c.items() if not k.startswith("missed"))
             if not rows:
                 continue
