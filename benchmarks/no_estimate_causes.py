@@ -18,6 +18,11 @@ answer shown (status not ``tracking``/``arrived``) by
   (``d0``), the fitted slope against the block means' direction
   (``against``), or the level and the readings past the target with no
   arrival yet (``past``), with the block means' direction ``m``;
+- for gathering and disturbed rows, what began the fit they gather for (as
+  ``benchmarks/miss_causes.py`` names it: the trace's ``start``, a ``turn``, a
+  ``jump``, the ``settle`` restart, a ``gap``; ``, spike`` when one of the two
+  readings before it was more than max(1 C, 6 noise sd) off the noise-free
+  probe, a sensor fault the guard passed);
 - where in the approach it lies: the share of the time from the approach's
   start to the true crossing (``<0.1``, ``<0.5``, ``<0.9``, ``>=0.9``).
 
@@ -45,6 +50,7 @@ from host_sim.sim import families as fam  # noqa: E402
 from tinytherm import answer  # noqa: E402
 from tinytherm import status as st  # noqa: E402
 from tinytherm.estimator import ThermalEstimator  # noqa: E402
+from tinytherm.guard import GAP_RESTART  # noqa: E402
 
 POSITIONS = ((0.1, "<0.1"), (0.5, "<0.5"), (0.9, "<0.9"))
 
@@ -108,9 +114,27 @@ def trace_causes(family, seed, sampling):
     crossing = tr["crossing_time_s"]
     out = Counter()
     evaluated = reading = 0
+    began = {"why": "start", "turns": 0, "i": 0}  # what began the current fit
+    off = max(1.0, 6.0 * tr["noise_sd_c"])  # deg C: a reading this far off the probe is a fault
+    begin_again = est._begin_again
+
+    def traced_begin(disturbed, from_previous=False):
+        why = "jump" if disturbed else ("turn" if est.turns != began["turns"] else "settle")
+        began["turns"] = est.turns
+        i = began["i"]
+        if any(abs(ft.temp_c[j] - ft.clean_c[j]) > off
+               for j in range(max(0, i - 1), min(i + 1, len(ft.temp_c)))):
+            why += ", spike"
+        began["why"] = why
+        return begin_again(disturbed, from_previous)
+
+    est._begin_again = traced_begin
     sys.settrace(tracer)
     try:
-        for t in F.feed(est, ft.time_s, ft.temp_c, ft.ambient_c, ft.heater):
+        for i, t in enumerate(F.feed(est, ft.time_s, ft.temp_c, ft.ambient_c, ft.heater)):
+            began["i"] = i + 1  # (the reading fed next: _begin_again runs inside its update)
+            if est.guard.gap == GAP_RESTART and est.last_verdict == st.ACCEPTED and i:
+                began["why"] = "gap"
             seen["line"] = None
             est.predict(tr["target_c"])
             line = seen["line"]
@@ -128,6 +152,8 @@ def trace_causes(family, seed, sampling):
             where = seen.get("last", "-")  # (no block closed since: the answer counted down)
             if est.status == st.SENSOR_FAULT:
                 where = "predict: answer.FAULT_AFTER readings rejected in a row (the guard)"
+            if est.status in (st.GATHERING, st.DISTURBED):
+                where += " (after %s)" % began["why"]
             frac = (t - start) / max(crossing - start, 1e-9)
             pos = next((name for edge, name in POSITIONS if frac < edge), ">=0.9")
             out[(st.status_name(est.status), where, pos)] += 1
