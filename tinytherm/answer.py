@@ -1,15 +1,13 @@
 """The answer: status, time to the target and its interval, from a solved fit.
 
 Worked out once per block close (and target), then counted down between blocks
-(:meth:`Answer.count_down`): asking every reading costs a few float operations. The time is
-the closed form :func:`tinytherm.num.time_to_target_from_slope_s` (the one copy in
-the core; :mod:`tinytherm.model` re-exports it).
+(:meth:`Answer.count_down`): asking every reading costs a few float operations. The time is the
+closed form :func:`tinytherm.num.time_to_target_from_slope_s` (:mod:`tinytherm.model` has it too).
 
-The interval is ``eta * exp(+-z sd)``, ``sd`` the sd of ln(eta): what the fit's own
-forecasts measured (:class:`Audits`), the fit's delta-method variance (times
-:data:`DELTA_VAR_FACTOR`, at least :data:`AUDIT_PRIOR_VAR`) the prior worth one check; plus
-the model error the audits' short horizons cannot see, the rate k off by
-:data:`RATE_MODEL_SD` of itself (most near the equilibrium, q near 1)::
+The interval is ``eta * exp(+-z sd)``, ``sd`` the sd of ln(eta): what the fit's own forecasts
+measured (:class:`Audits`), the fit's delta-method variance (times :data:`DELTA_VAR_FACTOR`, at
+least :data:`AUDIT_PRIOR_VAR`) the prior worth one check; plus the model error the audits' short
+horizons cannot see, the rate k off by :data:`RATE_MODEL_SD` of itself (most near E, q near 1)::
 
     prior = max(F var_delta(ln eta), AUDIT_PRIOR_VAR)
             [at least LINE_PRIOR_VAR: k pinned, the noise its prior, no audit checked
@@ -17,19 +15,18 @@ the model error the audits' short horizons cannot see, the rate k off by
     var = (prior + n var_audits) / (1 + n) + (RATE_MODEL_SD d ln eta / d ln k)^2
           [+ (sw / (s_T eta))^2 for eta beyond WIGGLE_AGE x the fit's age: its misfit]
 
-The interval's evidence (:class:`Audits`): three audits watch horizons of 1/8, 1/4 and
-1/2 of the fit's age; each compares the time the fit's law predicted for an observed change
-with the time it took, ``e = ln(took / predicted)``, into a forgetting mean of ``e^2``
-(:meth:`Audits.var_at` interpolates them in log horizon).
+The interval's evidence (:class:`Audits`): three audits watch horizons of 1/8, 1/4 and 1/2 of
+the fit's age; each compares the time the fit's law predicted for an observed change with the
+time it took, ``e = ln(took / predicted)``, into a forgetting mean of ``e^2`` (interpolated in
+log horizon by :meth:`Audits.var_at`), when the move the law predicted stands out of the noise.
 
-The equilibrium's drift (a passive fit: a coolant warming, a tub and its wort cooling
-together) is measured from the longest audit's waiting forecast, ``b = dE/dt``, and the time
-is that of ``dT/dt = -k (T - E(t))``, ``E(t) = E + b t``
-(:func:`tinytherm.num.time_to_target_drift_s`). A turned fit answers at its drift, a target
-beyond E at the drift kept from the longest audit's last span until its new one measures; an
-unmeasured bend, a fit past its ambient hint and a target just beyond the fitted
-equilibrium get their own upper ends. The equations and the reasons for each rule are in
-docs/design.md ("Estimator"). Runs on CPython and MicroPython.
+The equilibrium's drift (a passive fit: a coolant warming, a tub and its wort cooling together)
+is measured from the longest audit's waiting forecast, ``b = dE/dt``, and the time is that of
+``dT/dt = -k (T - E(t))``, ``E(t) = E + b t`` (:func:`tinytherm.num.time_to_target_drift_s`). A
+turned fit answers at its drift, a target beyond E at the drift kept from the longest audit's
+last span until its new one measures; an unmeasured bend, a fit past its ambient hint and a
+target just beyond E get their own upper ends. The equations and the reasons for each rule are
+in docs/design.md ("Estimator"). Runs on CPython and MicroPython.
 """
 import math
 
@@ -60,20 +57,19 @@ _BLOCK_MS = 40000  # ms: estimator._BLOCK_MS (BLOCK_S): readings this far apart 
 def predict(self, target_c, approach=0):
     """Work out the time until ``target_c`` (deg C); return the status code.
 
-    ``ThermalEstimator.predict`` (this function is that method). ``approach``: -1 the product
-    cools to its target (a drink), +1 heats to it (a kettle, a bath), 0 not given (the
-    direction of travel decides, with the rules of :mod:`tinytherm.settle`). With -1 or +1 a
-    liquid moving the other way is never ``ARRIVED`` and gets no time; a probe still
-    travelling the other way after a pour gets the liquid's time, its law from before
-    carried on (:meth:`tinytherm.settle.Settle.carried`).
+    ``ThermalEstimator.predict`` (this function is that method). ``approach``: -1 the product cools
+    to its target (a drink), +1 heats to it (a kettle, a bath), 0 not given (the direction of
+    travel decides, with the rules of :mod:`tinytherm.settle`). With -1 or +1 a liquid moving the
+    other way is never ``ARRIVED`` and gets no time; a probe still travelling the other way after
+    a pour gets the liquid's time, its law from before carried on (``Settle.carried``).
 
-    Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds after the latest
-    reading; ``None`` without an estimate), ``eta_rel_sd``, ``rate_per_s`` (1/s),
-    ``equilibrium_c``, ``ambient_est_c``, ``temp_est_c`` (deg C) and ``gain_k_per_s`` (K/s).
-    The answer is worked out once per finished block and question (target, approach) and
-    counted down between blocks; the latest reading is checked against the arrival line at
-    every call. Asking changes no later answer (it may finish a closed block's work early: its
-    result does not depend on when it runs). Never raises.
+    Fills ``status``, ``eta_s``, ``eta_low_s``, ``eta_high_s`` (seconds after the latest reading;
+    ``None`` without an estimate), ``eta_rel_sd``, ``rate_per_s`` (1/s), ``equilibrium_c``,
+    ``ambient_est_c``, ``temp_est_c`` (deg C) and ``gain_k_per_s`` (K/s). Worked out once per
+    finished block and question (target, approach), counted down between blocks; the latest
+    reading is checked against the arrival line at every call. Asking changes no later answer
+    (it may finish a closed block's work early: its result does not depend on when it runs).
+    Never raises.
     """
     while self.blocks.pending:
         self._next_step()  # a closed block's work not done yet: the answer needs all of it
@@ -358,15 +354,15 @@ def _work_out(est, target, approach):
         est.status = st.TRACKING
 
 def _arrived(est, target, m, approach, age_ms):
-    """Arrival, the reading being on the line: the liquid has passed the target in the
-    direction ``m`` beyond the noise, in a fit old enough; with no direction given, not
-    a probe still meeting the liquid (:meth:`tinytherm.settle.Settle.allows`).
+    """Arrival, the reading being on the line: the liquid has passed the target in the direction
+    ``m`` beyond the noise, in a fit old enough; with no direction given, not a probe still
+    meeting the liquid (:meth:`tinytherm.settle.Settle.allows`).
 
-    Passed: the extreme block mean beyond the target by :data:`ARRIVE_Z` sd of its mean,
-    or the fitted level at the latest reading by as many of its sd; that level not back
-    short by more than the line's tolerance (a drink hovering at its target while the
-    fridge cycles); with the measured air's column, the liquid too, the level less the
-    probe's view of the air's swing ``w (A - M)``, by as many of its sd (``w``'s own in it)::
+    Passed: the extreme block mean beyond the target by :data:`ARRIVE_Z` sd of its mean, or the
+    fitted level at the latest reading by as many of its sd; that level not back short by more
+    than the line's tolerance (a drink hovering at its target while the fridge cycles); with the
+    measured air's column, the liquid too, the level less the probe's view of the air's swing
+    ``w (A - M)``, by as many of its sd (``w``'s own in it)::
 
         (ext - target) m >= Z sd / sqrt(n_ext)   or   (level - target) m >= Z sd_level
         and (target - level) m <= tol   [and (level - w (A - M) - target) m >= Z sd_liquid]
@@ -485,17 +481,20 @@ class Audit:
         return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
 
     def check(self, law, age_s, level, slope, rate, need_c):
-        """Learn from the waiting forecast if due, then start a new one.
-
-        ``law.forecast_s(moved_c, level_c, slope, rate)`` gives the seconds the
-        answer's law takes for a change (the estimator's own law).
-        """
+        """Learn from the waiting forecast if due (its predicted move over ``need_c`` deg C), then
+        start a new one. ``law.forecast_s(moved_c, level_c, slope, rate)``: the seconds the
+        answer's law takes for a change (the estimator's own law)."""
         if self.age >= 0.0:
             took = age_s - self.age
             if took < self.horizon_s(self.age):
                 return
             moved = level - self.level
-            if (moved > need_c or moved < -need_c) and took <= AUDIT_YOUNG * self.age:
+            r = self.rate * took  # the move the forecast predicted decides whether it learns
+            try:  # (never the observed one: that kept the checks a swing pushed along, fast)
+                fm = self.slope * took * (1.0 if r < 1e-6 else (1.0 - math.exp(-r)) / r)
+            except (ValueError, OverflowError):
+                fm = 0.0
+            if (fm > need_c or fm < -need_c) and took <= AUDIT_YOUNG * self.age:
                 pred = law.forecast_s(moved, self.level, self.slope, self.rate)
                 err = AUDIT_LOG_CAP
                 if pred is not None and pred > 0.0:
@@ -507,9 +506,8 @@ class Audit:
                         err = AUDIT_LOG_CAP
                     elif err < -AUDIT_LOG_CAP:
                         err = -AUDIT_LOG_CAP
-                # the older checks weigh (age then / age now)^AUDIT_FORGET less: a mean
-                # over recent errors, unbiased (n stays a whole count: no new byte)
-                # (age_s >= took > 0; a whole count as before, AUDIT_FORGET 0 the plain mean)
+                # the older checks weigh (age then / age now)^AUDIT_FORGET less: a mean over recent
+                # errors, unbiased (n a whole count: no new byte; AUDIT_FORGET 0 the plain mean)
                 old = self.n * (self.age / age_s) ** AUDIT_FORGET
                 self.var = (old * self.var + err * err) / (old + 1.0)
                 n = int(old + 1.5)
