@@ -32,7 +32,7 @@ from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.num import (as_float, normal_quantile, number, refused,
                            time_to_target_from_slope_s)
-from tinytherm.settle import NO_REF, Settle
+from tinytherm.settle import NO_REF, TRAVEL, Settle
 
 # Fixed choices (module constants, not arguments: no product needs another value).
 BLOCK_S = 40.0            # s: longest block averaged into one observation (the device budget: 20 s
@@ -321,9 +321,13 @@ class ThermalEstimator(Answer):
                       reg.v + (b.iv / 1024000 if heater else b.iv * _INV) if reg.heater else 0.0,
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
         b.next_block()
-        if self.settle.block_closed(b.age_ms, b.cb, reg.k if reg.ok and not heater else 0.0):
+        if self.settle.block_closed(b.age_ms, b.cb, reg.k if reg.ok and not heater else 0.0,
+                                    self._slope, answer.move_c(self.noise.sd), b.readings):
+            ref = self.settle.ref
             self._begin_again(False)  # the probe was travelling to the liquid: the liquid's
             self.settle.seeded(False)  # own approach starts here (tinytherm.settle)
+            if ref == TRAVEL:
+                self.settle.ref = TRAVEL  # (still on its way: no reference yet)
             return
         self.inputs.ahead = self.inputs.ahead_fine() if self.inputs.known() else None
         self.blocks.pending = 1

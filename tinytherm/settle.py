@@ -13,12 +13,17 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   Then (the first block closed ``SETTLE_S`` into the fit, or a fit seeded at a
   turn, where the probe has met the liquid) it is that block's closing
   reading: an arrival needs it short of the target (the crossing came after),
-  or, falling, the reading moved on past the target by 4 noise sd (at least
-  ``answer.ARRIVE_TOL_C``: a liquid past its target when the probe met it,
-  still going that way; a rise past it then is a probe still rising after a
-  pour). A fit bent through :data:`SETTLE_BEND` of its time constants by then
-  was the probe travelling: the estimator restarts it there. A fit restarted
-  at a jump has no reference until the probe settles.
+  or, falling, the reading and the fitted level moved on past the target by
+  4 noise sd (at least ``answer.ARRIVE_TOL_C``: a liquid past its target when
+  the probe met it, still going that way; the level, not one reading of
+  hundreds hovering there; a rise past it then is a probe still rising after
+  a pour). A fit bent through :data:`SETTLE_BEND` of its time constants by then
+  was the probe travelling: the estimator restarts it there. While the fit
+  may still be a slow probe's travel (its rate bends it that fast in
+  ``SETTLE_S`` and it has more than that move left to where it levels off, or
+  its rate came from two readings) the reference waits (:data:`TRAVEL`: no
+  arrival) for a later block, the restarted fit's too. A fit restarted at a
+  jump has no reference until the probe settles.
 - **a rise to be the liquid's** (a probe warming after a pour or a top-up passes
   a drinking target on its way up while the drink is hotter): the fit at least
   :data:`RISE_ARRIVE_MIN_S` old, still rising by its slope and by the latest
@@ -33,7 +38,7 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
 
 The constants are leave-one-family-out choices on the tune seeds of
 ``benchmarks/families.py`` (docs/benchmarks.md). A clip-on probe reading partly
-the air and a probe's lag of tens of seconds are common practice, no source.
+the air and a probe's lag of tens of seconds to minutes are common practice, no source.
 Runs unchanged on CPython and MicroPython.
 """
 import math
@@ -54,6 +59,7 @@ _INV = 1.0 / SCALE
 LIMIT_COUNTS = 10001 * SCALE  # beyond any reading (the guard's limits are within 1e4 C)
 NO_REF = LIMIT_COUNTS - 1  # the reference after a jump: no reading shows the liquid yet
 #   (the probe still travels to it; the estimator asks for it too)
+TRAVEL = LIMIT_COUNTS - 2  # the reference while a strap-on probe may still travel to the liquid
 
 
 def _law_time_s(a, target_c, from_c):
@@ -146,15 +152,26 @@ class Settle:
         self.settled = True
         self.turn = turn
 
-    def block_closed(self, age_ms, cb, k):
-        """A block closed ``age_ms`` into the fit at reading ``cb`` (counts), its fitted rate
-        ``k`` (1/s). True when the probe is taken as settled with it and the fit bent through
-        more than :data:`SETTLE_BEND` time constants: restart the fit here."""
-        if not self.settled and age_ms >= SETTLE_MS:
-            self.ref = cb
-            self.settled = True
-            return k * age_ms > SETTLE_BEND * 1000.0
-        return False
+    def block_closed(self, age_ms, cb, k, slope, move_c, n):
+        """A block closed ``age_ms`` into the fit at reading ``cb`` (counts); ``k`` (1/s) and
+        ``slope`` (deg C/s, at the level) the fit's as solved before it, from ``n`` readings
+        with this block's. True when the probe is taken as settled with it and the fit bent
+        through more than :data:`SETTLE_BEND` time constants: restart the fit here. The
+        reference waits (:data:`TRAVEL`, no arrival) while the probe may still travel: the
+        fit's level more than ``move_c`` (deg C) from where it levels off (``|slope| / k``:
+        the travel left, were the bend the probe's) and its rate bending it through more than
+        ``SETTLE_BEND`` in ``SETTLE_S``, or k solved from two readings (which show no bend)."""
+        if age_ms < SETTLE_MS or (self.settled and self.ref != TRAVEL):
+            return False
+        travel = (k > 0.0 and (slope if slope > 0.0 else -slope) > k * move_c
+                  and (k * SETTLE_MS > SETTLE_BEND * 1000.0 or n < 4))
+        if self.settled:  # (waiting: the reference once the probe met the liquid)
+            if not travel:
+                self.ref = cb
+            return False
+        self.ref = TRAVEL if travel else cb
+        self.settled = True
+        return k * age_ms > SETTLE_BEND * 1000.0
 
     def allows(self, est, target_c, m, age_ms):
         """False when an arrival at ``target_c`` (deg C) in direction ``m`` (+1 / -1), the
@@ -164,6 +181,8 @@ class Settle:
             return True  # (a move the heater drives is the liquid's)
         ref = self.ref
         target = to_counts(target_c)
+        if ref == TRAVEL:
+            return False  # (the probe may still travel to the liquid)
         if not self.settled:
             if ref == NO_REF or (ref - target) * m < 0:
                 return False
@@ -172,8 +191,9 @@ class Settle:
                 # (a rise past the target before the probe settled: a pour's; or a fit
                 # begun at a turn short of the target: the liquid never reached it)
                 return False
-            if (b.c - ref) * m < to_counts(answer.move_c(est.noise.sd)):
-                return False
+            mv = answer.move_c(est.noise.sd)
+            if (b.level - ref * _INV) * m < mv or (b.c - ref) * m < to_counts(mv):
+                return False  # (the fitted level too: not one reading of hundreds)
         return m < 0 or not (
             age_ms < RISE_ARRIVE_MIN_MS or not est._slope > 0.0
             or est.reg.k * age_ms > RISE_BEND * 1000.0

@@ -2,6 +2,7 @@ from typing import Any
 
 SETTLE_S: float
 SETTLE_BEND: float
+SETTLE_SLOW: float
 RISE_ARRIVE_MIN_S: float
 RISE_BEND: float
 RISE_DROP_SD: float
@@ -10,6 +11,7 @@ RISE_ARRIVE_MIN_MS: int
 SCALE: int
 LIMIT_COUNTS: int
 NO_REF: int
+TRAVEL: int
 
 class Settle:
     STATE_SIZE: int
@@ -21,6 +23,7 @@ class Settle:
     def jumped(self) -> None: ...
     def carried(self, est: Any, target_c: float, level_c: float, slope: float, k: float) -> None: ...
     def seeded(self, turn: bool) -> None: ...
-    def block_closed(self, age_ms: int, cb: int, k: float) -> bool: ...
+    def block_closed(self, age_ms: int, cb: int, k: float, slope: float, move_c: float,
+                     n: int) -> int: ...
     def allows(self, est: Any, target_c: float, m: int, age_ms: int) -> bool: ...
     def backed_off(self, est: Any, m: int) -> bool: ...
