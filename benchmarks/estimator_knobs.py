@@ -56,13 +56,21 @@ def knob_names():
     return sorted({n.lower() for module in MODULES for n in _own_constants(module)})
 
 
+_FOUND = {}  # keyword -> _constant's answer (a module's source is read once, not per call)
+
+
 def _constant(keyword):
     """``keyword`` -> (module, CONSTANT), or None when no module assigns that constant."""
+    if keyword in _FOUND:
+        return _FOUND[keyword]
     name = keyword.upper()
+    found = None
     for module in MODULES:
         if name in _own_constants(module):
-            return module, name
-    return None
+            found = module, name
+            break
+    _FOUND[keyword] = found
+    return found
 
 
 class Knobs(ThermalEstimator):

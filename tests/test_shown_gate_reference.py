@@ -42,5 +42,7 @@ def test_a_time_is_shown_when_its_forecast_variance_allows_it():
     # the fit's own variance deciding: 98 of the 6096 rows unanswered; the forecast
     # variance deciding: 62, the 36 rows answered so all covered
     assert unanswered <= 75, (unanswered, rows)
-    # the shown 80 % intervals: 0.948 before, 0.949 after (this drink's are conservative)
-    assert 0.85 <= covered / shown <= 0.97, covered / shown
+    # the shown 80 % intervals: 0.948 before, 0.949 after (this drink's were conservative);
+    # 0.825 once a time within the fit's age of a law that explains its readings has no
+    # model term (the audits measure a bend there): within issue 17's band 0.75-0.85
+    assert 0.75 <= covered / shown <= 0.97, covered / shown

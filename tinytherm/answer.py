@@ -13,6 +13,7 @@ horizons cannot see, the rate k off by :data:`RATE_MODEL_SD` of itself (most nea
             [at least LINE_PRIOR_VAR: k pinned, the noise its prior, no audit checked
              or the readings a block apart; YOUNG_PRIOR_VAR: free k, no residual dof, apart]
     var = (prior + n var_audits) / (1 + n) + (RATE_MODEL_SD d ln eta / d ln k)^2
+          [the model term 0 for eta within the fit's age, its residual no misfit, noise measured]
           [+ (sw / (s_T eta))^2 for eta beyond WIGGLE_AGE x the fit's age: its misfit]
 
 The interval's evidence (:class:`Audits`): three audits watch horizons of 1/8, 1/4 and 1/2 of
@@ -187,10 +188,8 @@ def _work_out(est, target, approach):
             est.eta_high_s = tol / (slope if slope > 0.0 else -slope) if slope != 0.0 else math.inf
             c.gen = -2  # (from the latest reading: not counted down)
             return
-    slow = d == 0 and slope * gap > 0.0
-    if slow:
-        # no direction yet (the slope within 2 sd of 0, the block means not moved): the
-        # time at the fitted slope, with no upper bound (it may not be moving at all)
+    slow = d == 0 and slope * gap > 0.0  # no direction yet (the slope within 2 sd of 0, the block
+    if slow:  # means not moved): the time at the fitted slope, no upper bound (it may not move)
         d = 1 if slope > 0.0 else -1
     if approach != 0 and ((m if m != 0 else d) != approach or d == -approach):
         if d == -approach and gap * d <= 0.0 and slope * d > 0.0 and k > 0.0:
@@ -250,6 +249,9 @@ def _work_out(est, target, approach):
             if eta0 is not None:
                 eta = eta0  # never at the drift measured, at a slower one in time: no upper bound
                 open_end = True
+    dof = reg.nb - 2.0  # the residual per reading over the noise by REACH_SD of its chi-square sd,
+    told = 0 if dof <= 1.0 else (  # sqrt(2 / dof): -1 a misfit shows, 1 none, 0 too few blocks
+        -1 if reg.s2r > est.noise.var * (1.0 + REACH_SD * math.sqrt(2.0 / dof)) else 1)
     if eta is None and eta_shape is None:
         # beyond the fitted equilibrium E = level + slope / k, by ``over``. E is an
         # extrapolation: a bending rate (a coolant warming, a slow second mode) moves
@@ -259,10 +261,7 @@ def _work_out(est, target, approach):
         # when even that k cannot, or past a known ambient (a passive liquid never passes it)
         to_e = slope / k if k > 0.0 else 0.0  # E - level, the sign of gap
         slack = EQUILIBRIUM_SLACK * (to_e if to_e > 0.0 else -to_e)
-        v = reg.pkk  # k's variance, and the interval's model error once the residual shows a
-        dof = reg.nb - 2.0  # misfit: over the noise by REACH_SD of its chi-square sd, sqrt(2 / dof)
-        if dof > 1.0 and reg.s2r > est.noise.var * (1.0 + REACH_SD * math.sqrt(2.0 / dof)):
-            v += (RATE_MODEL_SD * k) ** 2
+        v = reg.pkk + ((RATE_MODEL_SD * k) ** 2 if told < 0 else 0.0)  # (+ model error: a misfit)
         k2 = k - REACH_SD * math.sqrt(v)
         reach = math.inf if k2 <= 0.0 else (slope / k2 - to_e) * (1.0 if gap > 0.0 else -1.0)
         room = math.inf  # R - E the way the target lies (R as at the block close)
@@ -304,6 +303,8 @@ def _work_out(est, target, approach):
     q = k * gap / slope
     b = 0.0 if law is None else RATE_MODEL_SD * (
         q * 0.5 if -1e-4 < q < 1e-4 else q / ((1.0 - q) * k * law) - 1.0)
+    if told > 0 and est.noise.n > NOISE_PRIOR_N and eta <= age_s:
+        b = 0.0  # a law explaining its readings: within its age, its audits measure a bend
     if bd != 0.0:
         # the drift DRIFT_SD of itself smaller: one sd more of ln(eta) (never so: no upper end)
         bs = bd * (1.0 - DRIFT_SD)  # (a turned fit: the liquid at the slower drift too)
@@ -348,10 +349,8 @@ def _work_out(est, target, approach):
         est.eta_low_s = eta / f
         est.eta_high_s = math.inf if open_end else (eta * f if eta * f > up else up)
         est.eta_rel_sd = rel
-    if v <= MAX_REL_SD * MAX_REL_SD:
-        # (the fit's forecast-error variance at this horizon decides whether to show it: its
-        # own delta-method variance the prior of what its audits measured; model error widens it)
-        est.status = st.TRACKING
+    if v <= MAX_REL_SD * MAX_REL_SD:  # (the forecast-error variance at this horizon decides
+        est.status = st.TRACKING      # whether to show it; the model error only widens it)
 
 def _arrived(est, target, m, approach, age_ms):
     """Arrival, the reading being on the line: the liquid has passed the target in the direction
