@@ -5,7 +5,7 @@ from tinytherm.change import ChangeDetector
 from tinytherm.fit import BlockSums, Inputs, Noise, Regression
 from tinytherm.guard import ReadingGuard
 from tinytherm.profile import VesselProfile
-from tinytherm.settle import NO_REF as NO_REF, TRAVEL as TRAVEL, Settle
+from tinytherm.settle import NO_REF as NO_REF, TRAVEL as TRAVEL, TRAVEL_ON as TRAVEL_ON, Settle
 from tinytherm.status import Answer
 
 SCALE: int

@@ -19,10 +19,12 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   hundreds hovering there; a rise past it then is a probe still rising after
   a pour). A fit bent through :data:`SETTLE_BEND` of its time constants by then
   was the probe travelling: the estimator restarts it there. While the fit
-  may still be a slow probe's travel (its rate bends it that fast in
-  ``SETTLE_S`` and it has more than that move left to where it levels off, or
-  its rate came from two readings) the reference waits (:data:`TRAVEL`: no
-  arrival) for a later block, the restarted fit's too. A fit restarted at a
+  may still be a slow probe's travel (its rate bends it through more than
+  ``SETTLE_BEND`` in ``SETTLE_S`` and it has more than that move left to
+  where it levels off, or that rate came from three readings; or the fit holds
+  two readings, minutes apart: they show no bend) the reference waits (:data:`TRAVEL`: no
+  arrival) for a later block; a fit restarted after the travel with the travel
+  still left waits until it is within the move, however little the fit then bends. A fit restarted at a
   jump has no reference until the probe settles.
 - **a rise to be the liquid's** (a probe warming after a pour or a top-up passes
   a drinking target on its way up while the drink is hotter): the fit at least
@@ -60,6 +62,7 @@ LIMIT_COUNTS = 10001 * SCALE  # beyond any reading (the guard's limits are withi
 NO_REF = LIMIT_COUNTS - 1  # the reference after a jump: no reading shows the liquid yet
 #   (the probe still travels to it; the estimator asks for it too)
 TRAVEL = LIMIT_COUNTS - 2  # the reference while a strap-on probe may still travel to the liquid
+TRAVEL_ON = LIMIT_COUNTS - 3  # ... in a fit restarted after its travel: until within the move
 
 
 def _law_time_s(a, target_c, from_c):
@@ -160,11 +163,15 @@ class Settle:
         reference waits (:data:`TRAVEL`, no arrival) while the probe may still travel: the
         fit's level more than ``move_c`` (deg C) from where it levels off (``|slope| / k``:
         the travel left, were the bend the probe's) and its rate bending it through more than
-        ``SETTLE_BEND`` in ``SETTLE_S``, or k solved from two readings (which show no bend)."""
-        if age_ms < SETTLE_MS or (self.settled and self.ref != TRAVEL):
+        ``SETTLE_BEND`` in ``SETTLE_S``, or k solved from three readings, or the fit
+        restarted after the probe's travel with the travel still left (:data:`TRAVEL_ON`:
+        until it is within the move, however little it bends); and while the fit holds two
+        readings (k unsolved: readings minutes apart; they show no bend)."""
+        ref = self.ref
+        if age_ms < SETTLE_MS or (self.settled and ref != TRAVEL and ref != TRAVEL_ON):
             return False
-        travel = (k > 0.0 and (slope if slope > 0.0 else -slope) > k * move_c
-                  and (k * SETTLE_MS > SETTLE_BEND * 1000.0 or n < 4))
+        travel = n < 3 or (k > 0.0 and (slope if slope > 0.0 else -slope) > k * move_c
+                           and (ref == TRAVEL_ON or k * SETTLE_MS > SETTLE_BEND * 1000.0 or n < 4))
         if self.settled:  # (waiting: the reference once the probe met the liquid)
             if not travel:
                 self.ref = cb
@@ -181,7 +188,7 @@ class Settle:
             return True  # (a move the heater drives is the liquid's)
         ref = self.ref
         target = to_counts(target_c)
-        if ref == TRAVEL:
+        if ref == TRAVEL or ref == TRAVEL_ON:
             return False  # (the probe may still travel to the liquid)
         if not self.settled:
             if ref == NO_REF or (ref - target) * m < 0:

@@ -2,7 +2,6 @@ from typing import Any
 
 SETTLE_S: float
 SETTLE_BEND: float
-SETTLE_SLOW: float
 RISE_ARRIVE_MIN_S: float
 RISE_BEND: float
 RISE_DROP_SD: float
@@ -12,6 +11,7 @@ SCALE: int
 LIMIT_COUNTS: int
 NO_REF: int
 TRAVEL: int
+TRAVEL_ON: int
 
 class Settle:
     STATE_SIZE: int
