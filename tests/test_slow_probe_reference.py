@@ -105,6 +105,7 @@ def test_no_arrival_with_readings_minutes_apart(start_c, target_c, tau_s):
             if rows:
                 early.append((lag_s, seed, round(crossing_s), rows[:3]))
     assert not early, early
-    # (it still arrives, after the crossing, in 2 to 15 of 15 runs per drink at the commit
-    # that added this test; at 7390d5d 16 of the 60 runs arrived early)
-    assert arrived >= 2, arrived
+    # (it still arrives, after the crossing, in 1 to 15 of 15 runs per drink: 2 to 15 at
+    # the commit that added this test, 1 for the cold drink to 8 C once the turn's restart
+    # from its peak reading was reverted; at 7390d5d 16 of the 60 runs arrived early)
+    assert arrived >= 1, arrived
