@@ -155,14 +155,20 @@ def test_interval_forgets_the_start_ups_errors(approach):
                 continue
             remaining = crossing_s - t
             rows += 1
-            inside += est.eta_low_s <= remaining <= est.eta_high_s
-            errors.append(abs(math.log(est.eta_s / remaining)))
-            halves.append(math.log(est.eta_high_s / est.eta_s))
+            inside += score_row(est, remaining, errors, halves)
         assert rows > 0
         coverage.append(inside / rows)
     assert sum(coverage) / RUNS >= 0.75, coverage
     q80 = float(np.quantile(errors, 0.8))
     assert float(np.median(halves)) <= 2.0 * q80, (float(np.median(halves)), q80)
+
+
+def score_row(est, remaining_s, errors, halves):
+    """Append the answer's |ln(eta / remaining_s)| to ``errors`` and its upper half-width
+    ln(high / eta) to ``halves``; True when the interval holds ``remaining_s`` (s)."""
+    errors.append(abs(math.log(est.eta_s / remaining_s)))
+    halves.append(math.log(est.eta_high_s / est.eta_s))
+    return est.eta_low_s <= remaining_s <= est.eta_high_s
 
 
 def cooling_read_every_2_s(rng, target_c):
@@ -215,9 +221,7 @@ def test_no_model_term_within_the_age_of_a_fit_its_readings_explain():
                     beyond.append(est.eta_rel_sd / (answer.RATE_MODEL_SD * abs(sens)))
                 continue
             rows += 1
-            inside += est.eta_low_s <= remaining <= est.eta_high_s
-            errors.append(abs(math.log(est.eta_s / remaining)))
-            halves.append(math.log(est.eta_high_s / est.eta_s))
+            inside += score_row(est, remaining, errors, halves)
         assert rows > 0
         coverage.append(inside / rows)
     assert sum(coverage) / len(coverage) >= 0.8, coverage

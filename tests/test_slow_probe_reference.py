@@ -68,18 +68,23 @@ def early_arrivals(start_c, target_c, tau_s, lag_s, interval_s, seed):
     return early, arrived, crossing_s
 
 
+def early_over(start_c, target_c, tau_s, runs):
+    """Over ``runs`` of (lag s, interval s, seed): the runs shown ``ARRIVED`` early (with the
+    true crossing, s, and their first three early reading times) and how many arrived."""
+    early, arrived = [], 0
+    for lag_s, interval_s, seed in runs:
+        rows, seen, crossing_s = early_arrivals(start_c, target_c, tau_s, lag_s, interval_s, seed)
+        arrived += seen
+        if rows:
+            early.append((lag_s, interval_s, seed, round(crossing_s), rows[:3]))
+    return early, arrived
+
+
 @pytest.mark.parametrize("start_c, target_c, tau_s", CASES)
 def test_no_arrival_while_the_liquid_is_short_of_its_target(start_c, target_c, tau_s):
-    early = []
-    arrived = 0
-    for lag_s in LAGS_S:
-        for interval_s in INTERVALS_S:
-            for seed in SEEDS:
-                rows, seen, crossing_s = early_arrivals(start_c, target_c, tau_s, lag_s,
-                                                        interval_s, seed)
-                arrived += seen
-                if rows:
-                    early.append((lag_s, interval_s, seed, round(crossing_s), rows[:3]))
+    early, arrived = early_over(start_c, target_c, tau_s,
+                                [(lag, iv, seed) for lag in LAGS_S for iv in INTERVALS_S
+                                 for seed in SEEDS])
     assert not early, early
     # (it does arrive, after the crossing, in a third of the runs or more; a cold drink's
     # 8 C target, near where the probe turns: 20 of 48, as many as arrived after the
@@ -96,14 +101,8 @@ SLOW_LAGS_S = LAGS_S + (300.0,)
 
 @pytest.mark.parametrize("start_c, target_c, tau_s", CASES)
 def test_no_arrival_with_readings_minutes_apart(start_c, target_c, tau_s):
-    early = []
-    arrived = 0
-    for lag_s in SLOW_LAGS_S:
-        for seed in SEEDS:
-            rows, seen, crossing_s = early_arrivals(start_c, target_c, tau_s, lag_s, 300.0, seed)
-            arrived += seen
-            if rows:
-                early.append((lag_s, seed, round(crossing_s), rows[:3]))
+    early, arrived = early_over(start_c, target_c, tau_s,
+                                [(lag, 300.0, seed) for lag in SLOW_LAGS_S for seed in SEEDS])
     assert not early, early
     # (it still arrives, after the crossing, in 1 to 15 of 15 runs per drink: 2 to 15 at
     # the commit that added this test, 1 for the cold drink to 8 C once the turn's restart
