@@ -333,8 +333,9 @@ def _work_out(est, target, approach):
         eta = eta_shape  # the profile's law gives the shape, the fitted slope the scale
     est.eta_s = eta
     v = est.audits.var_at(eta, age_s, rel2)
-    if est._profile_on:
-        est._profile.interval_into(est, eta)  # the profile's calibrated interval
+    p = est._profile  # its calibrated interval, on or own fit (not once dropped)
+    if p is not None and (est._profile_on or p.own_fit):
+        p.interval_into(est, eta)
     else:
         if eta > WIGGLE_AGE * age_s and not est.heater:
             # the fit's misfit beyond the noise, per block mean (a probe swinging with the

@@ -157,7 +157,8 @@ class ThermalEstimator(Answer):
         self.audits.reset()
         fit.use_air_column(self, False)  # (none until a measured air comes again)
         self.detector.disturbed = False     # since a jump, until the new fit is established
-        self._profile_on = self._profile is not None
+        # (a profile of the fit's own answers gives the interval alone: answer.py)
+        self._profile_on = self._profile is not None and not self._profile.own_fit
         self._restart_fit()
 
     def _restart_fit(self):

@@ -25,7 +25,8 @@ little-endian)::
 
     offset  size  field
     0       1     format version (:data:`PROFILE_FORMAT`)
-    1       1     flags (bit 0: the vessel has a heater)
+    1       1     flags (bit 0: the vessel has a heater; bit 1: own fit, see
+                  :attr:`VesselProfile.own_fit`)
     2       32    8 x float32: rate_per_s, rate_log_sd, eq_offset_c,
                   eq_offset_sd_c, gain_k_per_s, gain_rel_sd, probe_lag_s,
                   rate_exponent
@@ -56,6 +57,7 @@ _FLOATS_AT = 2
 _QUANTS_AT = 34
 _CRC_AT = 50
 FLAG_HEATER = 1
+FLAG_OWN_FIT = 2                  # the device answers with its own fit, the table's interval
 
 DIFF_REF_C = 10.0                 # K: the difference at which rate_per_s is the rate
 PROFILE_MISMATCH_Z = 4.0          # sds between this liquid's fitted rate and the profile's
@@ -125,7 +127,13 @@ class VesselProfile:
     - ``rate_exponent``: n in ``dT/dt = -a |T-E|^n sign(T-E)`` (1.0 = first order);
     - ``log_q_low``, ``log_q_high`` (tuples of 4): 10 % and 90 % points of
       ``ln(actual / predicted remaining time)`` for predicted remaining times
-      below 60 s, 60-300 s, 300-1200 s and above 1200 s.
+      below 60 s, 60-300 s, 300-1200 s and above 1200 s;
+    - ``own_fit`` (bool): the estimator answers with its own fit as without a
+      profile (no law, no priors, no first answer, no rate check) and takes
+      only the interval from the table. Calibration sets it for a passive
+      vessel whose law forecast worse than the device without a profile on
+      held-out uses (host_sim.calibrate.pipeline): there the law's answers and
+      priors would make the device worse, its interval table still holds.
 
     The constructor checks every argument and raises ``ValueError`` naming
     the first bad one (never TypeError or OverflowError): ``heater`` must be
@@ -139,12 +147,17 @@ class VesselProfile:
 
     def __init__(self, heater=False, rate_per_s=1.0 / 1200.0, rate_log_sd=0.5,
                  eq_offset_c=0.0, eq_offset_sd_c=3.0, gain_k_per_s=0.0, gain_rel_sd=0.0,
-                 probe_lag_s=0.0, rate_exponent=1.0, log_q_low=None, log_q_high=None):
+                 probe_lag_s=0.0, rate_exponent=1.0, log_q_low=None, log_q_high=None,
+                 own_fit=False):
         # bool(x) would take "no" or [0] as True: only a bool or the ints 0 and 1 mean one
         if heater is True or heater is False or (type(heater) is int and 0 <= heater <= 1):
             self.heater = heater == 1
         else:
             raise ValueError("bad profile value: heater (True, False, 0 or 1)")
+        if own_fit is True or own_fit is False or (type(own_fit) is int and 0 <= own_fit <= 1):
+            self.own_fit = own_fit == 1
+        else:
+            raise ValueError("bad profile value: own_fit (True, False, 0 or 1)")
         self.rate_per_s = _number_arg(rate_per_s, "rate_per_s")
         self.rate_log_sd = _number_arg(rate_log_sd, "rate_log_sd")
         self.eq_offset_c = _number_arg(eq_offset_c, "eq_offset_c")
@@ -472,7 +485,7 @@ class VesselProfile:
         """
         buf = bytearray(PROFILE_SIZE)
         buf[0] = PROFILE_FORMAT
-        buf[1] = FLAG_HEATER if self.heater else 0
+        buf[1] = (FLAG_HEATER if self.heater else 0) | (FLAG_OWN_FIT if self.own_fit else 0)
         struct.pack_into(_FLOATS, buf, _FLOATS_AT, self.rate_per_s, self.rate_log_sd,
                          self.eq_offset_c, self.eq_offset_sd_c, self.gain_k_per_s,
                          self.gain_rel_sd, self.probe_lag_s, self.rate_exponent)
@@ -534,7 +547,7 @@ class VesselProfile:
         if struct.unpack_from("<I", blob, _CRC_AT)[0] != crc32(blob, 0, 0, _CRC_AT):
             return None, REASON_CRC
         flags = blob[1]
-        if flags & ~FLAG_HEATER:
+        if flags & ~(FLAG_HEATER | FLAG_OWN_FIT):
             return None, REASON_FLAGS
         f = struct.unpack_from(_FLOATS, blob, _FLOATS_AT)
         q = struct.unpack_from(_QUANTS, blob, _QUANTS_AT)
@@ -544,7 +557,8 @@ class VesselProfile:
                 eq_offset_c=f[2], eq_offset_sd_c=f[3], gain_k_per_s=f[4], gain_rel_sd=f[5],
                 probe_lag_s=f[6], rate_exponent=f[7],
                 log_q_low=(q[0] * 0.001, q[1] * 0.001, q[2] * 0.001, q[3] * 0.001),
-                log_q_high=(q[4] * 0.001, q[5] * 0.001, q[6] * 0.001, q[7] * 0.001))
+                log_q_high=(q[4] * 0.001, q[5] * 0.001, q[6] * 0.001, q[7] * 0.001),
+                own_fit=bool(flags & FLAG_OWN_FIT))
         except (ValueError, OverflowError):
             return None, REASON_RANGE
         return prof, REASON_OK
@@ -552,10 +566,11 @@ class VesselProfile:
     def __repr__(self):
         return ("VesselProfile(heater=%r, rate_per_s=%r, rate_log_sd=%r, eq_offset_c=%r, "
                 "eq_offset_sd_c=%r, gain_k_per_s=%r, gain_rel_sd=%r, probe_lag_s=%r, "
-                "rate_exponent=%r, log_q_low=%r, log_q_high=%r)" % (
+                "rate_exponent=%r, log_q_low=%r, log_q_high=%r, own_fit=%r)" % (
                     self.heater, self.rate_per_s, self.rate_log_sd, self.eq_offset_c,
                     self.eq_offset_sd_c, self.gain_k_per_s, self.gain_rel_sd,
-                    self.probe_lag_s, self.rate_exponent, self.log_q_low, self.log_q_high))
+                    self.probe_lag_s, self.rate_exponent, self.log_q_low, self.log_q_high,
+                    self.own_fit))
 
 
 def _milli(x):

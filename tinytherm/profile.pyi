@@ -4,6 +4,7 @@ PROFILE_FORMAT: int
 PROFILE_SIZE: int
 PROFILE_Z80: float
 FLAG_HEATER: int
+FLAG_OWN_FIT: int
 DIFF_REF_C: float
 PROFILE_MISMATCH_Z: float
 PROFILE_JUDGE_LAGS: float
@@ -33,12 +34,14 @@ class VesselProfile:
     rate_exponent: float
     log_q_low: Tuple[float, float, float, float]
     log_q_high: Tuple[float, float, float, float]
+    own_fit: bool
     def __init__(self, heater: Union[bool, int] = False, rate_per_s: float = ...,
                  rate_log_sd: float = 0.5, eq_offset_c: float = 0.0, eq_offset_sd_c: float = 3.0,
                  gain_k_per_s: float = 0.0, gain_rel_sd: float = 0.0,
                  probe_lag_s: float = 0.0, rate_exponent: float = 1.0,
                  log_q_low: Optional[Union[Tuple[float, ...], List[float]]] = None,
-                 log_q_high: Optional[Union[Tuple[float, ...], List[float]]] = None) -> None: ...
+                 log_q_high: Optional[Union[Tuple[float, ...], List[float]]] = None,
+                 own_fit: Union[bool, int] = False) -> None: ...
     def problem(self) -> Optional[str]: ...
     def rate_at(self, diff_c: float) -> float: ...
     def local_first_order(self, temp_c: float, ambient_c: float) -> Tuple[float, float]: ...

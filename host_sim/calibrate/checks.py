@@ -195,8 +195,10 @@ def data_warnings(cal):
                        "target): the profile is untested")
         elif ratio > 1.0:
             out.append("on held-out traces the profile model's error is %.2f times the "
-                       "device's without a profile: this profile would make answers worse"
-                       % ratio)
+                       "device's without a profile: %s" % (ratio, (
+                           "the device answers with its own fit and takes only the "
+                           "interval table from this profile (own_fit)")
+                           if cal.profile.own_fit else "this profile would make answers worse"))
         cov = cv.get("coverage_profile_interval")
         if cov is not None and np.isfinite(cov) and cov < 0.5:
             out.append("the profile's 80 %% interval covers only %.2f of held-out answers: "

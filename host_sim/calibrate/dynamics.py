@@ -169,8 +169,9 @@ def fill_scaling(fills, values):
     return float(b), float(math.exp(c + b * math.log(med))), med
 
 
-def profile_from_fit(fit, table=None):
-    """A :class:`VesselProfile` from a :class:`DynamicsFit` (+ optional (low, high) table).
+def profile_from_fit(fit, table=None, own_fit=False):
+    """A :class:`VesselProfile` from a :class:`DynamicsFit` (+ optional (low, high) table;
+    ``own_fit``: :attr:`VesselProfile.own_fit`).
 
     With a heater the blob's ``probe_lag_s`` is probe lag + heater lag: a duty
     change reaches the reading through both, and the two are not separable
@@ -197,4 +198,4 @@ def profile_from_fit(fit, table=None):
                          gain_rel_sd=min(gsd, 10.0),
                          probe_lag_s=min(fit.probe_lag_s + fit.heater_lag_s, 3600.0),
                          rate_exponent=max(0.25, min(4.0, fit.rate_exponent)),
-                         log_q_low=low, log_q_high=high)
+                         log_q_low=low, log_q_high=high, own_fit=own_fit)

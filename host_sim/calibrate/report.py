@@ -38,6 +38,9 @@ def report_lines(cal):
              "  rate exponent n              %.3f (1 = first order; dT/dt = -a|T-E|^n)"
              % p.rate_exponent,
              "  probe lag                    %.1f s" % p.probe_lag_s]
+    if p.own_fit:
+        lines.append("  answers                      the device's own fit (own_fit: the law "
+                     "forecast worse on held-out uses); the profile gives the interval")
     if fit.has_ambient:
         lines.append("  equilibrium - ambient        %+.2f C (sd %.2f C across uses)"
                      % (p.eq_offset_c, p.eq_offset_sd_c))

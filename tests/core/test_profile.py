@@ -95,7 +95,7 @@ def test_bad_blobs_are_rejected_with_a_reason():
         (b"\x02" + good[1:], pr.REASON_VERSION),
         (good[:10] + bytes([good[10] ^ 0x04]) + good[11:], pr.REASON_CRC),
         (good[:52] + bytes([good[52] ^ 0x80]) + good[53:], pr.REASON_CRC),
-        (_resealed(good, 1, "<B", 3), pr.REASON_FLAGS),
+        (_resealed(good, 1, "<B", 4), pr.REASON_FLAGS),
         (_resealed(good, 2, "<f", float("nan")), pr.REASON_RANGE),        # rate NaN
         (_resealed(good, 2, "<f", -0.001), pr.REASON_RANGE),              # negative rate
         (_resealed(good, 26, "<f", -1.0), pr.REASON_RANGE),               # negative probe lag
@@ -244,7 +244,7 @@ def _odd_blobs():
             # a valid CRC over random fields; with known flags (all but #3 and #19) only
             # the range check is left
             if i % 16 != 3:
-                buf[1] &= pr.FLAG_HEATER
+                buf[1] &= pr.FLAG_HEATER | pr.FLAG_OWN_FIT
             struct.pack_into("<I", buf, 50, crc.crc32(buf, 0, 0, 50))
         out.append(("random %d bytes #%d" % (n, i), buf if i % 4 else memoryview(buf)))
     if hasattr(memoryview, "cast"):          # CPython only: multi-dimensional and released views
@@ -327,3 +327,17 @@ def test_heater_must_be_a_bool_or_zero_or_one():
     assert VesselProfile(heater=1, gain_k_per_s=0.2).heater is True
     assert VesselProfile(heater=0).heater is False
     assert VesselProfile(heater=True, gain_k_per_s=0.2).heater is True
+
+
+def test_own_fit_must_be_a_bool_or_zero_or_one_and_travels_in_the_flags():
+    for bad in ("no", None, 2, -1, 1.0, [1]):
+        _raises_naming({"own_fit": bad}, "own_fit")
+    src = VesselProfile(rate_per_s=1.0 / 2500.0, own_fit=1)
+    assert src.own_fit is True and VesselProfile().own_fit is False
+    blob = src.to_blob()
+    assert blob[1] == pr.FLAG_OWN_FIT
+    prof, reason = VesselProfile.from_blob(blob)
+    assert reason == pr.REASON_OK and prof.own_fit is True and prof.heater is False
+    both = VesselProfile(heater=True, gain_k_per_s=0.2, own_fit=True).to_blob()
+    assert both[1] == pr.FLAG_HEATER | pr.FLAG_OWN_FIT
+    assert VesselProfile.from_blob(both)[0].own_fit is True
