@@ -314,9 +314,12 @@ def _work_out(est, target, approach):
         elif other > 0.0:
             b = math.sqrt(b * b + math.log(other / eta) ** 2)
     up = 0.0
-    if passive and bd == 0.0 and eta0 is not None and eta0 > age_s and k * age_s >= UNSEEN_FROM:
-        # beyond the fit's age, no drift measured: a bend slower than that age is unseen
-        up = time_to_target_from_slope_s(gap, slope, k + UNSEEN_BEND / age_s)
+    if ((passive or est.heater and not est._profile_on) and bd == 0.0 and eta0 is not None
+            and (eta0 > age_s or est.heater) and k * age_s >= UNSEEN_FROM):
+        # no drift measured: a bend slower than the fit's age is unseen (heated: the losses grow
+        # faster than the excess; no drift measured, so within its age too, by the share eta/age)
+        up = eta0 / age_s if eta0 < age_s else 1.0
+        up = time_to_target_from_slope_s(gap, slope, k + UNSEEN_BEND / age_s * up)
         open_end = open_end or up is None
     elif passive and bd == 0.0 and k * age_s < UNSEEN_FROM:
         # not bent yet, the ambient hint in the fit (over 2 of its sd away, moving towards
