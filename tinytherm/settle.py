@@ -9,7 +9,9 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   liquid's temperature over a few of its own time constants and may cross the
   target on the way. :class:`Settle` keeps one reading. For the fit's first
   :data:`SETTLE_S` it is the fit's first reading, and an arrival needs it
-  already past the target (the probe never showed the liquid short of it).
+  already past the target (the probe never showed the liquid short of it);
+  from ``SETTLE_S`` until the block that closes after it, none if the fit has
+  bent through ``SETTLE_BEND`` (that block restarts it: the probe travelled).
   Then (the first block closed ``SETTLE_S`` into the fit, or a fit seeded at a
   turn, where the probe has met the liquid) it is that block's closing
   reading: an arrival needs it short of the target (the crossing came after),
@@ -191,8 +193,9 @@ class Settle:
         if ref == TRAVEL or ref == TRAVEL_ON:
             return False  # (the probe may still travel to the liquid)
         if not self.settled:
-            if ref == NO_REF or (ref - target) * m < 0:
-                return False
+            if ref == NO_REF or (ref - target) * m < 0 or (
+                    age_ms >= SETTLE_MS and est.reg.k * age_ms > SETTLE_BEND * 1000.0):
+                return False  # (past SETTLE_S and bent: the block closing next restarts it)
         elif (target - ref) * m <= 0:
             if m > 0 or self.turn:
                 # (a rise past the target before the probe settled: a pour's; or a fit
