@@ -28,6 +28,11 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   arrival) for a later block; a fit restarted after the travel with the travel
   still left waits until it is within the move, however little the fit then bends. A fit restarted at a
   jump has no reference until the probe settles.
+- **a fall to stay above the known air** (measured, or given): a passive liquid
+  below its air only warms, so a fitted level more than a move beyond the noise
+  (``answer.move_c``) below it is a probe strapped on at the air still travelling
+  down to a cold drink, however slow (no number chosen). Not for a rise: a
+  liquid heated with no duty column given rises past its air.
 - **a rise to be the liquid's** (a probe warming after a pour or a top-up passes
   a drinking target on its way up while the drink is hotter): the fit at least
   :data:`RISE_ARRIVE_MIN_S` old, still rising by its slope and by the latest
@@ -192,6 +197,10 @@ class Settle:
         target = to_counts(target_c)
         if ref == TRAVEL or ref == TRAVEL_ON:
             return False  # (the probe may still travel to the liquid)
+        mv = answer.move_c(est.noise.sd)
+        a = est._ambient_ahead_c() if m < 0 else None
+        if a is not None and a - b.level > mv:
+            return False  # (falling below the air it warms toward: the probe's travel)
         if not self.settled:
             if ref == NO_REF or (ref - target) * m < 0 or (
                     age_ms >= SETTLE_MS and est.reg.k * age_ms > SETTLE_BEND * 1000.0):
@@ -201,7 +210,6 @@ class Settle:
                 # (a rise past the target before the probe settled: a pour's; or a fit
                 # begun at a turn short of the target: the liquid never reached it)
                 return False
-            mv = answer.move_c(est.noise.sd)
             if (b.level - ref * _INV) * m < mv or (b.c - ref) * m < to_counts(mv):
                 return False  # (the fitted level too: not one reading of hundreds)
         return m < 0 or not (
