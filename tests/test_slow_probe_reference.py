@@ -50,16 +50,17 @@ def liquid_and_probe(start_c, tau_s, lag_s, probe0_c=ROOM_C):
 
 
 def early_arrivals(start_c, target_c, tau_s, lag_s, interval_s, seed, probe0_c=ROOM_C,
-                   air_c=None):
+                   air_c=None, probe=(NOISE_SD_C, QUANTUM_C)):
     """Reading times (s) shown ``ARRIVED`` before the liquid's true crossing (brentq);
-    ``air_c`` (deg C): the room's air as a measured ambient with every reading (None: none)."""
+    ``air_c`` (deg C): the room's air as a measured ambient with every reading (None: none);
+    ``probe``: its noise sd and step (deg C)."""
+    sd_c, step_c = probe
     sol = liquid_and_probe(start_c, tau_s, lag_s, probe0_c)
     crossing_s = brentq(lambda t: sol(t)[0] - target_c, 0.0, HOURS * 3600.0, xtol=1e-6)
     times = np.arange(0.0, HOURS * 3600.0, interval_s)
     rng = np.random.default_rng(seed)
-    readings = np.round((sol(times)[1] + rng.normal(0.0, NOISE_SD_C, len(times)))
-                        / QUANTUM_C) * QUANTUM_C
-    est = ThermalEstimator(quantum_c=QUANTUM_C)
+    readings = np.round((sol(times)[1] + rng.normal(0.0, sd_c, len(times))) / step_c) * step_c
+    est = ThermalEstimator(quantum_c=step_c)
     early, arrived, prev = [], False, None
     for t, y in zip(times, readings):
         est.update(float(y), 0.0 if prev is None else float(t - prev), ambient_c=air_c)
@@ -71,13 +72,14 @@ def early_arrivals(start_c, target_c, tau_s, lag_s, interval_s, seed, probe0_c=R
     return early, arrived, crossing_s
 
 
-def early_over(start_c, target_c, tau_s, runs, probe0_c=ROOM_C, air_c=None):
+def early_over(start_c, target_c, tau_s, runs, probe0_c=ROOM_C, air_c=None,
+               probe=(NOISE_SD_C, QUANTUM_C)):
     """Over ``runs`` of (lag s, interval s, seed): the runs shown ``ARRIVED`` early (with the
     true crossing, s, and their first three early reading times) and how many arrived."""
     early, arrived = [], 0
     for lag_s, interval_s, seed in runs:
         rows, seen, crossing_s = early_arrivals(start_c, target_c, tau_s, lag_s, interval_s, seed,
-                                                probe0_c, air_c)
+                                                probe0_c, air_c, probe)
         arrived += seen
         if rows:
             early.append((lag_s, interval_s, seed, round(crossing_s), rows[:3]))
@@ -142,3 +144,21 @@ def test_no_arrival_falling_below_a_measured_air(start_c, target_c, tau_s):
     assert not early, early
     if target_c != 8.0:  # (a cold drink's 8 C, near where the probe turns: no arrival, as at
         assert arrived == 18, arrived  # 7ff18f6 with the air measured, but its early ones)
+
+
+
+# a coarse probe (0.5 C steps, noise sd 0.15 C: tune room seed 1002 dense, a 241 s probe read
+# every second, 1032 early rows at 7ff18f6): the fit's rate prior (a liquid's) holds the probe's
+# bend in SETTLE_S at a third to a half of it, under SETTLE_BEND, so the reference was taken on
+# the travel; the travel test judges the readings' own rate (no prior). At 146ec3c 28 of these
+# 96 runs arrived early (14 per cold drink); none with it. Left: the 300 s probe read 10 s apart
+# (seed 3) still arrives early for both cold drinks (not in these runs)
+@pytest.mark.parametrize("start_c, target_c, tau_s", CASES)
+def test_no_arrival_with_a_coarse_probe(start_c, target_c, tau_s):
+    early, arrived = early_over(start_c, target_c, tau_s,
+                                [(lag, iv, seed) for lag in LAGS_S for iv in (1.0, 10.0)
+                                 for seed in SEEDS], probe=(0.15, 0.5))
+    assert not early, early
+    # (after the crossing: 4 of 24 runs for the cold drink's 8 C, near where the probe
+    # turns, every run for the others)
+    assert arrived >= (4 if target_c == 8.0 else 24), arrived

@@ -21,7 +21,8 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   hundreds hovering there; a rise past it then is a probe still rising after
   a pour). A fit bent through :data:`SETTLE_BEND` of its time constants by then
   was the probe travelling: the estimator restarts it there. While the fit
-  may still be a slow probe's travel (its rate bends it through more than
+  may still be a slow probe's travel (the readings' own rate, with no prior on
+  it, bends it through more than
   ``SETTLE_BEND`` in ``SETTLE_S`` and it has more than that move left to
   where it levels off, or that rate came from three readings; or the fit holds
   two readings, minutes apart: they show no bend) the reference waits (:data:`TRAVEL`: no
@@ -162,10 +163,13 @@ class Settle:
         self.settled = True
         self.turn = turn
 
-    def block_closed(self, age_ms, cb, k, slope, move_c, n):
+    def block_closed(self, age_ms, cb, k, reg, slope, move_c, n):
         """A block closed ``age_ms`` into the fit at reading ``cb`` (counts); ``k`` (1/s) and
         ``slope`` (deg C/s, at the level) the fit's as solved before it, from ``n`` readings
-        with this block's. True when the probe is taken as settled with it and the fit bent
+        with this block's; the readings' own rate, this block's in, with no prior on it
+        (from the sums of ``reg``, the fit's :class:`tinytherm.fit.Regression`, without an
+        air column: the rate prior is a liquid's, and with noisy or coarse readings it holds
+        a slow probe's bend at a fraction of it) judges the travel. True when the probe is taken as settled with it and the fit bent
         through more than :data:`SETTLE_BEND` time constants: restart the fit here. The
         reference waits (:data:`TRAVEL`, no arrival) while the probe may still travel: the
         fit's level more than ``move_c`` (deg C) from where it levels off (``|slope| / k``:
@@ -177,8 +181,13 @@ class Settle:
         ref = self.ref
         if age_ms < SETTLE_MS or (self.settled and ref != TRAVEL and ref != TRAVEL_ON):
             return False
-        travel = n < 3 or (k > 0.0 and (slope if slope > 0.0 else -slope) > k * move_c
-                           and (ref == TRAVEL_ON or k * SETTLE_MS > SETTLE_BEND * 1000.0 or n < 4))
+        kf = k
+        if k and not reg.heater:  # (the readings' own rate: the fit's k with no prior on it)
+            d = reg.ctt * reg.cxx - reg.ctx * reg.ctx
+            if d > 1e-300:
+                kf = (reg.ctx * reg.cty - reg.ctt * reg.cxy) / d
+        travel = n < 3 or (kf > 0.0 and (slope if slope > 0.0 else -slope) > kf * move_c
+                           and (ref == TRAVEL_ON or kf * SETTLE_MS > SETTLE_BEND * 1000.0 or n < 4))
         if self.settled:  # (waiting: the reference once the probe met the liquid)
             if not travel:
                 self.ref = cb
