@@ -9,7 +9,9 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   liquid's temperature over a few of its own time constants and may cross the
   target on the way. :class:`Settle` keeps one reading. For the fit's first
   :data:`SETTLE_S` it is the fit's first reading, and an arrival needs it
-  already past the target (the probe never showed the liquid short of it).
+  already past the target (the probe never showed the liquid short of it);
+  from ``SETTLE_S`` until the block that closes after it, none if the fit has
+  bent through ``SETTLE_BEND`` (that block restarts it: the probe travelled).
   Then (the first block closed ``SETTLE_S`` into the fit, or a fit seeded at a
   turn, where the probe has met the liquid) it is that block's closing
   reading: an arrival needs it short of the target (the crossing came after),
@@ -19,13 +21,19 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   hundreds hovering there; a rise past it then is a probe still rising after
   a pour). A fit bent through :data:`SETTLE_BEND` of its time constants by then
   was the probe travelling: the estimator restarts it there. While the fit
-  may still be a slow probe's travel (its rate bends it through more than
+  may still be a slow probe's travel (the readings' own rate, with no prior on
+  it, bends it through more than
   ``SETTLE_BEND`` in ``SETTLE_S`` and it has more than that move left to
   where it levels off, or that rate came from three readings; or the fit holds
   two readings, minutes apart: they show no bend) the reference waits (:data:`TRAVEL`: no
   arrival) for a later block; a fit restarted after the travel with the travel
   still left waits until it is within the move, however little the fit then bends. A fit restarted at a
   jump has no reference until the probe settles.
+- **a fall to stay above the known air** (measured, or given): a passive liquid
+  below its air only warms, so a fitted level more than a move beyond the noise
+  (``answer.move_c``) below it is a probe strapped on at the air still travelling
+  down to a cold drink, however slow (no number chosen). Not for a rise: a
+  liquid heated with no duty column given rises past its air.
 - **a rise to be the liquid's** (a probe warming after a pour or a top-up passes
   a drinking target on its way up while the drink is hotter): the fit at least
   :data:`RISE_ARRIVE_MIN_S` old, still rising by its slope and by the latest
@@ -155,10 +163,13 @@ class Settle:
         self.settled = True
         self.turn = turn
 
-    def block_closed(self, age_ms, cb, k, slope, move_c, n):
+    def block_closed(self, age_ms, cb, k, reg, slope, move_c, n):
         """A block closed ``age_ms`` into the fit at reading ``cb`` (counts); ``k`` (1/s) and
         ``slope`` (deg C/s, at the level) the fit's as solved before it, from ``n`` readings
-        with this block's. True when the probe is taken as settled with it and the fit bent
+        with this block's; the readings' own rate, this block's in, with no prior on it
+        (from the sums of ``reg``, the fit's :class:`tinytherm.fit.Regression`, without an
+        air column: the rate prior is a liquid's, and with noisy or coarse readings it holds
+        a slow probe's bend at a fraction of it) judges the travel. True when the probe is taken as settled with it and the fit bent
         through more than :data:`SETTLE_BEND` time constants: restart the fit here. The
         reference waits (:data:`TRAVEL`, no arrival) while the probe may still travel: the
         fit's level more than ``move_c`` (deg C) from where it levels off (``|slope| / k``:
@@ -170,8 +181,13 @@ class Settle:
         ref = self.ref
         if age_ms < SETTLE_MS or (self.settled and ref != TRAVEL and ref != TRAVEL_ON):
             return False
-        travel = n < 3 or (k > 0.0 and (slope if slope > 0.0 else -slope) > k * move_c
-                           and (ref == TRAVEL_ON or k * SETTLE_MS > SETTLE_BEND * 1000.0 or n < 4))
+        kf = k
+        if k and not reg.heater:  # (the readings' own rate: the fit's k with no prior on it)
+            d = reg.ctt * reg.cxx - reg.ctx * reg.ctx
+            if d > 1e-300:
+                kf = (reg.ctx * reg.cty - reg.ctt * reg.cxy) / d
+        travel = n < 3 or (kf > 0.0 and (slope if slope > 0.0 else -slope) > kf * move_c
+                           and (ref == TRAVEL_ON or kf * SETTLE_MS > SETTLE_BEND * 1000.0 or n < 4))
         if self.settled:  # (waiting: the reference once the probe met the liquid)
             if not travel:
                 self.ref = cb
@@ -190,15 +206,19 @@ class Settle:
         target = to_counts(target_c)
         if ref == TRAVEL or ref == TRAVEL_ON:
             return False  # (the probe may still travel to the liquid)
+        mv = answer.move_c(est.noise.sd)
+        a = est._ambient_ahead_c() if m < 0 else None
+        if a is not None and a - b.level > mv:
+            return False  # (falling below the air it warms toward: the probe's travel)
         if not self.settled:
-            if ref == NO_REF or (ref - target) * m < 0:
-                return False
+            if ref == NO_REF or (ref - target) * m < 0 or (
+                    age_ms >= SETTLE_MS and est.reg.k * age_ms > SETTLE_BEND * 1000.0):
+                return False  # (past SETTLE_S and bent: the block closing next restarts it)
         elif (target - ref) * m <= 0:
             if m > 0 or self.turn:
                 # (a rise past the target before the probe settled: a pour's; or a fit
                 # begun at a turn short of the target: the liquid never reached it)
                 return False
-            mv = answer.move_c(est.noise.sd)
             if (b.level - ref * _INV) * m < mv or (b.c - ref) * m < to_counts(mv):
                 return False  # (the fitted level too: not one reading of hundreds)
         return m < 0 or not (
