@@ -344,3 +344,48 @@ def test_a_top_up_past_the_target_read_minutes_apart_is_no_arrival_from_the_read
                     shown_after += 1
     assert not early, early
     assert shown_after > 0, shown_after  # (the arrival after the liquid's own crossing: shown)
+
+
+def test_a_fit_restarted_where_the_probe_met_the_drink_read_minutes_apart_answers_from_two():
+    # a probe taken from hot water (95 C) into a 60 C mug cooling in a 21 C room (k 1/2400 s),
+    # probe lag 60 s, read every 60-180 s, target 40 C, no direction given: the fit bends
+    # through more than SETTLE_BEND time constants by SETTLE_S (the probe's fall) and restarts
+    # where the probe met the drink (tinytherm.settle); read a block apart, its second reading
+    # answers, as a fit seeded at a turn (before: gathering at that reading in 30 of 30 runs).
+    # No early arrival, the shown intervals cover the probe's crossing 0.75-1.0.
+    # Our own invented mug; reference: solve_ivp (Radau), brentq
+    l0, eq, k, lag, target = 60.0, 21.0, 1.0 / 2400.0, 60.0, 40.0
+    sol = reference_solution(l0, eq, k, lag, 95.0, 6000.0)
+    crossing = _crossing(sol, 1, target, -1, 6000.0)
+    # (the liquid's own crossing, closed form: 2400 ln(39 / 19) s; the probe's a lag later)
+    liquid_crossing = 2400.0 * math.log(39.0 / 19.0)
+    assert 0.0 < crossing - liquid_crossing < 2.0 * lag, (crossing, liquid_crossing)
+    second = answered = shown = covered = 0
+    early = []
+    for seed in range(30):
+        rng = np.random.default_rng(seed)
+        times = [0.0]
+        while times[-1] < crossing + 600.0:
+            times.append(times[-1] + rng.uniform(60.0, 180.0))
+        times = np.array(times)
+        readings = np.round((sol.sol(times)[1] + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+        est = ThermalEstimator()
+        restarted = False
+        for i in range(len(times)):
+            est.update(float(readings[i]), 0.0 if i == 0 else float(times[i] - times[i - 1]))
+            est.predict(target)
+            restarted = restarted or (i > 0 and est.blocks.readings == 1)
+            if est.status == st.ARRIVED and sol.sol(times[i])[0] - target > 0.3:
+                early.append((seed, i))
+            if times[i] >= crossing:
+                continue
+            if restarted and est.blocks.readings == 2:
+                second += 1
+                answered += est.status in (st.TRACKING, st.ARRIVED)
+            if est.status == st.TRACKING and est.eta_s > 0.0:
+                shown += 1
+                covered += est.eta_low_s <= crossing - times[i] <= est.eta_high_s
+    assert not early, early
+    assert second >= 25, second
+    assert answered >= 0.9 * second, (answered, second)
+    assert 0.75 <= covered / shown < 1.0, (covered, shown)

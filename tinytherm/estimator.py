@@ -324,8 +324,10 @@ class ThermalEstimator(Answer):
         if self.settle.block_closed(b.age_ms, b.cb, reg.k if reg.ok and not heater else 0.0,
                                     self._slope, answer.move_c(self.noise.sd), b.readings):
             ref = self.settle.ref
+            # (read a block apart: answers from two readings, as a fit seeded at a turn)
+            apart = b.ip >= _BLOCK_MS and b.np == 1
             self._begin_again(False)  # the probe was travelling to the liquid: the liquid's
-            self.settle.seeded(False)  # own approach starts here (tinytherm.settle)
+            self.settle.seeded(apart)  # own approach starts here (tinytherm.settle)
             if ref == TRAVEL:
                 self.settle.ref = TRAVEL_ON  # (still on its way: no reference yet)
             return
@@ -383,7 +385,8 @@ class ThermalEstimator(Answer):
             # its liquid at its peak, dP/dt = 0); else from the latest reading
             self._begin_again(False, b.readings == 3 or r == NO_REF or (
                 b.ip >= _BLOCK_MS and b.ext_n == 1 and b.ext_sy == b.cp))
-        elif b.ip >= _BLOCK_MS and self.settle.turn and b.readings == 3:
+        elif b.ip >= _BLOCK_MS and self.settle.turn and b.readings == 3 and (
+                self.settle.ref < TRAVEL_ON):  # (not while the probe may still travel)
             # a fit begun at a turn, its third reading no spike's return: the reading that
             # seeded it is one reading, maybe a spike the guard passed or the last before a
             # pour (the liquid jumped after it): an arrival needs the crossing after the
