@@ -11,6 +11,10 @@
 - A drink levelling off towards a drifting room (solve_ivp, crossing by brentq),
   read minutes apart: a target just beyond the fitted equilibrium, within the
   rate's own sd, gets an answer (``answer.REACH_SD``).
+- A turn read minutes apart (solve_ivp, crossing by brentq): a mug topped up,
+  its lagging probe's peak seeding the fit with the reading after it; one
+  reading off by a spike the guard passed on a steep fall, dropped when the
+  next comes back (``ThermalEstimator._finish_block``).
 """
 import math
 import os
@@ -199,3 +203,189 @@ def test_a_drink_in_a_drifting_room_read_minutes_apart_is_answered_from_the_thir
     assert rows >= 300, rows
     assert answered >= 0.95 * rows, (answered, rows)
 
+
+
+def _poured_probe(l0, eq, k, lag, t_pour, l_after, t_end, index=1):
+    """solve_ivp (Radau, rtol = atol = 1e-12) of dL/dt = -k (L - E), dP/dt = (L - P) / lag, the
+    liquid set to ``l_after`` at ``t_pour`` (a top-up mixed at once), the probe continuous;
+    returns the probe (``index`` 0: the liquid) as a function of time."""
+    def rhs(_t, y):
+        return [-k * (y[0] - eq), (y[0] - y[1]) / lag]
+    before = solve_ivp(rhs, (0.0, t_pour), [l0, l0], method="Radau", rtol=1e-12, atol=1e-12,
+                       dense_output=True)
+    after = solve_ivp(rhs, (t_pour, t_end), [l_after, before.y[1, -1]], method="Radau",
+                      rtol=1e-12, atol=1e-12, dense_output=True)
+    return lambda t: float((before.sol(t) if t <= t_pour else after.sol(t))[index])
+
+
+def _replay_from(times, readings, target, first, crossing):
+    """Per reading from index ``first`` to the crossing: (status, eta, low, high, remaining s),
+    no direction given."""
+    est = ThermalEstimator()
+    rows = []
+    for i in range(len(times)):
+        est.update(float(readings[i]), 0.0 if i == 0 else float(times[i] - times[i - 1]))
+        est.predict(target)
+        if i >= first and times[i] < crossing:
+            rows.append((est.status, est.eta_s, est.eta_low_s, est.eta_high_s, crossing - times[i]))
+    return rows
+
+
+def _count(rows):
+    """(answered, rows, shown with a time, covered): the truth within the interval."""
+    answered = shown = covered = 0
+    for status, eta, low, high, remaining in rows:
+        answered += status in (st.TRACKING, st.ARRIVED)
+        if status == st.TRACKING and eta > 0.0:
+            shown += 1
+            covered += low <= remaining <= high
+    return answered, len(rows), shown, covered
+
+
+def test_a_top_up_read_minutes_apart_is_answered_from_the_reading_after_the_probe_peak():
+    # a mug cooling from 70 C in a 21 C room (k 1/2400 s), topped up to 75 C at 1500 s, its
+    # probe lagging 30 s, read every 60-600 s, target 40 C, no direction given. The pour reads
+    # as a turn up, the probe's peak (where a lagging probe reads its liquid: dP/dt = 0) as
+    # the turn down: the fit starts at the peak with the reading after it (before: at that
+    # reading alone, two readings gathering: 67 of 83 rows answered from the second reading
+    # after the pour; after 78, 67 covered). Our own invented mug; reference: solve_ivp, brentq
+    target, t_pour = 40.0, 1500.0
+    probe = _poured_probe(70.0, 21.0, 1.0 / 2400.0, 30.0, t_pour, 75.0, 20000.0)
+    grid = np.arange(t_pour, 20000.0, 1.0)
+    values = np.array([probe(t) for t in grid])
+    peak = int(np.argmax(values))
+    i = peak + int(np.nonzero(values[peak:] <= target)[0][0])
+    crossing = brentq(lambda t: probe(t) - target, grid[i - 1], grid[i], xtol=1e-9)
+    answered = rows = shown = covered = 0
+    for seed in range(12):
+        rng = np.random.default_rng(seed)
+        times = [0.0]
+        while times[-1] < crossing + 1200.0:
+            times.append(times[-1] + rng.uniform(60.0, 600.0))
+        times = np.array(times)
+        clean = np.array([probe(t) for t in times])
+        readings = np.round((clean + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+        first = int(np.nonzero(times > t_pour)[0][0]) + 1  # the second reading after the pour
+        a, n, s, c = _count(_replay_from(times, readings, target, first, crossing))
+        answered, rows, shown, covered = answered + a, rows + n, shown + s, covered + c
+    assert rows >= 80, rows
+    assert answered >= 0.9 * rows, (answered, rows)
+    assert 0.75 <= covered / shown < 1.0, (covered, shown)
+
+
+def test_a_spike_on_a_steep_fall_read_minutes_apart_is_dropped_when_the_next_comes_back():
+    # a wort cooling from 90 C towards a 12 C coil (k 1/1200 s), probe lag 10 s, read every
+    # 60-300 s, target 20 C; the sixth reading 8 C too high, within the guard's window of
+    # three (its scale the fall's own steps). The spike reads as a turn up (the fit seeded
+    # with the reading before and the spike), the next reading back beyond the first of the
+    # fit: the spike is dropped, the fit goes on from that first reading and the latest
+    # (before: a fit begun at the spike, gathering or out of reach with the spike in it: 82 of
+    # 116 rows answered from the reading after it; after: 112, 102 covered).
+    # Our own invented wort; reference: solve_ivp (Radau) and brentq
+    l0, eq, k, lag, target = 90.0, 12.0, 1.0 / 1200.0, 10.0, 20.0
+
+    def rhs(_t, y):
+        return [-k * (y[0] - eq), (y[0] - y[1]) / lag]
+    sol = solve_ivp(rhs, (0.0, 20000.0), [l0, l0], method="Radau", rtol=1e-12, atol=1e-12,
+                    dense_output=True)
+    grid = np.arange(0.0, 20000.0, 1.0)
+    i = int(np.nonzero(sol.sol(grid)[1] <= target)[0][0])
+    crossing = brentq(lambda t: sol.sol(t)[1] - target, grid[i - 1], grid[i], xtol=1e-9)
+    answered = rows = shown = covered = 0
+    for seed in range(12):
+        rng = np.random.default_rng(seed)
+        times = [0.0]
+        while times[-1] < crossing + 1200.0:
+            times.append(times[-1] + rng.uniform(60.0, 300.0))
+        times = np.array(times)
+        readings = np.round((sol.sol(times)[1] + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+        readings[5] += 8.0
+        a, n, s, c = _count(_replay_from(times, readings, target, 6, crossing))
+        answered, rows, shown, covered = answered + a, rows + n, shown + s, covered + c
+    assert rows >= 100, rows
+    assert answered >= 0.9 * rows, (answered, rows)
+    assert 0.75 <= covered / shown < 1.0, (covered, shown)
+
+
+def test_a_top_up_past_the_target_read_minutes_apart_is_no_arrival_from_the_reading_before_it():
+    # a mug cooling from 70 C in a 21 C room (k 1/2400 s), probe lag 30 s, read every
+    # 120-420 s, target 46 C, no direction given: it cools past 46 C (~1,650 s), is topped up
+    # to 62 C at 2,000 s and cools to 46 C again. The last reading before the pour is a turn's
+    # extreme (the rise after it the pour's): the fit restarted from it and the reading after
+    # rises through 46 C, but the liquid jumped after that reading; no "arrived" while the
+    # liquid is above 46 C by more than max(0.3 C, 3 noise sd) (the benchmark's rule) from the
+    # second reading after the pour (the first the pour shows in; before the guard: 2 rows on
+    # 2 of 40 runs). Our own invented mug; reference: solve_ivp (Radau), brentq
+    target, t_pour, k = 46.0, 2000.0, 1.0 / 2400.0
+    liquid = _poured_probe(70.0, 21.0, k, 30.0, t_pour, 62.0, 9000.0, index=0)
+    probe = _poured_probe(70.0, 21.0, k, 30.0, t_pour, 62.0, 9000.0)
+    back = brentq(lambda t: liquid(t) - target, t_pour + 1.0, 9000.0, xtol=1e-9)
+    # (the closed form: 46 C again 2400 ln(41 / 25) s after the pour)
+    assert abs(back - t_pour - 2400.0 * math.log(41.0 / 25.0)) < 1e-3, back
+    early = []
+    shown_after = 0
+    for seed in range(40):
+        rng = np.random.default_rng(seed)
+        times = [0.0]
+        while times[-1] < back + 1500.0:
+            times.append(times[-1] + rng.uniform(120.0, 420.0))
+        times = np.array(times)
+        clean = np.array([probe(t) for t in times])
+        readings = np.round((clean + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+        first = int(np.nonzero(times > t_pour)[0][0]) + 1
+        est = ThermalEstimator()
+        for i in range(len(times)):
+            est.update(float(readings[i]), 0.0 if i == 0 else float(times[i] - times[i - 1]))
+            est.predict(target)
+            if i >= first and est.status == st.ARRIVED:
+                if liquid(times[i]) - target > 0.3:
+                    early.append((seed, i))
+                else:
+                    shown_after += 1
+    assert not early, early
+    assert shown_after > 0, shown_after  # (the arrival after the liquid's own crossing: shown)
+
+
+def test_a_fit_restarted_where_the_probe_met_the_drink_read_minutes_apart_answers_from_two():
+    # a probe taken from hot water (95 C) into a 60 C mug cooling in a 21 C room (k 1/2400 s),
+    # probe lag 60 s, read every 60-180 s, target 40 C, no direction given: the fit bends
+    # through more than SETTLE_BEND time constants by SETTLE_S (the probe's fall) and restarts
+    # where the probe met the drink (tinytherm.settle); read a block apart, its second reading
+    # answers, as a fit seeded at a turn (before: gathering at that reading in 30 of 30 runs).
+    # No early arrival, the shown intervals cover the probe's crossing 0.75-1.0.
+    # Our own invented mug; reference: solve_ivp (Radau), brentq
+    l0, eq, k, lag, target = 60.0, 21.0, 1.0 / 2400.0, 60.0, 40.0
+    sol = reference_solution(l0, eq, k, lag, 95.0, 6000.0)
+    crossing = _crossing(sol, 1, target, -1, 6000.0)
+    # (the liquid's own crossing, closed form: 2400 ln(39 / 19) s; the probe's a lag later)
+    liquid_crossing = 2400.0 * math.log(39.0 / 19.0)
+    assert 0.0 < crossing - liquid_crossing < 2.0 * lag, (crossing, liquid_crossing)
+    second = answered = shown = covered = 0
+    early = []
+    for seed in range(30):
+        rng = np.random.default_rng(seed)
+        times = [0.0]
+        while times[-1] < crossing + 600.0:
+            times.append(times[-1] + rng.uniform(60.0, 180.0))
+        times = np.array(times)
+        readings = np.round((sol.sol(times)[1] + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+        est = ThermalEstimator()
+        restarted = False
+        for i in range(len(times)):
+            est.update(float(readings[i]), 0.0 if i == 0 else float(times[i] - times[i - 1]))
+            est.predict(target)
+            restarted = restarted or (i > 0 and est.blocks.readings == 1)
+            if est.status == st.ARRIVED and sol.sol(times[i])[0] - target > 0.3:
+                early.append((seed, i))
+            if times[i] >= crossing:
+                continue
+            if restarted and est.blocks.readings == 2:
+                second += 1
+                answered += est.status in (st.TRACKING, st.ARRIVED)
+            if est.status == st.TRACKING and est.eta_s > 0.0:
+                shown += 1
+                covered += est.eta_low_s <= crossing - times[i] <= est.eta_high_s
+    assert not early, early
+    assert second >= 25, second
+    assert answered >= 0.9 * second, (answered, second)
+    assert 0.75 <= covered / shown < 1.0, (covered, shown)

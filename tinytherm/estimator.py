@@ -325,8 +325,10 @@ class ThermalEstimator(Answer):
         if self.settle.block_closed(b.age_ms, b.cb, reg.k if reg.ok and not heater else 0.0,
                                     reg, self._slope, answer.move_c(self.noise.sd), b.readings):
             ref = self.settle.ref
+            # (read a block apart: answers from two readings, as a fit seeded at a turn)
+            apart = b.ip >= _BLOCK_MS and b.np == 1
             self._begin_again(False)  # the probe was travelling to the liquid: the liquid's
-            self.settle.seeded(False)  # own approach starts here (tinytherm.settle)
+            self.settle.seeded(apart)  # own approach starts here (tinytherm.settle)
             if ref == TRAVEL:
                 self.settle.ref = TRAVEL_ON  # (still on its way: no reference yet)
             return
@@ -368,8 +370,29 @@ class ThermalEstimator(Answer):
         self.noise.expect_ms = -1
         if self._turned(yb):
             self.turns += 1
-            # (from the reading before it, the peak, also when the probe travelled after a jump)
-            self._begin_again(False, b.readings == 3 or self.settle.ref == NO_REF)
+            r = self.settle.ref
+            if b.ip >= _BLOCK_MS and self.settle.turn and b.readings == 3 and (
+                    (b.c - r) * (1 if b.cp > r else -1) <= TURN_C * SCALE):
+                # readings a block apart, a fit begun at a turn with two readings turned back
+                # at its third to within TURN_C of its first: the middle one was a spike the
+                # guard passed (on a steep fall its window's scale is the fall's own step):
+                # the fit goes on from its first reading and the latest, the spike dropped
+                b.cp = r
+                b.ip = b.age_ms
+                self._begin_again(False, True)
+                return
+            # from the reading before it, the peak: when the probe travelled after a jump,
+            # and readings a block apart whose extreme is that reading (a lagging probe reads
+            # its liquid at its peak, dP/dt = 0); else from the latest reading
+            self._begin_again(False, b.readings == 3 or r == NO_REF or (
+                b.ip >= _BLOCK_MS and b.ext_n == 1 and b.ext_sy == b.cp))
+        elif b.ip >= _BLOCK_MS and self.settle.turn and b.readings == 3 and (
+                self.settle.ref < TRAVEL_ON):  # (not while the probe may still travel)
+            # a fit begun at a turn, its third reading no spike's return: the reading that
+            # seeded it is one reading, maybe a spike the guard passed or the last before a
+            # pour (the liquid jumped after it): an arrival needs the crossing after the
+            # reading that followed it (tinytherm.settle: the reference)
+            self.settle.ref = b.cp
 
     def _level_and_slope(self):
         """The anchored level and the slope at it, from the solution (also after a restore)."""

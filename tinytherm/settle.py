@@ -14,8 +14,11 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   bent through ``SETTLE_BEND`` (that block restarts it: the probe travelled).
   Then (the first block closed ``SETTLE_S`` into the fit, or a fit seeded at a
   turn, where the probe has met the liquid) it is that block's closing
-  reading: an arrival needs it short of the target (the crossing came after),
-  or, falling, the reading and the fitted level moved on past the target by
+  reading (a fit seeded at a turn read a block apart: from its third reading
+  the one after the seed, which may have been a spike or the last reading
+  before a pour; ``ThermalEstimator._finish_block``): an arrival needs it
+  short of the target (the crossing came after), or, falling, the reading
+  and the fitted level moved on past the target by
   4 noise sd (at least ``answer.ARRIVE_TOL_C``: a liquid past its target when
   the probe met it, still going that way; the level, not one reading of
   hundreds hovering there; a rise past it then is a probe still rising after
