@@ -66,9 +66,13 @@ SETTLE_BEND = 1.0         # time constants (k x SETTLE_S): a fit bent through mo
 RISE_ARRIVE_MIN_S = 300.0  # s: no rising arrival in a fit younger than this (probe lag)
 RISE_BEND = 3.0           # no rising arrival in a fit bent through more time constants
 RISE_DROP_SD = 3.0        # ... nor with the latest reading this many noise sd below the extreme
+PAIR_SD = 2.53            # noise sd beyond the hold line's level on each of two readings in a row:
+#   the false rate of one reading beyond answer.move_c's 4 sd (normal tails, Phi(-2.53)^2 =
+#   Phi(-4) = 3.2e-5; derived, not chosen)
 SETTLE_MS = int(SETTLE_S * 1000)
 RISE_ARRIVE_MIN_MS = int(RISE_ARRIVE_MIN_S * 1000)
 _INV = 1.0 / SCALE
+_TOL = int(answer.ARRIVE_TOL_C * SCALE)  # counts
 LIMIT_COUNTS = 10001 * SCALE  # beyond any reading (the guard's limits are within 1e4 C)
 NO_REF = LIMIT_COUNTS - 1  # the reference after a jump: no reading shows the liquid yet
 #   (the probe still travels to it; the estimator asks for it too)
@@ -235,14 +239,27 @@ class Settle:
         ``hold_c``, counts) against the direction ``m`` (+1 / -1): a lagging probe rising
         after a top-up, no arrival. The line is as far from the open block's mean when that
         is further on (the drink went on past the extreme since the last block closed: a
-        line from the extreme alone is late)."""
+        line from the extreme alone is late). Also when the latest two readings are both back
+        beyond a line :data:`PAIR_SD` noise sd from that level (at least ``ARRIVE_TOL_C``):
+        two readings in a row beyond it are as rare by noise as one beyond the hold line's 4 sd
+        (a probe with a step near its noise moves a step at a time: 0.5 C steps, sd 0.2 C)."""
         b = est.blocks
         hold = est.audits.hold_c
+        lv = b.ext_sy // b.ext_n  # (the level the line is drawn from; integer counts: no heap)
         if b.n >= answer.HOLD_OPEN_N:
-            line = b.sy // b.n + hold - b.ext_sy // b.ext_n  # (integer counts: no heap)
+            line = b.sy // b.n + hold - lv
             if (line - hold) * m > 0:
                 hold = line
+                lv = b.sy // b.n
         if (b.c - hold) * m < 0:
             return True
+        # two readings in a row back from the level by PAIR_SD noise sd (at least ARRIVE_TOL_C;
+        # the float work only once both are back by that least)
+        if (b.c - lv) * m < -_TOL and (b.cq - lv) * m < -_TOL:
+            h = to_counts(PAIR_SD * est.noise.sd)
+            if h < _TOL:
+                h = _TOL
+            if (b.c - lv) * m < -h and (b.cq - lv) * m < -h:
+                return True
         x = est.guard.held_c()
         return x is not None and (to_counts(x) - hold) * m < 0

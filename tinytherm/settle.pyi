@@ -5,6 +5,7 @@ SETTLE_BEND: float
 RISE_ARRIVE_MIN_S: float
 RISE_BEND: float
 RISE_DROP_SD: float
+PAIR_SD: float
 SETTLE_MS: int
 RISE_ARRIVE_MIN_MS: int
 SCALE: int
