@@ -41,6 +41,7 @@ import math
 import struct
 
 from tinytherm import status as _st
+from tinytherm.answer import move_c as _move_c
 from tinytherm.num import spread as _spread
 from tinytherm.crc import crc32
 from tinytherm.fit import DUTY_SCALE as _DUTY_SCALE
@@ -464,7 +465,8 @@ class VesselProfile:
         ``est``'s fit shows none. The law on, in the first readings after the turn that set
         ``est.blocks.dir`` towards E: the law at its typical rate from the latest reading,
         the table's interval. Else (own fit too), a fit younger than PROFILE_YOUNG_S whose
-        probe still moves away from E (meeting the drink: the flask's peaks 60-70 s in):
+        probe still moves away from E beyond the noise (``answer.move_c``; meeting the
+        drink: the flask's peaks 60-70 s in):
         the law from the liquid read through the probe's lag ``tau``, ``T = s + (s - s_p)
         / (exp(dt / tau) - 1)`` (the latest block's readings, dt s apart; exact for a
         liquid holding still), the interval ``-+Z90 rate_log_sd`` (ln t ~ -ln k)."""
@@ -473,17 +475,15 @@ class VesselProfile:
         if est.heater or not (on or self.own_fit) or not (
                 est.readings and b.readings and -1e4 <= target_c <= 1e4):
             return
-        y = b.c * _INV
-        m = b.dir
-        wide = 0.0
+        y, m, wide = b.c * _INV, b.dir, 0.0
         if not (on and est.status == _st.GATHERING):
             if b.age_ms - b.it >= _YOUNG_MS or b.ip <= 0 or b.c != b.cb or b.readings < 3:
                 return
             x = b.ip * 0.001 / self.probe_lag_s if self.probe_lag_s > 0.0 else 99.0
             y += (b.cb - b.cp) * _INV / (math.exp(x) - 1.0) if x < 30.0 else 0.0  # (e^-30)
             m = 1 if self.reference_c(est) + self.eq_offset_c > y else -1
-            if (b.cb - b.cp) * m >= 0:
-                return  # (the probe has met the liquid: its fit answers)
+            if (b.cp - b.cb) * m * _INV < _move_c(est.noise.sd):
+                return  # (no rise beyond the noise: the probe has met the liquid)
             wide = _Z90 * self.rate_log_sd
         if approach != 0 and approach != m:
             return
