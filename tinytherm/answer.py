@@ -103,6 +103,8 @@ def predict(self, target_c, approach=0):
     c.gen = -1
     try:
         _work_out(self, target, approach)
+        if self._profile is not None and self.status < st.TRACKING and target is not None:
+            self._profile.first_answer(self, target, approach)  # (a passive profile's: none shown)
     except (ValueError, OverflowError, ZeroDivisionError, TypeError):
         self.clear(st.SETTLING)
         c.arrive_dir = 0
@@ -129,8 +131,6 @@ def _work_out(est, target, approach):
         est.clear(st.GATHERING)
         if est.readings and b.readings:  # (none in this fit: it starts at the next)
             est.temp_est_c = b.c * _INV
-            if est._profile_on and est.blocks.dir != 0 and target is not None:
-                est._profile.first_answer(est, target, approach)
         return
     est.clear(st.SETTLING)
     level = est.blocks.level

@@ -41,6 +41,7 @@ import math
 import struct
 
 from tinytherm import status as _st
+from tinytherm.answer import move_c as _move_c
 from tinytherm.num import spread as _spread
 from tinytherm.crc import crc32
 from tinytherm.fit import DUTY_SCALE as _DUTY_SCALE
@@ -439,13 +440,13 @@ class VesselProfile:
             i += 1
         return self.log_q_low[i], self.log_q_high[i]
 
-    def interval_into(self, est, eta_s):
+    def interval_into(self, est, eta_s, wide=0.0):
         """Set ``est``'s interval around the answer ``eta_s`` (s) from this profile's
         calibrated quantiles of ln(actual / predicted) (split-conformal,
-        host_sim.calibrate.pipeline) at that horizon, scaled to the interval asked for,
-        and ``est.eta_s``: ``eta_s``, or the nearer end when the interval lies wholly on
-        one side of it."""
-        lo, hi = self.interval_log_bounds(eta_s)
+        host_sim.calibrate.pipeline) at that horizon, or ``-+wide`` if given, scaled to the
+        interval asked for, and ``est.eta_s``: ``eta_s``, or the nearer end when the
+        interval lies wholly on one side of it."""
+        lo, hi = (-wide, wide) if wide else self.interval_log_bounds(eta_s)
         z = est.audits.z / PROFILE_Z80
         low = eta_s * _spread(z * lo)
         high = eta_s * _spread(z * hi)
@@ -457,25 +458,41 @@ class VesselProfile:
         # count-down (tinytherm.status) lifted the upper end to the point, wider than
         # calibrated: the bath covered 0.86 on its test uses
         est.eta_s = low if low > eta_s else (high if high < eta_s else eta_s)
-        est.eta_rel_sd = self.log_sd(eta_s)
+        est.eta_rel_sd = (hi - lo) / (2.0 * _Z90) if wide else self.log_sd(eta_s)
 
     def first_answer(self, est, target_c, approach):
-        """A passive liquid's answer before ``est``'s fit has its own (its first readings
-        after the turn that set the direction ``est.blocks.dir`` towards this profile's
-        equilibrium): the law at its typical rate from the latest reading, with the
-        table. ``target_c`` in deg C, ``approach`` as ``predict``'s."""
-        m = est.blocks.dir
+        """A passive liquid's answer (deg C ``target_c``, ``approach`` as ``predict``'s) while
+        ``est``'s fit shows none. The law on, in the first readings after the turn that set
+        ``est.blocks.dir`` towards E: the law at its typical rate from the latest reading,
+        the table's interval. Else (own fit too), a fit younger than PROFILE_YOUNG_S whose
+        probe still moves away from E beyond the noise (``answer.move_c``; meeting the
+        drink: the flask's peaks 60-70 s in):
+        the law from the liquid read through the probe's lag ``tau``, ``T = s + (s - s_p)
+        / (exp(dt / tau) - 1)`` (the latest block's readings, dt s apart; exact for a
+        liquid holding still), the interval ``-+Z90 rate_log_sd`` (ln t ~ -ln k)."""
+        b = est.blocks
+        on = est._profile_on
+        if est.heater or not (on or self.own_fit) or not (
+                est.readings and b.readings and -1e4 <= target_c <= 1e4):
+            return
+        y, m, wide = b.c * _INV, b.dir, 0.0
+        if not (on and est.status == _st.GATHERING):
+            if b.age_ms - b.it >= _YOUNG_MS or b.ip <= 0 or b.c != b.cb or b.readings < 3:
+                return
+            x = b.ip * 0.001 / self.probe_lag_s if self.probe_lag_s > 0.0 else 99.0
+            y += (b.cb - b.cp) * _INV / (math.exp(x) - 1.0) if x < 30.0 else 0.0  # (e^-30)
+            m = 1 if self.reference_c(est) + self.eq_offset_c > y else -1
+            if (b.cp - b.cb) * m * _INV < _move_c(est.noise.sd):
+                return  # (no rise beyond the noise: the probe has met the liquid)
+            wide = _Z90 * self.rate_log_sd
         if approach != 0 and approach != m:
             return
-        y = est.blocks.c * _INV
-        gap = target_c - y
-        if gap * m <= 0.0 or not -1e4 <= target_c <= 1e4:
-            return
-        eta = self.law_for(est, gap, y, 0.0)
+        eta = self.law_for(est, target_c - y, y, 0.0) if (target_c - y) * m > 0.0 else None
         if eta is None or not eta > 0.0:
             return
-        self.interval_into(est, eta)
+        self.interval_into(est, eta, wide)
         est.status = _st.TRACKING
+        est.temp_est_c = y
 
     # ----------------------------------------------------------- device form
     def to_blob(self):

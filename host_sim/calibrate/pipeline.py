@@ -178,7 +178,8 @@ def calibrate(traces, fills=None, ambient_c=None, folds=5, smooth_s=60.0, settin
     all_pairs = [p for ps in pairs_by_trace for p in ps]
     cv = cross_validate(preps, pairs_by_trace, heater, folds, ambient_c, progress, settings)
     own = own_fit(heater, cv)
-    table = profile_table(preps, heater, profile_from_fit(fit, None, own), settings, progress)
+    table = profile_table(preps, heater, profile_from_fit(fit, None, own), settings, progress,
+                          pairs_by_trace if own else None)
     prof = profile_from_fit(fit, None if table is None else table[:2], own)
     scaling = None
     if all(f is not None for f in fills):
@@ -211,13 +212,23 @@ def own_fit(heater, cv):
             and cv["median_rel_error_profile_model"] > cv["median_rel_error_device"])
 
 
-def profile_table(preps, heater, dynamics, settings=None, progress=False):
+def profile_table(preps, heater, dynamics, settings=None, progress=False, fit_pairs=None):
     """The split-conformal table of the device's answers with the profile ``dynamics``
-    (a :class:`VesselProfile` without its table): ``(low, high, counts)`` or None."""
+    (a :class:`VesselProfile` without its table): ``(low, high, counts)`` or None.
+    ``fit_pairs`` (own fit): the pairs of the device without a profile, per prep; the
+    table then holds only the rows that device shows too, the fit's own answers (the
+    law's first answers from a probe still meeting the drink, before the fit shows one,
+    take their own interval: ``VesselProfile.first_answer``)."""
     pairs = []
     with _bar(len(preps), "replay (with the profile)", progress) as bar:
-        for pr in preps:
-            pairs += replay_pairs(pr, heater, settings, profile=dynamics)
+        for i, pr in enumerate(preps):
+            got = replay_pairs(pr, heater, settings, profile=dynamics)
+            if fit_pairs is not None:
+                if len(got) != len(fit_pairs[i]):
+                    raise ValueError("fit_pairs: another set of targets")
+                for p, q in zip(got, fit_pairs[i]):
+                    p.shown = p.shown & q.shown
+            pairs += got
             bar.update(1)
     return conformal_table(pairs)
 
