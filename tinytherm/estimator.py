@@ -32,7 +32,7 @@ from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.num import (as_float, normal_quantile, number, refused,
                            time_to_target_from_slope_s)
-from tinytherm.settle import NO_REF, TRAVEL, TRAVEL_ON, Settle
+from tinytherm.settle import NO_REF, Settle
 
 # Fixed choices (module constants, not arguments: no product needs another value).
 BLOCK_S = 40.0            # s: longest block averaged into one observation (the device budget: 20 s
@@ -325,9 +325,7 @@ class ThermalEstimator(Answer):
                                     self._slope, answer.move_c(self.noise.sd), b.readings):
             ref = self.settle.ref
             self._begin_again(False)  # the probe was travelling to the liquid: the liquid's
-            self.settle.seeded(False)  # own approach starts here (tinytherm.settle)
-            if ref == TRAVEL:
-                self.settle.ref = TRAVEL_ON  # (still on its way: no reference yet)
+            self.settle.seeded(False, ref)  # own approach starts here (tinytherm.settle)
             return
         self.inputs.ahead = self.inputs.ahead_fine() if self.inputs.known() else None
         self.blocks.pending = 1
