@@ -322,7 +322,7 @@ class ThermalEstimator(Answer):
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
         b.next_block()
         if self.settle.block_closed(b.age_ms, b.cb, reg.k if reg.ok and not heater else 0.0,
-                                    self._slope, answer.move_c(self.noise.sd), b.readings):
+                                    self._slope, self.noise.sd, b.readings):
             ref = self.settle.ref
             self._begin_again(False)  # the probe was travelling to the liquid: the liquid's
             self.settle.seeded(False, ref)  # own approach starts here (tinytherm.settle)

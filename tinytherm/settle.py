@@ -159,22 +159,24 @@ class Settle:
         if was == TRAVEL:
             self.ref = TRAVEL_ON
 
-    def block_closed(self, age_ms, cb, k, slope, move_c, n):
+    def block_closed(self, age_ms, cb, k, slope, noise_sd_c, n):
         """A block closed ``age_ms`` into the fit at reading ``cb`` (counts); ``k`` (1/s) and
         ``slope`` (deg C/s, at the level) the fit's as solved before it, from ``n`` readings
         with this block's. True when the probe is taken as settled with it and the fit bent
         through more than :data:`SETTLE_BEND` time constants: restart the fit here. The
         reference waits (:data:`TRAVEL`, no arrival) while the probe may still travel: the
-        fit's level more than ``move_c`` (deg C) from where it levels off (``|slope| / k``:
-        the travel left, were the bend the probe's) and its rate bending it through more than
-        ``SETTLE_BEND`` in ``SETTLE_S``, or k solved from three readings, or the fit
+        fit's level more than a move (``answer.move_c`` of the noise sd ``noise_sd_c``, deg C)
+        from where it levels off (``|slope| / k``: the travel left, were the bend the probe's)
+        and its rate bending it through more than ``SETTLE_BEND`` in ``SETTLE_S``, or k
+        solved from three readings, or the fit
         restarted after the probe's travel with the travel still left (:data:`TRAVEL_ON`:
         until it is within the move, however little it bends); and while the fit holds two
         readings (k unsolved: readings minutes apart; they show no bend)."""
         ref = self.ref
         if age_ms < SETTLE_MS or (self.settled and ref != TRAVEL and ref != TRAVEL_ON):
             return False
-        travel = n < 3 or (k > 0.0 and (slope if slope > 0.0 else -slope) > k * move_c
+        travel = n < 3 or (k > 0.0 and (slope if slope > 0.0 else -slope)
+                           > k * answer.move_c(noise_sd_c)
                            and (ref == TRAVEL_ON or k * SETTLE_MS > SETTLE_BEND * 1000.0 or n < 4))
         if self.settled:  # (waiting: the reference once the probe met the liquid)
             if not travel:
