@@ -467,13 +467,13 @@ class Audit:
         """The horizon for a fit ``age_s`` seconds old, s."""
         return self.fraction * (age_s if age_s > 80.0 else 80.0)
 
-    def drift_to(self, took, level, slope, rate):
-        """E's drift, deg C/s, from the waiting forecast to the fit ``took`` s later (level deg C,
+    def drift_to(self, dt, level, slope, rate):
+        """E's drift, deg C/s, from the waiting forecast to the fit ``dt`` s later (level deg C,
         slope deg C/s, rate 1/s); None: no bend yet at either end, or a span under DRIFT_MIN_S."""
         r = self.rate
-        if not (rate > 0.0 and r > 0.0 and r * self.age >= DRIFT_BEND and took >= DRIFT_MIN_S):
+        if not (rate > 0.0 and r > 0.0 and r * self.age >= DRIFT_BEND and dt >= DRIFT_MIN_S):
             return None
-        return (level + slope / rate - self.level - self.slope / r) / took
+        return (level + slope / rate - self.level - self.slope / r) / dt
 
     def due(self, age_s):
         return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)

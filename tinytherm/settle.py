@@ -149,14 +149,14 @@ class Settle:
         est.eta_high_s = hi
         est.eta_rel_sd = rel
 
-    def seeded(self, turn, was=0):
+    def seeded(self, turn, ref=0):
         """The fit starts where the probe has met the liquid (its reference): at a turn,
-        seeded with the two readings there (``turn``), or after the probe's travel, ``was``
+        seeded with the two readings there (``turn``), or after the probe's travel, ``ref``
         the reference before the restart: :data:`TRAVEL`, the travel still left, the
         reference waits (:data:`TRAVEL_ON`: no reference yet)."""
         self.settled = True
         self.turn = turn
-        if was == TRAVEL:
+        if ref == TRAVEL:
             self.ref = TRAVEL_ON
 
     def block_closed(self, age_ms, cb, k, slope, noise_sd_c, n):
