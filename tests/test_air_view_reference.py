@@ -85,6 +85,23 @@ def replay_read_through_air(sol, air, end_s, dt, seed, target):
         yield float(t), float(states[0][j]), est, est.predict(target) == st.ARRIVED
 
 
+def first_arrival(sol, air, crossing, dt, seed, target, liquid_then, falling):
+    """One seed's replay (``replay_read_through_air``) to 3,000 s past the probe's ``crossing``
+    (s): the first arrival's time (None: none), the early rows (arrived while the liquid is
+    short of ``liquid_then``, deg C, by more than the benchmark's 0.3 C margin, the way it
+    moves: ``falling`` or rising) and the rows before the crossing fitted with the air's
+    share judged as no air column (``est.reg.g`` 0)."""
+    first = None
+    early = pinned = 0
+    for t, liquid, est, arrived in replay_read_through_air(sol, air, crossing + 3000.0, dt,
+                                                            seed, target):
+        if arrived:
+            first = t if first is None else first
+            early += liquid > liquid_then + 0.3 if falling else liquid < liquid_then - 0.3
+        pinned += t < crossing and est.reg.ok and est.reg.g == 0.0
+    return first, early, pinned
+
+
 def test_a_cold_drink_read_partly_through_the_air_is_answered_and_covered():
     rows, shown, covered, median = _replay(COLD)
     # before the air's column: 2,123 of 2,536 rows shown, 0.708 covered, median 0.576
@@ -127,12 +144,8 @@ def test_a_probe_pulled_by_the_cold_air_does_not_arrive_before_the_liquid():
     assert 3700.0 < crossing < 4000.0  # (the scenario as written: about 3,863 s)
     early = 0
     for seed in range(8):
-        first = None
-        for t, liquid, _, arrived in replay_read_through_air(sol, air, crossing + 3000.0, dt,
-                                                              700 + seed, target):
-            if arrived:
-                first = t if first is None else first
-                early += liquid > liquid_then + 0.3
+        first, e, _ = first_arrival(sol, air, crossing, dt, 700 + seed, target, liquid_then, True)
+        early += e
         assert first is not None and first <= crossing + 300.0, (seed, first, crossing)
     assert early == 0, early
 
@@ -166,13 +179,9 @@ def test_a_share_of_the_air_no_probe_has_is_judged_as_no_air_column():
     assert probe_exact[0] > target + 5.0 and 4800.0 < crossing < 5200.0  # (about 4,975 s)
     early = pinned = 0
     for seed in range(8):
-        first = None
-        for t, liquid, est, arrived in replay_read_through_air(sol, air, crossing + 3000.0, dt,
-                                                                500 + seed, target):
-            if arrived:
-                first = t if first is None else first
-                early += liquid < liquid_then - 0.3
-            pinned += t < crossing and est.reg.ok and est.reg.g == 0.0
+        first, e, p = first_arrival(sol, air, crossing, dt, 500 + seed, target, liquid_then, False)
+        early += e
+        pinned += p
         assert first is not None and first <= crossing + 3.0 * dt, (seed, first, crossing)
     assert pinned > 0  # (the share was out of 0..1 before the crossing: judged without it)
     assert early == 0, early

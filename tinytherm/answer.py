@@ -222,7 +222,7 @@ def _work_out(est, target, approach):
     # fit then); not with a heater, profile or ambient (the duty, law or known air move it)
     a = est.audits.a[2]
     passive = not (est.heater or est._profile_on or est.inputs.known())
-    bd = a.drift_to(age_s, level, slope, k) if passive else None
+    bd = a.drift_to(age_s - a.age, level, slope, k) if passive else None
     kept = passive and bd is None  # (none measured since it began: the one kept answers)
     if bd is None:
         bd = 0.0
@@ -471,14 +471,13 @@ class Audit:
         """The horizon for a fit ``age_s`` seconds old, s."""
         return self.fraction * (age_s if age_s > 80.0 else 80.0)
 
-    def drift_to(self, age_s, level, slope, rate):
-        """E's drift, deg C/s, from the waiting forecast to the fit ``age_s`` s old (level deg C,
+    def drift_to(self, dt, level, slope, rate):
+        """E's drift, deg C/s, from the waiting forecast to the fit ``dt`` s later (level deg C,
         slope deg C/s, rate 1/s); None: no bend yet at either end, or a span under DRIFT_MIN_S."""
         r = self.rate
-        took = age_s - self.age
-        if not (rate > 0.0 and r > 0.0 and r * self.age >= DRIFT_BEND and took >= DRIFT_MIN_S):
+        if not (rate > 0.0 and r > 0.0 and r * self.age >= DRIFT_BEND and dt >= DRIFT_MIN_S):
             return None
-        return (level + slope / rate - self.level - self.slope / r) / took
+        return (level + slope / rate - self.level - self.slope / r) / dt
 
     def due(self, age_s):
         return self.age < 0.0 or age_s - self.age >= self.horizon_s(self.age)
@@ -515,7 +514,7 @@ class Audit:
                 self.var = (old * self.var + err * err) / (old + 1.0)
                 n = int(old + 1.5)
                 self.n = n if n < AUDIT_MEMORY else AUDIT_MEMORY
-            drift = self.drift_to(age_s, level, slope, rate)  # (kept for the answer)
+            drift = self.drift_to(took, level, slope, rate)  # (kept for the answer)
             self.drift = 0.0 if drift is None else drift
         self.age = age_s
         self.level = level

@@ -32,7 +32,7 @@ from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.num import (as_float, normal_quantile, number, refused,
                            time_to_target_from_slope_s)
-from tinytherm.settle import NO_REF, TRAVEL, TRAVEL_ON, Settle
+from tinytherm.settle import NO_REF, TRAVEL_ON, Settle
 
 # Fixed choices (module constants, not arguments: no product needs another value).
 BLOCK_S = 40.0            # s: longest block averaged into one observation (the device budget: 20 s
@@ -323,14 +323,12 @@ class ThermalEstimator(Answer):
                       dg * _INV if dg else 0.0, du / 1024 if du else 0.0)
         b.next_block()
         if self.settle.block_closed(b.age_ms, b.cb, reg.k if reg.ok and not heater else 0.0,
-                                    reg, self._slope, answer.move_c(self.noise.sd), b.readings):
+                                    reg, self._slope, self.noise.sd, b.readings):
             ref = self.settle.ref
             # (read a block apart: answers from two readings, as a fit seeded at a turn)
             apart = b.ip >= _BLOCK_MS and b.np == 1
             self._begin_again(False)  # the probe was travelling to the liquid: the liquid's
-            self.settle.seeded(apart)  # own approach starts here (tinytherm.settle)
-            if ref == TRAVEL:
-                self.settle.ref = TRAVEL_ON  # (still on its way: no reference yet)
+            self.settle.seeded(apart, ref)  # own approach starts here (tinytherm.settle)
             return
         self.inputs.ahead = self.inputs.ahead_fine() if self.inputs.known() else None
         self.blocks.pending = 1

@@ -419,12 +419,6 @@ class VesselProfile:
                         var_slope / (slope_c_per_s * slope_c_per_s), duty)
         return z is not None and z > z_max
 
-    def log_sd(self, eta_s):
-        """The sd of ln(actual / predicted) its table gives at ``eta_s`` seconds (>= 0.05)."""
-        lo, hi = self.interval_log_bounds(eta_s)
-        sd = (hi - lo) / (2.0 * _Z90)
-        return sd if sd > 0.05 else 0.05
-
     def interval_log_bounds(self, eta_s):
         """``(low, high)``: 10 % and 90 % points of ln(actual / predicted) for ``eta_s`` (s).
 
@@ -458,7 +452,8 @@ class VesselProfile:
         # count-down (tinytherm.status) lifted the upper end to the point, wider than
         # calibrated: the bath covered 0.86 on its test uses
         est.eta_s = low if low > eta_s else (high if high < eta_s else eta_s)
-        est.eta_rel_sd = (hi - lo) / (2.0 * _Z90) if wide else self.log_sd(eta_s)
+        sd = (hi - lo) / (2.0 * _Z90)  # (the sd of ln(actual / predicted) its table gives)
+        est.eta_rel_sd = sd if wide or sd > 0.05 else 0.05
 
     def first_answer(self, est, target_c, approach):
         """A passive liquid's answer (deg C ``target_c``, ``approach`` as ``predict``'s) while

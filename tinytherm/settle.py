@@ -164,13 +164,17 @@ class Settle:
         est.eta_high_s = hi
         est.eta_rel_sd = rel
 
-    def seeded(self, turn):
+    def seeded(self, turn, ref=0):
         """The fit starts where the probe has met the liquid (its reference): at a turn,
-        seeded with the two readings there (``turn``), or after the probe's travel."""
+        seeded with the two readings there (``turn``), or after the probe's travel, ``ref``
+        the reference before the restart: :data:`TRAVEL`, the travel still left, the
+        reference waits (:data:`TRAVEL_ON`: no reference yet)."""
         self.settled = True
         self.turn = turn
+        if ref == TRAVEL:
+            self.ref = TRAVEL_ON
 
-    def block_closed(self, age_ms, cb, k, reg, slope, move_c, n):
+    def block_closed(self, age_ms, cb, k, reg, slope, noise_sd_c, n):
         """A block closed ``age_ms`` into the fit at reading ``cb`` (counts); ``k`` (1/s) and
         ``slope`` (deg C/s, at the level) the fit's as solved before it, from ``n`` readings
         with this block's; the readings' own rate, this block's in, with no prior on it
@@ -179,9 +183,10 @@ class Settle:
         a slow probe's bend at a fraction of it) judges the travel. True when the probe is taken as settled with it and the fit bent
         through more than :data:`SETTLE_BEND` time constants: restart the fit here. The
         reference waits (:data:`TRAVEL`, no arrival) while the probe may still travel: the
-        fit's level more than ``move_c`` (deg C) from where it levels off (``|slope| / k``:
-        the travel left, were the bend the probe's) and its rate bending it through more than
-        ``SETTLE_BEND`` in ``SETTLE_S``, or k solved from three readings, or the fit
+        fit's level more than a move (``answer.move_c`` of the noise sd ``noise_sd_c``, deg C)
+        from where it levels off (``|slope| / k``: the travel left, were the bend the probe's)
+        and its rate bending it through more than ``SETTLE_BEND`` in ``SETTLE_S``, or k
+        solved from three readings, or the fit
         restarted after the probe's travel with the travel still left (:data:`TRAVEL_ON`:
         until it is within the move, however little it bends); and while the fit holds two
         readings (k unsolved: readings minutes apart; they show no bend)."""
@@ -193,7 +198,8 @@ class Settle:
             d = reg.ctt * reg.cxx - reg.ctx * reg.ctx
             if d > 1e-300:
                 kf = (reg.ctx * reg.cty - reg.ctt * reg.cxy) / d
-        travel = n < 3 or (kf > 0.0 and (slope if slope > 0.0 else -slope) > kf * move_c
+        travel = n < 3 or (kf > 0.0 and (slope if slope > 0.0 else -slope)
+                           > kf * answer.move_c(noise_sd_c)
                            and (ref == TRAVEL_ON or kf * SETTLE_MS > SETTLE_BEND * 1000.0 or n < 4))
         if self.settled:  # (waiting: the reference once the probe met the liquid)
             if not travel:
