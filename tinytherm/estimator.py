@@ -32,7 +32,7 @@ from tinytherm.fit import MAX_BLOCK_READINGS, SCALE
 from tinytherm.guard import GAP_RESTART, ReadingGuard
 from tinytherm.num import (as_float, normal_quantile, number, refused,
                            time_to_target_from_slope_s)
-from tinytherm.settle import NO_REF, TRAVEL_ON, Settle
+from tinytherm.settle import NO_REF, Settle
 
 # Fixed choices (module constants, not arguments: no product needs another value).
 BLOCK_S = 40.0            # s: longest block averaged into one observation (the device budget: 20 s
@@ -384,13 +384,12 @@ class ThermalEstimator(Answer):
             # its liquid at its peak, dP/dt = 0); else from the latest reading
             self._begin_again(False, b.readings == 3 or r == NO_REF or (
                 b.ip >= _BLOCK_MS and b.ext_n == 1 and b.ext_sy == b.cp))
-        elif b.ip >= _BLOCK_MS and self.settle.turn and b.readings == 3 and (
-                self.settle.ref < TRAVEL_ON):  # (not while the probe may still travel)
+        elif b.ip >= _BLOCK_MS and self.settle.turn and b.readings == 3:
             # a fit begun at a turn, its third reading no spike's return: the reading that
             # seeded it is one reading, maybe a spike the guard passed or the last before a
             # pour (the liquid jumped after it): an arrival needs the crossing after the
             # reading that followed it (tinytherm.settle: the reference)
-            self.settle.ref = b.cp
+            self.settle.reseed(b.cp)
 
     def _level_and_slope(self):
         """The anchored level and the slope at it, from the solution (also after a restore)."""

@@ -174,6 +174,13 @@ class Settle:
         if ref == TRAVEL:
             self.ref = TRAVEL_ON
 
+    def reseed(self, cb):
+        """The reference moves to reading ``cb`` (counts), the one after a turn's seed (a
+        seed may be a spike the guard passed, or the last reading before a pour), unless it
+        waits while the probe may still travel (:data:`TRAVEL`, :data:`TRAVEL_ON`)."""
+        if self.ref < TRAVEL_ON:
+            self.ref = cb
+
     def block_closed(self, age_ms, cb, k, reg, slope, noise_sd_c, n):
         """A block closed ``age_ms`` into the fit at reading ``cb`` (counts); ``k`` (1/s) and
         ``slope`` (deg C/s, at the level) the fit's as solved before it, from ``n`` readings
