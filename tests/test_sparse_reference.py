@@ -79,22 +79,31 @@ def test_crossing_matches_brentq_on_solve_ivp():
         assert abs(mine - ref) < 1e-3, (mine, ref)
 
 
+def read_apart(seed, end_s, lo_s, hi_s, probe_at, noise=0.05, q=0.0625):
+    """Times from 0 s, each lo_s..hi_s s after the last (seeded), until one is past end_s;
+    the probe's values there (``probe_at(times)``, deg C) and its readings: with Gaussian
+    noise of sd ``noise``, quantised to ``q`` deg C. Returns times, readings, clean values."""
+    rng = np.random.default_rng(seed)
+    times = [0.0]
+    while times[-1] < end_s:
+        times.append(times[-1] + rng.uniform(lo_s, hi_s))
+    times = np.array(times)
+    clean = probe_at(times)
+    readings = np.round((clean + rng.normal(0.0, noise, len(times))) / q) * q
+    return times, readings, clean
+
+
 def solve_ivp_readings(vessel, seed, target, min_s=60.0, max_s=600.0, noise=0.05, q=0.0625):
     """Readings of the solve_ivp probe every min_s..max_s s (seeded), to 20 readings past the
     crossing; returns times, readings, noise-free probe values and the crossing (brentq)."""
     l0, eq, k, lag, p0 = vessel
-    rng = np.random.default_rng(seed)
     sol = reference_solution(l0, eq, k, lag, p0, 40000.0)
     grid = np.linspace(0.0, 40000.0, 40001)
     side = np.sign(sol.sol(grid)[1] - target)
     last = int(np.nonzero(side != side[-1])[0][-1])
     crossing = brentq(lambda t: sol.sol(t)[1] - target, grid[last], grid[last + 1])
-    times = [0.0]
-    while times[-1] < crossing + 20 * max_s:
-        times.append(times[-1] + rng.uniform(min_s, max_s))
-    times = np.array(times)
-    clean = sol.sol(times)[1]
-    readings = np.round((clean + rng.normal(0.0, noise, len(times))) / q) * q
+    times, readings, clean = read_apart(seed, crossing + 20 * max_s, min_s, max_s,
+                                        lambda ts: sol.sol(ts)[1], noise, q)
     return times, readings, clean, crossing
 
 
@@ -164,12 +173,7 @@ def _sparse_rows(sol, index, target, direction, seed, settings, lo_s, hi_s, duty
     """Replay readings of the solve_ivp probe every lo_s..hi_s s (seeded, 0.05 C noise, 12-bit)
     up to the crossing; per reading from the third on: (status, eta, low, high, remaining s)."""
     crossing = _crossing(sol, index, target, direction, 40000.0)
-    rng = np.random.default_rng(seed)
-    times = [0.0]
-    while times[-1] < crossing:
-        times.append(times[-1] + rng.uniform(lo_s, hi_s))
-    times = np.array(times)
-    readings = np.round((sol.sol(times)[index] + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+    times, readings, _ = read_apart(seed, crossing, lo_s, hi_s, lambda ts: sol.sol(ts)[index])
     est = ThermalEstimator(**settings)
     rows = []
     for i in range(len(times)):
@@ -258,13 +262,8 @@ def test_a_top_up_read_minutes_apart_is_answered_from_the_reading_after_the_prob
     crossing = brentq(lambda t: probe(t) - target, grid[i - 1], grid[i], xtol=1e-9)
     answered = rows = shown = covered = 0
     for seed in range(12):
-        rng = np.random.default_rng(seed)
-        times = [0.0]
-        while times[-1] < crossing + 1200.0:
-            times.append(times[-1] + rng.uniform(60.0, 600.0))
-        times = np.array(times)
-        clean = np.array([probe(t) for t in times])
-        readings = np.round((clean + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+        times, readings, _ = read_apart(seed, crossing + 1200.0, 60.0, 600.0,
+                                        lambda ts: np.array([probe(t) for t in ts]))
         first = int(np.nonzero(times > t_pour)[0][0]) + 1  # the second reading after the pour
         a, n, s, c = _count(_replay_from(times, readings, target, first, crossing))
         answered, rows, shown, covered = answered + a, rows + n, shown + s, covered + c
@@ -293,12 +292,8 @@ def test_a_spike_on_a_steep_fall_read_minutes_apart_is_dropped_when_the_next_com
     crossing = brentq(lambda t: sol.sol(t)[1] - target, grid[i - 1], grid[i], xtol=1e-9)
     answered = rows = shown = covered = 0
     for seed in range(12):
-        rng = np.random.default_rng(seed)
-        times = [0.0]
-        while times[-1] < crossing + 1200.0:
-            times.append(times[-1] + rng.uniform(60.0, 300.0))
-        times = np.array(times)
-        readings = np.round((sol.sol(times)[1] + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+        times, readings, _ = read_apart(seed, crossing + 1200.0, 60.0, 300.0,
+                                        lambda ts: sol.sol(ts)[1])
         readings[5] += 8.0
         a, n, s, c = _count(_replay_from(times, readings, target, 6, crossing))
         answered, rows, shown, covered = answered + a, rows + n, shown + s, covered + c
@@ -325,13 +320,8 @@ def test_a_top_up_past_the_target_read_minutes_apart_is_no_arrival_from_the_read
     early = []
     shown_after = 0
     for seed in range(40):
-        rng = np.random.default_rng(seed)
-        times = [0.0]
-        while times[-1] < back + 1500.0:
-            times.append(times[-1] + rng.uniform(120.0, 420.0))
-        times = np.array(times)
-        clean = np.array([probe(t) for t in times])
-        readings = np.round((clean + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+        times, readings, _ = read_apart(seed, back + 1500.0, 120.0, 420.0,
+                                        lambda ts: np.array([probe(t) for t in ts]))
         first = int(np.nonzero(times > t_pour)[0][0]) + 1
         est = ThermalEstimator()
         for i in range(len(times)):
@@ -363,12 +353,8 @@ def test_a_fit_restarted_where_the_probe_met_the_drink_read_minutes_apart_answer
     second = answered = shown = covered = 0
     early = []
     for seed in range(30):
-        rng = np.random.default_rng(seed)
-        times = [0.0]
-        while times[-1] < crossing + 600.0:
-            times.append(times[-1] + rng.uniform(60.0, 180.0))
-        times = np.array(times)
-        readings = np.round((sol.sol(times)[1] + rng.normal(0.0, 0.05, len(times))) / 0.0625) * 0.0625
+        times, readings, _ = read_apart(seed, crossing + 600.0, 60.0, 180.0,
+                                        lambda ts: sol.sol(ts)[1])
         est = ThermalEstimator()
         restarted = False
         for i in range(len(times)):
