@@ -9,9 +9,9 @@ the probe's, not the liquid's. With no heater on, an arrival also needs:
   liquid's temperature over a few of its own time constants and may cross the
   target on the way. :class:`Settle` keeps one reading. For the fit's first
   :data:`SETTLE_S` it is the fit's first reading, and an arrival needs it
-  already past the target (the probe never showed the liquid short of it);
-  from ``SETTLE_S`` until the block that closes after it, none if the fit has
-  bent through ``SETTLE_BEND`` (that block restarts it: the probe travelled).
+  already past the target (the probe never showed the liquid short of it); after
+  ``SETTLE_S``, until the block that closes after it, none if the fit has bent
+  through ``SETTLE_BEND`` (that block restarts it: the probe travelled).
   Then (the first block closed ``SETTLE_S`` into the fit, or a fit seeded at a
   turn, where the probe has met the liquid) it is that block's closing
   reading (a fit seeded at a turn read a block apart: from its third reading
@@ -187,16 +187,16 @@ class Settle:
         with this block's; the readings' own rate, this block's in, with no prior on it
         (from the sums of ``reg``, the fit's :class:`tinytherm.fit.Regression`, without an
         air column: the rate prior is a liquid's, and with noisy or coarse readings it holds
-        a slow probe's bend at a fraction of it) judges the travel. True when the probe is taken as settled with it and the fit bent
-        through more than :data:`SETTLE_BEND` time constants: restart the fit here. The
-        reference waits (:data:`TRAVEL`, no arrival) while the probe may still travel: the
-        fit's level more than a move (``answer.move_c`` of the noise sd ``noise_sd_c``, deg C)
-        from where it levels off (``|slope| / k``: the travel left, were the bend the probe's)
-        and its rate bending it through more than ``SETTLE_BEND`` in ``SETTLE_S``, or k
-        solved from three readings, or the fit
-        restarted after the probe's travel with the travel still left (:data:`TRAVEL_ON`:
-        until it is within the move, however little it bends); and while the fit holds two
-        readings (k unsolved: readings minutes apart; they show no bend)."""
+        a slow probe's bend at a fraction of it) judges the travel. True when the probe is
+        taken as settled with it and the fit bent through more than :data:`SETTLE_BEND`
+        time constants: restart the fit here. The reference waits (:data:`TRAVEL`, no
+        arrival) while the probe may still travel: the fit's level more than a move
+        (``answer.move_c`` of the noise sd ``noise_sd_c``, deg C) away from where it levels
+        off (``|slope| / k``: the travel left, were the bend the probe's) and its rate
+        bending it through more than ``SETTLE_BEND`` in ``SETTLE_S``, or k solved from three
+        readings, or the fit restarted after the probe's travel with the travel still left
+        (:data:`TRAVEL_ON`: until it is within the move, however little it bends); and while
+        the fit holds two readings (k unsolved: readings minutes apart; they show no bend)."""
         ref = self.ref
         if age_ms < SETTLE_MS or (self.settled and ref != TRAVEL and ref != TRAVEL_ON):
             return False
