@@ -398,6 +398,14 @@ class Regression:
         else:
             self.rv = 0.0
 
+    def rate_free(self):
+        """k (1/s) from the readings alone: the solve with no prior on k and no heater;
+        None if singular."""
+        d = self.ctt * self.cxx - self.ctx * self.ctx
+        if d > 1e-300:
+            return (self.ctx * self.cty - self.ctt * self.cxy) / d
+        return None
+
     def slope_loose(self, lk, kp):
         """Slope ``s`` (deg C/s) of the solve with only the prior k ~ N(kp, s2/lk), no heater; None if singular."""
         a22 = self.cxx + lk

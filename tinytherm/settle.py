@@ -202,9 +202,9 @@ class Settle:
             return False
         kf = k
         if k and not reg.heater:  # (the readings' own rate: the fit's k with no prior on it)
-            d = reg.ctt * reg.cxx - reg.ctx * reg.ctx
-            if d > 1e-300:
-                kf = (reg.ctx * reg.cty - reg.ctt * reg.cxy) / d
+            kf = reg.rate_free()
+            if kf is None:
+                kf = k
         travel = n < 3 or (kf > 0.0 and (slope if slope > 0.0 else -slope)
                            > kf * answer.move_c(noise_sd_c)
                            and (ref == TRAVEL_ON or kf * SETTLE_MS > SETTLE_BEND * 1000.0 or n < 4))
